@@ -1,0 +1,40 @@
+#include "cli/run_command.hpp"
+
+#include <cstdio>
+#include <exception>
+
+#include <fmt/core.h>
+
+#include "cli/exit_codes.hpp"
+#include "core/errors.hpp"
+
+namespace firnray::cli {
+
+int run_guarded(const std::function<int()>& body) {
+    try {
+        return body();
+    } catch (const ModelInputError& e) {
+        fmt::print(stderr, "firnray: error: {}\n", e.what());
+        return exit_model_input;
+    } catch (const DataInputError& e) {
+        fmt::print(stderr, "firnray: error: {}\n", e.what());
+        return exit_data_input;
+    } catch (const InputError& e) {
+        fmt::print(stderr, "firnray: error: {}\n", e.what());
+        return exit_data_input;
+    } catch (const NumericalError& e) {
+        fmt::print(stderr, "firnray: numerical failure: {}\n", e.what());
+        return exit_numerical;
+    } catch (const OutputError& e) {
+        fmt::print(stderr, "firnray: cannot write output: {}\n", e.what());
+        return exit_output;
+    } catch (const Cancelled&) {
+        fmt::print(stderr, "firnray: interrupted; no output was written\n");
+        return exit_interrupted;
+    } catch (const std::exception& e) {
+        fmt::print(stderr, "firnray: internal error: {}\n", e.what());
+        return exit_internal;
+    }
+}
+
+}  // namespace firnray::cli

@@ -1,0 +1,40 @@
+// A complete site model: the ice index profile plus what lies above and below it and how
+// the ice absorbs. This is what model files load into and what every solver takes.
+#pragma once
+
+#include <memory>
+#include <optional>
+#include <string>
+
+#include "model/index_profile.hpp"
+
+namespace firnray {
+
+// Field attenuation in the ice: the field factor along a path is exp(-∫ ds / L(z)).
+class AttenuationProfile {
+public:
+    virtual ~AttenuationProfile() = default;
+    // Attenuation length L (m) of the field at z <= 0.
+    virtual double length_m(double z) const = 0;
+    virtual std::string describe() const = 0;
+};
+
+// A reflecting bottom (bedrock, or sea water under a shelf) at z = bottom_z_m < 0.
+struct Bottom {
+    double z_m = 0.0;                  // negative
+    double power_reflectivity = 1.0;   // |r|^2 in [0, 1]; the field factor is its square root
+};
+
+struct FirnModel {
+    std::string name;                               // from the file, or the built-in name
+    std::string origin;                             // file path, or "built-in"
+    std::shared_ptr<const IndexProfile> index;      // never null
+    double n_air = 1.0;
+    std::optional<Bottom> bottom;
+    std::shared_ptr<const AttenuationProfile> attenuation;  // null: no attenuation (factor 1)
+
+    // n at z: the profile in the ice (z <= 0), n_air above.
+    double index_at(double z) const { return z > 0.0 ? n_air : index->index(z); }
+};
+
+}  // namespace firnray

@@ -1,0 +1,20 @@
+// Loading site models from TOML files (schema in docs/model-files.md) and the built-in default.
+// Every problem in a file is reported as a ModelInputError naming the file, the line and the key.
+#pragma once
+
+#include <string>
+
+#include "model/firn_model.hpp"
+
+namespace firnray {
+
+// Reads a model file. Table files named inside it are resolved relative to the model file.
+FirnModel load_model_file(const std::string& path);
+
+// Parses model text; `origin` is used in messages and to resolve relative table paths.
+FirnModel parse_model(const std::string& toml_text, const std::string& origin);
+
+// Generic polar firn with values inside published ranges (physics notes §2); not a real site.
+FirnModel default_model();
+
+}  // namespace firnray

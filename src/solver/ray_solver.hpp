@@ -1,0 +1,48 @@
+// The question every path finder asks, answered by either solver: for a ray of parameter
+// ξ = n sin θ, what horizontal distance, time and length does it cover between two depths in
+// the ice, and where does it turn? ClosedFormSolver (exponential profiles, physics notes §4)
+// and NumericSolver (any profile, ODE of notes §3) implement the same interface so that callers
+// can use either and tests can compare them.
+#pragma once
+
+#include <memory>
+#include <optional>
+#include <string>
+
+#include "model/firn_model.hpp"
+
+namespace firnray {
+
+// A ray leg that is monotone in z between z_a and z_b (both <= 0). Either end may be the
+// turning point of the ray (n = ξ there); the leg is the same whichever way it is travelled.
+struct Segment {
+    double distance_m = 0.0;            // horizontal distance covered, >= 0
+    double time_s = 0.0;                // travel time
+    double length_m = 0.0;              // arc length
+    double attenuation_exponent = 0.0;  // ∫ ds / L_α (0 when the model has no attenuation)
+    // ∂distance/∂ξ at fixed end depths (m per unit of ξ); NaN where the solver does not provide
+    // it or where it is singular (an end exactly at the turning point is handled by the caller).
+    double distance_derivative = 0.0;
+};
+
+class RaySolver {
+public:
+    virtual ~RaySolver() = default;
+    virtual std::string name() const = 0;  // "closed" or "numeric"
+    const FirnModel& model() const { return *model_; }
+
+    // Leg between z_a and z_b for ray parameter ξ. Requires ξ <= n(z) on the whole interval
+    // (ξ may equal n at one end: a turning end). Throws NumericalError when it cannot.
+    virtual Segment segment(double ray_parameter, double z_a, double z_b) const = 0;
+
+    // The turning point of a ray with parameter ξ travelling upward from z_start: the first
+    // z above z_start (and at most 0) where n(z) = ξ.
+    // Empty when the ray reaches the surface without turning (ξ < n just below the surface).
+    virtual std::optional<double> turning_z(double ray_parameter, double z_start) const = 0;
+
+protected:
+    explicit RaySolver(std::shared_ptr<const FirnModel> model) : model_(std::move(model)) {}
+    std::shared_ptr<const FirnModel> model_;
+};
+
+}  // namespace firnray

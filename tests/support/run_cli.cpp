@@ -1,0 +1,63 @@
+#include "support/run_cli.hpp"
+
+#include <cstdio>
+#include <cstdlib>
+#include <filesystem>
+#include <fstream>
+#include <random>
+#include <sstream>
+#include <sys/wait.h>
+
+namespace firnray::test {
+
+namespace fs = std::filesystem;
+
+static std::string quote(const std::string& arg) {
+    std::string out = "'";
+    for (char c : arg) {
+        if (c == '\'') out += "'\\''";
+        else out += c;
+    }
+    return out + "'";
+}
+
+std::string read_file(const std::string& path) {
+    std::ifstream in(path);
+    std::stringstream ss;
+    ss << in.rdbuf();
+    return ss.str();
+}
+
+std::string write_file(const std::string& path, const std::string& text) {
+    std::ofstream(path) << text;
+    return path;
+}
+
+std::string temp_folder(const std::string& tag) {
+    static std::mt19937_64 rng{std::random_device{}()};
+    fs::path dir = fs::temp_directory_path() / ("firnray-test-" + tag + "-" + std::to_string(rng()));
+    fs::create_directories(dir);
+    return dir.string();
+}
+
+std::string source_path(const std::string& relative) {
+    return (fs::path(FIRNRAY_SOURCE_DIR) / relative).string();
+}
+
+CliResult run_firnray(const std::vector<std::string>& args) {
+    const std::string dir = temp_folder("cli");
+    const std::string out_path = dir + "/stdout", err_path = dir + "/stderr";
+    std::string command = quote(FIRNRAY_EXE);
+    for (const auto& a : args) command += " " + quote(a);
+    command += " </dev/null >" + quote(out_path) + " 2>" + quote(err_path);
+    const int status = std::system(command.c_str());
+    CliResult result;
+    result.exit_code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
+    result.out = read_file(out_path);
+    result.err = read_file(err_path);
+    std::error_code ignored;
+    fs::remove_all(dir, ignored);
+    return result;
+}
+
+}  // namespace firnray::test

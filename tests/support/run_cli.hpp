@@ -1,0 +1,28 @@
+// Runs the built firnray binary from end-to-end tests and captures what it prints.
+#pragma once
+
+#include <string>
+#include <vector>
+
+namespace firnray::test {
+
+struct CliResult {
+    int exit_code = -1;
+    std::string out;  // stdout
+    std::string err;  // stderr
+};
+
+// args are passed through a shell, each one single-quoted; stdin is /dev/null.
+CliResult run_firnray(const std::vector<std::string>& args);
+
+// A fresh empty folder under the system temp dir, removed at the end of the test run.
+std::string temp_folder(const std::string& tag);
+
+// Writes text to a file and returns its path.
+std::string write_file(const std::string& path, const std::string& text);
+std::string read_file(const std::string& path);
+
+// The source tree (for models/ and demo/ files).
+std::string source_path(const std::string& relative);
+
+}  // namespace firnray::test
