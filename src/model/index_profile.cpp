@@ -1,0 +1,54 @@
+#include "model/index_profile.hpp"
+
+#include <cmath>
+
+#include <fmt/format.h>
+
+#include "core/errors.hpp"
+
+namespace firnray {
+
+static void require_index(double n, const char* key) {
+    if (!std::isfinite(n)) throw ModelInputError(fmt::format("{} must be a finite number", key), {"", 0, key});
+    if (n < 1.0) throw ModelInputError(fmt::format("{} = {} is below 1 (no medium is faster than vacuum)", key, n), {"", 0, key});
+}
+
+ConstantProfile::ConstantProfile(double n) : n_(n) { require_index(n, "n"); }
+
+std::string ConstantProfile::describe() const { return fmt::format("constant: n {}", n_); }
+
+ExponentialProfile::ExponentialProfile(double n_deep, double n_surface, double scale_depth_m)
+    : n_deep_(n_deep), n_surface_(n_surface), scale_depth_m_(scale_depth_m) {
+    require_index(n_deep, "n_deep");
+    require_index(n_surface, "n_surface");
+    if (n_surface > n_deep)
+        throw ModelInputError(fmt::format("n_surface = {} exceeds n_deep = {}: the index must not fall with depth",
+                                          n_surface, n_deep),
+                              {"", 0, "n_surface"});
+    if (!std::isfinite(scale_depth_m) || scale_depth_m <= 0.0)
+        throw ModelInputError(fmt::format("scale_depth_m must be a positive finite length in metres (got {})", scale_depth_m),
+                              {"", 0, "scale_depth_m"});
+}
+
+double ExponentialProfile::index(double z) const {
+    if (z > 0.0) z = 0.0;
+    return n_deep_ - (n_deep_ - n_surface_) * std::exp(z / scale_depth_m_);
+}
+
+double ExponentialProfile::gradient(double z) const {
+    if (z > 0.0) z = 0.0;
+    return -(n_deep_ - n_surface_) * std::exp(z / scale_depth_m_) / scale_depth_m_;
+}
+
+void ExponentialProfile::index_and_gradient(double z, double& n, double& dn_dz) const {
+    if (z > 0.0) z = 0.0;
+    const double e = (n_deep_ - n_surface_) * std::exp(z / scale_depth_m_);
+    n = n_deep_ - e;
+    dn_dz = -e / scale_depth_m_;
+}
+
+std::string ExponentialProfile::describe() const {
+    return fmt::format("exponential: n_deep {}, n_surface {}, scale depth {} m", n_deep_, n_surface_, scale_depth_m_);
+}
+
+}  // namespace firnray
