@@ -85,7 +85,7 @@ TEST_CASE("closed form: distance, time and length agree with tanh_sinh quadratur
             const double n2 = model->index->index(leg.z2);
             // ξ from vertical to within 1e-6 of n at the shallow end (where the problem itself
             // amplifies rounding of the inputs by ~n/(n − ξ): hence the looser tolerance there).
-            for (const auto [fraction, tolerance] : {std::pair{0.0, 1e-14}, std::pair{0.3, 1e-13}, std::pair{0.9, 1e-13},
+            for (const auto& [fraction, tolerance] : {std::pair{0.0, 1e-14}, std::pair{0.3, 1e-13}, std::pair{0.9, 1e-13},
                                                      std::pair{0.999, 1e-12}, std::pair{1.0 - 1e-6, 1e-9}}) {
                 const double xi = fraction * n2;
                 const auto ref = snell_integrals(f, xi, leg.z1, leg.z2, false);
@@ -143,7 +143,7 @@ TEST_CASE("closed form: vertical rays, x = 0 and c·T = ∫ n dz = A Δz − B z
     for (const Firn& f : firns) {
         auto model = exponential_model(f);
         const ClosedFormSolver solver(model);
-        for (const auto [z1, z2] : {std::pair{-300.0, -2.0}, std::pair{-1e-6, 0.0}, std::pair{-2500.0, -2499.0}}) {
+        for (const auto& [z1, z2] : {std::pair{-300.0, -2.0}, std::pair{-1e-6, 0.0}, std::pair{-2500.0, -2499.0}}) {
             const Segment s = solver.segment(0.0, z1, z2);
             const double b = f.n_deep - f.n_surface;
             const double exact_ct = f.n_deep * (z2 - z1) - b * f.scale_depth * std::exp(z1 / f.scale_depth) *
@@ -215,7 +215,7 @@ TEST_CASE("closed form: ∂x/∂ξ agrees with Richardson-extrapolated central d
         auto model = exponential_model(f);
         const ClosedFormSolver solver(model);
         // Fixed ends.
-        for (const auto [z1, z2] : {std::pair{-200.0, -10.0}, std::pair{-3000.0, -100.0}, std::pair{-1.0, 0.0},
+        for (const auto& [z1, z2] : {std::pair{-200.0, -10.0}, std::pair{-3000.0, -100.0}, std::pair{-1.0, 0.0},
                                     std::pair{-100.5, -100.0}}) {
             const double n2 = model->index->index(z2);
             for (const double xi : {0.3, 0.9 * n2, n2 * (1 - 1e-3), n2 * (1 - 1e-5)}) {
@@ -284,7 +284,7 @@ TEST_CASE("closed form: attenuation exponent s/L for a uniform length and ∫ ds
     linear->attenuation = std::make_shared<LinearAttenuation>();
     const ClosedFormSolver solver(linear);
     const double b = f.n_deep - f.n_surface, c = 1.0 / f.scale_depth;
-    for (const auto [xi, z1, z2, turning] : {std::tuple{0.0, -2000.0, -10.0, false}, std::tuple{1.5, -1000.0, -20.0, false},
+    for (const auto& [xi, z1, z2, turning] : {std::tuple{0.0, -2000.0, -10.0, false}, std::tuple{1.5, -1000.0, -20.0, false},
                                              std::tuple{1.7, -1500.0, 0.0, true}, std::tuple{1.36, -80.0, 0.0, true}}) {
         const double top = turning ? *solver.turning_z(xi, z1) : z2;
         const double u2 = turning ? (f.n_deep - xi) / b : std::exp(c * top);
