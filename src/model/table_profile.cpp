@@ -73,7 +73,7 @@ void TableProfile::index_and_gradient(double z, double& n, double& dn_dz) const 
 std::string TableProfile::describe() const {
     const auto& d = spline_.x();
     const auto& n = spline_.y();
-    return fmt::format("table: {} points from {} m (n {}) to {} m (n {}), cubic spline", d.size(), d.front(),
+    return fmt::format("table: {} points from {} m (n {:.6g}) to {} m (n {:.6g}), cubic spline", d.size(), d.front(),
                        n.front(), d.back(), n.back());
 }
 
