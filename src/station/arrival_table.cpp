@@ -3,14 +3,13 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
-#include <mutex>
-#include <thread>
 
 #include <boost/math/tools/minima.hpp>
 #include <fmt/format.h>
 
 #include "core/constants.hpp"
 #include "core/errors.hpp"
+#include "core/parallel.hpp"
 #include "trace/fresnel.hpp"
 
 namespace firnray {
@@ -18,33 +17,6 @@ namespace firnray {
 namespace {
 constexpr double nan = std::numeric_limits<double>::quiet_NaN();
 
-// Runs body(i) for i in [0, count) on `threads` threads, in contiguous blocks. The first
-// exception thrown by any worker is rethrown here.
-template <class Body>
-void parallel_for(std::size_t count, int threads, const RunControl& control, Body body) {
-    const std::size_t workers = std::clamp<std::size_t>(threads < 1 ? 1 : threads, 1, std::max<std::size_t>(count, 1));
-    std::exception_ptr failure;
-    std::mutex failure_mutex;
-    auto run = [&](std::size_t worker) {
-        try {
-            for (std::size_t i = worker; i < count; i += workers) {
-                if ((i & 15) == 0) control.throw_if_cancelled();
-                body(i);
-            }
-        } catch (...) {
-            std::lock_guard lock(failure_mutex);
-            if (!failure) failure = std::current_exception();
-        }
-    };
-    if (workers == 1) {
-        run(0);
-    } else {
-        std::vector<std::thread> pool;
-        for (std::size_t w = 0; w < workers; ++w) pool.emplace_back(run, w);
-        for (auto& t : pool) t.join();
-    }
-    if (failure) std::rethrow_exception(failure);
-}
 }  // namespace
 
 const char* to_string(ArrivalKind kind) {
