@@ -80,8 +80,8 @@ Segment NumericSolver::segment(double xi, double z_a, double z_b) const {
         stepper.step();
         const auto found = stepper.first_crossing(events, stepper.begin_sigma(), stepper.begin_state());
         if (!found) continue;
-        RayStateWithVariation ye = stepper.at(found->sigma);
         const LevelCrossing& hit = events[found->which];
+        RayStateWithVariation ye = stepper.on_level(found->sigma, hit.component, hit.level);
         bool at_turning = false;
         if (hit.component == pz) {
             // Accept a turn at the far end (drift may make it a hair early); elsewhere ξ > n inside.

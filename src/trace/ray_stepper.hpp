@@ -105,6 +105,34 @@ public:
         return y;
     }
 
+    // The state at σ by one fresh dopri5 step from the start of the last step: fifth order,
+    // where the dense output is fourth. Used for the states that a branch restarts or ends from.
+    State stepped_to(double sigma) const {
+        if (sigma >= end_sigma()) return end_state();
+        State y = begin_state();
+        if (sigma > begin_sigma()) {
+            Dopri single;
+            single.do_step(equations_, y, begin_sigma(), sigma - begin_sigma());
+        }
+        return y;
+    }
+
+    // The state where component k equals level, near σ (found on the dense output): the fifth-order
+    // state at σ, moved along the ray by the first-order shift that puts y[k] on the level (the
+    // dense output's own error is then gone from the event), and y[k] set to the level exactly.
+    State on_level(double sigma, std::size_t k, double level) const {
+        State y = stepped_to(sigma);
+        State dy;
+        equations_(y, dy, sigma);
+        if (dy[k] != 0.0) {
+            const double shift = -(y[k] - level) / dy[k];
+            if (std::abs(shift) <= 1e-3)
+                for (std::size_t i = 0; i < y.size(); ++i) y[i] += shift * dy[i];
+        }
+        y[k] = level;
+        return y;
+    }
+
     // σ in [a, b] where component k equals level; requires a sign change of y[k] − level.
     double locate(std::size_t k, double level, double a, double b, double ga, double gb) const {
         if (gb == 0.0) return b;

@@ -142,13 +142,21 @@ RayPoint point_of(const RayState& y) {
 class IceStepView final : public StepView {
 public:
     IceStepView(const RayStepper<RayState>& stepper, double a, double b) : stepper_(stepper), a_(a), b_(b) {}
+    // A step cut at an event ends exactly at the event's (refined) point.
+    IceStepView(const RayStepper<RayState>& stepper, double a, double b, const RayPoint& end_point)
+        : stepper_(stepper), a_(a), b_(b), end_point_(end_point), has_end_point_(true) {}
     double begin() const override { return a_; }
     double end() const override { return b_; }
-    RayPoint at(double sigma) const override { return point_of(stepper_.at(sigma)); }
+    RayPoint at(double sigma) const override {
+        if (has_end_point_ && sigma >= b_) return end_point_;
+        return point_of(stepper_.at(sigma));
+    }
 
 private:
     const RayStepper<RayState>& stepper_;
     double a_, b_;
+    RayPoint end_point_;
+    bool has_end_point_ = false;
 };
 
 // A straight leg in the air; σ is the arc length along it.
@@ -298,17 +306,16 @@ private:
                     break;
                 }
                 const double sigma = found->sigma;
-                RayState ye = stepper.at(sigma);
                 const LevelCrossing& c = crossings[found->which];
-                ye[c.component] = c.level;  // the event lies on its level by definition
-                recorder_.step(IceStepView(stepper, from, sigma), branch(index).points);
-                note_drift(ye);
+                RayState ye = stepper.on_level(sigma, c.component, c.level);
                 const RayPoint where = point_of(ye);
+                recorder_.step(IceStepView(stepper, from, sigma, where), branch(index).points);
+                note_drift(ye);
                 branch(index).attenuation_exponent = ye[attenuation];
 
                 switch (kinds[found->which]) {
                     case cross_turning: {
-                        RayEvent e{EventType::turning_point, where, zenith_of(y_from), zenith_of(ye)};
+                        RayEvent e{EventType::turning_point, where, zenith_of(ye), zenith_of(ye)};
                         branch(index).events.push_back(e);
                         recorder_.event(where, branch(index).points);
                         from = sigma;
