@@ -1,0 +1,281 @@
+#include "station/arrival_table.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <limits>
+
+#include <boost/math/tools/minima.hpp>
+#include <fmt/format.h>
+
+#include "core/constants.hpp"
+#include "core/errors.hpp"
+#include "core/parallel.hpp"
+#include "trace/fresnel.hpp"
+
+namespace firnray {
+
+namespace {
+constexpr double nan = std::numeric_limits<double>::quiet_NaN();
+
+}  // namespace
+
+const char* to_string(ArrivalKind kind) {
+    switch (kind) {
+        case ArrivalKind::direct: return "direct";
+        case ArrivalKind::refracted: return "refracted";
+        case ArrivalKind::reflected: return "reflected";
+    }
+    return "?";
+}
+
+ArrivalTable::ArrivalTable(const RaySolver& solver, double receiver_z, std::vector<double> source_z,
+                           const ArrivalTableOptions& options)
+    : solver_(&solver), receiver_z_(receiver_z), source_z_(std::move(source_z)) {
+    const FirnModel& model = solver.model();
+    if (!(receiver_z_ <= 0.0))
+        throw DataInputError(fmt::format("the receiver must be in the ice (z <= 0), not at z = {} m", receiver_z_));
+    for (double z : source_z_)
+        if (!(z <= 0.0)) throw DataInputError(fmt::format("source depths must be in the ice (z <= 0), not z = {} m", z));
+    if (options.ray_parameters < 16) throw DataInputError("at least 16 ray parameters are needed for a table");
+
+    levels_ = source_z_;
+    levels_.push_back(receiver_z_);
+    std::sort(levels_.begin(), levels_.end(), std::greater<>());
+    levels_.erase(std::unique(levels_.begin(), levels_.end()), levels_.end());
+    auto level_of = [&](double z) {
+        return static_cast<std::size_t>(std::lower_bound(levels_.begin(), levels_.end(), z, std::greater<>()) -
+                                        levels_.begin());
+    };
+    receiver_level_ = level_of(receiver_z_);
+    n_surface_ = model.index->index(0.0);
+    n_air_ = model.n_air;
+
+    double n_high = 0.0;
+    for (double z : levels_) n_high = std::max(n_high, model.index->index(z));
+    const std::size_t samples = static_cast<std::size_t>(options.ray_parameters);
+    xi_.resize(samples);
+    // sin spacing: dense where rays are nearly horizontal, which is where distances change fastest.
+    for (std::size_t k = 0; k < samples; ++k)
+        xi_[k] = n_high * std::sin(0.5 * pi * static_cast<double>(k) / static_cast<double>(samples));
+
+    const std::size_t levels = levels_.size();
+    distance_.assign(levels * samples, nan);
+    time_.assign(levels * samples, nan);
+    attenuation_.assign(levels * samples, nan);
+    parallel_for(samples, options.threads, options.control, [&](std::size_t k) {
+        const double xi = xi_[k];
+        double top = 0.0;
+        if (xi >= n_surface_) {
+            const auto turning = solver_->turning_z(xi, levels_.back());
+            if (!turning) return;  // cannot happen for a profile that grows with depth
+            top = *turning;
+        }
+        double previous = top, x = 0.0, t = 0.0, a = 0.0;
+        for (std::size_t l = 0; l < levels; ++l) {
+            const double z = levels_[l];
+            if (z > top || model.index->index(z) <= xi) continue;  // the ray never gets this high
+            if (z < previous) {
+                const Segment leg = solver_->segment(xi, previous, z);
+                x += leg.distance_m;
+                t += leg.time_s;
+                a += leg.attenuation_exponent;
+                previous = z;
+            }
+            distance_[l * samples + k] = x;
+            time_[l * samples + k] = t;
+            attenuation_[l * samples + k] = a;
+        }
+    });
+
+    rows_.resize(source_z_.size());
+    for (std::size_t j = 0; j < rows_.size(); ++j) rows_[j].source_level = level_of(source_z_[j]);
+    parallel_for(rows_.size(), options.threads, options.control, [&](std::size_t j) { build_row(j); });
+}
+
+ArrivalTable::Sample ArrivalTable::direct_sample(const Row& row, std::size_t k) const {
+    if (k == row.count) return {row.end_distance_m, row.end_time_s, row.end_attenuation, row.end_ray_parameter};
+    const std::size_t n = xi_.size(), s = row.source_level * n + k, r = receiver_level_ * n + k;
+    return {std::abs(distance_[s] - distance_[r]), std::abs(time_[s] - time_[r]),
+            std::abs(attenuation_[s] - attenuation_[r]), xi_[k]};
+}
+
+ArrivalTable::Sample ArrivalTable::rising_sample(const Row& row, std::size_t k) const {
+    if (k == row.count) return {row.end_distance_m, row.end_time_s, row.end_attenuation, row.end_ray_parameter};
+    const std::size_t n = xi_.size(), s = row.source_level * n + k, r = receiver_level_ * n + k;
+    return {distance_[s] + distance_[r], time_[s] + time_[r], attenuation_[s] + attenuation_[r], xi_[k]};
+}
+
+void ArrivalTable::build_row(std::size_t index) {
+    Row& row = rows_[index];
+    row.index = index;
+    const FirnModel& model = solver_->model();
+    const double z_source = source_z_[index];
+    const double z_shallow = std::max(z_source, receiver_z_), z_deep = std::min(z_source, receiver_z_);
+    const double n_shallow = model.index->index(z_shallow);
+    row.count = static_cast<std::size_t>(std::lower_bound(xi_.begin(), xi_.end(), n_shallow) - xi_.begin());
+    // The end point: the ray is horizontal at the shallower end, where both families meet.
+    // Where the index does not change at that end (a homogeneous layer) the horizontal ray never
+    // comes back: the families reach every distance, and lookups past the last sample are solved
+    // exactly on the solver (exact_sample).
+    if (model.index->gradient(z_shallow) == 0.0) {
+        row.end_distance_m = std::numeric_limits<double>::infinity();
+        row.end_time_s = row.end_distance_m;
+        row.end_attenuation = 0.0;
+    } else if (z_shallow == z_deep) {
+        row.end_distance_m = 0.0;
+        row.end_time_s = row.end_distance_m;
+        row.end_attenuation = 0.0;
+    } else {
+        const Segment end = solver_->segment(n_shallow, z_shallow, z_deep);
+        row.end_distance_m = end.distance_m;
+        row.end_time_s = end.time_s;
+        row.end_attenuation = end.attenuation_exponent;
+    }
+    row.end_ray_parameter = n_shallow;
+
+    // Monotone pieces of the rising family (the direct family is monotone for profiles that grow
+    // with depth, but tabulated data may not be; it is split the same way at lookup time).
+    row.rising_pieces.clear();
+    std::size_t first = 0;
+    for (std::size_t k = 1; k <= row.count; ++k) {
+        const double x0 = rising_sample(row, k - 1).distance_m, x1 = rising_sample(row, k).distance_m;
+        const bool increasing = x1 >= x0;
+        if (k == first + 1) {
+            row.rising_pieces.push_back({first, k, increasing});
+        } else if (increasing == row.rising_pieces.back().increasing) {
+            row.rising_pieces.back().last = k;
+        } else {
+            first = k - 1;
+            row.rising_pieces.push_back({first, k, increasing});
+        }
+    }
+
+    double reach = row.end_distance_m;
+    std::size_t best = row.count;
+    for (std::size_t k = 0; k <= row.count; ++k) {
+        const double x = std::max(direct_sample(row, k).distance_m, rising_sample(row, k).distance_m);
+        if (x > reach) {
+            reach = x;
+            best = k;
+        }
+    }
+    if (best > 0 && best < row.count) {
+        // Interior maximum of the rising family: refine it on the solver itself.
+        auto rising_distance = [&](double xi) {
+            double top = 0.0;
+            if (xi >= n_surface_) top = solver_->turning_z(xi, z_deep).value_or(0.0);
+            return -(solver_->segment(xi, top, z_source).distance_m + solver_->segment(xi, top, receiver_z_).distance_m);
+        };
+        const double lo = xi_[best - 1], hi = std::min(xi_[best + 1], n_shallow);
+        const auto [xi_best, minus_x] = boost::math::tools::brent_find_minima(rising_distance, lo, hi, 40);
+        (void)xi_best;
+        reach = std::max(reach, -minus_x);
+    }
+    row.max_reach_m = reach;
+}
+
+ArrivalTable::Sample ArrivalTable::exact_sample(const Row& row, ArrivalKind family, double xi_low,
+                                                double distance_m) const {
+    const double z_source = source_z_[row.index];
+    auto at = [&](double xi) {
+        if (family == ArrivalKind::direct) {
+            const Segment leg = solver_->segment(xi, z_source, receiver_z_);
+            return Sample{leg.distance_m, leg.time_s, leg.attenuation_exponent, xi};
+        }
+        double top = 0.0;
+        if (xi >= n_surface_) top = solver_->turning_z(xi, std::min(z_source, receiver_z_)).value_or(0.0);
+        const Segment up = solver_->segment(xi, top, z_source), down = solver_->segment(xi, top, receiver_z_);
+        return Sample{up.distance_m + down.distance_m, up.time_s + down.time_s,
+                      up.attenuation_exponent + down.attenuation_exponent, xi};
+    };
+    // Bisection in the angle variable ξ = n sin φ: x grows like tan φ, so this converges evenly.
+    const double n_end = row.end_ray_parameter;
+    double lo = std::asin(std::min(1.0, xi_low / n_end)), hi = 0.5 * pi;
+    for (int i = 0; i < 200 && hi - lo > 1e-15; ++i) {
+        const double mid = 0.5 * (lo + hi);
+        if (at(n_end * std::sin(mid)).distance_m < distance_m) lo = mid;
+        else hi = mid;
+    }
+    return at(n_end * std::sin(0.5 * (lo + hi)));
+}
+
+void ArrivalTable::add_arrival(const Row& row, ArrivalKind family, const Sample& a, const Sample& b, double distance_m,
+                               std::vector<MapArrival>& out) const {
+    const FirnModel& model = solver_->model();
+    const double dx = b.distance_m - a.distance_m;
+    const double w = dx != 0.0 ? (distance_m - a.distance_m) / dx : 0.0;
+    const double xi0 = a.ray_parameter, xi1 = b.ray_parameter;
+    // Cubic Hermite in distance with slopes dT/dX = ξ/c.
+    const double h = dx, s = w, s2 = s * s, s3 = s2 * s;
+    const double time = (2 * s3 - 3 * s2 + 1) * a.time_s + (s3 - 2 * s2 + s) * h * xi0 / speed_of_light +
+                        (-2 * s3 + 3 * s2) * b.time_s + (s3 - s2) * h * xi1 / speed_of_light;
+    const double xi = xi0 + w * (xi1 - xi0);
+    const double attenuation = a.attenuation + w * (b.attenuation - a.attenuation);
+
+    MapArrival arrival;
+    arrival.time_s = time;
+    arrival.ray_parameter = xi;
+    double fresnel_magnitude = 1.0;
+    if (family == ArrivalKind::direct) {
+        arrival.kind = ArrivalKind::direct;
+    } else if (xi < n_surface_) {
+        arrival.kind = ArrivalKind::reflected;
+        const double sin_i = xi / n_surface_;
+        const auto f = fresnel(n_surface_, n_air_, std::sqrt(std::max(0.0, 1.0 - sin_i * sin_i)));
+        fresnel_magnitude = std::sqrt(0.5 * (std::norm(f.r_s) + std::norm(f.r_p)));
+    } else {
+        arrival.kind = ArrivalKind::refracted;
+    }
+    // Geometric spreading (Červený 2001): L² = (R / sin θ0) · |∂R/∂θ0| · |cos θr|,
+    // ∂R/∂θ0 = ∂R/∂ξ · n0 cos θ0, and R / sin θ0 = n0 R / ξ (→ n0 ∂R/∂ξ as ξ → 0).
+    const double n0 = model.index->index(source_z_[row.index]);
+    const double nr = model.index->index(receiver_z_);
+    const double dxi = xi1 - xi0;
+    const double dR_dxi = dxi != 0.0 ? dx / dxi : std::numeric_limits<double>::infinity();
+    const double cos0 = std::sqrt(std::max(0.0, 1.0 - (xi / n0) * (xi / n0)));
+    const double cosr = std::sqrt(std::max(0.0, 1.0 - (xi / nr) * (xi / nr)));
+    const double r_over_xi = xi > 1e-9 ? distance_m / xi : std::abs(dR_dxi);
+    const double spreading2 = n0 * r_over_xi * std::abs(dR_dxi) * n0 * cos0 * cosr;
+    if (!(spreading2 > 1e-12) || !std::isfinite(spreading2)) {
+        arrival.caustic = true;
+        arrival.amplitude_per_m = nan;
+    } else {
+        arrival.amplitude_per_m = fresnel_magnitude * std::exp(-attenuation) / std::sqrt(spreading2);
+    }
+    out.push_back(arrival);
+}
+
+void ArrivalTable::arrivals(std::size_t index, double distance_m, std::vector<MapArrival>& out) const {
+    out.clear();
+    const Row& row = rows_[index];
+    if (distance_m > row.max_reach_m || row.count == 0) return;
+    auto search = [&](ArrivalKind family, auto sample, std::size_t first, std::size_t last, bool increasing) {
+        // Bracket R in [first, last] by bisection on the monotone run.
+        const double x_first = sample(first).distance_m, x_last = sample(last).distance_m;
+        const double lo_x = std::min(x_first, x_last), hi_x = std::max(x_first, x_last);
+        if (distance_m < lo_x || distance_m >= hi_x) return;
+        std::size_t lo = first, hi = last;
+        while (hi - lo > 1) {
+            const std::size_t mid = (lo + hi) / 2;
+            const double x = sample(mid).distance_m;
+            if ((x <= distance_m) == increasing) lo = mid;
+            else hi = mid;
+        }
+        const Sample a = sample(lo), b = sample(hi);
+        if (std::isfinite(b.distance_m)) {
+            add_arrival(row, family, a, b, distance_m, out);
+        } else {
+            // Past the last finite sample of a family that reaches infinity: solve exactly.
+            const Sample exact = exact_sample(row, family, a.ray_parameter, distance_m);
+            add_arrival(row, family, a, exact, distance_m, out);
+        }
+    };
+    auto direct = [&](std::size_t k) { return direct_sample(row, k); };
+    auto rising = [&](std::size_t k) { return rising_sample(row, k); };
+    // At equal depths no path is monotone in z: every path belongs to the rising family.
+    if (source_z_[index] != receiver_z_) search(ArrivalKind::direct, direct, 0, row.count, true);
+    for (const Piece& piece : row.rising_pieces) search(ArrivalKind::refracted, rising, piece.first, piece.last, piece.increasing);
+    std::sort(out.begin(), out.end(), [](const MapArrival& a, const MapArrival& b) { return a.time_s < b.time_s; });
+}
+
+}  // namespace firnray
