@@ -459,7 +459,8 @@ RayTrace RayTracer::trace(const RayLaunch& launch, PointRecorder& recorder) cons
     trace.launch = launch;
     trace.branches.reserve(static_cast<std::size_t>(options_.max_branches));
     RayBranch root;
-    const bool in_air = launch.z_m > 0.0 || (launch.z_m == 0.0 && std::cos(launch.zenith_rad) > 0.0);
+    // On the surface, "heading up" must be more than the rounding of cos(π/2) in radians.
+    const bool in_air = launch.z_m > 0.0 || (launch.z_m == 0.0 && std::cos(launch.zenith_rad) > 1e-12);
     root.kind = in_air ? BranchKind::air : BranchKind::ice;
     root.start = RayPoint{launch.x_m, launch.z_m, 0.0, 0.0};
     root.start_zenith_rad = launch.zenith_rad;

@@ -377,3 +377,20 @@ TEST_CASE("tracer: bad launches and options are input errors naming what is wron
     CHECK_THROWS_WITH(RayTracer(model, bad), Catch::Contains("tolerances.relative"));
     CHECK_THROWS_AS(FixedSpacingRecorder(0.0), DataInputError);
 }
+
+TEST_CASE("tracer: a start on the surface is in the air only when heading up (definition of the conventions)",
+          "[trace]") {
+    TraceOptions options;
+    options.max_distance_m = 100.0;
+    options.ceiling_z_m = 20.0;
+    RayTracer tracer(exponential_model(), options);
+    CHECK(tracer.trace({0.0, 0.0, deg_to_rad(90.0)}).branches[0].kind == BranchKind::ice);
+    CHECK(tracer.trace({0.0, 0.0, deg_to_rad(120.0)}).branches[0].kind == BranchKind::ice);
+    const RayTrace up = tracer.trace({0.0, 0.0, deg_to_rad(45.0)});
+    CHECK(up.branches[0].kind == BranchKind::air);
+    CHECK(up.branches[0].end.x_m == Approx(20.0));  // straight line at 45°
+    // Toward −x for negative zenith angles.
+    const RayTrace left = tracer.trace({0.0, -30.0, deg_to_rad(-120.0)});
+    CHECK(left.branches[0].end.x_m == Approx(-100.0));
+    CHECK(left.branches[0].end_reason == EndReason::max_distance);
+}
