@@ -313,23 +313,56 @@ bool clip_segment(Point& a, Point& b, const Rect& box) {
     return true;
 }
 
+// Ramer-Douglas-Peucker simplification: keeps the points that lie more than `tolerance` pixels
+// from the chord of the stretch they sit in. Smooth ray paths of thousands of points shrink to a
+// few dozen without a visible change.
+Polyline simplified(const Polyline& line, double tolerance) {
+    const std::size_t n = line.size();
+    if (n <= 2) return line;
+    std::vector<char> keep(n, 0);
+    keep[0] = keep[n - 1] = 1;
+    std::vector<std::pair<std::size_t, std::size_t>> stretches{{0, n - 1}};
+    while (!stretches.empty()) {
+        const auto [first, last] = stretches.back();
+        stretches.pop_back();
+        if (last <= first + 1) continue;
+        const Point a = line[first], b = line[last];
+        const double dx = b.x - a.x, dy = b.y - a.y, length = std::hypot(dx, dy);
+        double farthest = -1.0;
+        std::size_t at = first;
+        for (std::size_t i = first + 1; i < last; ++i) {
+            // Distance to the chord as a segment, not a line: a path that doubles back (a ray
+            // turning) must keep its turning point.
+            const double ex = line[i].x - a.x, ey = line[i].y - a.y;
+            const double t = length > 0 ? (ex * dx + ey * dy) / (length * length) : 0.0;
+            const double d = t <= 0.0   ? std::hypot(ex, ey)
+                             : t >= 1.0 ? std::hypot(line[i].x - b.x, line[i].y - b.y)
+                                        : std::abs(ex * dy - ey * dx) / length;
+            if (d > farthest) {
+                farthest = d;
+                at = i;
+            }
+        }
+        if (farthest > tolerance) {
+            keep[at] = 1;
+            stretches.push_back({first, at});
+            stretches.push_back({at, last});
+        }
+    }
+    Polyline out;
+    for (std::size_t i = 0; i < n; ++i)
+        if (keep[i]) out.push_back(line[i]);
+    return out;
+}
+
 // Pixel polylines of a data line: broken at NaN, clipped to (a little beyond) the plot area,
-// and thinned where points fall closer together than a third of a pixel.
+// and simplified to within a tenth of a pixel.
 std::vector<Polyline> pixel_polylines(const LayerData& layer, const Frame& frame) {
     const Rect box{frame.area.left - 4, frame.area.top - 4, frame.area.right + 4, frame.area.bottom + 4};
     std::vector<Polyline> lines;
     Polyline current;
     const auto finish = [&] {
-        if (current.size() >= 2) {
-            Polyline thinned{current.front()};
-            for (std::size_t i = 1; i < current.size(); ++i) {
-                const Point& last = thinned.back();
-                const bool final_point = i + 1 == current.size();
-                if (final_point || std::hypot(current[i].x - last.x, current[i].y - last.y) >= 0.33)
-                    thinned.push_back(current[i]);
-            }
-            lines.push_back(std::move(thinned));
-        }
+        if (current.size() >= 2) lines.push_back(simplified(current, 0.1));
         current.clear();
     };
     // Pixel position of point i; false for a gap (NaN) in the data.
@@ -566,7 +599,7 @@ Axis make_axis(double explicit_low, double explicit_high, const Extent& data, bo
     return axis;
 }
 
-// The axis with the most ticks (up to `target`) whose labels keep `spacing_for` apart.
+// The axis with the most ticks (up to `target`) for which `fits` holds (labels not crowded).
 template <class Fits>
 Axis fitted_axis(double explicit_low, double explicit_high, const Extent& data, bool tight, int target, Fits fits) {
     Axis axis = make_axis(explicit_low, explicit_high, data, tight, target);
@@ -860,7 +893,7 @@ std::string Figure::svg_body(const std::string& id_prefix) const {
     const std::vector<std::string> title_lines =
         title_.empty() ? std::vector<std::string>{} : wrap_text(title_, title_font, width_px_ - 2 * outer_margin);
     const double top = title_lines.empty() ? outer_margin + 8.0
-                                           : outer_margin + title_font * 1.25 * title_lines.size() + 10.0;
+                                           : outer_margin + title_font * 1.25 * static_cast<double>(title_lines.size()) + 10.0;
     const double first_x_label_half =
         x_axis.labels.empty() ? 0.0 : text_width_px(x_axis.labels.front(), tick_font) / 2.0;
     const double last_x_label_half = x_axis.labels.empty() ? 0.0 : text_width_px(x_axis.labels.back(), tick_font) / 2.0;
@@ -1234,7 +1267,7 @@ std::string compose_figures(const std::vector<const Figure*>& figures, int colum
     for (double h : row_height) height += h;
     const std::vector<std::string> heading =
         title.empty() ? std::vector<std::string>{} : wrap_text(title, heading_font, width - 2 * outer_margin);
-    const double heading_height = heading.empty() ? 0.0 : outer_margin + heading_font * 1.3 * heading.size() + 4.0;
+    const double heading_height = heading.empty() ? 0.0 : outer_margin + heading_font * 1.3 * static_cast<double>(heading.size()) + 4.0;
     height += heading_height;
 
     std::string out = document_open(width, height, title);

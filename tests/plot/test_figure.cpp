@@ -305,6 +305,34 @@ TEST_CASE("lines break at NaN and are clipped to the axes", "[plot][svg]") {
     CHECK(m[1].str().size() < 40);
 }
 
+TEST_CASE("line simplification drops only invisible detail", "[plot][svg]") {
+    const std::regex points("points=\"([^\"]*)\"");
+    const auto point_count = [&](const Figure& f) {
+        const std::string svg = f.svg();
+        std::smatch m;
+        if (!std::regex_search(svg, m, points)) return std::size_t{0};
+        return count(m[1].str(), ",");
+    };
+    // A path that doubles back on itself keeps its turning point.
+    Figure back;
+    back.x_range(0, 10).y_range(0, 10).add_line(std::vector<double>{0, 10, 5}, std::vector<double>{5, 5, 5}, LineStyle{});
+    CHECK(point_count(back) == 3);
+    // A straight line of 10 000 points becomes two points; a smooth curve far fewer than its samples.
+    std::vector<double> x, y, curve;
+    for (int i = 0; i <= 10000; ++i) {
+        x.push_back(i / 1000.0);
+        y.push_back(i / 1000.0);
+        curve.push_back(5.0 + 4.0 * std::sin(i / 1000.0));
+    }
+    Figure straight;
+    straight.x_range(0, 10).y_range(0, 10).add_line(x, y, LineStyle{});
+    CHECK(point_count(straight) == 2);
+    Figure smooth;
+    smooth.x_range(0, 10).y_range(0, 10).add_line(x, curve, LineStyle{});
+    CHECK(point_count(smooth) < 300);
+    CHECK(point_count(smooth) > 10);
+}
+
 TEST_CASE("numbers are written with at most two decimals; fonts are at least 12 px", "[plot][svg]") {
     const std::string svg = every_layer_figure().svg() + value_map_figure(true).svg();
     const std::regex long_number("=\"-?[0-9]+\\.[0-9]{3,}\"|[ ,\"][-]?[0-9]+\\.[0-9]{3,}[ ,\"]");

@@ -56,7 +56,7 @@ TEST_CASE("nice_ticks: familiar ranges", "[plot][ticks]") {
 }
 
 TEST_CASE("nice_ticks: tiny and huge ranges keep 1-2-5 steps and cover the range", "[plot][ticks]") {
-    for (const auto [low, high] : {std::pair{1e-9, 5e-9}, std::pair{0.0, 3e12}, std::pair{-7e-15, 2e-15},
+    for (const auto& [low, high] : {std::pair{1e-9, 5e-9}, std::pair{0.0, 3e12}, std::pair{-7e-15, 2e-15},
                                    std::pair{1e20, 4e20}, std::pair{1000.0, 1000.000001}, std::pair{-1e300, 1e300}}) {
         INFO(low << " .. " << high);
         const auto t = nice_ticks(low, high);
