@@ -935,11 +935,11 @@ std::string Figure::svg_body(const std::string& id_prefix) const {
         const double y = lower ? f.area.bottom - inset - stacked.height : f.area.top + inset;
         return Rect{x, y, x + stacked.width, y + stacked.height};
     };
-    // Outside, right of the axes, unless that would squeeze them to below ~60% of their width.
+    // Outside the axes: right of them or below them, whichever leaves them the larger area.
     const auto outside = [&] {
-        const double plain = frame_for(LegendPosition::hidden).area.width();
-        const double squeezed = frame_for(LegendPosition::outside_right).area.width();
-        return squeezed >= 0.6 * plain ? LegendPosition::outside_right : LegendPosition::below;
+        const Rect right = frame_for(LegendPosition::outside_right).area, below = frame_for(LegendPosition::below).area;
+        return right.width() * right.height() >= below.width() * below.height() ? LegendPosition::outside_right
+                                                                                 : LegendPosition::below;
     };
     if (where == LegendPosition::automatic) {
         if (map) {

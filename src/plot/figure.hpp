@@ -54,8 +54,8 @@ struct ColourScale {
 };
 
 // Where the legend box goes. `automatic` picks an inside corner that covers no data, or else
-// places the legend outside the axes (always outside when a grid map fills them): right of them,
-// or below them when a wide legend would squeeze the axes too much.
+// places the legend outside the axes (always outside when a grid map fills them): right of them
+// or below them, whichever leaves the axes more room.
 enum class LegendPosition { automatic, top_right, top_left, bottom_right, bottom_left, outside_right, below, hidden };
 
 class Figure {
