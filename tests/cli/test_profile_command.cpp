@@ -1,5 +1,6 @@
 // End-to-end tests of `firnray profile`: tables, fits, and the exit codes and messages of bad input.
 #include <cmath>
+#include <cstdlib>
 #include <filesystem>
 #include <random>
 
@@ -128,4 +129,28 @@ TEST_CASE("profile --fit: densities with a rule; bad rows are data errors (exit 
     write_file(dir + "/flat.csv", "depth_m,n\n0,1.5\n10,1.5\n20,1.5\n40,1.5\n");
     CHECK(run_firnray({"profile", "--fit", dir + "/flat.csv"}).exit_code == 5);
     CHECK(run_firnray({"profile", "--fit", dir + "/none.csv"}).exit_code == 4);
+}
+
+TEST_CASE("profile --plot: SVGs of the model and of a fit, titled with the model and the data", "[cli][profile]") {
+    const std::string dir = temp_folder("profile-plot");
+    const auto r = run_firnray({"profile", "--model", source_path("models/demo-site.toml"), "--to-depth", "150",
+                                "--output", dir + "/p.csv", "--plot", dir + "/p.svg"});
+    REQUIRE(r.exit_code == 0);
+    const std::string svg = read_file(dir + "/p.svg");
+    CHECK(svg.find("<svg") != std::string::npos);
+    // librsvg (an independent SVG implementation) renders it.
+    REQUIRE(std::system("command -v rsvg-convert >/dev/null 2>&1") == 0);
+    CHECK(std::system(("rsvg-convert '" + dir + "/p.svg' -o '" + dir + "/p.png' 2>/dev/null").c_str()) == 0);
+    CHECK(svg.find("Halvard Dome (fictional)") != std::string::npos);
+    CHECK(svg.find("depth (m, increasing downward") != std::string::npos);
+    CHECK(svg.find("</svg>") != std::string::npos);
+
+    const auto fit = run_firnray({"profile", "--fit", source_path("models/synthetic-density.csv"), "--density-column",
+                                  "density_kg_m3", "--density-rule", "looyenga", "--plot", dir + "/fit.svg"});
+    REQUIRE(fit.exit_code == 0);
+    const std::string fit_svg = read_file(dir + "/fit.svg");
+    CHECK(fit_svg.find("Exponential fit to synthetic-density.csv") != std::string::npos);
+    CHECK(fit_svg.find("looyenga") != std::string::npos);
+    // A plot that cannot be written is an output error (exit 6) and leaves nothing behind.
+    CHECK(run_firnray({"profile", "--plot", dir + "/no/such/folder/p.svg"}).exit_code == 6);
 }

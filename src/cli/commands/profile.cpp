@@ -1,6 +1,8 @@
-// firnray profile: tabulate the index profile of a model, or fit the exponential model
+// firnray profile: tabulate (and plot) the index profile of a model, or fit the exponential model
 // to measured index or density data and write it as a model file.
+#include <algorithm>
 #include <cmath>
+#include <filesystem>
 #include <memory>
 #include <optional>
 #include <string>
@@ -17,6 +19,7 @@
 #include "model/fit.hpp"
 #include "model/model_file.hpp"
 #include "model/profile_samples.hpp"
+#include "plot/figure.hpp"
 
 namespace firnray::cli {
 
@@ -27,6 +30,7 @@ struct ProfileOptions {
     double from_depth_m = 0.0, to_depth_m = 200.0, step_m = 1.0;
     std::string format;  // csv | json (table); text | json (fit)
     std::string output = "-";
+    std::string plot_path;
     // fit mode
     std::string fit_path;
     std::string depth_column, z_column, n_column, density_column;
@@ -68,10 +72,35 @@ std::string samples_json(const FirnModel& model, const std::vector<ProfileSample
     return json.str() + "\n";
 }
 
+// n against depth, depth increasing downward.
+plot::Figure profile_figure(const std::string& title) {
+    plot::Figure figure(760, 680);
+    figure.title(title).x_label("refractive index n").y_label("depth (m, increasing downward; z = -depth)");
+    figure.invert_y(true);
+    return figure;
+}
+
+std::vector<double> depths_of(const std::vector<ProfileSample>& samples) {
+    std::vector<double> depth;
+    for (const auto& s : samples) depth.push_back(s.depth_m);
+    return depth;
+}
+std::vector<double> indexes_of(const std::vector<ProfileSample>& samples) {
+    std::vector<double> n;
+    for (const auto& s : samples) n.push_back(s.n);
+    return n;
+}
+
 int tabulate(const ProfileOptions& o) {
     const FirnModel model = chosen_model(o);
     const auto samples = sample_profile(*model.index, o.from_depth_m, o.to_depth_m, o.step_m);
     const std::string text = o.format == "json" ? samples_json(model, samples) : samples_csv(samples);
+    if (!o.plot_path.empty()) {
+        plot::Figure figure = profile_figure(fmt::format("Refractive index: {}", model.name));
+        figure.add_line(indexes_of(samples), depths_of(samples), plot::LineStyle{},
+                        fmt::format("n, {} profile", model.index->kind()));
+        figure.write_svg(o.plot_path);
+    }
     write_text_file(o.output, text);
     return 0;
 }
@@ -190,6 +219,24 @@ int fit_data(const ProfileOptions& o) {
             fit.n_surface_sigma, fit.scale_depth_sigma_m, fit.residual_rms);
         write_text_file(o.write_model_path, model_to_toml(fitted_model(o, fit), comment));
     }
+    if (!o.plot_path.empty()) {
+        std::vector<double> data_n = data.value;
+        if (data.density)
+            for (auto& v : data_n) v = index_from_density(v, data.rule);
+        const double deepest = *std::max_element(data.depth.begin(), data.depth.end());
+        const double extent = std::max(deepest * 1.05, 1.0);
+        const ExponentialProfile profile = fit.profile();
+        const auto samples = sample_profile(profile, 0.0, extent, extent / 400.0);
+        plot::Figure figure = profile_figure(
+            fmt::format("Exponential fit to {}", std::filesystem::path(o.fit_path).filename().string()));
+        figure.add_markers(data_n, data.depth, plot::MarkerStyle{},
+                           data.density ? fmt::format("data (density by the {} rule)", density_rule_name(data.rule))
+                                        : std::string("data"));
+        figure.add_line(indexes_of(samples), depths_of(samples), plot::LineStyle{},
+                        fmt::format("fit: n_deep {:.4f}, n_surface {:.4f}, scale depth {:.1f} m", fit.n_deep,
+                                    fit.n_surface, fit.scale_depth_m));
+        figure.write_svg(o.plot_path);
+    }
     write_text_file(o.output, report);
     return 0;
 }
@@ -211,12 +258,13 @@ void add_profile_command(CLI::App& app, CommandSlot& slot) {
         "z up, so it is negative where n grows with depth. Without --model the built-in generic polar firn is used.\n"
         "\n"
         "Examples:\n"
-        "  firnray profile --model models/demo-site.toml --to-depth 150 --step 0.5 --output halvard.csv\n"
-        "      writes depth_m,z_m,n,dn_dz_per_m rows from 0 to 150 m.\n"
+        "  firnray profile --model models/demo-site.toml --to-depth 150 --step 0.5 --output halvard.csv \\\n"
+        "      --plot halvard.svg\n"
+        "      writes depth_m,z_m,n,dn_dz_per_m rows from 0 to 150 m and an SVG of n against depth.\n"
         "  firnray profile --fit models/synthetic-density.csv --density-column density_kg_m3 \\\n"
-        "      --density-rule kovacs --write-model fitted.toml\n"
+        "      --density-rule kovacs --write-model fitted.toml --plot fit.svg\n"
         "      fits n_deep, n_surface and scale_depth_m (with 1-sigma uncertainties) to densities converted by\n"
-        "      Kovacs et al. (1995), and writes a model file that firnray loads back.\n"
+        "      Kovacs et al. (1995), writes a model file that firnray loads back, and plots data and fit.\n"
         "\n"
         "Exit codes: 0 ok, 2 usage, 3 bad model file, 4 bad data file, 5 fit did not converge, 6 output not written.\n");
 
@@ -231,6 +279,7 @@ void add_profile_command(CLI::App& app, CommandSlot& slot) {
                                            "fit (default text)")
         ->check(CLI::IsMember({"csv", "json", "text"}));
     cmd->add_option("--output", o->output, "output file ('-' = standard output)")->capture_default_str();
+    cmd->add_option("--plot", o->plot_path, "also write an SVG of n against depth (for a fit: data and fitted curve)");
 
     auto* fit = cmd->add_option("--fit", o->fit_path, "fit the exponential model to this CSV of measurements");
     auto* depth_column = cmd->add_option("--depth-column", o->depth_column, "CSV column with depth in m (default depth_m)");
