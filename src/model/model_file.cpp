@@ -91,9 +91,13 @@ std::string join(const std::vector<std::string_view>& names) {
 struct FileContext {
     std::string origin;
     fs::path folder;
-    std::string vertical_style;  // "depth" or "z" once a key has chosen
-    std::string vertical_key;
-    int vertical_line = 0;
+    // Every key that chose depth or z, checked for mixing once the whole file is read, so that
+    // the message blames the later key in the file whatever order the tables are parsed in.
+    struct VerticalKey {
+        std::string style, key;
+        int line = 0;
+    };
+    std::vector<VerticalKey> vertical_keys;
 };
 
 [[noreturn]] void fail_at(const InputLocation& where, const std::string& reason) { throw ModelInputError(reason, where); }
@@ -212,20 +216,10 @@ public:
         fail(first, fmt::format("missing: give {}", what));
     }
 
-    // Records that `key` uses the depth or the z convention, and rejects a file that mixes them.
+    // Records that `key` uses the depth or the z convention (see check_vertical_convention).
     void note_vertical(std::string_view key, std::string_view style) const {
-        FileContext& c = *context_;
         const InputLocation at = where(key);
-        if (c.vertical_style.empty()) {
-            c.vertical_style = std::string(style);
-            c.vertical_key = at.key;
-            c.vertical_line = at.line;
-            return;
-        }
-        if (c.vertical_style != style)
-            fail_at(at, fmt::format("this file already gives vertical positions as {} ('{}', line {}); a file uses "
-                                    "either depth (m, positive down) or z (m, up positive), never both",
-                                    c.vertical_style, c.vertical_key, c.vertical_line));
+        context_->vertical_keys.push_back({std::string(style), at.key, at.line});
     }
 
     // Re-raises an error from a profile constructor (whose key is relative to this section, e.g.
@@ -364,7 +358,7 @@ PointTable read_point_table(const Section& s, const std::vector<ValueAlternative
     }
 
     // In the ice, and strictly monotone (either way round; stored from the surface down).
-    const bool z_style = s.context().vertical_style == "z";
+    const bool z_style = s.context().vertical_keys.back().style == "z";
     for (const auto& p : table.points)
         if (p.depth < 0.0)
             fail_at(p.depth_at, z_style ? fmt::format("z = {} m is above the surface (the ice is z <= 0)", -p.depth)
@@ -579,6 +573,18 @@ Bottom read_bottom(const Section& s) {
     return bottom;
 }
 
+// A model file gives vertical positions as depth (positive down) or as z (up positive), never both.
+void check_vertical_convention(const FileContext& context) {
+    auto keys = context.vertical_keys;
+    std::stable_sort(keys.begin(), keys.end(), [](const auto& a, const auto& b) { return a.line < b.line; });
+    for (const auto& k : keys)
+        if (k.style != keys.front().style)
+            fail_at({context.origin, k.line, k.key},
+                    fmt::format("this file already gives vertical positions as {} ('{}', line {}); a file uses "
+                                "either depth (m, positive down) or z (m, up positive), never both",
+                                keys.front().style, keys.front().key, keys.front().line));
+}
+
 // ----------------------------------------------------------------------------------------------
 
 std::string toml_string(std::string_view text) {
@@ -650,6 +656,7 @@ FirnModel parse_model(const std::string& toml_text, const std::string& origin) {
     }
     if (const auto attenuation = top.optional_table("attenuation")) model.attenuation = read_attenuation(*attenuation);
     if (const auto bottom = top.optional_table("bottom")) model.bottom = read_bottom(*bottom);
+    check_vertical_convention(context);
     return model;
 }
 

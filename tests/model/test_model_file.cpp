@@ -368,6 +368,10 @@ TEST_CASE("model file errors: depth and z are not mixed in one file", "[model][m
                  "bottom.z_m", 12, "already gives vertical positions as depth ('index.layer[0].bottom_depth_m', line 5)");
     expect_error(good_exponential + "[bottom]\ndepth_m = 100\nz_m = -100\npower_reflectivity = 0.5\n", "bottom.z_m", 9,
                  "not both");
+    // The later key in the file is blamed, whatever order the tables are read in.
+    expect_error(good_exponential + "[bottom]\nz_m = -300\npower_reflectivity = 0.5\n"
+                                    "[attenuation]\nkind = \"table\"\ndepth_m = [0, 100]\nlength_m = [900, 800]\n",
+                 "attenuation.depth_m", 12, "already gives vertical positions as z ('bottom.z_m', line 8)");
     expect_error("[index]\nkind = \"layered\"\nn_surface = 1.35\n[[index.layer]]\nbottom_depth_m = 20\nn_deep = 1.8\n"
                  "scale_depth_m = 20\n[[index.layer]]\nbottom_depth_m = 15\nn_deep = 1.8\nscale_depth_m = 20\n"
                  "[[index.layer]]\nn_deep = 1.78\nscale_depth_m = 40\n",
