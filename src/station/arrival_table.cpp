@@ -70,20 +70,22 @@ ArrivalTable::ArrivalTable(const RaySolver& solver, double receiver_z, std::vect
             if (!turning) return;  // cannot happen for a profile that grows with depth
             top = *turning;
         }
-        double previous = top, x = 0.0, t = 0.0, a = 0.0;
+        // The levels this ray reaches: at or below its top, where n exceeds ξ.
+        std::vector<double> reached;
+        std::vector<std::size_t> index;
         for (std::size_t l = 0; l < levels; ++l) {
             const double z = levels_[l];
-            if (z > top || model.index->index(z) <= xi) continue;  // the ray never gets this high
-            if (z < previous) {
-                const Segment leg = solver_->segment(xi, previous, z);
-                x += leg.distance_m;
-                t += leg.time_s;
-                a += leg.attenuation_exponent;
-                previous = z;
-            }
-            distance_[l * samples + k] = x;
-            time_[l * samples + k] = t;
-            attenuation_[l * samples + k] = a;
+            if (z > top || model.index->index(z) <= xi) continue;
+            reached.push_back(z);
+            index.push_back(l);
+        }
+        std::vector<Segment> legs(reached.size());
+        solver_->segments_from(xi, top, reached, legs);
+        for (std::size_t i = 0; i < reached.size(); ++i) {
+            const std::size_t at = index[i] * samples + k;
+            distance_[at] = legs[i].distance_m;
+            time_[at] = legs[i].time_s;
+            attenuation_[at] = legs[i].attenuation_exponent;
         }
     });
 
