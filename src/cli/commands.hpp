@@ -13,4 +13,7 @@ struct CommandSlot {
     std::function<int()> run;
 };
 
+// firnray profile: tabulate a model's n(z) and dn/dz, or fit the exponential model to data.
+void add_profile_command(CLI::App& app, CommandSlot& slot);
+
 }  // namespace firnray::cli
