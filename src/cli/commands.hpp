@@ -13,4 +13,6 @@ struct CommandSlot {
     std::function<int()> run;
 };
 
+void add_trace_command(CLI::App& app, CommandSlot& slot);
+
 }  // namespace firnray::cli

@@ -19,6 +19,7 @@ int main(int argc, char** argv) {
 
     CommandSlot slot;
     // Commands register here (one line each).
+    add_trace_command(app, slot);
 
     try {
         app.parse(argc, argv);
