@@ -11,6 +11,7 @@
 #include <fmt/format.h>
 
 #include "cli/commands.hpp"
+#include "cli/common.hpp"
 #include "core/errors.hpp"
 #include "io/atomic_file.hpp"
 #include "io/csv_reader.hpp"
@@ -41,7 +42,6 @@ struct ProfileOptions {
 
 std::string number(double value) { return fmt::format("{:.10g}", value); }
 
-FirnModel chosen_model(const ProfileOptions& o) { return o.model_path.empty() ? default_model() : load_model_file(o.model_path); }
 
 // ---------------------------------------------------------------------------------------------
 // Tabulating a model
@@ -92,7 +92,8 @@ std::vector<double> indexes_of(const std::vector<ProfileSample>& samples) {
 }
 
 int tabulate(const ProfileOptions& o) {
-    const FirnModel model = chosen_model(o);
+    const auto shared_model = load_model_or_default(o.model_path);
+    const FirnModel& model = *shared_model;
     const auto samples = sample_profile(*model.index, o.from_depth_m, o.to_depth_m, o.step_m);
     const std::string text = o.format == "json" ? samples_json(model, samples) : samples_csv(samples);
     if (!o.plot_path.empty()) {
@@ -268,7 +269,8 @@ void add_profile_command(CLI::App& app, CommandSlot& slot) {
         "\n"
         "Exit codes: 0 ok, 2 usage, 3 bad model file, 4 bad data file, 5 fit did not converge, 6 output not written.\n");
 
-    auto* model = cmd->add_option("--model", o->model_path, "model file (TOML, see docs/model-files.md)");
+    add_model_option(cmd, o->model_path);
+    CLI::Option* model = cmd->get_option("--model");
     auto* from = cmd->add_option("--from-depth", o->from_depth_m, "first depth of the table (m, >= 0)")
                      ->capture_default_str();
     auto* to = cmd->add_option("--to-depth", o->to_depth_m, "last depth of the table (m)")
