@@ -106,3 +106,44 @@ TEST_CASE("arrival table times agree with exact root finding on the closed form 
         }
     }
 }
+
+#include "station/visibility_map.hpp"
+
+TEST_CASE("--min-receivers on a small station whose answer is known by hand", "[station][visibility]") {
+    // Three receivers at one depth on the x axis, at x = 0, 150 and 300 m. A source at distance r
+    // along +x from the centre (x = 150 m) and depth d is seen by receiver k exactly when its
+    // horizontal distance |150 + r − x_k| is within the single-receiver reach B(d). So by hand:
+    // with r in the grid, the count is #{k : |150 + r − x_k| <= B(d)}, and K = 2 keeps the cells
+    // with a count of 2 or 3.
+    ClosedFormSolver solver(firn(1.78, 1.35, 37.0));
+    std::vector<Receiver> receivers(3);
+    for (int k = 0; k < 3; ++k) {
+        receivers[k].name = "R" + std::to_string(k);
+        receivers[k].x_m = 150.0 * k;
+        receivers[k].z_m = -50.0;
+    }
+    MapGrid grid;
+    grid.distance_max_m = 1200.0;
+    grid.distance_cells = 120;
+    grid.depth_max_m = 200.0;
+    grid.depth_cells = 20;
+    VisibilityOptions options;
+    options.min_receivers = 2;
+    const VisibilityMap map = compute_visibility_map(solver, receivers, grid, options);
+    std::vector<double> depths_z;
+    for (int j = 0; j < grid.depth_cells; ++j) depths_z.push_back(-grid.depth_at(j));
+    const ArrivalTable single(solver, -50.0, depths_z);
+    int checked = 0;
+    for (int j = 0; j < grid.depth_cells; ++j)
+        for (int i = 0; i < grid.distance_cells; ++i) {
+            const double x = 150.0 + grid.distance_at(i);
+            int by_hand = 0;
+            for (int k = 0; k < 3; ++k) by_hand += std::abs(x - 150.0 * k) <= single.max_reach_m(j);
+            const MapCell& cell = map.at(j, i);
+            INFO("depth " << grid.depth_at(j) << " r " << grid.distance_at(i));
+            CHECK(cell.receivers_seeing == by_hand);
+            CHECK(map.visible(cell) == (by_hand >= 2));
+            ++checked;
+        }
+    CHECK(checked == 2400);
+}
