@@ -12,6 +12,26 @@
 
 namespace firnray {
 
+void RaySolver::segments_from(double ray_parameter, double z_top, std::span<const double> levels,
+                              std::span<Segment> out) const {
+    if (out.size() != levels.size()) throw NumericalError("segments_from: levels and output differ in size");
+    Segment total;
+    double previous = z_top;
+    for (std::size_t i = 0; i < levels.size(); ++i) {
+        if (levels[i] > previous) throw NumericalError("segments_from: levels must descend from z_top");
+        if (levels[i] < previous) {
+            const Segment leg = segment(ray_parameter, previous, levels[i]);
+            total.distance_m += leg.distance_m;
+            total.time_s += leg.time_s;
+            total.length_m += leg.length_m;
+            total.attenuation_exponent += leg.attenuation_exponent;
+            total.distance_derivative += leg.distance_derivative;
+            previous = levels[i];
+        }
+        out[i] = total;
+    }
+}
+
 LegDistance RaySolver::leg_distance(double ray_parameter, double z_a, double z_b) const {
     const Segment leg = segment(ray_parameter, z_a, z_b);
     return {leg.distance_m, leg.distance_derivative};

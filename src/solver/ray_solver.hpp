@@ -7,6 +7,7 @@
 
 #include <memory>
 #include <optional>
+#include <span>
 #include <string>
 
 #include "model/firn_model.hpp"
@@ -46,6 +47,13 @@ public:
     // z above z_start (and at most 0) where n(z) = ξ.
     // Empty when the ray reaches the surface without turning (ξ < n just below the surface).
     virtual std::optional<double> turning_z(double ray_parameter, double z_start) const = 0;
+
+    // Legs from z_top down to each of `levels` (sorted from the highest to the lowest, all at or
+    // below z_top, with ξ below n on the whole way): out[i] = segment(ξ, z_top, levels[i]).
+    // Map-scale tables ask for thousands of these per ray parameter; solvers that integrate
+    // override it to do them in one pass. The default sums segment() between consecutive levels.
+    virtual void segments_from(double ray_parameter, double z_top, std::span<const double> levels,
+                               std::span<Segment> out) const;
 
     // Distance and ∂distance/∂ξ at fixed end depths of the leg between z_a and z_b (the same
     // numbers as segment(), whose result the default takes apart; solvers override it when the

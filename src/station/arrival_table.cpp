@@ -3,14 +3,13 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
-#include <mutex>
-#include <thread>
 
 #include <boost/math/tools/minima.hpp>
 #include <fmt/format.h>
 
 #include "core/constants.hpp"
 #include "core/errors.hpp"
+#include "core/parallel.hpp"
 #include "trace/fresnel.hpp"
 
 namespace firnray {
@@ -18,33 +17,6 @@ namespace firnray {
 namespace {
 constexpr double nan = std::numeric_limits<double>::quiet_NaN();
 
-// Runs body(i) for i in [0, count) on `threads` threads, in contiguous blocks. The first
-// exception thrown by any worker is rethrown here.
-template <class Body>
-void parallel_for(std::size_t count, int threads, const RunControl& control, Body body) {
-    const std::size_t workers = std::clamp<std::size_t>(threads < 1 ? 1 : threads, 1, std::max<std::size_t>(count, 1));
-    std::exception_ptr failure;
-    std::mutex failure_mutex;
-    auto run = [&](std::size_t worker) {
-        try {
-            for (std::size_t i = worker; i < count; i += workers) {
-                if ((i & 15) == 0) control.throw_if_cancelled();
-                body(i);
-            }
-        } catch (...) {
-            std::lock_guard lock(failure_mutex);
-            if (!failure) failure = std::current_exception();
-        }
-    };
-    if (workers == 1) {
-        run(0);
-    } else {
-        std::vector<std::thread> pool;
-        for (std::size_t w = 0; w < workers; ++w) pool.emplace_back(run, w);
-        for (auto& t : pool) t.join();
-    }
-    if (failure) std::rethrow_exception(failure);
-}
 }  // namespace
 
 const char* to_string(ArrivalKind kind) {
@@ -98,20 +70,22 @@ ArrivalTable::ArrivalTable(const RaySolver& solver, double receiver_z, std::vect
             if (!turning) return;  // cannot happen for a profile that grows with depth
             top = *turning;
         }
-        double previous = top, x = 0.0, t = 0.0, a = 0.0;
+        // The levels this ray reaches: at or below its top, where n exceeds ξ.
+        std::vector<double> reached;
+        std::vector<std::size_t> index;
         for (std::size_t l = 0; l < levels; ++l) {
             const double z = levels_[l];
-            if (z > top || model.index->index(z) <= xi) continue;  // the ray never gets this high
-            if (z < previous) {
-                const Segment leg = solver_->segment(xi, previous, z);
-                x += leg.distance_m;
-                t += leg.time_s;
-                a += leg.attenuation_exponent;
-                previous = z;
-            }
-            distance_[l * samples + k] = x;
-            time_[l * samples + k] = t;
-            attenuation_[l * samples + k] = a;
+            if (z > top || model.index->index(z) <= xi) continue;
+            reached.push_back(z);
+            index.push_back(l);
+        }
+        std::vector<Segment> legs(reached.size());
+        solver_->segments_from(xi, top, reached, legs);
+        for (std::size_t i = 0; i < reached.size(); ++i) {
+            const std::size_t at = index[i] * samples + k;
+            distance_[at] = legs[i].distance_m;
+            time_[at] = legs[i].time_s;
+            attenuation_[at] = legs[i].attenuation_exponent;
         }
     });
 
@@ -188,43 +162,66 @@ void ArrivalTable::build_row(std::size_t index) {
         }
     }
     if (best > 0 && best < row.count) {
-        // Interior maximum of the rising family: refine it on the solver itself.
-        auto rising_distance = [&](double xi) {
-            double top = 0.0;
-            if (xi >= n_surface_) top = solver_->turning_z(xi, z_deep).value_or(0.0);
-            return -(solver_->segment(xi, top, z_source).distance_m + solver_->segment(xi, top, receiver_z_).distance_m);
-        };
+        // Interior maximum of the rising family: refine it on the solver itself, and remember
+        // it, since the samples around it can miss the last metres of reach (see arrivals()).
+        auto minus_rising = [&](double xi) { return -exact_at(row, ArrivalKind::refracted, xi).distance_m; };
         const double lo = xi_[best - 1], hi = std::min(xi_[best + 1], n_shallow);
-        const auto [xi_best, minus_x] = boost::math::tools::brent_find_minima(rising_distance, lo, hi, 40);
-        (void)xi_best;
-        reach = std::max(reach, -minus_x);
+        const auto [xi_best, minus_x] = boost::math::tools::brent_find_minima(minus_rising, lo, hi, 52);
+        if (-minus_x > reach) {
+            row.has_peak = true;
+            row.peak_ray_parameter = xi_best;
+            row.peak_low = lo;
+            row.peak_high = hi;
+            row.sampled_peak_m = reach;
+            reach = -minus_x;
+        }
     }
     row.max_reach_m = reach;
 }
 
+ArrivalTable::Sample ArrivalTable::exact_at(const Row& row, ArrivalKind family, double xi) const {
+    const double z_source = source_z_[row.index];
+    if (family == ArrivalKind::direct) {
+        const Segment leg = solver_->segment(xi, z_source, receiver_z_);
+        return Sample{leg.distance_m, leg.time_s, leg.attenuation_exponent, xi};
+    }
+    double top = 0.0;
+    if (xi >= n_surface_) top = solver_->turning_z(xi, std::min(z_source, receiver_z_)).value_or(0.0);
+    const Segment up = solver_->segment(xi, top, z_source), down = solver_->segment(xi, top, receiver_z_);
+    return Sample{up.distance_m + down.distance_m, up.time_s + down.time_s,
+                  up.attenuation_exponent + down.attenuation_exponent, xi};
+}
+
 ArrivalTable::Sample ArrivalTable::exact_sample(const Row& row, ArrivalKind family, double xi_low,
                                                 double distance_m) const {
-    const double z_source = source_z_[row.index];
-    auto at = [&](double xi) {
-        if (family == ArrivalKind::direct) {
-            const Segment leg = solver_->segment(xi, z_source, receiver_z_);
-            return Sample{leg.distance_m, leg.time_s, leg.attenuation_exponent, xi};
-        }
-        double top = 0.0;
-        if (xi >= n_surface_) top = solver_->turning_z(xi, std::min(z_source, receiver_z_)).value_or(0.0);
-        const Segment up = solver_->segment(xi, top, z_source), down = solver_->segment(xi, top, receiver_z_);
-        return Sample{up.distance_m + down.distance_m, up.time_s + down.time_s,
-                      up.attenuation_exponent + down.attenuation_exponent, xi};
-    };
     // Bisection in the angle variable ξ = n sin φ: x grows like tan φ, so this converges evenly.
     const double n_end = row.end_ray_parameter;
     double lo = std::asin(std::min(1.0, xi_low / n_end)), hi = 0.5 * pi;
     for (int i = 0; i < 200 && hi - lo > 1e-15; ++i) {
         const double mid = 0.5 * (lo + hi);
-        if (at(n_end * std::sin(mid)).distance_m < distance_m) lo = mid;
+        if (exact_at(row, family, n_end * std::sin(mid)).distance_m < distance_m) lo = mid;
         else hi = mid;
     }
-    return at(n_end * std::sin(0.5 * (lo + hi)));
+    return exact_at(row, family, n_end * std::sin(0.5 * (lo + hi)));
+}
+
+void ArrivalTable::add_exact_peak_arrivals(const Row& row, double distance_m, std::vector<MapArrival>& out) const {
+    // Both roots of x_S(ξ) = R around the refined maximum, by bisection on the solver.
+    for (const bool rising_side : {true, false}) {
+        double lo = rising_side ? row.peak_low : row.peak_ray_parameter;
+        double hi = rising_side ? row.peak_ray_parameter : row.peak_high;
+        for (int i = 0; i < 100 && hi - lo > 1e-15; ++i) {
+            const double mid = 0.5 * (lo + hi);
+            const bool below = exact_at(row, ArrivalKind::refracted, mid).distance_m < distance_m;
+            if (below == rising_side) lo = mid;
+            else hi = mid;
+        }
+        const double xi = 0.5 * (lo + hi);
+        const Sample a = exact_at(row, ArrivalKind::refracted, xi);
+        const double step = (rising_side ? -1.0 : 1.0) * 1e-9;
+        const Sample b = exact_at(row, ArrivalKind::refracted, xi + step);
+        add_arrival(row, ArrivalKind::refracted, a, b, a.distance_m, out);
+    }
 }
 
 void ArrivalTable::add_arrival(const Row& row, ArrivalKind family, const Sample& a, const Sample& b, double distance_m,
@@ -303,6 +300,7 @@ void ArrivalTable::arrivals(std::size_t index, double distance_m, std::vector<Ma
     // At equal depths no path is monotone in z: every path belongs to the rising family.
     if (source_z_[index] != receiver_z_) search(ArrivalKind::direct, direct, 0, row.count, true);
     for (const Piece& piece : row.rising_pieces) search(ArrivalKind::refracted, rising, piece.first, piece.last, piece.increasing);
+    if (row.has_peak && distance_m > row.sampled_peak_m) add_exact_peak_arrivals(row, distance_m, out);
     std::sort(out.begin(), out.end(), [](const MapArrival& a, const MapArrival& b) { return a.time_s < b.time_s; });
 }
 

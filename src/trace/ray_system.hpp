@@ -1,0 +1,97 @@
+// The ray equations of physics notes §3 as a Boost.Odeint system functor, in the parameter σ
+// with ds = n dσ: dr/dσ = p, dp/dσ = n ∇n, d(cT)/dσ = n², ds/dσ = n, for n = n(z) in 2-D (x, z).
+// Optionally carries the attenuation exponent ∫ ds / L_α and the variation of the ray with ξ.
+#pragma once
+
+#include <array>
+#include <cstddef>
+
+#include "model/firn_model.hpp"
+#include "model/index_profile.hpp"
+
+namespace firnray {
+
+// Positions in the state arrays. Every component is in metres (or dimensionless), so that one
+// pair of relative/absolute tolerances fits them all: time is carried as the optical path c·T.
+namespace ray_state {
+inline constexpr std::size_t x = 0;             // horizontal position (m)
+inline constexpr std::size_t z = 1;             // height, up positive (m)
+inline constexpr std::size_t px = 2;            // p = n · (unit direction); p_x = ξ is invariant
+inline constexpr std::size_t pz = 3;
+inline constexpr std::size_t optical_path = 4;  // c·T (m)
+inline constexpr std::size_t length = 5;        // arc length s (m)
+inline constexpr std::size_t attenuation = 6;   // ∫ ds / L_α (0 without attenuation)
+inline constexpr std::size_t size = 7;
+// Variational part: derivatives of (x, z, p_z) with respect to ξ at fixed σ (∂p_x/∂ξ = 1).
+inline constexpr std::size_t dx_dxi = 7;
+inline constexpr std::size_t dz_dxi = 8;
+inline constexpr std::size_t dpz_dxi = 9;
+inline constexpr std::size_t size_with_variation = 10;
+}  // namespace ray_state
+
+using RayState = std::array<double, ray_state::size>;
+using RayStateWithVariation = std::array<double, ray_state::size_with_variation>;
+
+// The system functor. Cheap to copy (holds pointers); the profile and attenuation must outlive it.
+class RayEquations {
+public:
+    // attenuation may be null (no attenuation: the exponent stays 0).
+    RayEquations(const IndexProfile& profile, const AttenuationProfile* attenuation)
+        : profile_(&profile), attenuation_(attenuation) {
+        profile.index_and_gradient(0.0, n_surface_, gradient_surface_);
+    }
+
+    // n and dn/dz at z. Above the surface (where only the trial stages of a step that crosses
+    // z = 0 ever look) the profile is continued linearly, so the right-hand side stays
+    // continuous with a continuous first derivative in n across the step and the step
+    // controller is not misled by a kink.
+    void index_and_gradient(double z, double& n, double& dn_dz) const {
+        if (z > 0.0) {
+            n = n_surface_ + gradient_surface_ * z;
+            dn_dz = gradient_surface_;
+        } else {
+            profile_->index_and_gradient(z, n, dn_dz);
+        }
+    }
+
+    // d²n/dz² by a central difference of the gradient (the profile interface has no second
+    // derivative). Only the variational equations need it; the stencil stays inside the ice.
+    double curvature(double z) const {
+        constexpr double h = 1e-3;  // m: truncation ~h²·n''''/6 and rounding ~1e-16·n'/h are both tiny
+        const double centre = z > -h ? -h : z;
+        double n_up, g_up, n_down, g_down;
+        profile_->index_and_gradient(centre + h, n_up, g_up);
+        profile_->index_and_gradient(centre - h, n_down, g_down);
+        return (g_up - g_down) / (2.0 * h);
+    }
+
+    template <std::size_t N>
+    void operator()(const std::array<double, N>& y, std::array<double, N>& dy, double /*sigma*/) const {
+        static_assert(N == ray_state::size || N == ray_state::size_with_variation);
+        using namespace ray_state;
+        double n, dn_dz;
+        index_and_gradient(y[z], n, dn_dz);
+        dy[x] = y[px];
+        dy[z] = y[pz];
+        dy[px] = 0.0;
+        dy[pz] = n * dn_dz;
+        dy[optical_path] = n * n;
+        dy[length] = n;
+        dy[attenuation] = attenuation_ ? n / attenuation_->length_m(y[z] > 0.0 ? 0.0 : y[z]) : 0.0;
+        if constexpr (N == size_with_variation) {
+            // Linearised equations: d(δx)/dσ = δp_x = 1, d(δz)/dσ = δp_z,
+            // d(δp_z)/dσ = d(n n')/dz · δz = (n'² + n n'') δz.
+            const double second = y[z] > 0.0 ? 0.0 : curvature(y[z]);
+            dy[dx_dxi] = 1.0;
+            dy[dz_dxi] = y[dpz_dxi];
+            dy[dpz_dxi] = (dn_dz * dn_dz + n * second) * y[dz_dxi];
+        }
+    }
+
+private:
+    const IndexProfile* profile_;
+    const AttenuationProfile* attenuation_;
+    double n_surface_ = 1.0, gradient_surface_ = 0.0;
+};
+
+}  // namespace firnray
