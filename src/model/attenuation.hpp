@@ -2,6 +2,7 @@
 // exp(-∫ ds / L)): one length for the whole ice, or a table against depth.
 #pragma once
 
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -14,6 +15,7 @@ class ConstantAttenuation final : public AttenuationProfile {
 public:
     explicit ConstantAttenuation(double length_m);  // throws ModelInputError unless finite and > 0
     double length_m(double) const override { return length_m_; }
+    std::optional<double> constant_length_m() const override { return length_m_; }
     std::string describe() const override;
     double length() const { return length_m_; }
 

@@ -47,8 +47,9 @@ struct PathAmplitude {
     // n_source·√((r/ξ)·|∂r/∂ξ|·|cos θ0 cos θr|), with the limits ξ → 0 (vertical) and
     // ∂r/∂ξ → ∞ (horizontal at an end) taken analytically.
     double spreading_distance_m = 0.0;
-    // ∂r/∂θ0 → 0: L_eff vanishes and ray theory gives no amplitude. Set when L_eff <= 1e-6 × the
-    // path length (or when the spreading cannot be computed); field_s/p are then NaN.
+    // ∂r/∂θ0 → 0: L_eff vanishes and ray theory gives no amplitude. Set when L_eff <= 1e-3 × the
+    // path length, a focusing gain above 1000 (or when the spreading cannot be computed);
+    // field_s/p are then NaN. L_eff itself is still reported.
     bool caustic = false;
     double attenuation_factor = 1.0;  // exp(−Σ attenuation exponents); 1 without an attenuation model
     std::complex<double> field_s{0.0, 0.0}, field_p{0.0, 0.0};

@@ -17,7 +17,9 @@
 #include "core/errors.hpp"
 #include "paths/find_paths.hpp"
 #include "solver/closed_form_solver.hpp"
+#include "solver/numeric_solver.hpp"
 #include "support/straight_line_solver.hpp"
+#include "support/test_profiles.hpp"
 
 using namespace firnray;
 
@@ -594,5 +596,79 @@ TEST_CASE("paths: no root is missed, the paths of each family match the sign cha
         CHECK(found_direct == expected_direct);
         CHECK(found_reflected == expected_reflected);
         CHECK(found_refracted == expected_refracted);
+    }
+}
+
+TEST_CASE("paths: on the numeric solver (ODE of notes §3) the paths agree with those of the closed form (§4), and "
+          "on a two-stage profile only it can handle they obey reciprocity",
+          "[paths][numeric]") {
+    auto model = firn_model();
+    model->bottom = Bottom{-900.0, 0.3};
+    const ClosedFormSolver closed(model);
+    const NumericSolver numeric(model);
+    for (const auto& [zs, zr, r] : {std::tuple{-100.0, -20.0, 150.0}, std::tuple{-100.0, -20.0, 224.0},
+                                    std::tuple{-30.0, -30.0, 70.0}, std::tuple{-60.0, 4.0, 90.0}}) {
+        const auto a = find_paths(closed, {0, 0, zs}, {r, 0, zr});
+        const auto b = find_paths(numeric, {0, 0, zs}, {r, 0, zr});
+        INFO(zs << " -> " << zr << " at " << r);
+        REQUIRE(a.size() == b.size());
+        for (std::size_t i = 0; i < a.size(); ++i) {
+            CHECK(a[i].kind == b[i].kind);
+            CHECK(b[i].time_s == Approx(a[i].time_s).epsilon(1e-9));
+            CHECK(b[i].ray_parameter == Approx(a[i].ray_parameter).epsilon(1e-9));
+            CHECK(b[i].amplitude.spreading_distance_m == Approx(a[i].amplitude.spreading_distance_m).epsilon(1e-5));
+        }
+    }
+    auto layered = std::make_shared<FirnModel>();
+    layered->index = std::make_shared<test::TwoStageProfile>(1.78, 1.33, 25.0, -15.0, 45.0);
+    const NumericSolver solver(layered);
+    const auto forward = find_paths(solver, {0, 0, -80}, {120, 0, -10});
+    const auto backward = find_paths(solver, {120, 0, -10}, {0, 0, -80});
+    REQUIRE(forward.size() == backward.size());
+    REQUIRE(forward.size() >= 2u);
+    for (std::size_t i = 0; i < forward.size(); ++i) {
+        CHECK(forward[i].kind == backward[i].kind);
+        CHECK(forward[i].time_s == Approx(backward[i].time_s).epsilon(1e-10));
+        CHECK(std::abs(forward[i].amplitude.field_s) == Approx(std::abs(backward[i].amplitude.field_s)).epsilon(1e-4));
+    }
+}
+
+TEST_CASE("paths: towards a fold caustic (the largest distance of the refracted family) two refracted paths merge "
+          "and L_eff vanishes like (R_max − R)^{1/4} (fold caustic, Červený 2001); the flag is set, nothing is "
+          "divided by zero",
+          "[paths]") {
+    auto model = firn_model();
+    const ClosedFormSolver solver(model);
+    const double zs = -100.0, zr = -80.0, n_s = 1.35, n_hi = model->index->index(zr);
+    auto rising = [&](double xi) {
+        return -(solver.distance_to_turning(xi, zs).distance_m + solver.distance_to_turning(xi, zr).distance_m);
+    };
+    const auto [xi_fold, minus_r] = boost::math::tools::brent_find_minima(rising, n_s + 1e-6, n_hi - 1e-9, 60);
+    const double r_max = -minus_r;
+    REQUIRE(xi_fold > n_s + 1e-3);  // an interior maximum, not the grazing ray
+    auto refracted = [&](double r) {
+        std::vector<ConnectedPath> out;
+        for (const ConnectedPath& p : find_paths(solver, {0, 0, zs}, {r, 0, zr}))
+            if (p.kind == PathKind::refracted) out.push_back(p);
+        return out;
+    };
+    const auto far = refracted(r_max * (1 - 1e-4)), near = refracted(r_max * (1 - 1e-8));
+    REQUIRE(far.size() == 2u);
+    REQUIRE(near.size() == 2u);
+    for (int i = 0; i < 2; ++i) {
+        const double ratio = near[i].amplitude.spreading_distance_m / far[i].amplitude.spreading_distance_m;
+        CHECK(ratio == Approx(std::pow(1e-4, 0.25)).epsilon(0.05));
+        CHECK(near[i].ray_parameter == Approx(xi_fold).epsilon(1e-3));
+    }
+    CHECK(refracted(r_max * (1 + 1e-8)).empty());
+    // At the fold itself, whatever the root finder lands on is either a flagged caustic or finite.
+    for (const ConnectedPath& p : refracted(r_max)) {
+        CHECK(std::isfinite(p.amplitude.spreading_distance_m));
+        if (p.amplitude.spreading_distance_m <= 1e-3 * p.length_m) {
+            CHECK(p.amplitude.caustic);
+            CHECK(std::isnan(p.amplitude.field_s.real()));
+        } else {
+            CHECK(std::isfinite(std::abs(p.amplitude.field_s)));
+        }
     }
 }

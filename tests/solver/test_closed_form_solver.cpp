@@ -12,6 +12,7 @@
 
 #include "core/constants.hpp"
 #include "core/errors.hpp"
+#include "model/attenuation.hpp"
 #include "solver/closed_form_solver.hpp"
 
 using namespace firnray;
@@ -279,6 +280,10 @@ TEST_CASE("closed form: attenuation exponent s/L for a uniform length and ∫ ds
     const ClosedFormSolver uniform_solver(uniform);
     const Segment s = uniform_solver.segment(1.3, -250.0, -3.0);
     CHECK(s.attenuation_exponent == s.length_m / 900.0);
+    // The model files' constant length takes the same exact route.
+    auto from_file = exponential_model(f);
+    from_file->attenuation = std::make_shared<ConstantAttenuation>(900.0);
+    CHECK(ClosedFormSolver(from_file).segment(1.3, -250.0, -3.0).attenuation_exponent == s.length_m / 900.0);
 
     auto linear = exponential_model(f);
     linear->attenuation = std::make_shared<LinearAttenuation>();
