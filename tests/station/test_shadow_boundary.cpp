@@ -109,7 +109,7 @@ TEST_CASE("arrival table times agree with exact root finding on the closed form 
 
 #include "station/visibility_map.hpp"
 
-TEST_CASE("--min-receivers on a small station whose answer is known by hand", "[station][visibility]") {
+TEST_CASE("visibility map: --min-receivers on a small station whose answer is known by hand", "[station][visibility]") {
     // Three receivers at one depth on the x axis, at x = 0, 150 and 300 m. A source at distance r
     // along +x from the centre (x = 150 m) and depth d is seen by receiver k exactly when its
     // horizontal distance |150 + r − x_k| is within the single-receiver reach B(d). So by hand:
