@@ -17,6 +17,8 @@ struct CommandSlot {
 void add_profile_command(CLI::App& app, CommandSlot& slot);
 // firnray trace: a fan of rays from a point, with surface and bottom interactions.
 void add_trace_command(CLI::App& app, CommandSlot& slot);
+// firnray connect: every path between a source and a receiver, or a CSV batch of pairs.
+void add_connect_command(CLI::App& app, CommandSlot& slot);
 // firnray shadow: shadow and visibility maps of source positions for a receiver or a station.
 void add_shadow_command(CLI::App& app, CommandSlot& slot);
 // firnray depths: receiver-depth scan of visible volume and time between paths.

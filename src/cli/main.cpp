@@ -21,6 +21,7 @@ int main(int argc, char** argv) {
     // Commands register here (one line each).
     add_profile_command(app, slot);
     add_trace_command(app, slot);
+    add_connect_command(app, slot);
     add_shadow_command(app, slot);
     add_depths_command(app, slot);
     add_delays_command(app, slot);

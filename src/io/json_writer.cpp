@@ -1,15 +1,26 @@
 #include "io/json_writer.hpp"
 
+#include <algorithm>
 #include <cmath>
 
+#include <fmt/compile.h>
 #include <fmt/format.h>
 
 namespace firnray {
 
-std::string json_escape(std::string_view text) {
-    std::string out;
-    out.reserve(text.size() + 2);
+namespace {
+
+// Appends the quoted, escaped text (no temporary string: batches write many keys).
+void append_escaped(std::string& out, std::string_view text) {
     out += '"';
+    const bool plain = std::none_of(text.begin(), text.end(), [](char ch) {
+        return ch == '"' || ch == '\\' || static_cast<unsigned char>(ch) < 0x20;
+    });
+    if (plain) {
+        out += text;
+        out += '"';
+        return;
+    }
     for (const char ch : text) {
         switch (ch) {
             case '"': out += "\\\""; break;
@@ -25,6 +36,14 @@ std::string json_escape(std::string_view text) {
         }
     }
     out += '"';
+}
+
+}  // namespace
+
+std::string json_escape(std::string_view text) {
+    std::string out;
+    out.reserve(text.size() + 2);
+    append_escaped(out, text);
     return out;
 }
 
@@ -74,24 +93,27 @@ JsonWriter& JsonWriter::end_array() {
 }
 JsonWriter& JsonWriter::key(std::string_view name) {
     before_value();
-    out_ += json_escape(name);
+    append_escaped(out_, name);
     out_ += pretty_ ? ": " : ":";
     after_key_ = true;
     return *this;
 }
 JsonWriter& JsonWriter::value(double v) {
     before_value();
-    if (std::isfinite(v))
-        out_ += fmt::format("{}", v);  // shortest representation that round-trips
-    else
+    if (std::isfinite(v)) {
+        char text[32];  // the shortest round-trip form of a double needs at most 24 characters
+        const char* end = fmt::format_to(text, FMT_COMPILE("{}"), v);
+        out_.append(text, static_cast<std::size_t>(end - text));
+    } else {
         out_ += "null";
+    }
     return *this;
 }
 JsonWriter& JsonWriter::value(int v) { before_value(); out_ += std::to_string(v); return *this; }
 JsonWriter& JsonWriter::value(long v) { before_value(); out_ += std::to_string(v); return *this; }
 JsonWriter& JsonWriter::value(unsigned long v) { before_value(); out_ += std::to_string(v); return *this; }
 JsonWriter& JsonWriter::value(bool v) { before_value(); out_ += v ? "true" : "false"; return *this; }
-JsonWriter& JsonWriter::value(std::string_view v) { before_value(); out_ += json_escape(v); return *this; }
+JsonWriter& JsonWriter::value(std::string_view v) { before_value(); append_escaped(out_, v); return *this; }
 JsonWriter& JsonWriter::value(std::optional<double> v) { return v ? value(*v) : null(); }
 JsonWriter& JsonWriter::value(std::complex<double> v) {
     begin_array();

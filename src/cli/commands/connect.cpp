@@ -1,0 +1,116 @@
+// firnray connect: every ray path between a source and a receiver (direct, refracted, reflected,
+// transmitted through the surface, bottom-reflected) with its time, angles, length, ray parameter
+// and amplitude factors; one pair from the command line or a CSV batch of pairs.
+#include <memory>
+#include <string>
+
+#include <fmt/format.h>
+
+#include "cli/commands.hpp"
+#include "cli/common.hpp"
+#include "cli/exit_codes.hpp"
+#include "paths/pair_batch.hpp"
+#include "solver/make_solver.hpp"
+
+namespace firnray::cli {
+
+namespace {
+
+struct ConnectArguments {
+    std::string model_path, source, receiver, pairs_path;
+    std::string solver = "auto", format = "text", output = "-";
+    int max_bounces = PathOptions{}.max_bounces;
+    RunOptions run;
+};
+
+Point to_point(const Point3& p) { return {p.x_m, p.y_m, p.z_m}; }
+
+int run_connect(const ConnectArguments& args) {
+    const bool batch = !args.pairs_path.empty();
+    if (batch && (!args.source.empty() || !args.receiver.empty()))
+        throw UsageError("--pairs", "give either --pairs FILE.csv or --source with --receiver, not both");
+    if (!batch && args.source.empty() && args.receiver.empty())
+        throw UsageError("--source", "give --source X,Z and --receiver X,Z (or --pairs FILE.csv for a batch)");
+    if (!batch && args.source.empty()) throw UsageError("--source", "--receiver needs --source X,Z (m, z up)");
+    if (!batch && args.receiver.empty()) throw UsageError("--receiver", "--source needs --receiver X,Z (m, z up)");
+    // Points are checked before the model is read, so that a typo is reported as such.
+    const Point source = batch ? Point{} : to_point(parse_point(args.source, "--source"));
+    const Point receiver = batch ? Point{} : to_point(parse_point(args.receiver, "--receiver"));
+
+    const auto model = load_model_or_default(args.model_path);
+    const auto solver = make_solver(model, parse_solver_choice(args.solver));
+    PathOptions options;
+    options.max_bounces = args.max_bounces;
+    const PathFormat format = parse_path_format(args.format);
+    const PathOutputContext context{model->name.empty() ? model->index->describe() : model->name, solver->name()};
+
+    if (!batch) {
+        const auto paths = find_paths(*solver, source, receiver, options);
+        emit(args.output, format_paths(format, context, source, receiver, paths));
+        return exit_ok;
+    }
+    const auto pairs = read_path_pairs_file(args.pairs_path);
+    const BatchFormatter formatter(format, context, pairs);
+    const BatchRun run =
+        connect_batch(*solver, pairs, options, formatter, args.run.thread_count(), make_run_control(args.run, "connect"));
+    finish_progress(args.run);
+    emit(args.output, run.text);
+    if (run.failed > 0) {
+        fmt::print(stderr, "firnray: {} of {} pairs failed; their rows carry the error\n", run.failed, run.pairs);
+        return exit_partial;
+    }
+    return exit_ok;
+}
+
+}  // namespace
+
+void add_connect_command(CLI::App& app, CommandSlot& slot) {
+    auto args = std::make_shared<ConnectArguments>();
+    CLI::App* cmd = app.add_subcommand(
+        "connect",
+        "every ray path between a source and a receiver: kind, time, angles, length, ray parameter, amplitude;\n"
+        "one pair (--source, --receiver) or a CSV batch (--pairs).\n"
+        "Conventions: z is up (m), the surface is z = 0, the ice z < 0 and the air z > 0; angles are zenith angles\n"
+        "of the direction of travel (0 = up, 90 = horizontal, 180 = down); times in ns.");
+    add_model_option(cmd, args->model_path);
+    cmd->add_option("--source", args->source, "source point X,Z or X,Y,Z in metres (z up, ice z < 0)")->type_name("X,Z");
+    cmd->add_option("--receiver", args->receiver, "receiver point X,Z or X,Y,Z in metres (z up, ice z < 0)")
+        ->type_name("X,Z");
+    cmd->add_option("--pairs", args->pairs_path,
+                    "CSV batch of pairs: columns source_x_m, source_z_m, receiver_x_m, receiver_z_m, optional "
+                    "source_y_m, receiver_y_m and id")
+        ->type_name("FILE.csv");
+    cmd->add_option("--solver", args->solver, "auto (closed form for exponential models), closed, or numeric")
+        ->capture_default_str()
+        ->check(CLI::IsMember({"auto", "closed", "numeric"}));
+    cmd->add_option("--max-bounces", args->max_bounces,
+                    "most turns back at the surface, a turning point or the bottom per path (default 1: direct, "
+                    "refracted or reflected, and one bottom reflection when the model has a bottom)")
+        ->check(CLI::Range(0, 32));
+    cmd->add_option("--format", args->format, "text (a table for people), csv (one row per path) or json")
+        ->capture_default_str()
+        ->check(CLI::IsMember({"text", "csv", "json"}));
+    cmd->add_option("--output,-o", args->output, "output file, written whole or not at all (default: stdout)")
+        ->type_name("FILE");
+    add_run_options(cmd, args->run);
+    cmd->footer(R"(
+Paths are sorted by arrival time. Their kinds: direct (monotone in depth), refracted (turns below
+the surface), reflected (off the surface), transmitted (through the surface: one end in the air),
+bottom (off the model's bottom). Each has its time (ns), launch and arrival zenith angles (deg),
+arc length (m), ray parameter n sin(zenith), turning z (m), bounces, and amplitude factors: the
+Fresnel factors for s and p, the spreading distance L_eff (m) and the attenuation field factor.
+In 3-D (X,Y,Z) the horizontal distance is used and the azimuth (from +x toward +y) reported.
+No path at all means the receiver is in the shadow zone: "paths": [] in JSON, exit code 0.
+
+A batch (--pairs) gives each path a row carrying the input line of its pair; a pair in the shadow
+zone gets one row of kind "none", a bad row one row with the error, and the rest still runs (exit
+code 7 when any row failed). --threads does not change the output. See docs/connect.md.
+
+Examples:
+  firnray connect --source 300,-20 --receiver 0,-100
+  firnray connect --source 0,0,-150 --receiver 120,80,-30 --format json
+  firnray connect --pairs pairs.csv --format csv -o paths.csv)");
+    cmd->callback([args, &slot] { slot.run = [args] { return run_connect(*args); }; });
+}
+
+}  // namespace firnray::cli

@@ -1,0 +1,457 @@
+#include "paths/path_output.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <iterator>
+#include <limits>
+
+#include <fmt/compile.h>
+#include <fmt/format.h>
+
+#include "core/constants.hpp"
+#include "core/errors.hpp"
+#include "io/json_writer.hpp"
+
+namespace firnray {
+
+PathFormat parse_path_format(const std::string& text) {
+    if (text == "text") return PathFormat::text;
+    if (text == "csv") return PathFormat::csv;
+    if (text == "json") return PathFormat::json;
+    throw DataInputError(fmt::format("'{}' is not an output format (text, csv or json)", text), {"", 0, "format"});
+}
+
+namespace {
+
+constexpr const char* conventions =
+    "z up (m), surface z = 0, ice z < 0, air z > 0; zenith angles of the direction of travel (0 up, 90 horizontal, "
+    "180 down); azimuth from +x toward +y; times in ns; complex numbers as [re, im]; fresnel_s/p: product of the "
+    "interface factors of the path; spreading_m: L_eff; attenuation: field factor; field_s/p = fresnel x flux_factor "
+    "x attenuation / spreading_m, relative to the field at 1 m from the source";
+
+struct Geometry {
+    double distance_m = 0.0, azimuth_deg = 0.0;
+};
+
+// The same definition as find_paths: atan2(Δy, Δx), 0 for a vertical pair.
+Geometry geometry(const Point& source, const Point& receiver) {
+    const double dx = receiver.x - source.x, dy = receiver.y - source.y;
+    const double r = std::hypot(dx, dy);
+    return {r, r > 0.0 ? rad_to_deg(std::atan2(dy, dx)) : 0.0};
+}
+
+// Everything is formatted into a fmt buffer (growing on the stack first) with format strings
+// compiled in: a batch writes tens of numbers per path, and this is where its time goes.
+using Buffer = fmt::memory_buffer;
+
+void put(Buffer& out, std::string_view text) { out.append(text.data(), text.data() + text.size()); }
+void put(Buffer& out, char c) { out.push_back(c); }
+void put_repeated(Buffer& out, std::size_t count, char c) {
+    for (std::size_t i = 0; i < count; ++i) out.push_back(c);
+}
+
+constexpr double half_unit(int digits) { return digits <= 0 ? 0.5 : 0.1 * half_unit(digits - 1); }
+
+// Fixed-point text of a finite number, without a "-0.000" for values that round to zero;
+// non-finite values are left out (an empty CSV field).
+template <int Digits>
+void fixed(Buffer& out, double value) {
+    if (!std::isfinite(value)) return;
+    if (std::abs(value) < half_unit(Digits)) value = 0.0;
+    if constexpr (Digits == 2) fmt::format_to(fmt::appender(out), FMT_COMPILE("{:.2f}"), value);
+    else if constexpr (Digits == 3) fmt::format_to(fmt::appender(out), FMT_COMPILE("{:.3f}"), value);
+    else if constexpr (Digits == 4) fmt::format_to(fmt::appender(out), FMT_COMPILE("{:.4f}"), value);
+    else if constexpr (Digits == 5) fmt::format_to(fmt::appender(out), FMT_COMPILE("{:.5f}"), value);
+    else if constexpr (Digits == 6) fmt::format_to(fmt::appender(out), FMT_COMPILE("{:.6f}"), value);
+    else if constexpr (Digits == 8) fmt::format_to(fmt::appender(out), FMT_COMPILE("{:.8f}"), value);
+    else if constexpr (Digits == 10) fmt::format_to(fmt::appender(out), FMT_COMPILE("{:.10f}"), value);
+    else static_assert(Digits == 3, "add the format string for this precision");
+}
+
+void significant(Buffer& out, double value) {
+    if (!std::isfinite(value)) return;
+    fmt::format_to(fmt::appender(out), FMT_COMPILE("{:.9g}"), value + 0.0);
+}
+
+void integer(Buffer& out, long value) { fmt::format_to(fmt::appender(out), FMT_COMPILE("{}"), value); }
+
+// ---- CSV ------------------------------------------------------------------------------------
+
+constexpr std::string_view csv_path_columns =
+    "path,kind,time_ns,launch_zenith_deg,arrival_zenith_deg,length_m,ray_parameter,turning_z_m,turning_points,"
+    "surface_bounces,bottom_bounces,horizontal_distance_m,azimuth_deg,fresnel_s_re,fresnel_s_im,fresnel_p_re,"
+    "fresnel_p_im,flux_factor,spreading_m,attenuation,field_s_re,field_s_im,field_p_re,field_p_im,caustic";
+constexpr std::size_t csv_path_column_count = 25;
+
+void csv_text(Buffer& out, std::string_view text) {
+    if (text.find_first_of(",\"\n\r") == std::string_view::npos) {
+        put(out, text);
+        return;
+    }
+    put(out, '"');
+    for (const char c : text) {
+        if (c == '"') put(out, "\"\"");
+        else put(out, (c == '\n' || c == '\r') ? ' ' : c);
+    }
+    put(out, '"');
+}
+
+// The 25 path columns, without a leading or trailing separator.
+void csv_path(Buffer& out, std::size_t rank, const ConnectedPath& p, const Geometry& g) {
+    integer(out, static_cast<long>(rank));
+    put(out, ',');
+    put(out, to_string(p.kind));
+    put(out, ',');
+    fixed<6>(out, p.time_s * seconds_to_ns);
+    put(out, ',');
+    fixed<8>(out, rad_to_deg(p.launch_zenith_rad));
+    put(out, ',');
+    fixed<8>(out, rad_to_deg(p.arrival_zenith_rad));
+    put(out, ',');
+    fixed<6>(out, p.length_m);
+    put(out, ',');
+    fixed<10>(out, p.ray_parameter);
+    put(out, ',');
+    if (p.turning_z_m) fixed<6>(out, *p.turning_z_m);
+    for (const int count : {p.turning_points, p.surface_bounces, p.bottom_bounces}) {
+        put(out, ',');
+        integer(out, count);
+    }
+    put(out, ',');
+    fixed<6>(out, g.distance_m);
+    put(out, ',');
+    fixed<8>(out, g.azimuth_deg);
+    const PathAmplitude& a = p.amplitude;
+    for (const double v : {a.interface_s.real(), a.interface_s.imag(), a.interface_p.real(), a.interface_p.imag(),
+                           a.flux_factor, a.spreading_distance_m, a.attenuation_factor, a.field_s.real(),
+                           a.field_s.imag(), a.field_p.real(), a.field_p.imag()}) {
+        put(out, ',');
+        significant(out, v);
+    }
+    put(out, a.caustic ? ",true" : ",false");
+}
+
+// A row saying that a pair has no path: kind "none", with the pair's distance and azimuth.
+void csv_no_path(Buffer& out, const Geometry& g) {
+    put(out, "0,none");
+    put_repeated(out, 10, ',');  // time_ns .. bottom_bounces stay empty
+    fixed<6>(out, g.distance_m);
+    put(out, ',');
+    fixed<8>(out, g.azimuth_deg);
+    put_repeated(out, csv_path_column_count - 13, ',');
+}
+
+std::string single_csv(const Point& source, const Point& receiver, const std::vector<ConnectedPath>& paths) {
+    Buffer out;
+    put(out, csv_path_columns);
+    put(out, '\n');
+    const Geometry g = geometry(source, receiver);
+    for (std::size_t i = 0; i < paths.size(); ++i) {
+        csv_path(out, i + 1, paths[i], g);
+        put(out, '\n');
+    }
+    return fmt::to_string(out);
+}
+
+// ---- JSON -----------------------------------------------------------------------------------
+
+void json_point(JsonWriter& json, const char* name, const Point& p) {
+    json.key(name).begin_object().field("x_m", p.x).field("y_m", p.y).field("z_m", p.z).end_object();
+}
+
+void json_path(JsonWriter& json, const ConnectedPath& p) {
+    json.begin_object();
+    json.field("kind", to_string(p.kind));
+    json.field("time_ns", p.time_s * seconds_to_ns);
+    json.field("launch_zenith_deg", rad_to_deg(p.launch_zenith_rad));
+    json.field("arrival_zenith_deg", rad_to_deg(p.arrival_zenith_rad));
+    json.field("length_m", p.length_m);
+    json.field("ray_parameter", p.ray_parameter);
+    json.field("turning_z_m", p.turning_z_m);
+    json.field("turning_points", p.turning_points);
+    json.field("surface_bounces", p.surface_bounces);
+    json.field("bottom_bounces", p.bottom_bounces);
+    json.field("crosses_surface", p.crosses_surface);
+    const PathAmplitude& a = p.amplitude;
+    json.key("amplitude").begin_object();
+    json.field("fresnel_s", a.interface_s);
+    json.field("fresnel_p", a.interface_p);
+    json.field("flux_factor", a.flux_factor);
+    json.field("spreading_m", a.spreading_distance_m);
+    json.field("attenuation", a.attenuation_factor);
+    json.field("attenuation_exponent", p.attenuation_exponent);
+    json.field("field_s", a.field_s);
+    json.field("field_p", a.field_p);
+    json.field("caustic", a.caustic);
+    json.end_object();
+    json.key("events").begin_array();
+    for (const PathEvent& e : p.events)
+        json.begin_object().field("kind", to_string(e.kind)).field("offset_m", e.offset_m).field("z_m", e.z_m).end_object();
+    json.end_array();
+    json.end_object();
+}
+
+// The members a pair object shares between the single-pair output and a batch.
+void json_pair_members(JsonWriter& json, const Point& source, const Point& receiver,
+                       const std::vector<ConnectedPath>& paths) {
+    const Geometry g = geometry(source, receiver);
+    json_point(json, "source", source);
+    json_point(json, "receiver", receiver);
+    json.field("horizontal_distance_m", g.distance_m);
+    json.field("azimuth_deg", g.azimuth_deg);
+    json.key("paths").begin_array();
+    for (const ConnectedPath& p : paths) json_path(json, p);
+    json.end_array();
+}
+
+std::string single_json(const PathOutputContext& context, const Point& source, const Point& receiver,
+                        const std::vector<ConnectedPath>& paths) {
+    JsonWriter json;
+    json.begin_object();
+    json.field("model", context.model_name);
+    json.field("solver", context.solver_name);
+    json.field("conventions", conventions);
+    json_pair_members(json, source, receiver, paths);
+    json.end_object();
+    return json.str() + "\n";
+}
+
+// ---- text -----------------------------------------------------------------------------------
+
+struct TextColumn {
+    std::string_view heading;
+    std::size_t width;
+    bool left = false;
+};
+
+// Each column is as wide as its heading or its widest usual value, whichever is wider; wider
+// values push the rest of their row to the right rather than being cut.
+constexpr TextColumn text_columns[] = {
+    {"path", 4},           {"kind", 11, true},   {"time (ns)", 15},   {"launch (deg)", 12},
+    {"arrival (deg)", 13}, {"length (m)", 11},   {"ray param.", 10},  {"turning z (m)", 13},
+    {"bounces s/b", 11},   {"L_eff (m)", 11},    {"atten.", 8},       {"|F_s|", 7},
+    {"arg F_s (deg)", 13}, {"|F_p|", 7},         {"arg F_p (deg)", 13}, {"note", 4, true},
+};
+constexpr std::size_t text_column_count = std::size(text_columns);
+enum TextColumnIndex : std::size_t {
+    c_path, c_kind, c_time, c_launch, c_arrival, c_length, c_ray, c_turning, c_bounces, c_spreading,
+    c_attenuation, c_fs, c_arg_fs, c_fp, c_arg_fp, c_note,
+};
+
+// Writes `text` into a field of the column's width; columns are separated by two spaces.
+void text_cell(Buffer& out, std::size_t column, std::string_view text) {
+    const TextColumn& c = text_columns[column];
+    if (column > 0) put(out, "  ");
+    const std::size_t pad = text.size() < c.width ? c.width - text.size() : 0;
+    if (!c.left) put_repeated(out, pad, ' ');
+    put(out, text);
+    if (c.left && column + 1 < text_column_count) put_repeated(out, pad, ' ');
+}
+
+// A right-aligned fixed-point number ("-" when not finite).
+template <int Digits>
+void text_number(Buffer& out, std::size_t column, double value) {
+    if (!std::isfinite(value)) {
+        text_cell(out, column, "-");
+        return;
+    }
+    Buffer number;
+    fixed<Digits>(number, value);
+    text_cell(out, column, std::string_view(number.data(), number.size()));
+}
+
+void text_heading(Buffer& out) {
+    for (std::size_t c = 0; c < text_column_count; ++c) text_cell(out, c, text_columns[c].heading);
+}
+
+double phase_deg(std::complex<double> v) { return std::abs(v) > 0.0 ? rad_to_deg(std::arg(v)) : 0.0; }
+
+// Columns "path" to "note" of one path (no newline).
+void text_path(Buffer& out, std::size_t rank, const ConnectedPath& p) {
+    Buffer cell;
+    integer(cell, static_cast<long>(rank));
+    text_cell(out, c_path, std::string_view(cell.data(), cell.size()));
+    text_cell(out, c_kind, to_string(p.kind));
+    text_number<6>(out, c_time, p.time_s * seconds_to_ns);
+    text_number<6>(out, c_launch, rad_to_deg(p.launch_zenith_rad));
+    text_number<6>(out, c_arrival, rad_to_deg(p.arrival_zenith_rad));
+    text_number<3>(out, c_length, p.length_m);
+    text_number<6>(out, c_ray, p.ray_parameter);
+    text_number<3>(out, c_turning, p.turning_z_m.value_or(std::numeric_limits<double>::quiet_NaN()));
+    cell.clear();
+    integer(cell, p.surface_bounces);
+    put(cell, '/');
+    integer(cell, p.bottom_bounces);
+    text_cell(out, c_bounces, std::string_view(cell.data(), cell.size()));
+    const PathAmplitude& a = p.amplitude;
+    text_number<3>(out, c_spreading, a.spreading_distance_m);
+    text_number<5>(out, c_attenuation, a.attenuation_factor);
+    text_number<4>(out, c_fs, std::abs(a.interface_s));
+    text_number<2>(out, c_arg_fs, phase_deg(a.interface_s));
+    text_number<4>(out, c_fp, std::abs(a.interface_p));
+    text_number<2>(out, c_arg_fp, phase_deg(a.interface_p));
+    if (a.caustic) put(out, "  caustic");
+}
+
+constexpr std::string_view text_notes =
+    "Angles: zenith angle of the direction of travel (0 up, 90 horizontal, 180 down); z is up, the surface is z = 0.\n"
+    "bounces s/b: reflections at the surface / at the bottom. L_eff: geometric spreading distance (field ~ 1/L_eff).\n"
+    "atten.: field factor of absorption. F_s, F_p: product of the interface (Fresnel) factors of the path for s and p\n"
+    "polarisation, as magnitude and phase. caustic: the spreading vanishes, ray theory gives no amplitude there.\n";
+
+std::string describe_solver(const std::string& name) {
+    if (name == "closed") return "closed (closed form of the exponential profile)";
+    if (name == "numeric") return "numeric (integrated ray equations)";
+    return name;
+}
+
+std::string single_text(const PathOutputContext& context, const Point& source, const Point& receiver,
+                        const std::vector<ConnectedPath>& paths) {
+    Buffer out;
+    const Geometry g = geometry(source, receiver);
+    fmt::format_to(fmt::appender(out), "model:    {}\nsolver:   {}\n", context.model_name,
+                   describe_solver(context.solver_name));
+    fmt::format_to(fmt::appender(out), "source:   x = {} m, y = {} m, z = {} m\nreceiver: x = {} m, y = {} m, z = {} m\n",
+                   source.x, source.y, source.z, receiver.x, receiver.y, receiver.z);
+    fmt::format_to(fmt::appender(out), "horizontal distance {:.3f} m, azimuth {:.2f} deg (from +x toward +y)\n\n",
+                   g.distance_m, g.azimuth_deg + 0.0);
+    if (paths.empty()) {
+        put(out, "No path joins the source and the receiver: the receiver is in the shadow zone of the source.\n");
+        return fmt::to_string(out);
+    }
+    fmt::format_to(fmt::appender(out), "{} path{}, in order of arrival:\n\n", paths.size(), paths.size() == 1 ? "" : "s");
+    text_heading(out);
+    put(out, '\n');
+    for (std::size_t i = 0; i < paths.size(); ++i) {
+        text_path(out, i + 1, paths[i]);
+        put(out, '\n');
+    }
+    put(out, '\n');
+    put(out, text_notes);
+    return fmt::to_string(out);
+}
+
+}  // namespace
+
+std::string format_paths(PathFormat format, const PathOutputContext& context, const Point& source,
+                         const Point& receiver, const std::vector<ConnectedPath>& paths) {
+    switch (format) {
+        case PathFormat::text: return single_text(context, source, receiver, paths);
+        case PathFormat::csv: return single_csv(source, receiver, paths);
+        case PathFormat::json: return single_json(context, source, receiver, paths);
+    }
+    return {};
+}
+
+// ---- batches --------------------------------------------------------------------------------
+
+BatchFormatter::BatchFormatter(PathFormat format, PathOutputContext context, const std::vector<PathPair>& pairs)
+    : format_(format), context_(std::move(context)) {
+    for (const PathPair& p : pairs) id_width_ = std::max(id_width_, p.id.size());
+    id_width_ = std::min<std::size_t>(id_width_, 40);  // longer ids push their row out rather than every row
+}
+
+std::string BatchFormatter::begin() const {
+    Buffer out;
+    switch (format_) {
+        case PathFormat::text:
+            fmt::format_to(fmt::appender(out), "model:  {}\nsolver: {}\n\n{:>6}  {:<{}}  ", context_.model_name,
+                           describe_solver(context_.solver_name), "line", "id", id_width_);
+            text_heading(out);
+            put(out, '\n');
+            break;
+        case PathFormat::csv:
+            put(out, "input_line,id,");
+            put(out, csv_path_columns);
+            put(out, ",error\n");
+            break;
+        case PathFormat::json:
+            fmt::format_to(fmt::appender(out), "{{\n  \"model\": {},\n  \"solver\": {},\n  \"conventions\": {},\n  \"pairs\": [",
+                           json_escape(context_.model_name), json_escape(context_.solver_name), json_escape(conventions));
+            break;
+    }
+    return fmt::to_string(out);
+}
+
+void BatchFormatter::append_pair(std::string& text, std::size_t index, const PathPair& pair,
+                                 const PairPaths& result) const {
+    const std::string& error = pair.error.empty() ? result.error : pair.error;
+    Buffer out;
+    switch (format_) {
+        case PathFormat::text: {
+            const auto head = [&] {
+                fmt::format_to(fmt::appender(out), FMT_COMPILE("{:>6}  "), pair.input_line);
+                put(out, pair.id);
+                put_repeated(out, pair.id.size() < id_width_ ? id_width_ - pair.id.size() : 0, ' ');
+                put(out, "  ");
+            };
+            if (!error.empty()) {
+                head();
+                fmt::format_to(fmt::appender(out), "{:>4}  error: {}\n", "-", error);
+            } else if (result.paths.empty()) {
+                head();
+                fmt::format_to(fmt::appender(out), "{:>4}  {:<11}  (no path: the receiver is in the shadow zone)\n", "-",
+                               "none");
+            } else {
+                for (std::size_t i = 0; i < result.paths.size(); ++i) {
+                    head();
+                    text_path(out, i + 1, result.paths[i]);
+                    put(out, '\n');
+                }
+            }
+            break;
+        }
+        case PathFormat::csv: {
+            const auto head = [&] {
+                integer(out, pair.input_line);
+                put(out, ',');
+                csv_text(out, pair.id);
+                put(out, ',');
+            };
+            const Geometry g = geometry(pair.source, pair.receiver);
+            if (!error.empty()) {
+                head();
+                put_repeated(out, csv_path_column_count, ',');
+                csv_text(out, error);
+                put(out, '\n');
+            } else if (result.paths.empty()) {
+                head();
+                csv_no_path(out, g);
+                put(out, ",\n");
+            } else {
+                for (std::size_t i = 0; i < result.paths.size(); ++i) {
+                    head();
+                    csv_path(out, i + 1, result.paths[i], g);
+                    put(out, ",\n");
+                }
+            }
+            break;
+        }
+        case PathFormat::json: {
+            JsonWriter json(false);
+            json.begin_object();
+            json.field("input_line", pair.input_line);
+            json.field("id", pair.id);
+            if (!error.empty()) json.field("error", error);
+            else json_pair_members(json, pair.source, pair.receiver, result.paths);
+            json.end_object();
+            put(out, index == 0 ? "\n    " : ",\n    ");
+            put(out, json.str());
+            break;
+        }
+    }
+    text.append(out.data(), out.size());
+}
+
+std::string BatchFormatter::end(std::size_t pairs, std::size_t failed) const {
+    switch (format_) {
+        case PathFormat::text:
+            return fmt::format("\n{} pair{}, {} failed.\n{}", pairs, pairs == 1 ? "" : "s", failed, text_notes);
+        case PathFormat::csv: return {};
+        case PathFormat::json:
+            return fmt::format("{}],\n  \"pairs_failed\": {}\n}}\n", pairs == 0 ? "" : "\n  ", failed);
+    }
+    return {};
+}
+
+}  // namespace firnray

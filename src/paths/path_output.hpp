@@ -1,0 +1,80 @@
+// Writing the paths between sources and receivers (find_paths results) for people and programs:
+// an aligned text table, CSV with one row per path, or JSON. Used for one pair and, piece by
+// piece, for batches (paths/pair_batch.hpp), where each pair's piece is made on its own so that
+// pieces can be formatted in parallel and joined in input order.
+#pragma once
+
+#include <cstddef>
+#include <string>
+#include <vector>
+
+#include "paths/connected_path.hpp"
+#include "paths/find_paths.hpp"
+
+namespace firnray {
+
+enum class PathFormat { text, csv, json };
+
+// "text", "csv" or "json"; throws DataInputError otherwise.
+PathFormat parse_path_format(const std::string& text);
+
+// What every output names: the model and the solver that made the paths.
+struct PathOutputContext {
+    std::string model_name;
+    std::string solver_name;  // "closed" or "numeric"
+};
+
+// One source-receiver pair of a batch: where it came from and where its ends are. A pair whose
+// input row could not be read carries the reason in `error` and no usable points.
+struct PathPair {
+    int input_line = 0;  // line of the input file (1-based; the header is a line too)
+    std::string id;      // from the optional id column; may be empty
+    Point source, receiver;
+    std::string error;
+};
+
+// The outcome for one pair: its paths (sorted by time, empty in the shadow zone) or why it failed.
+struct PairPaths {
+    std::vector<ConnectedPath> paths;
+    std::string error;
+};
+
+// One pair given on its own (the command line).
+//   text: a header naming the model, solver, ends, distance and azimuth, then an aligned table with
+//         units in the headings, or a line saying that the pair is in the shadow zone.
+//   csv:  a header line and one row per path (no row in the shadow zone). Columns: path, kind,
+//         time_ns, launch_zenith_deg, arrival_zenith_deg, length_m, ray_parameter, turning_z_m,
+//         turning_points, surface_bounces, bottom_bounces, horizontal_distance_m, azimuth_deg,
+//         fresnel_s_re, fresnel_s_im, fresnel_p_re, fresnel_p_im, flux_factor, spreading_m,
+//         attenuation, field_s_re, field_s_im, field_p_re, field_p_im, caustic.
+//   json: one object with model, solver, conventions, source, receiver, horizontal_distance_m,
+//         azimuth_deg and an array `paths` (see docs/connect.md).
+std::string format_paths(PathFormat format, const PathOutputContext& context, const Point& source,
+                         const Point& receiver, const std::vector<ConnectedPath>& paths);
+
+// A batch is written as begin + one piece per pair, in input order + end.
+//   text: an aligned table whose rows start with the input line and id; a pair in the shadow zone
+//         has one row of kind "none", a failed pair one row "error" with the reason.
+//   csv:  columns input_line, id, then the single-pair columns, then error; shadow-zone pairs
+//         have one row of kind "none", failed pairs one row with only input_line, id and error.
+//   json: {model, solver, conventions, pairs: [...], pairs_failed}; each pair on one line, shaped
+//         like the single-pair object (input_line and id added, `error` instead of the paths).
+class BatchFormatter {
+public:
+    // The pairs are needed up front only to size the id column of the text table.
+    BatchFormatter(PathFormat format, PathOutputContext context, const std::vector<PathPair>& pairs);
+
+    std::string begin() const;
+    // Appends the piece of pair `index` (0-based position in the batch) to `out`. Thread-safe.
+    void append_pair(std::string& out, std::size_t index, const PathPair& pair, const PairPaths& result) const;
+    std::string end(std::size_t pairs, std::size_t failed) const;
+
+    PathFormat format() const { return format_; }
+
+private:
+    PathFormat format_;
+    PathOutputContext context_;
+    std::size_t id_width_ = 2;
+};
+
+}  // namespace firnray
