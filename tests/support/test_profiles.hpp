@@ -2,9 +2,11 @@
 // and the solvers against outside references. Not part of the library.
 #pragma once
 
+#include <algorithm>
 #include <cmath>
 #include <string>
 
+#include "core/constants.hpp"
 #include "model/firn_model.hpp"
 #include "model/index_profile.hpp"
 
@@ -48,6 +50,27 @@ public:
 
 private:
     double mean_, amplitude_, scale_;
+};
+
+// A linear velocity gradient v(z) = v_surface + g z, n = c / v (g > 0: slower, denser below).
+// Rays are circular arcs centred on the line v = 0 and the time between two points a distance d
+// apart is T = arccosh(1 + g²d²/(2 v1 v2))/|g| (Shearer, Introduction to Seismology; Červený 2001).
+class LinearVelocityProfile final : public IndexProfile {
+public:
+    LinearVelocityProfile(double v_surface, double g) : v_surface_(v_surface), g_(g) {}
+    double velocity(double z) const { return v_surface_ + g_ * z; }
+    double index(double z) const override { return speed_of_light / velocity(std::min(z, 0.0)); }
+    double gradient(double z) const override {
+        const double v = velocity(std::min(z, 0.0));
+        return -speed_of_light * g_ / (v * v);
+    }
+    std::string kind() const override { return "test"; }
+    std::string describe() const override { return "test: linear velocity gradient"; }
+    double v_surface() const { return v_surface_; }
+    double g() const { return g_; }
+
+private:
+    double v_surface_, g_;
 };
 
 class ConstantAttenuation final : public AttenuationProfile {

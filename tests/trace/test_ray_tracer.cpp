@@ -14,28 +14,10 @@
 #include "trace/ray_tracer.hpp"
 
 using namespace firnray;
+using firnray::test::LinearVelocityProfile;
 using firnray::test::model_with;
 
 namespace {
-
-// Test-only profile: a linear velocity gradient v(z) = v_surface + g z, n = c / v.
-class LinearVelocityProfile final : public IndexProfile {
-public:
-    LinearVelocityProfile(double v_surface, double g) : v_surface_(v_surface), g_(g) {}
-    double velocity(double z) const { return v_surface_ + g_ * z; }
-    double index(double z) const override { return speed_of_light / velocity(std::min(z, 0.0)); }
-    double gradient(double z) const override {
-        const double v = velocity(std::min(z, 0.0));
-        return -speed_of_light * g_ / (v * v);
-    }
-    std::string kind() const override { return "test"; }
-    std::string describe() const override { return "test: linear velocity gradient"; }
-    double v_surface() const { return v_surface_; }
-    double g() const { return g_; }
-
-private:
-    double v_surface_, g_;
-};
 
 std::shared_ptr<FirnModel> exponential_model() {
     return model_with(std::make_shared<ExponentialProfile>(1.78, 1.35, 40.0));

@@ -1,0 +1,145 @@
+// Batches of source-receiver pairs (paths/pair_batch.hpp) and, through find_paths on the numeric
+// solver, the linear-velocity-gradient closed form of seismology (Shearer, Introduction to
+// Seismology; Červený 2001). The edge cases of single pairs are in test_find_paths.cpp.
+#include <catch2/catch.hpp>
+
+#include <atomic>
+#include <cmath>
+#include <memory>
+#include <string>
+
+#include "core/constants.hpp"
+#include "core/errors.hpp"
+#include "paths/pair_batch.hpp"
+#include "solver/closed_form_solver.hpp"
+#include "solver/numeric_solver.hpp"
+#include "support/test_profiles.hpp"
+
+using namespace firnray;
+
+TEST_CASE("paths in a linear velocity gradient: the one direct or refracted path is the circular arc centred on "
+          "v = 0, with T = arccosh(1 + g²d²/(2 v1 v2))/|g| within 1 ps (Shearer, Introduction to Seismology; "
+          "Červený 2001)",
+          "[paths][numeric]") {
+    const double c = speed_of_light;
+    const double v_surface = c / 1.35, g = (c / 1.35 - c / 1.78) / 2000.0;  // (m/s)/m: slower with depth
+    auto profile = std::make_shared<test::LinearVelocityProfile>(v_surface, g);
+    const NumericSolver solver(test::model_with(profile));
+    const double z_centre = -v_surface / g;  // the line v = 0, where every ray's circle is centred
+    int refracted = 0, direct = 0;
+    for (const double z1 : {-40.0, -150.0, -600.0, -1200.0})
+        for (const double z2 : {-20.0, -300.0, -900.0})
+            for (const double d : {50.0, 400.0, 1500.0, 3000.0}) {
+                // The circle through both points with its centre on z = z_centre.
+                const double x_c = (d * d + (z2 - z_centre) * (z2 - z_centre) - (z1 - z_centre) * (z1 - z_centre)) / (2 * d);
+                const double radius = std::hypot(x_c, z1 - z_centre), top = z_centre + radius;
+                // The arc passes through the top of its circle when the centre lies between the
+                // ends; that ray exists only if it turns below the surface.
+                const bool through_top = x_c > 0.0 && x_c < d;
+                const auto paths = find_paths(solver, {0, 0, z1}, {d, 0, z2});
+                INFO("z1 " << z1 << ", z2 " << z2 << ", d " << d << ": arc top at z = " << top);
+                int arcs = 0;
+                for (const ConnectedPath& p : paths) {
+                    if (p.kind != PathKind::direct && p.kind != PathKind::refracted) continue;
+                    ++arcs;
+                    CHECK(p.kind == (through_top ? PathKind::refracted : PathKind::direct));
+                    if (through_top) {
+                        ++refracted;
+                        REQUIRE(p.turning_z_m);
+                        CHECK(*p.turning_z_m == Approx(top).margin(1e-6));
+                    } else {
+                        ++direct;
+                    }
+                    const double v1 = profile->velocity(z1), v2 = profile->velocity(z2);
+                    const double chord = std::hypot(d, z2 - z1);
+                    const double expected = std::acosh(1.0 + g * g * chord * chord / (2.0 * v1 * v2)) / g;
+                    CHECK(std::abs(p.time_s - expected) < 1e-12);
+                    // The ray leaves at right angles to the radius: tan(zenith) = |z − z_c| / |x − x_c|.
+                    const double launch = std::atan2(z1 - z_centre, x_c);
+                    CHECK(p.launch_zenith_rad == Approx(launch).margin(1e-9));
+                }
+                CHECK(arcs == (!through_top || top < 0.0 ? 1 : 0));
+            }
+    CHECK(refracted >= 2);
+    CHECK(direct >= 6);
+}
+
+TEST_CASE("pairs files: named columns, optional y and id, a bad row carries its error and line", "[paths]") {
+    const CsvTable table = parse_csv("# comment\n"
+                                     "receiver_z_m,receiver_x_m,source_z_m,source_x_m,source_y_m,id\n"
+                                     "-30,120,-150,0,5,first\n"
+                                     "\n"
+                                     "-30,x,-150,0,5,second\n"
+                                     "-30,120,-150\n"
+                                     "-30,120,-150,0,,empty y\n",
+                                     "pairs.csv");
+    const auto pairs = read_path_pairs(table);
+    REQUIRE(pairs.size() == 4u);
+    CHECK(pairs[0].input_line == 3);
+    CHECK(pairs[0].id == "first");
+    CHECK(pairs[0].error.empty());
+    CHECK(pairs[0].source.x == 0.0);
+    CHECK(pairs[0].source.y == 5.0);
+    CHECK(pairs[0].source.z == -150.0);
+    CHECK(pairs[0].receiver.x == 120.0);
+    CHECK(pairs[0].receiver.y == 0.0);  // no receiver_y_m column
+    CHECK(pairs[0].receiver.z == -30.0);
+    CHECK(pairs[1].input_line == 5);
+    CHECK(pairs[1].error.find("pairs.csv:5") != std::string::npos);
+    CHECK(pairs[1].error.find("receiver_x_m") != std::string::npos);
+    CHECK(pairs[2].error.find("fields") != std::string::npos);
+    CHECK(pairs[3].error.find("source_y_m") != std::string::npos);
+
+    CHECK_THROWS_AS(read_path_pairs(parse_csv("source_x_m,source_z_m,receiver_x_m\n1,2,3\n", "p")), DataInputError);
+    CHECK_THROWS_AS(read_path_pairs(parse_csv("source_x_m,source_z_m,receiver_x_m,receiver_z_m\n", "p")),
+                    DataInputError);
+    CHECK_THROWS_AS(read_path_pairs_file("no/such/pairs.csv"), DataInputError);
+}
+
+TEST_CASE("connect_batch: the same text whatever the thread count, errors per pair, counts, and cancellation",
+          "[paths]") {
+    auto model = std::make_shared<FirnModel>(*test::model_with(std::make_shared<ExponentialProfile>(1.78, 1.35, 40.0)));
+    model->bottom = Bottom{-800.0, 0.5};
+    const ClosedFormSolver solver(model);
+    std::vector<PathPair> pairs;
+    for (int i = 0; i < 500; ++i) {
+        PathPair p;
+        p.input_line = i + 2;
+        p.id = "p" + std::to_string(i);
+        p.source = {0.0, 0.0, -1.0 - (i * 37) % 400};
+        p.receiver = {5.0 + (i * 53) % 1500, (i % 3) * 10.0, -1.0 - (i * 91) % 300};
+        if (i % 97 == 5) p.receiver.z = -900.0;  // below the bottom: a computed error
+        if (i % 101 == 7) p.error = "bad row";    // a row that could not be read
+        pairs.push_back(p);
+    }
+    for (const PathFormat format : {PathFormat::csv, PathFormat::json, PathFormat::text}) {
+        const BatchFormatter formatter(format, {"test", solver.name()}, pairs);
+        const BatchRun one = connect_batch(solver, pairs, {}, formatter, 1);
+        for (const int threads : {2, 3, 8}) {
+            const BatchRun many = connect_batch(solver, pairs, {}, formatter, threads);
+            CHECK(many.text == one.text);
+        }
+        CHECK(one.pairs == 500u);
+        CHECK(one.failed == 11u);  // 6 below the bottom (i = 5, 102, ..., 490) and 5 bad rows
+        CHECK(one.paths > one.pairs);
+        // One row per path, or one for a pair without any.
+        std::size_t expected_rows = 0, expected_paths = 0, expected_shadowed = 0;
+        for (const PathPair& p : pairs) {
+            const PairPaths r = connect_pair(solver, p, {});
+            expected_rows += std::max<std::size_t>(1, r.paths.size());
+            expected_paths += r.paths.size();
+            expected_shadowed += r.error.empty() && r.paths.empty();
+        }
+        CHECK(one.paths == expected_paths);
+        CHECK(one.shadowed == expected_shadowed);
+        if (format == PathFormat::csv) {
+            const CsvTable table = parse_csv(one.text, "batch");
+            CHECK(table.rows.size() == expected_rows);
+        }
+    }
+    std::atomic<bool> stop{true};
+    RunControl control;
+    control.cancel = &stop;
+    const BatchFormatter formatter(PathFormat::csv, {"test", solver.name()}, pairs);
+    CHECK_THROWS_AS(connect_batch(solver, pairs, {}, formatter, 2, control), Cancelled);
+}
