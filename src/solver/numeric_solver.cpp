@@ -30,15 +30,20 @@ void require_in_ice(double z, const char* key) {
 }  // namespace
 
 Segment NumericSolver::segment(double xi, double z_a, double z_b) const {
-    using namespace ray_state;
     require_in_ice(z_a, "z_a");
     require_in_ice(z_b, "z_b");
     if (!std::isfinite(xi) || xi < 0.0)
         throw DataInputError(fmt::format("the ray parameter must be a finite number >= 0 (got {})", xi),
                              {"", 0, "ray_parameter"});
+    if (z_a == z_b) return {};
+    return integrate_leg(xi, z_a, z_b).segment;
+}
+
+NumericSolver::LegEnd NumericSolver::integrate_leg(double xi, double z_a, double z_b) const {
+    using namespace ray_state;
     const IndexProfile& profile = *model_->index;
-    Segment out;
-    if (z_a == z_b) return out;
+    LegEnd result;
+    Segment& out = result.segment;
 
     const double n_a = profile.index(z_a), n_b = profile.index(z_b);
     const double open_a = n_a - xi, open_b = n_b - xi;  // > 0 where the ray is not horizontal
@@ -103,8 +108,34 @@ Segment NumericSolver::segment(double xi, double z_a, double z_b) const {
         // x at fixed end depth: x(σ_end(ξ), ξ), with dσ_end/dξ = −δz / p_z.
         out.distance_derivative = at_turning ? std::numeric_limits<double>::quiet_NaN()
                                              : ye[dx_dxi] - ye[px] * ye[dz_dxi] / ye[pz];
-        return out;
+        result.at_turning = at_turning;
+        result.end = ye;
+        return result;
     }
+}
+
+LegDistance NumericSolver::distance_to_turning(double xi, double z_start) const {
+    using namespace ray_state;
+    require_in_ice(z_start, "z_start");
+    const IndexProfile& profile = *model_->index;
+    const auto top = turning_z(xi, z_start);
+    if (!top)
+        throw NumericalError(
+            fmt::format("a ray of parameter {} from z = {} m reaches the surface without turning", xi, z_start));
+    // Layered profiles have jumps in dn/dz at their joins, which the variational equations (carrying
+    // d²n/dz²) do not see; there the generic differences of the distances themselves are right.
+    if (profile.index(z_start) - xi <= turning_index_tolerance || *top == z_start || profile.kind() == "layered")
+        return RaySolver::distance_to_turning(xi, z_start);  // or: starts horizontal, distance 0, slope −∞
+    const LegEnd leg = integrate_leg(xi, z_start, *top);
+    double n = 0.0, dn_dz = 0.0;
+    profile.index_and_gradient(leg.end[z], n, dn_dz);
+    // The turning end moves with ξ: σ_t(ξ) is where p_z = 0, so dσ_t/dξ = −δp_z / (dp_z/dσ) with
+    // dp_z/dσ = n dn/dz, and the total derivative is δx + p_x dσ_t/dξ. Where the index hardly
+    // changes at the turning point that quotient is ill-conditioned: use the generic differences.
+    const double bend = n * dn_dz;
+    if (!leg.at_turning || !(std::abs(bend) > 1e-9) || !std::isfinite(leg.end[dpz_dxi]))
+        return RaySolver::distance_to_turning(xi, z_start);
+    return {leg.segment.distance_m, leg.end[dx_dxi] - leg.end[px] * leg.end[dpz_dxi] / bend};
 }
 
 std::optional<double> NumericSolver::turning_z(double xi, double z_start) const {

@@ -30,10 +30,24 @@ public:
     // are not monotone (tables) are handled too. Throws NumericalError if ξ > n(z_start).
     std::optional<double> turning_z(double ray_parameter, double z_start) const override;
 
+    // One integration up to the turning point, with the total d distance/dξ from the variational
+    // equations (the turning end moves by dσ_t/dξ = −δp_z / (n dn/dz)) instead of the generic
+    // central differences, which cost three integrations and three turning-point searches. Layered
+    // profiles (dn/dz jumps at the joins, invisible to the variational equations) keep the latter.
+    LegDistance distance_to_turning(double ray_parameter, double z_start) const override;
+
     // |n − ξ| at or below this counts as an end at the turning point.
     static constexpr double turning_index_tolerance = 1e-12;
 
 private:
+    struct LegEnd {
+        Segment segment;
+        RayStateWithVariation end{};  // the state where the integration stopped
+        bool at_turning = false;      // stopped where p_z = 0
+    };
+    // The integration behind segment(); z_a != z_b, both checked.
+    LegEnd integrate_leg(double ray_parameter, double z_a, double z_b) const;
+
     IntegrationTolerances tolerances_;
 };
 

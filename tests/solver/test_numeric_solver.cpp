@@ -5,9 +5,12 @@
 
 #include <cmath>
 #include <memory>
+#include <vector>
 
 #include "core/constants.hpp"
 #include "core/errors.hpp"
+#include "solver/closed_form_solver.hpp"
+#include "model/table_profile.hpp"
 #include "solver/numeric_solver.hpp"
 #include "support/snell_integrals.hpp"
 #include "support/test_profiles.hpp"
@@ -129,4 +132,63 @@ TEST_CASE("numeric segment(): a ray parameter above n on the leg is a NumericalE
     // Turns inside a non-monotone profile before reaching the far end.
     const NumericSolver wavy(model_with(std::make_shared<test::WavyProfile>(1.5, 0.1, 10.0)));
     CHECK_THROWS_WITH(wavy.segment(1.55, -60.0, -2.0), Catch::Contains("turns"));
+}
+
+TEST_CASE("numeric distance_to_turning: one integration with the variational equations gives the distance and the "
+          "total d distance/dξ of the closed form (physics notes §4), and matches the generic central differences "
+          "on a profile without one",
+          "[solver]") {
+    auto model = model_with(std::make_shared<ExponentialProfile>(1.78, 1.35, 40.0));
+    const NumericSolver numeric(model);
+    const ClosedFormSolver closed(model);
+    for (const double z_start : {-3.0, -40.0, -150.0, -600.0}) {
+        const double n_start = model->index->index(z_start);
+        for (const double fraction : {0.001, 0.2, 0.5, 0.9, 0.999}) {
+            const double xi = 1.35 + fraction * (n_start - 1.35);
+            const LegDistance a = closed.distance_to_turning(xi, z_start);
+            const LegDistance b = numeric.distance_to_turning(xi, z_start);
+            INFO("z_start " << z_start << ", ξ " << xi);
+            CHECK(b.distance_m == Approx(a.distance_m).epsilon(1e-9));
+            CHECK(b.derivative == Approx(a.derivative).epsilon(1e-6));
+        }
+    }
+    // At ξ = n(z_start) the ray starts horizontal: distance 0 and a slope of −∞, as the generic answer.
+    const LegDistance flat = numeric.distance_to_turning(model->index->index(-40.0), -40.0);
+    CHECK(flat.distance_m == 0.0);
+    CHECK(std::isinf(flat.derivative));
+    CHECK(flat.derivative < 0.0);
+    CHECK_THROWS_AS(numeric.distance_to_turning(1.3, -40.0), NumericalError);  // reaches the surface
+
+    // On a table (a C² spline) and a two-stage profile (dn/dz jumps at the join, where the generic
+    // differences are kept): the same as the generic central differences of the distances.
+    class Generic final : public RaySolver {
+    public:
+        explicit Generic(std::shared_ptr<const FirnModel> m) : RaySolver(m), inner_(m) {}
+        std::string name() const override { return "generic"; }
+        Segment segment(double xi, double a, double b) const override { return inner_.segment(xi, a, b); }
+        std::optional<double> turning_z(double xi, double z) const override { return inner_.turning_z(xi, z); }
+
+    private:
+        NumericSolver inner_;
+    };
+    std::vector<double> depth, n;
+    for (double d = 0.0; d <= 200.0; d += d < 30.0 ? 3.0 : 10.0) {
+        depth.push_back(d);
+        n.push_back(1.78 - 0.43 * std::exp(-d / 37.0));
+    }
+    for (const auto& profile : {std::shared_ptr<const IndexProfile>(std::make_shared<TableProfile>(depth, n)),
+                                std::shared_ptr<const IndexProfile>(
+                                    std::make_shared<test::TwoStageProfile>(1.78, 1.33, 25.0, -15.0, 45.0))}) {
+        auto other = model_with(profile);
+        const NumericSolver fast(other);
+        const Generic generic(other);
+        for (const double xi : {1.4, 1.55, 1.7})
+            for (const double z_start : {-80.0, -300.0}) {
+                INFO(profile->kind() << ": ξ " << xi << ", z_start " << z_start);
+                const LegDistance a = generic.distance_to_turning(xi, z_start);
+                const LegDistance b = fast.distance_to_turning(xi, z_start);
+                CHECK(b.distance_m == Approx(a.distance_m).epsilon(1e-12));
+                CHECK(b.derivative == Approx(a.derivative).epsilon(1e-5));
+            }
+    }
 }
