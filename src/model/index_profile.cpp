@@ -8,6 +8,15 @@
 
 namespace firnray {
 
+void IndexProfile::piece_index(std::size_t, double z, double& n, double& dn_dz, double& d2n_dz2) const {
+    constexpr double h = 1e-3;  // m, as the ray equations' own difference
+    double n_up, g_up, n_down, g_down;
+    index_and_gradient(z + h, n_up, g_up);
+    index_and_gradient(z - h, n_down, g_down);
+    index_and_gradient(z, n, dn_dz);
+    d2n_dz2 = (g_up - g_down) / (2.0 * h);
+}
+
 static void require_index(double n, const char* key) {
     if (!std::isfinite(n)) throw ModelInputError(fmt::format("{} must be a finite number", key), {"", 0, key});
     if (n < 1.0) throw ModelInputError(fmt::format("{} = {} is below 1 (no medium is faster than vacuum)", key, n), {"", 0, key});

@@ -3,7 +3,9 @@
 // Above the surface the model's air index applies (see FirnModel), not the profile.
 #pragma once
 
+#include <cstddef>
 #include <memory>
+#include <span>
 #include <string>
 #include <vector>
 
@@ -22,6 +24,15 @@ public:
         n = index(z);
         dn_dz = gradient(z);
     }
+    // Piecewise-smooth profiles (a table is a cubic per interval) name the z where their pieces
+    // meet, highest first, so that an integrator can stop there rather than step across a jump in
+    // a derivative of n; smooth profiles (the default) have none. Piece 0 lies above the first
+    // join, piece k between joins k−1 and k, piece joins_z().size() below the last.
+    virtual std::span<const double> joins_z() const { return {}; }
+    // n, dn/dz and d²n/dz² of one piece, continued as the same smooth function beyond its ends.
+    // The default (one piece) is the profile, with d²n/dz² by a central difference of dn/dz.
+    virtual void piece_index(std::size_t piece, double z, double& n, double& dn_dz, double& d2n_dz2) const;
+
     // "constant", "exponential", "layered", "table".
     virtual std::string kind() const = 0;
     // One line for people, e.g. "exponential: n_deep 1.78, n_surface 1.35, scale depth 37 m".

@@ -129,6 +129,21 @@ void CubicSpline::value_and_slope(double x, double& y, double& dy_dx) const {
     dy_dx = pieces_[i].slope(t);
 }
 
+void CubicSpline::piece_value(std::size_t piece, double x, double& y, double& dy_dx, double& d2y_dx2) const {
+    if (piece == 0 || piece >= x_.size()) {
+        const bool before = piece == 0;
+        dy_dx = before ? first_slope_ : last_slope_;
+        y = (before ? y_.front() : y_.back()) + dy_dx * (x - (before ? x_.front() : x_.back()));
+        d2y_dx2 = 0.0;
+        return;
+    }
+    const CubicPiece& p = pieces_[piece - 1];
+    const double t = x - x_[piece - 1];
+    y = p.value(t);
+    dy_dx = p.slope(t);
+    d2y_dx2 = p.curvature(t);
+}
+
 double CubicSpline::value(double x) const {
     double y, slope;
     value_and_slope(x, y, slope);

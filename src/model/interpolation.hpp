@@ -30,6 +30,7 @@ struct CubicPiece {
     double a = 0.0, b = 0.0, c = 0.0, d = 0.0;
     double value(double t) const { return a + t * (b + t * (c + t * d)); }
     double slope(double t) const { return b + t * (2.0 * c + t * 3.0 * d); }
+    double curvature(double t) const { return 2.0 * c + 6.0 * t * d; }
 };
 
 // How a cubic spline ends: zero curvature (natural) or a prescribed slope (clamped).
@@ -57,6 +58,13 @@ public:
     void value_and_slope(double x, double& y, double& dy_dx) const;
     // Smallest value over [x_0, x_last] (from the extrema of every cubic piece).
     double minimum_on_knots() const;
+
+    // The spline as pieces that are each smooth: 0 is the line before x_0, k in [1, knots − 1] the
+    // cubic between x_{k−1} and x_k, knots the line after x_last. A piece is evaluated as its own
+    // polynomial at any x (continued beyond its interval), so an integrator that stops at the
+    // knots never sees the jump of the third derivative there.
+    std::size_t piece_count() const { return x_.size() + 1; }
+    void piece_value(std::size_t piece, double x, double& y, double& dy_dx, double& d2y_dx2) const;
 
     const std::vector<double>& x() const { return x_; }
     const std::vector<double>& y() const { return y_; }

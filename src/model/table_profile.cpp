@@ -42,6 +42,7 @@ CubicSpline build_spline(std::vector<double> depth, std::vector<double> n) {
 
 TableProfile::TableProfile(std::vector<double> depth_m, std::vector<double> n)
     : spline_(build_spline(std::move(depth_m), std::move(n))) {
+    for (const double d : spline_.x()) joins_z_.push_back(-d);
     const double lowest = spline_.minimum_on_knots();
     if (lowest < 1.0)
         throw ModelInputError(fmt::format("the spline through the table dips to n = {:.6g}, below 1; the data swing "
@@ -67,6 +68,13 @@ double TableProfile::gradient(double z) const {
 void TableProfile::index_and_gradient(double z, double& n, double& dn_dz) const {
     double slope;
     spline_.value_and_slope(z < 0.0 ? -z : 0.0, n, slope);
+    dn_dz = -slope;
+}
+
+void TableProfile::piece_index(std::size_t piece, double z, double& n, double& dn_dz, double& d2n_dz2) const {
+    // Pieces in z order are the spline's pieces in depth order; d/dz = −d/d(depth).
+    double slope;
+    spline_.piece_value(piece, -z, n, slope, d2n_dz2);
     dn_dz = -slope;
 }
 

@@ -29,6 +29,9 @@ public:
     double index(double z) const override;
     double gradient(double z) const override;
     void index_and_gradient(double z, double& n, double& dn_dz) const override;
+    // The knots (z = −depth): the spline's third derivative jumps there.
+    std::span<const double> joins_z() const override { return joins_z_; }
+    void piece_index(std::size_t piece, double z, double& n, double& dn_dz, double& d2n_dz2) const override;
     std::string kind() const override { return "table"; }
     std::string describe() const override;
 
@@ -37,6 +40,7 @@ public:
 
 private:
     CubicSpline spline_;  // n against depth
+    std::vector<double> joins_z_;
 };
 
 }  // namespace firnray

@@ -332,9 +332,23 @@ void PathFinder::solve_scan(const Family& family, const std::vector<Term>& terms
     };
 
     const int n = options_.scan_samples;
+    // With n constant at the shallower end (an end below the deepest point of a table) the legs
+    // from there up to the turning point grow without bound as ξ → n_high instead of shrinking:
+    // the last sample is then taken where r has passed R, found by stepping towards v = 1 (as for
+    // the monotone families), and never at rays so nearly horizontal that n − ξ is lost in rounding.
+    double v_last = 1.0;
+    if (shrinking > 0 && gradient == 0.0) {
+        constexpr double smallest_gap = 1e-10;  // relative n − ξ: a solver's turning tolerance is far below
+        v_last = 1.0 - 0.5 / n;
+        for (double gap = 0.5 / n;; gap *= 0.5) {
+            v_last = 1.0 - gap;
+            if (f(v_last) >= 0.0) break;
+            if (xi_high - xi_of(1.0 - 0.5 * gap) < smallest_gap * xi_high) break;
+        }
+    }
     Sample previous = sample(0.0);
     for (int i = 1; i <= n; ++i) {
-        const Sample current = sample(static_cast<double>(i) / n);
+        const Sample current = sample(i == n ? v_last : static_cast<double>(i) / n);
         if (current.f == 0.0 && (i < n || include_high)) roots.push_back(current.v);
         interval(interval, previous, current, 0);
         previous = current;

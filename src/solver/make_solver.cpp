@@ -15,7 +15,8 @@ SolverChoice parse_solver_choice(const std::string& text) {
     throw DataInputError(fmt::format("'{}' is not a solver (auto, closed or numeric)", text), {"", 0, "solver"});
 }
 
-std::unique_ptr<RaySolver> make_solver(std::shared_ptr<const FirnModel> model, SolverChoice choice) {
+std::unique_ptr<RaySolver> make_solver(std::shared_ptr<const FirnModel> model, SolverChoice choice,
+                                       double numeric_tolerance) {
     const std::string kind = model->index->kind();
     const bool closed_form_applies = kind == "exponential" || kind == "constant";
     if (choice == SolverChoice::closed && !closed_form_applies)
@@ -23,8 +24,11 @@ std::unique_ptr<RaySolver> make_solver(std::shared_ptr<const FirnModel> model, S
                                           "model '{}' is {}: use --solver numeric or auto",
                                           model->name, kind),
                               {model->origin, 0, "index.kind"});
-    if (choice == SolverChoice::numeric || (choice == SolverChoice::automatic && !closed_form_applies))
-        return std::make_unique<NumericSolver>(std::move(model));
+    if (choice == SolverChoice::numeric || (choice == SolverChoice::automatic && !closed_form_applies)) {
+        IntegrationTolerances tolerances;
+        if (numeric_tolerance > 0.0) tolerances.relative = tolerances.absolute = numeric_tolerance;
+        return std::make_unique<NumericSolver>(std::move(model), tolerances);
+    }
     return std::make_unique<ClosedFormSolver>(std::move(model));
 }
 

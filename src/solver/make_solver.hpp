@@ -14,7 +14,10 @@ enum class SolverChoice { automatic, closed, numeric };
 // "auto", "closed" or "numeric"; throws DataInputError otherwise.
 SolverChoice parse_solver_choice(const std::string& text);
 
-// closed on a non-exponential model throws ModelInputError saying why.
-std::unique_ptr<RaySolver> make_solver(std::shared_ptr<const FirnModel> model, SolverChoice choice);
+// closed on a non-exponential model throws ModelInputError saying why. numeric_tolerance, when
+// positive, sets the numeric solver's per-step relative and absolute (m) tolerances; 0 keeps its
+// defaults (IntegrationTolerances).
+std::unique_ptr<RaySolver> make_solver(std::shared_ptr<const FirnModel> model, SolverChoice choice,
+                                       double numeric_tolerance = 0.0);
 
 }  // namespace firnray

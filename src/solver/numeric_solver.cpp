@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <array>
+#include <vector>
 #include <cmath>
 #include <limits>
 
@@ -79,38 +80,73 @@ NumericSolver::LegEnd NumericSolver::integrate_leg(double xi, double z_a, double
         turning_end ? std::span<const LevelCrossing>(crossings.data() + 1, 2)
                     : std::span<const LevelCrossing>(crossings.data(), 2);
 
-    RayStepper<RayStateWithVariation> stepper(RayEquations(profile, model_->attenuation.get()), tolerances_);
-    stepper.start(y, 0.0, tolerances_.initial_step_m);
-    for (;;) {
-        stepper.step();
-        const auto found = stepper.first_crossing(events, stepper.begin_sigma(), stepper.begin_state());
-        if (!found) continue;
-        const LevelCrossing& hit = events[found->which];
-        RayStateWithVariation ye = stepper.on_level(found->sigma, hit.component, hit.level);
-        bool at_turning = false;
-        if (hit.component == pz) {
-            // Accept a turn at the far end (drift may make it a hair early); elsewhere ξ > n inside.
-            constexpr double end_slack_m = 1e-6;
-            if (!turning_end && std::abs(ye[z] - z_end) > end_slack_m)
-                throw NumericalError(fmt::format("the ray of parameter {} turns at z = {} m, before reaching z = {} m "
-                                                 "(ξ exceeds n between the ends)",
-                                                 xi, ye[z], z_end));
-            at_turning = true;
-        } else if (hit.level != z_end) {
-            throw NumericalError(fmt::format("the ray of parameter {} did not turn at z = {} m, where n = ξ "
-                                             "(passed it by {} m)",
-                                             xi, z_end, overshoot_m));
+    // A piecewise-smooth profile (a table) is integrated piece by piece, stopping at each join
+    // between the ends and going on from the state there with the next piece, so that no step
+    // straddles a jump in a derivative of n (which would force tiny steps around every knot).
+    const std::span<const double> joins = profile.joins_z();  // highest first
+    std::vector<double> cuts;
+    for (const double j : joins)
+        if (j > std::min(z_start, z_end) && j < std::max(z_start, z_end)) cuts.push_back(j);
+    if (heading > 0.0) std::reverse(cuts.begin(), cuts.end());  // in the order the ray meets them
+    auto piece_between = [&](double z_from, double z_to) {
+        const double middle = 0.5 * (z_from + z_to);
+        return static_cast<std::size_t>(std::count_if(joins.begin(), joins.end(), [&](double j) { return j > middle; }));
+    };
+    const std::array<LevelCrossing, 2> cut_events{LevelCrossing{z, 0.0, heading > 0.0 ? +1 : -1},
+                                                  LevelCrossing{pz, 0.0, 0}};
+
+    RayEquations equations(profile, model_->attenuation.get());
+    double sigma = 0.0, first_step = tolerances_.initial_step_m;
+    for (std::size_t piece = 0;; ++piece) {
+        const bool last_piece = piece == cuts.size();
+        const double piece_end = last_piece ? z_end : cuts[piece];
+        if (!joins.empty()) equations.use_piece(piece_between(y[z], piece_end));
+        std::array<LevelCrossing, 2> to_cut = cut_events;
+        to_cut[0].level = piece_end;
+        const std::span<const LevelCrossing> targets = last_piece ? events : std::span<const LevelCrossing>(to_cut);
+
+        RayStepper<RayStateWithVariation> stepper(equations, tolerances_);
+        stepper.start(y, sigma, first_step);
+        for (;;) {
+            stepper.step();
+            const auto found = stepper.first_crossing(targets, stepper.begin_sigma(), stepper.begin_state());
+            if (!found) continue;
+            const LevelCrossing& hit = targets[found->which];
+            RayStateWithVariation ye = stepper.on_level(found->sigma, hit.component, hit.level);
+            if (!last_piece && hit.component == z) {  // at a join: go on with the next piece
+                y = ye;
+                sigma = found->sigma;
+                first_step = std::min(stepper.last_step(), tolerances_.max_step_m);
+                break;
+            }
+            bool at_turning = false;
+            if (hit.component == pz) {
+                // Accept a turn at the far end (drift may make it a hair early); elsewhere ξ > n inside.
+                constexpr double end_slack_m = 1e-6;
+                if (!turning_end && std::abs(ye[z] - z_end) > end_slack_m)
+                    throw NumericalError(fmt::format("the ray of parameter {} turns at z = {} m, before reaching z = {} m "
+                                                     "(ξ exceeds n between the ends)",
+                                                     xi, ye[z], z_end));
+                if (!last_piece && std::abs(ye[z] - z_end) > end_slack_m)
+                    throw NumericalError(fmt::format("the ray of parameter {} turns at z = {} m, before reaching its "
+                                                     "turning point z = {} m", xi, ye[z], z_end));
+                at_turning = true;
+            } else if (hit.level != z_end) {
+                throw NumericalError(fmt::format("the ray of parameter {} did not turn at z = {} m, where n = ξ "
+                                                 "(passed it by {} m)",
+                                                 xi, z_end, overshoot_m));
+            }
+            out.distance_m = std::abs(ye[x]);
+            out.time_s = ye[optical_path] / speed_of_light;
+            out.length_m = ye[length];
+            out.attenuation_exponent = ye[attenuation];
+            // x at fixed end depth: x(σ_end(ξ), ξ), with dσ_end/dξ = −δz / p_z.
+            out.distance_derivative = at_turning ? std::numeric_limits<double>::quiet_NaN()
+                                                 : ye[dx_dxi] - ye[px] * ye[dz_dxi] / ye[pz];
+            result.at_turning = at_turning;
+            result.end = ye;
+            return result;
         }
-        out.distance_m = std::abs(ye[x]);
-        out.time_s = ye[optical_path] / speed_of_light;
-        out.length_m = ye[length];
-        out.attenuation_exponent = ye[attenuation];
-        // x at fixed end depth: x(σ_end(ξ), ξ), with dσ_end/dξ = −δz / p_z.
-        out.distance_derivative = at_turning ? std::numeric_limits<double>::quiet_NaN()
-                                             : ye[dx_dxi] - ye[px] * ye[dz_dxi] / ye[pz];
-        result.at_turning = at_turning;
-        result.end = ye;
-        return result;
     }
 }
 

@@ -41,11 +41,21 @@ public:
         profile.index_and_gradient(0.0, n_surface_, gradient_surface_);
     }
 
+    // Evaluate one piece of a piecewise-smooth profile (IndexProfile::joins_z), continued beyond
+    // its ends, instead of the profile itself: an integration that stops at the joins then never
+    // steps across a kink. The air-side continuation below is not used then.
+    void use_piece(std::size_t piece) { piece_ = piece; }
+
     // n and dn/dz at z. Above the surface (where only the trial stages of a step that crosses
     // z = 0 ever look) the profile is continued linearly, so the right-hand side stays
     // continuous with a continuous first derivative in n across the step and the step
     // controller is not misled by a kink.
     void index_and_gradient(double z, double& n, double& dn_dz) const {
+        if (piece_ != no_piece) {
+            double curvature;
+            profile_->piece_index(piece_, z, n, dn_dz, curvature);
+            return;
+        }
         if (z > 0.0) {
             n = n_surface_ + gradient_surface_ * z;
             dn_dz = gradient_surface_;
@@ -69,8 +79,9 @@ public:
     void operator()(const std::array<double, N>& y, std::array<double, N>& dy, double /*sigma*/) const {
         static_assert(N == ray_state::size || N == ray_state::size_with_variation);
         using namespace ray_state;
-        double n, dn_dz;
-        index_and_gradient(y[z], n, dn_dz);
+        double n, dn_dz, piece_curvature = 0.0;
+        if (piece_ != no_piece) profile_->piece_index(piece_, y[z], n, dn_dz, piece_curvature);
+        else index_and_gradient(y[z], n, dn_dz);
         dy[x] = y[px];
         dy[z] = y[pz];
         dy[px] = 0.0;
@@ -81,7 +92,7 @@ public:
         if constexpr (N == size_with_variation) {
             // Linearised equations: d(δx)/dσ = δp_x = 1, d(δz)/dσ = δp_z,
             // d(δp_z)/dσ = d(n n')/dz · δz = (n'² + n n'') δz.
-            const double second = y[z] > 0.0 ? 0.0 : curvature(y[z]);
+            const double second = piece_ != no_piece ? piece_curvature : y[z] > 0.0 ? 0.0 : curvature(y[z]);
             dy[dx_dxi] = 1.0;
             dy[dz_dxi] = y[dpz_dxi];
             dy[dpz_dxi] = (dn_dz * dn_dz + n * second) * y[dz_dxi];
@@ -89,8 +100,10 @@ public:
     }
 
 private:
+    static constexpr std::size_t no_piece = static_cast<std::size_t>(-1);
     const IndexProfile* profile_;
     const AttenuationProfile* attenuation_;
+    std::size_t piece_ = no_piece;
     double n_surface_ = 1.0, gradient_surface_ = 0.0;
 };
 

@@ -77,3 +77,40 @@ TEST_CASE("table profile rejects bad points with the key that is wrong", "[model
     CHECK(error_key({10, 11, 12, 13}, {1.05, 1.15, 1.25, 1.35}) == "n");
     CHECK(error_key({0, 1, 2, 3}, {1.3, 1.4, 1.5, 1.6}) == "no error");
 }
+
+TEST_CASE("table profile pieces: the knots are the joins, each piece is the spline inside its interval and its own "
+          "cubic beyond it, and value, slope and curvature agree across every knot (a C² spline)",
+          "[model][table]") {
+    const TableProfile table = sampled_exponential(0.0, 7.0, 140.0);
+    const auto joins = table.joins_z();
+    REQUIRE(joins.size() == table.depth_m().size());
+    for (std::size_t k = 0; k < joins.size(); ++k) CHECK(joins[k] == -table.depth_m()[k]);
+    for (std::size_t piece = 1; piece < joins.size(); ++piece) {
+        const double top = joins[piece - 1], bottom = joins[piece];
+        for (const double f : {0.1, 0.5, 0.9}) {
+            const double z = top + f * (bottom - top);
+            double n, g, c;
+            table.piece_index(piece, z, n, g, c);
+            CHECK(n == Approx(table.index(z)).epsilon(1e-15));
+            CHECK(g == Approx(table.gradient(z)).epsilon(1e-12));
+            // Curvature against a central difference of the slope.
+            const double h = 1e-4;
+            CHECK(c == Approx((table.gradient(z + h) - table.gradient(z - h)) / (2 * h)).epsilon(1e-6).margin(1e-12));
+        }
+        // The two pieces meeting at a join agree there, up to the curvature (C²).
+        double n_above, g_above, c_above, n_below, g_below, c_below;
+        table.piece_index(piece - 1, top, n_above, g_above, c_above);
+        table.piece_index(piece, top, n_below, g_below, c_below);
+        CHECK(n_above == Approx(n_below).epsilon(1e-14));
+        CHECK(g_above == Approx(g_below).epsilon(1e-10));
+        if (piece > 1) CHECK(c_above == Approx(c_below).epsilon(1e-8).margin(1e-14));
+    }
+    // Below the deepest point: n held (slope and curvature zero).
+    double n, g, c;
+    table.piece_index(joins.size(), -500.0, n, g, c);
+    CHECK(n == table.n_values().back());
+    CHECK(g == 0.0);
+    CHECK(c == 0.0);
+    // A smooth profile has no joins.
+    CHECK(ExponentialProfile(1.78, 1.35, 37.0).joins_z().empty());
+}

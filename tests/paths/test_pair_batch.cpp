@@ -3,13 +3,17 @@
 // Seismology; Červený 2001). The edge cases of single pairs are in test_find_paths.cpp.
 #include <catch2/catch.hpp>
 
+#include <algorithm>
 #include <atomic>
 #include <cmath>
 #include <memory>
 #include <string>
+#include <tuple>
+#include <vector>
 
 #include "core/constants.hpp"
 #include "core/errors.hpp"
+#include "model/table_profile.hpp"
 #include "paths/pair_batch.hpp"
 #include "solver/closed_form_solver.hpp"
 #include "solver/numeric_solver.hpp"
@@ -142,4 +146,41 @@ TEST_CASE("connect_batch: the same text whatever the thread count, errors per pa
     control.cancel = &stop;
     const BatchFormatter formatter(PathFormat::csv, {"test", solver.name()}, pairs);
     CHECK_THROWS_AS(connect_batch(solver, pairs, {}, formatter, 2, control), Cancelled);
+}
+
+TEST_CASE("paths with both ends below the deepest point of a table, where n is constant: the direct path is the "
+          "straight line with T = n·d/c and L_eff = d (definition), and swapping the ends gives the same times "
+          "(reciprocity theorem)",
+          "[paths][numeric]") {
+    std::vector<double> depth, n;
+    for (double d = 0.0; d <= 150.0; d += d < 40.0 ? 4.0 : 10.0) {
+        depth.push_back(d);
+        n.push_back(1.78 - 0.43 * std::exp(-d / 37.0));
+    }
+    auto profile = std::make_shared<TableProfile>(depth, n);
+    const double n_deep = profile->index(-150.0);
+    const NumericSolver solver(test::model_with(profile));
+    for (const auto& [z1, z2, r] : {std::tuple{-186.8, -173.2, 613.0}, std::tuple{-160.0, -170.0, 100.0},
+                                    std::tuple{-150.5, -400.0, 50.0}, std::tuple{-200.0, -200.0, 30.0},
+                                    std::tuple{-300.0, -60.0, 250.0}}) {
+        INFO(z1 << " -> " << z2 << " at " << r << " m");
+        const auto forward = find_paths(solver, {0, 0, z1}, {r, 0, z2});
+        const auto backward = find_paths(solver, {r, 0, z2}, {0, 0, z1});
+        REQUIRE_FALSE(forward.empty());
+        REQUIRE(forward.size() == backward.size());
+        for (std::size_t i = 0; i < forward.size(); ++i) {
+            CHECK(forward[i].kind == backward[i].kind);
+            CHECK(forward[i].time_s == Approx(backward[i].time_s).epsilon(1e-10));
+        }
+        if (z1 < -150.0 && z2 < -150.0) {
+            const double d = std::hypot(r, z2 - z1);
+            const auto direct = std::find_if(forward.begin(), forward.end(), [&](const ConnectedPath& p) {
+                return p.kind == PathKind::direct || (z1 == z2 && p.ray_parameter == Approx(n_deep));
+            });
+            REQUIRE(direct != forward.end());
+            CHECK(direct->time_s == Approx(n_deep * d / speed_of_light).epsilon(1e-12));
+            CHECK(direct->length_m == Approx(d).epsilon(1e-10));
+            CHECK(direct->amplitude.spreading_distance_m == Approx(d).epsilon(1e-6));
+        }
+    }
 }

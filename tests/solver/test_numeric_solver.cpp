@@ -192,3 +192,40 @@ TEST_CASE("numeric distance_to_turning: one integration with the variational equ
             }
     }
 }
+
+TEST_CASE("numeric segment() on a table, integrated piece by piece between the knots, agrees with tanh_sinh "
+          "quadrature of the Snell integrals split at the knots (Boost.Math)",
+          "[solver]") {
+    // A coarse, irregular table (knots 2 to 20 m apart) with noise on top of the exponential, so that
+    // the spline's third derivative jumps noticeably at each knot.
+    std::vector<double> depth, n;
+    int k = 0;
+    for (double d = 0.0; d <= 160.0; d += 2.0 + (k * 7) % 19, ++k) {
+        depth.push_back(d);
+        n.push_back(1.78 - 0.43 * std::exp(-d / 37.0) + 0.002 * ((k * 5) % 3 - 1) * std::exp(-d / 80.0));
+    }
+    auto profile = std::make_shared<TableProfile>(depth, n);
+    std::vector<double> knots(profile->joins_z().rbegin(), profile->joins_z().rend());  // ascending, as the reference wants
+    auto model = model_with(profile);
+    model->attenuation = std::make_shared<test::ConstantAttenuation>(900.0);
+    const NumericSolver solver(model);
+    struct Leg {
+        double xi, z_a, z_b;
+    };
+    for (const Leg& leg : {Leg{0.0, -150.0, -3.0}, Leg{0.9, -120.0, -1.0}, Leg{1.3, -400.0, 0.0}, Leg{1.5, -25.0, -300.0},
+                           Leg{1.7, -250.0, -90.0}, Leg{1.75, -170.0, -141.0}}) {
+        const double low = std::min(leg.z_a, leg.z_b), high = std::max(leg.z_a, leg.z_b);
+        REQUIRE(profile->index(high) > leg.xi);
+        const Segment s = solver.segment(leg.xi, leg.z_a, leg.z_b);
+        const auto ref = test::snell_integrals(*profile, leg.xi, low, high, test::plain_gap(*profile, leg.xi), knots);
+        INFO("ξ " << leg.xi << " from " << leg.z_a << " to " << leg.z_b);
+        CHECK(s.distance_m == Approx(ref.distance_m).margin(1e-6));
+        CHECK(s.time_s == Approx(ref.optical_path_m / speed_of_light).margin(1e-15));
+        CHECK(s.length_m == Approx(ref.length_m).margin(1e-6));
+        CHECK(s.attenuation_exponent == Approx(ref.length_m / 900.0).margin(1e-9));
+        CHECK(s.distance_derivative == Approx(ref.distance_derivative).epsilon(1e-6));
+        const Segment back = solver.segment(leg.xi, leg.z_b, leg.z_a);
+        CHECK(back.distance_m == Approx(s.distance_m).margin(1e-6));
+        CHECK(back.time_s == Approx(s.time_s).margin(1e-15));
+    }
+}
