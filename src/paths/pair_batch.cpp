@@ -1,11 +1,13 @@
 #include "paths/pair_batch.hpp"
 
+#include <algorithm>
+
 #include "core/errors.hpp"
 #include "core/parallel.hpp"
 
 namespace firnray {
 
-std::vector<PathPair> read_path_pairs(const CsvTable& table) {
+std::vector<PathPair> read_path_pairs(const CsvTable& table, int threads) {
     const std::size_t sx = table.column(PairColumns::source_x), sz = table.column(PairColumns::source_z);
     const std::size_t rx = table.column(PairColumns::receiver_x), rz = table.column(PairColumns::receiver_z);
     const auto sy = table.find_column(PairColumns::source_y), ry = table.find_column(PairColumns::receiver_y);
@@ -13,7 +15,7 @@ std::vector<PathPair> read_path_pairs(const CsvTable& table) {
     if (table.rows.empty())
         throw DataInputError("the pairs file has a header but no pairs", {table.path, table.header_line, ""});
     std::vector<PathPair> pairs(table.rows.size());
-    for (std::size_t i = 0; i < table.rows.size(); ++i) {
+    parallel_for(table.rows.size(), threads, {}, [&](std::size_t i) {
         const CsvRow& row = table.rows[i];
         PathPair& pair = pairs[i];
         pair.input_line = row.line;
@@ -24,11 +26,13 @@ std::vector<PathPair> read_path_pairs(const CsvTable& table) {
         } catch (const InputError& e) {
             pair.error = e.what();
         }
-    }
+    });
     return pairs;
 }
 
-std::vector<PathPair> read_path_pairs_file(const std::string& path) { return read_path_pairs(read_csv(path)); }
+std::vector<PathPair> read_path_pairs_file(const std::string& path, int threads) {
+    return read_path_pairs(read_csv(path), threads);
+}
 
 PairPaths connect_pair(const RaySolver& solver, const PathPair& pair, const PathOptions& options) {
     PairPaths result;
@@ -48,35 +52,40 @@ PairPaths connect_pair(const RaySolver& solver, const PathPair& pair, const Path
 
 BatchRun connect_batch(const RaySolver& solver, const std::vector<PathPair>& pairs, const PathOptions& options,
                        const BatchFormatter& formatter, int threads, const RunControl& control) {
-    struct Piece {
+    // Pairs go in blocks of a fixed size (whatever the thread count, so the text is the same): each
+    // block is found and formatted into one string by one thread, and the blocks are joined in order.
+    constexpr std::size_t block_size = 64;
+    struct Block {
         std::string text;
-        std::size_t paths = 0;
-        bool failed = false;
+        std::size_t paths = 0, failed = 0, shadowed = 0;
     };
-    std::vector<Piece> pieces(pairs.size());
-    parallel_for(pairs.size(), threads, control, [&](std::size_t i) {
-        const PairPaths result = connect_pair(solver, pairs[i], options);
-        Piece& piece = pieces[i];
-        formatter.append_pair(piece.text, i, pairs[i], result);
-        piece.paths = result.paths.size();
-        piece.failed = !result.error.empty();
+    std::vector<Block> blocks((pairs.size() + block_size - 1) / block_size);
+    parallel_for(blocks.size(), threads, control, [&](std::size_t b) {
+        Block& block = blocks[b];
+        for (std::size_t i = b * block_size; i < std::min(pairs.size(), (b + 1) * block_size); ++i) {
+            const PairPaths result = connect_pair(solver, pairs[i], options);
+            formatter.append_pair(block.text, i, pairs[i], result);
+            block.paths += result.paths.size();
+            block.failed += !result.error.empty();
+            block.shadowed += result.error.empty() && result.paths.empty();
+        }
     });
     BatchRun run;
     run.pairs = pairs.size();
     const std::string begin = formatter.begin();
     std::size_t size = begin.size();
-    for (const Piece& piece : pieces) {
-        size += piece.text.size();
-        run.paths += piece.paths;
-        run.failed += piece.failed;
-        run.shadowed += !piece.failed && piece.paths == 0;
+    for (const Block& block : blocks) {
+        size += block.text.size();
+        run.paths += block.paths;
+        run.failed += block.failed;
+        run.shadowed += block.shadowed;
     }
     const std::string end = formatter.end(run.pairs, run.failed);
     run.text.reserve(size + end.size());
     run.text += begin;
-    for (Piece& piece : pieces) {
-        run.text += piece.text;
-        std::string().swap(piece.text);  // give the memory back as we go: batches can be large
+    for (Block& block : blocks) {
+        run.text += block.text;
+        std::string().swap(block.text);  // give the memory back as we go: batches can be large
     }
     run.text += end;
     return run;

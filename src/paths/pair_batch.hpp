@@ -26,10 +26,10 @@ struct PairColumns {
     static constexpr const char* id = "id";
 };
 
-// One PathPair per data row (bad rows carry their error). Throws DataInputError when a required
-// column is missing or the table has no rows.
-std::vector<PathPair> read_path_pairs(const CsvTable& table);
-std::vector<PathPair> read_path_pairs_file(const std::string& path);
+// One PathPair per data row (bad rows carry their error), the rows converted on `threads` threads.
+// Throws DataInputError when a required column is missing, the file cannot be read or it has no rows.
+std::vector<PathPair> read_path_pairs(const CsvTable& table, int threads = 1);
+std::vector<PathPair> read_path_pairs_file(const std::string& path, int threads = 1);
 
 // Every path of one pair; input errors (a point below the bottom, coincident ends) and numerical
 // failures become the result's error instead of an exception.
@@ -43,8 +43,9 @@ struct BatchRun {
     std::size_t paths = 0;
 };
 
-// Finds and formats every pair on `threads` threads (each pair's piece made by the thread that
-// computed it) and joins the pieces in input order. Throws Cancelled when asked to stop.
+// Finds and formats every pair on `threads` threads (pairs in blocks of a fixed size, each block's
+// text made by the thread that computed it) and joins the blocks in input order. Progress counts
+// blocks. Throws Cancelled when asked to stop.
 BatchRun connect_batch(const RaySolver& solver, const std::vector<PathPair>& pairs, const PathOptions& options,
                        const BatchFormatter& formatter, int threads, const RunControl& control = {});
 

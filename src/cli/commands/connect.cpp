@@ -54,7 +54,7 @@ int run_connect(const ConnectArguments& args) {
         emit(args.output, format_paths(format, context, source, receiver, paths));
         return exit_ok;
     }
-    const auto pairs = read_path_pairs_file(args.pairs_path);
+    const auto pairs = read_path_pairs_file(args.pairs_path, args.run.thread_count());
     const BatchFormatter formatter(format, context, pairs);
     const BatchRun run =
         connect_batch(*solver, pairs, options, formatter, args.run.thread_count(), make_run_control(args.run, "connect"));
