@@ -60,7 +60,12 @@ BatchRun connect_batch(const RaySolver& solver, const std::vector<PathPair>& pai
         std::size_t paths = 0, failed = 0, shadowed = 0;
     };
     std::vector<Block> blocks((pairs.size() + block_size - 1) / block_size);
-    parallel_for(blocks.size(), threads, control, [&](std::size_t b) {
+    RunControl per_block = control;  // progress is reported in pairs, not blocks
+    if (control.progress)
+        per_block.progress = [&control, &pairs](std::size_t done, std::size_t) {
+            control.progress(std::min(pairs.size(), done * block_size), pairs.size());
+        };
+    parallel_for(blocks.size(), threads, per_block, [&](std::size_t b) {
         Block& block = blocks[b];
         for (std::size_t i = b * block_size; i < std::min(pairs.size(), (b + 1) * block_size); ++i) {
             const PairPaths result = connect_pair(solver, pairs[i], options);

@@ -44,8 +44,8 @@ struct BatchRun {
 };
 
 // Finds and formats every pair on `threads` threads (pairs in blocks of a fixed size, each block's
-// text made by the thread that computed it) and joins the blocks in input order. Progress counts
-// blocks. Throws Cancelled when asked to stop.
+// text made by the thread that computed it) and joins the blocks in input order. Progress is
+// reported in pairs. Throws Cancelled when asked to stop.
 BatchRun connect_batch(const RaySolver& solver, const std::vector<PathPair>& pairs, const PathOptions& options,
                        const BatchFormatter& formatter, int threads, const RunControl& control = {});
 

@@ -7,6 +7,7 @@
 #include <atomic>
 #include <cmath>
 #include <memory>
+#include <mutex>
 #include <string>
 #include <tuple>
 #include <vector>
@@ -141,6 +142,19 @@ TEST_CASE("connect_batch: the same text whatever the thread count, errors per pa
             CHECK(table.rows.size() == expected_rows);
         }
     }
+    // Progress is counted in pairs and ends at the number of pairs.
+    std::mutex progress_mutex;
+    std::size_t last_done = 0, last_total = 0;
+    RunControl watched;
+    watched.progress = [&](std::size_t done, std::size_t total) {  // called from the workers
+        std::lock_guard lock(progress_mutex);
+        last_done = std::max(last_done, done);
+        last_total = total;
+    };
+    connect_batch(solver, pairs, {}, BatchFormatter(PathFormat::csv, {"test", solver.name()}, pairs), 2, watched);
+    CHECK(last_done == pairs.size());
+    CHECK(last_total == pairs.size());
+
     std::atomic<bool> stop{true};
     RunControl control;
     control.cancel = &stop;
