@@ -1,6 +1,6 @@
 // The RaySolver of any index profile: integrates the ray equations of physics notes §3 between
 // two depths (trace/ray_stepper.hpp) and finds turning points by bracketing and TOMS748.
-// Accuracy follows the integration tolerances; docs/physics-tracer.md gives measured figures.
+// Accuracy follows the integration tolerances; docs/physics.md §2.2 gives measured figures.
 #pragma once
 
 #include <memory>

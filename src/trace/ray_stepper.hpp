@@ -23,7 +23,7 @@ namespace firnray {
 
 // Accuracy and safety limits of the integration. With the defaults a 2 km ray through firn
 // is accurate to well under 1 mm in position and 1 ps in time (tests/trace/test_ray_tracer.cpp
-// and docs/physics-tracer.md give the measured figures).
+// and docs/physics.md §2.2 give the measured figures).
 struct IntegrationTolerances {
     double relative = 1e-10;       // per-step error control of dopri5 (all components in metres)
     double absolute = 1e-10;       // m
