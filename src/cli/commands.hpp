@@ -13,4 +13,13 @@ struct CommandSlot {
     std::function<int()> run;
 };
 
+// firnray profile: tabulate a model's n(z) and dn/dz, or fit the exponential model to data.
+void add_profile_command(CLI::App& app, CommandSlot& slot);
+// firnray trace: a fan of rays from a point, with surface and bottom interactions.
+void add_trace_command(CLI::App& app, CommandSlot& slot);
+// firnray shadow: shadow and visibility maps of source positions for a receiver or a station.
+void add_shadow_command(CLI::App& app, CommandSlot& slot);
+// firnray depths: receiver-depth scan of visible volume and time between paths.
+void add_depths_command(CLI::App& app, CommandSlot& slot);
+
 }  // namespace firnray::cli

@@ -19,6 +19,10 @@ int main(int argc, char** argv) {
 
     CommandSlot slot;
     // Commands register here (one line each).
+    add_profile_command(app, slot);
+    add_trace_command(app, slot);
+    add_shadow_command(app, slot);
+    add_depths_command(app, slot);
 
     try {
         app.parse(argc, argv);

@@ -5,6 +5,7 @@
 
 #include <fmt/core.h>
 
+#include "cli/common.hpp"
 #include "cli/exit_codes.hpp"
 #include "core/errors.hpp"
 
@@ -13,6 +14,9 @@ namespace firnray::cli {
 int run_guarded(const std::function<int()>& body) {
     try {
         return body();
+    } catch (const UsageError& e) {
+        fmt::print(stderr, "firnray: usage error: {}\n", e.what());
+        return exit_usage;
     } catch (const ModelInputError& e) {
         fmt::print(stderr, "firnray: error: {}\n", e.what());
         return exit_model_input;

@@ -16,6 +16,9 @@ public:
     virtual ~AttenuationProfile() = default;
     // Attenuation length L (m) of the field at z <= 0.
     virtual double length_m(double z) const = 0;
+    // The length when it is the same at every depth, so that solvers can use s / L instead of a
+    // quadrature; empty (the default) for a length that varies with depth.
+    virtual std::optional<double> constant_length_m() const { return std::nullopt; }
     virtual std::string describe() const = 0;
 };
 

@@ -3,6 +3,7 @@
 #pragma once
 
 #include <string>
+#include <string_view>
 
 #include "model/firn_model.hpp"
 
@@ -16,5 +17,13 @@ FirnModel parse_model(const std::string& toml_text, const std::string& origin);
 
 // Generic polar firn with values inside published ranges (physics notes §2); not a real site.
 FirnModel default_model();
+
+// The text of the built-in model, exactly as in models/default.toml.
+std::string_view default_model_toml();
+
+// Writes a model as model-file text that parse_model reads back to the same model. Tables are
+// written inline. `comment` (may be empty, may hold several lines) goes at the top as # lines.
+// Throws std::invalid_argument for a profile kind that model files cannot express.
+std::string model_to_toml(const FirnModel& model, const std::string& comment = "");
 
 }  // namespace firnray

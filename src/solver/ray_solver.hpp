@@ -26,6 +26,13 @@ struct Segment {
     double distance_derivative = 0.0;
 };
 
+// Only the horizontal distance of a leg and its ξ-derivative: what root finding needs, and much
+// cheaper than a full Segment (no time, length or attenuation quadrature).
+struct LegDistance {
+    double distance_m = 0.0;
+    double derivative = 0.0;  // ∂distance/∂ξ; see leg_distance and distance_to_turning for which one
+};
+
 class RaySolver {
 public:
     virtual ~RaySolver() = default;
@@ -47,6 +54,17 @@ public:
     // override it to do them in one pass. The default sums segment() between consecutive levels.
     virtual void segments_from(double ray_parameter, double z_top, std::span<const double> levels,
                                std::span<Segment> out) const;
+
+    // Distance and ∂distance/∂ξ at fixed end depths of the leg between z_a and z_b (the same
+    // numbers as segment(), whose result the default takes apart; solvers override it when the
+    // distance alone is cheaper).
+    virtual LegDistance leg_distance(double ray_parameter, double z_a, double z_b) const;
+
+    // The leg from z_start up to the turning point of ξ (which must exist: ξ >= n at the surface,
+    // ξ <= n(z_start)). Here the turning end moves with ξ, so the derivative is the total
+    // d distance/dξ, finite except at ξ = n(z_start) where it tends to −∞. The default combines
+    // turning_z, segment and central differences; the closed form overrides it analytically.
+    virtual LegDistance distance_to_turning(double ray_parameter, double z_start) const;
 
 protected:
     explicit RaySolver(std::shared_ptr<const FirnModel> model) : model_(std::move(model)) {}

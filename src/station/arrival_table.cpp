@@ -162,43 +162,66 @@ void ArrivalTable::build_row(std::size_t index) {
         }
     }
     if (best > 0 && best < row.count) {
-        // Interior maximum of the rising family: refine it on the solver itself.
-        auto rising_distance = [&](double xi) {
-            double top = 0.0;
-            if (xi >= n_surface_) top = solver_->turning_z(xi, z_deep).value_or(0.0);
-            return -(solver_->segment(xi, top, z_source).distance_m + solver_->segment(xi, top, receiver_z_).distance_m);
-        };
+        // Interior maximum of the rising family: refine it on the solver itself, and remember
+        // it, since the samples around it can miss the last metres of reach (see arrivals()).
+        auto minus_rising = [&](double xi) { return -exact_at(row, ArrivalKind::refracted, xi).distance_m; };
         const double lo = xi_[best - 1], hi = std::min(xi_[best + 1], n_shallow);
-        const auto [xi_best, minus_x] = boost::math::tools::brent_find_minima(rising_distance, lo, hi, 40);
-        (void)xi_best;
-        reach = std::max(reach, -minus_x);
+        const auto [xi_best, minus_x] = boost::math::tools::brent_find_minima(minus_rising, lo, hi, 52);
+        if (-minus_x > reach) {
+            row.has_peak = true;
+            row.peak_ray_parameter = xi_best;
+            row.peak_low = lo;
+            row.peak_high = hi;
+            row.sampled_peak_m = reach;
+            reach = -minus_x;
+        }
     }
     row.max_reach_m = reach;
 }
 
+ArrivalTable::Sample ArrivalTable::exact_at(const Row& row, ArrivalKind family, double xi) const {
+    const double z_source = source_z_[row.index];
+    if (family == ArrivalKind::direct) {
+        const Segment leg = solver_->segment(xi, z_source, receiver_z_);
+        return Sample{leg.distance_m, leg.time_s, leg.attenuation_exponent, xi};
+    }
+    double top = 0.0;
+    if (xi >= n_surface_) top = solver_->turning_z(xi, std::min(z_source, receiver_z_)).value_or(0.0);
+    const Segment up = solver_->segment(xi, top, z_source), down = solver_->segment(xi, top, receiver_z_);
+    return Sample{up.distance_m + down.distance_m, up.time_s + down.time_s,
+                  up.attenuation_exponent + down.attenuation_exponent, xi};
+}
+
 ArrivalTable::Sample ArrivalTable::exact_sample(const Row& row, ArrivalKind family, double xi_low,
                                                 double distance_m) const {
-    const double z_source = source_z_[row.index];
-    auto at = [&](double xi) {
-        if (family == ArrivalKind::direct) {
-            const Segment leg = solver_->segment(xi, z_source, receiver_z_);
-            return Sample{leg.distance_m, leg.time_s, leg.attenuation_exponent, xi};
-        }
-        double top = 0.0;
-        if (xi >= n_surface_) top = solver_->turning_z(xi, std::min(z_source, receiver_z_)).value_or(0.0);
-        const Segment up = solver_->segment(xi, top, z_source), down = solver_->segment(xi, top, receiver_z_);
-        return Sample{up.distance_m + down.distance_m, up.time_s + down.time_s,
-                      up.attenuation_exponent + down.attenuation_exponent, xi};
-    };
     // Bisection in the angle variable ξ = n sin φ: x grows like tan φ, so this converges evenly.
     const double n_end = row.end_ray_parameter;
     double lo = std::asin(std::min(1.0, xi_low / n_end)), hi = 0.5 * pi;
     for (int i = 0; i < 200 && hi - lo > 1e-15; ++i) {
         const double mid = 0.5 * (lo + hi);
-        if (at(n_end * std::sin(mid)).distance_m < distance_m) lo = mid;
+        if (exact_at(row, family, n_end * std::sin(mid)).distance_m < distance_m) lo = mid;
         else hi = mid;
     }
-    return at(n_end * std::sin(0.5 * (lo + hi)));
+    return exact_at(row, family, n_end * std::sin(0.5 * (lo + hi)));
+}
+
+void ArrivalTable::add_exact_peak_arrivals(const Row& row, double distance_m, std::vector<MapArrival>& out) const {
+    // Both roots of x_S(ξ) = R around the refined maximum, by bisection on the solver.
+    for (const bool rising_side : {true, false}) {
+        double lo = rising_side ? row.peak_low : row.peak_ray_parameter;
+        double hi = rising_side ? row.peak_ray_parameter : row.peak_high;
+        for (int i = 0; i < 100 && hi - lo > 1e-15; ++i) {
+            const double mid = 0.5 * (lo + hi);
+            const bool below = exact_at(row, ArrivalKind::refracted, mid).distance_m < distance_m;
+            if (below == rising_side) lo = mid;
+            else hi = mid;
+        }
+        const double xi = 0.5 * (lo + hi);
+        const Sample a = exact_at(row, ArrivalKind::refracted, xi);
+        const double step = (rising_side ? -1.0 : 1.0) * 1e-9;
+        const Sample b = exact_at(row, ArrivalKind::refracted, xi + step);
+        add_arrival(row, ArrivalKind::refracted, a, b, a.distance_m, out);
+    }
 }
 
 void ArrivalTable::add_arrival(const Row& row, ArrivalKind family, const Sample& a, const Sample& b, double distance_m,
@@ -277,6 +300,7 @@ void ArrivalTable::arrivals(std::size_t index, double distance_m, std::vector<Ma
     // At equal depths no path is monotone in z: every path belongs to the rising family.
     if (source_z_[index] != receiver_z_) search(ArrivalKind::direct, direct, 0, row.count, true);
     for (const Piece& piece : row.rising_pieces) search(ArrivalKind::refracted, rising, piece.first, piece.last, piece.increasing);
+    if (row.has_peak && distance_m > row.sampled_peak_m) add_exact_peak_arrivals(row, distance_m, out);
     std::sort(out.begin(), out.end(), [](const MapArrival& a, const MapArrival& b) { return a.time_s < b.time_s; });
 }
 

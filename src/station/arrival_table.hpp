@@ -63,6 +63,10 @@ private:
         std::vector<Piece> rising_pieces;
         double max_reach_m = 0.0;
         double end_distance_m = 0.0, end_time_s = 0.0, end_attenuation = 0.0, end_ray_parameter = 0.0;
+        // An interior maximum of the rising family, refined on the solver: between the largest
+        // sampled distance and the true maximum, arrivals are solved exactly.
+        bool has_peak = false;
+        double peak_ray_parameter = 0.0, peak_low = 0.0, peak_high = 0.0, sampled_peak_m = 0.0;
     };
     struct Sample {
         double distance_m, time_s, attenuation, ray_parameter;
@@ -70,7 +74,9 @@ private:
 
     Sample direct_sample(const Row& row, std::size_t k) const;
     Sample rising_sample(const Row& row, std::size_t k) const;
+    Sample exact_at(const Row& row, ArrivalKind family, double xi) const;
     Sample exact_sample(const Row& row, ArrivalKind family, double xi_low, double distance_m) const;
+    void add_exact_peak_arrivals(const Row& row, double distance_m, std::vector<MapArrival>& out) const;
     void add_arrival(const Row& row, ArrivalKind family, const Sample& a, const Sample& b, double distance_m,
                      std::vector<MapArrival>& out) const;
     void build_row(std::size_t index);

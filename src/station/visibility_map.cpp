@@ -51,6 +51,7 @@ VisibilityMap compute_visibility_map(const RaySolver& solver, std::span<const Re
     map.grid = grid;
     map.receivers = static_cast<int>(receivers.size());
     map.min_receivers = options.min_receivers;
+    map.azimuth_deg = options.azimuth_deg;
     for (const Receiver& r : receivers) {
         map.centre_x_m += r.x_m / static_cast<double>(receivers.size());
         map.centre_y_m += r.y_m / static_cast<double>(receivers.size());

@@ -58,6 +58,7 @@ struct VisibilityMap {
     int receivers = 0;
     int min_receivers = 1;
     double centre_x_m = 0.0, centre_y_m = 0.0;  // the map's distance origin
+    double azimuth_deg = 0.0;                   // direction of the map plane from the origin
 
     const MapCell& at(int row, int column) const { return cells[static_cast<std::size_t>(row) * grid.distance_cells + column]; }
     bool visible(const MapCell& cell) const { return cell.receivers_seeing >= min_receivers; }

@@ -1,0 +1,159 @@
+#include "cli/common.hpp"
+
+#include <cmath>
+#include <cstdio>
+#include <iostream>
+#include <sstream>
+#include <thread>
+
+#include <fmt/core.h>
+
+#include "cli/interrupt.hpp"
+#include "core/errors.hpp"
+#include "io/atomic_file.hpp"
+#include "model/model_file.hpp"
+
+namespace firnray::cli {
+
+void add_model_option(CLI::App* command, std::string& path) {
+    command->add_option("--model", path, "model file (TOML, see docs/model-files.md); default: built-in generic polar firn")
+        ->type_name("FILE");
+}
+
+std::shared_ptr<const FirnModel> load_model_or_default(const std::string& path) {
+    return std::make_shared<const FirnModel>(path.empty() ? default_model() : load_model_file(path));
+}
+
+int RunOptions::thread_count() const {
+    if (threads > 0) return threads;
+    const unsigned cores = std::thread::hardware_concurrency();
+    return cores == 0 ? 1 : static_cast<int>(cores);
+}
+
+void add_run_options(CLI::App* command, RunOptions& options) {
+    command->add_option("--threads", options.threads, "worker threads (default: all cores); results do not depend on it")
+        ->check(CLI::Range(1, 1024));
+    command->add_flag("--quiet,-q", options.quiet, "no progress display on stderr");
+}
+
+RunControl make_run_control(const RunOptions& options, const std::string& label) {
+    RunControl control;
+    control.cancel = install_interrupt_flag();
+    if (!options.quiet && stderr_is_terminal()) {
+        auto last_percent = std::make_shared<std::atomic<int>>(-1);
+        control.progress = [label, last_percent](std::size_t done, std::size_t total) {
+            const int percent = total == 0 ? 100 : static_cast<int>(100.0 * done / total);
+            if (last_percent->exchange(percent) == percent) return;
+            std::fprintf(stderr, "\r%s: %3d%% (%zu/%zu)", label.c_str(), percent, done, total);
+            std::fflush(stderr);
+        };
+    }
+    return control;
+}
+
+void finish_progress(const RunOptions& options) {
+    if (!options.quiet && stderr_is_terminal()) std::fprintf(stderr, "\r\033[K");
+}
+
+static double parse_number(const std::string& text, const std::string& option, const std::string& whole);
+
+double parse_number(const std::string& text, const std::string& option) { return parse_number(text, option, text); }
+
+static double parse_number(const std::string& text, const std::string& option, const std::string& whole) {
+    std::size_t used = 0;
+    double value = 0.0;
+    try {
+        value = std::stod(text, &used);
+    } catch (const std::exception&) {
+        used = 0;
+    }
+    if (used == 0 || used != text.size() || !std::isfinite(value))
+        throw UsageError(option, fmt::format("'{}' is not a number (in '{}')", text, whole));
+    return value;
+}
+
+static std::vector<std::string> split(const std::string& text, char separator) {
+    std::vector<std::string> parts;
+    std::stringstream in(text);
+    std::string part;
+    while (std::getline(in, part, separator)) {
+        const auto a = part.find_first_not_of(" \t"), b = part.find_last_not_of(" \t");
+        parts.push_back(a == std::string::npos ? "" : part.substr(a, b - a + 1));
+    }
+    if (!text.empty() && text.back() == separator) parts.emplace_back();
+    return parts;
+}
+
+Point3 parse_point(const std::string& text, const std::string& option) {
+    const auto parts = split(text, ',');
+    if (parts.size() != 2 && parts.size() != 3)
+        throw UsageError(option, fmt::format("'{}' is not a point: give X,Z or X,Y,Z in metres (z up, ice z < 0)", text));
+    Point3 p;
+    p.x_m = parse_number(parts[0], option, text);
+    if (parts.size() == 3) p.y_m = parse_number(parts[1], option, text);
+    p.z_m = parse_number(parts.back(), option, text);
+    return p;
+}
+
+std::vector<double> parse_list_or_range(const std::string& text, const std::string& option) {
+    if (text.find(':') != std::string::npos) {
+        const auto parts = split(text, ':');
+        if (parts.size() != 3)
+            throw UsageError(option, fmt::format("'{}' is not a range: give START:STOP:STEP", text));
+        const double start = parse_number(parts[0], option, text), stop = parse_number(parts[1], option, text),
+                     step = parse_number(parts[2], option, text);
+        if (step == 0.0 || (stop - start) / step < 0.0)
+            throw UsageError(option, fmt::format("range '{}' never reaches its stop value from its start with that step", text));
+        const double count = std::floor((stop - start) / step + 1e-9);
+        if (count > 1e6) throw UsageError(option, fmt::format("range '{}' has more than a million values", text));
+        std::vector<double> values;
+        for (int k = 0; k <= static_cast<int>(count); ++k) values.push_back(start + k * step);
+        return values;
+    }
+    std::vector<double> values;
+    for (const auto& part : split(text, ',')) values.push_back(parse_number(part, option, text));
+    if (values.empty()) throw UsageError(option, "an empty list");
+    return values;
+}
+
+std::pair<double, double> parse_span(const std::string& text, const std::string& option) {
+    const auto parts = split(text, ':');
+    if (parts.size() != 2) throw UsageError(option, fmt::format("'{}' is not a range: give MIN:MAX", text));
+    const double low = parse_number(parts[0], option, text), high = parse_number(parts[1], option, text);
+    if (!(low < high)) throw UsageError(option, fmt::format("'{}': MIN must be below MAX", text));
+    return {low, high};
+}
+
+std::vector<Receiver> select_receivers(const std::string& station_path, const std::string& point_text,
+                                       const std::string& subset, const std::string& point_option) {
+    if (station_path.empty() == point_text.empty())
+        throw UsageError(point_option, "give either " + point_option + " POINT or --station FILE");
+    if (!point_text.empty()) {
+        const Point3 p = parse_point(point_text, point_option);
+        Receiver r;
+        r.name = "receiver";
+        r.x_m = p.x_m;
+        r.y_m = p.y_m;
+        r.z_m = p.z_m;
+        if (r.z_m > 0.0)
+            throw UsageError(point_option, fmt::format("the receiver at z = {} m is above the surface; "
+                                                       "it must be in the ice (z <= 0)", r.z_m));
+        return {r};
+    }
+    const Station station = load_station_file(station_path);
+    if (subset.empty()) return station.receivers;
+    std::vector<Receiver> chosen;
+    for (const auto& name : split(subset, ',')) chosen.push_back(station.receiver(name));
+    return chosen;
+}
+
+void emit(const std::string& path, const std::string& text) {
+    if (path.empty() || path == "-") {
+        std::cout << text;
+        std::cout.flush();
+        return;
+    }
+    write_text_file(path, text);
+}
+
+}  // namespace firnray::cli

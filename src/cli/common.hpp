@@ -1,0 +1,65 @@
+// Options and helpers shared by the command files: the model, the solver, threads, progress,
+// points given on the command line, and writing outputs whole.
+#pragma once
+
+#include <functional>
+#include <memory>
+#include <optional>
+#include <stdexcept>
+#include <string>
+#include <vector>
+
+#include <CLI/CLI.hpp>
+
+#include "core/cancel.hpp"
+#include "model/firn_model.hpp"
+#include "station/station.hpp"
+
+namespace firnray::cli {
+
+// A bad option value found after CLI11's own checks (a malformed point or range). Exit code 2.
+class UsageError : public std::runtime_error {
+public:
+    UsageError(const std::string& option, const std::string& what) : std::runtime_error(option + ": " + what) {}
+};
+
+// --model FILE (default: the built-in generic model).
+void add_model_option(CLI::App* command, std::string& path);
+std::shared_ptr<const FirnModel> load_model_or_default(const std::string& path);
+
+// --threads N (default: all cores) and --quiet.
+struct RunOptions {
+    int threads = 0;  // 0: all cores
+    bool quiet = false;
+    int thread_count() const;
+};
+void add_run_options(CLI::App* command, RunOptions& options);
+
+// Progress on stderr when stderr is a terminal and --quiet is not given; quiet otherwise.
+// The returned control also carries the Ctrl-C flag.
+RunControl make_run_control(const RunOptions& options, const std::string& label);
+void finish_progress(const RunOptions& options);
+
+// A point "X,Z" or "X,Y,Z" in metres; throws UsageError naming the option.
+struct Point3 {
+    double x_m = 0.0, y_m = 0.0, z_m = 0.0;
+};
+Point3 parse_point(const std::string& text, const std::string& option);
+
+// A finite number; throws UsageError naming the option.
+double parse_number(const std::string& text, const std::string& option);
+// "MIN:MAX" with MIN < MAX.
+std::pair<double, double> parse_span(const std::string& text, const std::string& option);
+
+// A list "a,b,c" or a range "start:stop:step" (inclusive of stop within rounding).
+std::vector<double> parse_list_or_range(const std::string& text, const std::string& option);
+
+// The receivers of a command: one point (--receiver) or a station file, optionally a subset of
+// its receivers by name. Exactly one of point_text and station_path must be given.
+std::vector<Receiver> select_receivers(const std::string& station_path, const std::string& point_text,
+                                       const std::string& subset, const std::string& point_option);
+
+// Writes text to `path` atomically, or to stdout when path is empty or "-".
+void emit(const std::string& path, const std::string& text);
+
+}  // namespace firnray::cli

@@ -1,0 +1,62 @@
+// Reading CSV inputs (measured profiles, batches of source/receiver pairs) with named columns.
+// Reading never fails on a bad data row: rows are kept raw with their file line numbers, and the
+// accessors throw for the one row they are asked about, so a batch can report it and go on.
+#pragma once
+
+#include <cstddef>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+namespace firnray {
+
+// Which error type a table raises: DataInputError (exit 4) for data files, ModelInputError (exit 3)
+// for tables that a model file refers to.
+enum class CsvErrorKind { data, model };
+
+struct CsvRow {
+    int line = 0;                     // 1-based line in the file
+    std::vector<std::string> fields;  // trimmed, quotes removed
+    std::string problem;              // non-empty when the line could not be split (e.g. an open quote)
+};
+
+// The format: comma-separated; the first line that is neither blank nor a comment (first
+// non-blank character '#') names the columns; blank and comment lines are skipped everywhere;
+// spaces around fields are ignored; a field may be double-quoted ("a, b" and "" for a quote inside).
+class CsvTable {
+public:
+    std::string path;                   // as given, for messages
+    int header_line = 0;
+    std::vector<std::string> columns;   // names from the header
+    std::vector<CsvRow> rows;
+    CsvErrorKind error_kind = CsvErrorKind::data;
+
+    std::optional<std::size_t> find_column(std::string_view name) const;
+    // Index of a column; throws (naming the file, the header line and the columns there are) if absent.
+    std::size_t column(std::string_view name) const;
+
+    // Throws unless the row has as many fields as the header and could be split.
+    void check_row(const CsvRow& row) const;
+    // A finite number; throws naming the file, the row's line and the column otherwise.
+    double number(const CsvRow& row, std::size_t column) const;
+    double number(const CsvRow& row, std::string_view column_name) const { return number(row, column(column_name)); }
+    // The raw text of a field (checked as by check_row).
+    const std::string& text(const CsvRow& row, std::size_t column) const;
+
+    // Throws the table's error type located at the row's line and the named column (may be empty).
+    [[noreturn]] void fail(const CsvRow& row, std::string_view column_name, const std::string& reason) const;
+    [[noreturn]] void fail(int line, std::string_view column_name, const std::string& reason) const;
+};
+
+// Reads a whole file. Throws (the error type chosen by `kind`) only when the file cannot be read,
+// has no header line, or its header has empty or repeated names.
+CsvTable read_csv(const std::string& path, CsvErrorKind kind = CsvErrorKind::data);
+
+// The same from text already in memory; `origin` names it in messages.
+CsvTable parse_csv(std::string_view text, const std::string& origin, CsvErrorKind kind = CsvErrorKind::data);
+
+// Parses a whole field as a finite number (surrounding spaces allowed); empty when it is not one.
+std::optional<double> parse_number(std::string_view text);
+
+}  // namespace firnray

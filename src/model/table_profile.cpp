@@ -1,0 +1,80 @@
+#include "model/table_profile.hpp"
+
+#include <cmath>
+
+#include <fmt/format.h>
+
+#include "core/errors.hpp"
+
+namespace firnray {
+
+namespace {
+
+CubicSpline build_spline(std::vector<double> depth, std::vector<double> n) {
+    if (depth.size() != n.size())
+        throw ModelInputError(fmt::format("the table has {} depths but {} index values", depth.size(), n.size()),
+                              {"", 0, "n"});
+    if (depth.size() < TableProfile::minimum_points)
+        throw ModelInputError(fmt::format("an index table needs at least {} points (got {}) for a smooth spline",
+                                          TableProfile::minimum_points, depth.size()),
+                              {"", 0, "depth_m"});
+    for (std::size_t i = 0; i < depth.size(); ++i) {
+        if (!std::isfinite(depth[i]))
+            throw ModelInputError(fmt::format("point {}: depth is not a finite number", i + 1), {"", 0, "depth_m"});
+        if (depth[i] < 0.0)
+            throw ModelInputError(fmt::format("point {}: depth {} m is above the surface", i + 1, depth[i]),
+                                  {"", 0, "depth_m"});
+        if (i > 0 && !(depth[i] > depth[i - 1]))
+            throw ModelInputError(fmt::format("point {}: depth {} m is not deeper than the point before ({} m); "
+                                              "depths must increase strictly",
+                                              i + 1, depth[i], depth[i - 1]),
+                                  {"", 0, "depth_m"});
+        if (!std::isfinite(n[i]))
+            throw ModelInputError(fmt::format("point {}: n is not a finite number", i + 1), {"", 0, "n"});
+        if (n[i] < 1.0)
+            throw ModelInputError(fmt::format("point {}: n = {} is below 1 (no medium is faster than vacuum)", i + 1, n[i]),
+                                  {"", 0, "n"});
+    }
+    return CubicSpline(std::move(depth), std::move(n), SplineEnd::natural(), SplineEnd::clamped(0.0));
+}
+
+}  // namespace
+
+TableProfile::TableProfile(std::vector<double> depth_m, std::vector<double> n)
+    : spline_(build_spline(std::move(depth_m), std::move(n))) {
+    const double lowest = spline_.minimum_on_knots();
+    if (lowest < 1.0)
+        throw ModelInputError(fmt::format("the spline through the table dips to n = {:.6g}, below 1; the data swing "
+                                          "too much between points (smooth or fit them)",
+                                          lowest),
+                              {"", 0, "n"});
+    const double at_surface = spline_.value(0.0);
+    if (at_surface < 1.0)
+        throw ModelInputError(fmt::format("continued up from the shallowest point ({} m) with its slope, the table "
+                                          "reaches n = {:.6g} < 1 at the surface; add a point nearer the surface",
+                                          spline_.x().front(), at_surface),
+                              {"", 0, "n"});
+}
+
+double TableProfile::index(double z) const { return spline_.value(z < 0.0 ? -z : 0.0); }
+
+double TableProfile::gradient(double z) const {
+    double n, slope;
+    spline_.value_and_slope(z < 0.0 ? -z : 0.0, n, slope);
+    return -slope;
+}
+
+void TableProfile::index_and_gradient(double z, double& n, double& dn_dz) const {
+    double slope;
+    spline_.value_and_slope(z < 0.0 ? -z : 0.0, n, slope);
+    dn_dz = -slope;
+}
+
+std::string TableProfile::describe() const {
+    const auto& d = spline_.x();
+    const auto& n = spline_.y();
+    return fmt::format("table: {} points from {} m (n {:.6g}) to {} m (n {:.6g}), cubic spline", d.size(), d.front(),
+                       n.front(), d.back(), n.back());
+}
+
+}  // namespace firnray

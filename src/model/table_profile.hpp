@@ -1,0 +1,42 @@
+// n(z) from measured points (a borehole or core log, or densities converted to n), interpolated
+// with a C² cubic spline so that dn/dz is continuous everywhere, as the ray equations need.
+// Noisy logs should be fitted (model/fit.hpp) rather than splined through every wiggle.
+#pragma once
+
+#include <string>
+#include <vector>
+
+#include "model/index_profile.hpp"
+#include "model/interpolation.hpp"
+
+namespace firnray {
+
+// Interpolation in depth d = -z between the shallowest point d_0 and the deepest d_last:
+//  - inside the table: a cubic spline, C², natural (zero curvature) at d_0 and with zero slope at
+//    d_last, the deepest point being taken as solid ice where n no longer changes;
+//  - below d_last: n held at the deepest value (dn/dz = 0, so dn/dz stays continuous);
+//  - above d_0 (when the table does not start at the surface): the straight line with the
+//    spline's end value and slope, up to z = 0 (C² there too, since the curvature is zero).
+// The construction checks that n >= 1 everywhere, including the extension up to the surface.
+class TableProfile final : public IndexProfile {
+public:
+    static constexpr std::size_t minimum_points = 4;
+
+    // depth_m strictly increasing and >= 0, n finite and >= 1, at least minimum_points points.
+    // Throws ModelInputError (key "depth_m" or "n") naming the offending point (counting from 1).
+    TableProfile(std::vector<double> depth_m, std::vector<double> n);
+
+    double index(double z) const override;
+    double gradient(double z) const override;
+    void index_and_gradient(double z, double& n, double& dn_dz) const override;
+    std::string kind() const override { return "table"; }
+    std::string describe() const override;
+
+    const std::vector<double>& depth_m() const { return spline_.x(); }
+    const std::vector<double>& n_values() const { return spline_.y(); }
+
+private:
+    CubicSpline spline_;  // n against depth
+};
+
+}  // namespace firnray

@@ -1,0 +1,272 @@
+#include "station/map_output.hpp"
+
+#include <cmath>
+#include <iterator>
+
+#include <fmt/format.h>
+
+#include "core/errors.hpp"
+#include "io/json_writer.hpp"
+#include "plot/figure.hpp"
+
+namespace firnray {
+
+MapColouring parse_map_colouring(const std::string& text) {
+    if (text == "kinds") return MapColouring::kinds;
+    if (text == "receivers") return MapColouring::receivers;
+    if (text == "time-between") return MapColouring::time_between;
+    if (text == "first-time") return MapColouring::first_time;
+    if (text == "amplitude") return MapColouring::amplitude;
+    throw DataInputError(fmt::format("'{}' is not a map colouring (kinds, receivers, time-between, first-time, amplitude)", text),
+                         {"", 0, "colour-by"});
+}
+
+std::string kinds_label(std::uint8_t kinds) {
+    std::string out;
+    if (kinds & kind_direct) out += "direct";
+    if (kinds & kind_refracted) out += out.empty() ? "refracted" : "+refracted";
+    if (kinds & kind_reflected) out += out.empty() ? "reflected" : "+reflected";
+    return out.empty() ? "none" : out;
+}
+
+namespace {
+
+// Six significant digits keep million-cell grids small; scans use more (volumes are compared).
+void append_number(fmt::memory_buffer& out, double value, int digits = 6) {
+    if (std::isfinite(value)) fmt::format_to(std::back_inserter(out), "{:.{}g}", value, digits);
+    else if (std::isinf(value)) fmt::format_to(std::back_inserter(out), "inf");
+}
+
+// Categories of the "kinds" colouring.
+enum KindCategory { cat_shadow, cat_too_few, cat_direct, cat_direct_refracted, cat_direct_reflected, cat_second_only, cat_three };
+
+int kind_category(const VisibilityMap& map, const MapCell& cell) {
+    if (cell.receivers_seeing == 0) return cat_shadow;
+    if (!map.visible(cell)) return cat_too_few;
+    switch (cell.kinds) {
+        case kind_direct: return cat_direct;
+        case kind_direct | kind_refracted: return cat_direct_refracted;
+        case kind_direct | kind_reflected: return cat_direct_reflected;
+        case kind_refracted:
+        case kind_reflected:
+        case kind_refracted | kind_reflected: return cat_second_only;
+        default: return cat_three;
+    }
+}
+
+plot::CellGrid cell_grid(const MapGrid& grid) {
+    plot::CellGrid cells;
+    for (int i = 0; i <= grid.distance_cells; ++i) cells.x_edges.push_back(grid.distance_min_m + i * grid.distance_step());
+    for (int j = 0; j <= grid.depth_cells; ++j) cells.y_edges.push_back(grid.depth_min_m + j * grid.depth_step());
+    return cells;
+}
+
+}  // namespace
+
+std::string visibility_grid_csv(const VisibilityMap& map) {
+    fmt::memory_buffer out;
+    fmt::format_to(std::back_inserter(out),
+                   "depth_m,distance_m,paths,kinds,receivers_seeing,visible,first_time_ns,time_between_ns,amplitude_per_m\n");
+    for (int j = 0; j < map.grid.depth_cells; ++j) {
+        const double depth = map.grid.depth_at(j);
+        for (int i = 0; i < map.grid.distance_cells; ++i) {
+            const MapCell& cell = map.at(j, i);
+            append_number(out, depth);
+            out.push_back(',');
+            append_number(out, map.grid.distance_at(i));
+            fmt::format_to(std::back_inserter(out), ",{},{},{},{},", static_cast<int>(cell.paths), kinds_label(cell.kinds),
+                           static_cast<int>(cell.receivers_seeing), map.visible(cell) ? 1 : 0);
+            append_number(out, cell.first_time_ns);
+            out.push_back(',');
+            append_number(out, cell.time_between_ns);
+            out.push_back(',');
+            append_number(out, cell.amplitude_per_m);
+            out.push_back('\n');
+        }
+    }
+    return fmt::to_string(out);
+}
+
+std::string visibility_boundary_csv(const VisibilityMap& map) {
+    fmt::memory_buffer out;
+    fmt::format_to(std::back_inserter(out), "depth_m,max_visible_distance_m\n");
+    for (int j = 0; j < map.grid.depth_cells; ++j) {
+        append_number(out, map.grid.depth_at(j));
+        out.push_back(',');
+        append_number(out, map.boundary_m[j]);
+        out.push_back('\n');
+    }
+    return fmt::to_string(out);
+}
+
+std::string visibility_map_svg(const VisibilityMap& map, const FirnModel& model, const std::vector<Receiver>& receivers,
+                               MapColouring colouring) {
+    plot::Figure figure(1000, 620);
+    const std::string who = receivers.size() == 1
+                                ? fmt::format("receiver at {:g} m depth", -receivers[0].z_m)
+                                : fmt::format("{} receivers, visible = seen by at least {}", receivers.size(), map.min_receivers);
+    figure.title(fmt::format("Source visibility: {} (model: {})", who, model.name));
+    figure.x_label(receivers.size() == 1 ? "horizontal distance from the receiver (m)"
+                                         : "horizontal distance from the station centre (m)");
+    figure.y_label("source depth (m)");
+    figure.invert_y(true);
+    figure.x_range(map.grid.distance_min_m, map.grid.distance_max_m);
+    figure.y_range(map.grid.depth_min_m, map.grid.depth_max_m);
+
+    const plot::CellGrid grid = cell_grid(map.grid);
+    if (colouring == MapColouring::kinds) {
+        std::vector<int> categories(map.cells.size());
+        for (std::size_t c = 0; c < map.cells.size(); ++c) categories[c] = kind_category(map, map.cells[c]);
+        std::vector<plot::Category> legend{{"shadow (no path)", "#4a4a4a"},
+                                           {fmt::format("seen by fewer than {} receivers", map.min_receivers), "#b8b8b8"},
+                                           {"direct only", "#9ecae1"},
+                                           {"direct + refracted", "#2171b5"},
+                                           {"direct + surface-reflected", "#41ab5d"},
+                                           {"refracted or reflected only", "#fdae6b"},
+                                           {"three kinds", "#d94801"}};
+        // List only the categories that occur, so the legend explains what is on the map.
+        std::vector<bool> present(legend.size(), false);
+        for (int c : categories) present[c] = true;
+        for (std::size_t c = 0; c < legend.size(); ++c)
+            if (!present[c]) legend[c].label.clear();
+        figure.category_map(grid, std::move(categories), std::move(legend));
+    } else {
+        std::vector<double> values(map.cells.size());
+        plot::ColourScale scale;
+        for (std::size_t c = 0; c < map.cells.size(); ++c) {
+            const MapCell& cell = map.cells[c];
+            switch (colouring) {
+                case MapColouring::receivers: values[c] = cell.receivers_seeing; break;
+                case MapColouring::time_between: values[c] = cell.time_between_ns; break;
+                case MapColouring::first_time: values[c] = cell.first_time_ns; break;
+                default: values[c] = cell.amplitude_per_m; break;
+            }
+        }
+        switch (colouring) {
+            case MapColouring::receivers:
+                scale.label = "receivers that see the position";
+                scale.low = 0;
+                scale.high = static_cast<double>(map.receivers);
+                break;
+            case MapColouring::time_between: scale.label = "time between the first two paths (ns)"; break;
+            case MapColouring::first_time: scale.label = "first-arrival time (ns)"; break;
+            default:
+                scale.label = "amplitude factor (1/m)";
+                scale.logarithmic = true;
+                break;
+        }
+        figure.value_map(grid, std::move(values), scale);
+    }
+
+    // The shadow boundary as a curve (distance against depth).
+    std::vector<double> bx, by;
+    for (int j = 0; j < map.grid.depth_cells; ++j) {
+        const double b = map.boundary_m[j];
+        bx.push_back(std::isfinite(b) ? std::min(b, map.grid.distance_max_m) : std::numeric_limits<double>::quiet_NaN());
+        by.push_back(map.grid.depth_at(j));
+    }
+    figure.add_line(bx, by, plot::LineStyle{"#d7191c", 2.0, "", 1.0},
+                    map.min_receivers <= 1 ? "shadow boundary" : "visibility boundary");
+
+    std::vector<double> rx, ry;
+    for (const Receiver& r : receivers) {
+        const double azimuth = map.azimuth_deg * 3.14159265358979323846 / 180.0;
+        rx.push_back((r.x_m - map.centre_x_m) * std::cos(azimuth) + (r.y_m - map.centre_y_m) * std::sin(azimuth));
+        ry.push_back(-r.z_m);
+    }
+    figure.add_markers(rx, ry, plot::MarkerStyle{"#000000", 6.0, "triangle"},
+                       receivers.size() == 1 ? "receiver" : "receivers (projected on the map plane)");
+    return figure.svg();
+}
+
+std::string depth_scan_csv(const DepthScan& scan) {
+    fmt::memory_buffer out;
+    fmt::format_to(std::back_inserter(out),
+                   "receiver_depth_m,region_volume_m3,visible_volume_m3,visible_fraction,two_path_volume_m3,"
+                   "median_time_between_ns,min_time_between_ns,max_time_between_ns,strong_volume_m3,best\n");
+    for (std::size_t k = 0; k < scan.rows.size(); ++k) {
+        const DepthScanRow& row = scan.rows[k];
+        append_number(out, row.receiver_depth_m);
+        for (double v : {row.region_volume_m3, row.visible_volume_m3, row.visible_volume_m3 / row.region_volume_m3,
+                         row.two_path_volume_m3, row.median_time_between_ns, row.min_time_between_ns,
+                         row.max_time_between_ns}) {
+            out.push_back(',');
+            append_number(out, v, 10);
+        }
+        out.push_back(',');
+        if (row.strong_volume_m3) append_number(out, *row.strong_volume_m3, 10);
+        fmt::format_to(std::back_inserter(out), ",{}\n", k == scan.best ? 1 : 0);
+    }
+    return fmt::to_string(out);
+}
+
+std::string depth_scan_json(const DepthScan& scan, const FirnModel& model, const MapGrid& region) {
+    JsonWriter json;
+    json.begin_object();
+    json.field("model", model.name);
+    json.key("region").begin_object();
+    json.field("max_distance_m", region.distance_max_m);
+    json.field("min_depth_m", region.depth_min_m);
+    json.field("max_depth_m", region.depth_max_m);
+    json.end_object();
+    json.field("best_receiver_depth_m", scan.rows.empty() ? std::nan("") : scan.rows[scan.best].receiver_depth_m);
+    json.key("depths").begin_array();
+    for (const DepthScanRow& row : scan.rows) {
+        json.begin_object();
+        json.field("receiver_depth_m", row.receiver_depth_m);
+        json.field("region_volume_m3", row.region_volume_m3);
+        json.field("visible_volume_m3", row.visible_volume_m3);
+        json.field("two_path_volume_m3", row.two_path_volume_m3);
+        json.field("median_time_between_ns", row.median_time_between_ns);
+        json.field("min_time_between_ns", row.min_time_between_ns);
+        json.field("max_time_between_ns", row.max_time_between_ns);
+        json.field("strong_volume_m3", row.strong_volume_m3);
+        json.end_object();
+    }
+    json.end_array();
+    json.end_object();
+    return json.str() + "\n";
+}
+
+std::string depth_scan_svg(const DepthScan& scan, const FirnModel& model, const MapGrid& region) {
+    std::vector<double> depth, visible, two, median, low, high, strong;
+    for (const auto& row : scan.rows) {
+        depth.push_back(row.receiver_depth_m);
+        visible.push_back(100.0 * row.visible_volume_m3 / row.region_volume_m3);
+        two.push_back(100.0 * row.two_path_volume_m3 / row.region_volume_m3);
+        median.push_back(row.median_time_between_ns);
+        low.push_back(row.min_time_between_ns);
+        high.push_back(row.max_time_between_ns);
+        if (row.strong_volume_m3) strong.push_back(100.0 * *row.strong_volume_m3 / row.region_volume_m3);
+    }
+    const double best = scan.rows.empty() ? 0.0 : scan.rows[scan.best].receiver_depth_m;
+    const plot::LineStyle best_style{"#d7191c", 1.5, "6 4", 1.0};
+    const std::string best_label = fmt::format("best depth {:g} m (largest visible volume)", best);
+
+    plot::Figure volumes(960, 420);
+    volumes.title("Share of the source region seen by the receiver");
+    volumes.x_label("receiver depth (m)");
+    volumes.y_label("share of the region volume (%)");
+    volumes.add_line(depth, visible, plot::LineStyle{"#2171b5", 2.0, "", 1.0}, "visible (at least one path)");
+    volumes.add_markers(depth, visible, plot::MarkerStyle{"#2171b5", 3.0, "circle"});
+    volumes.add_line(depth, two, plot::LineStyle{"#41ab5d", 2.0, "", 1.0}, "direct and a second path");
+    volumes.add_markers(depth, two, plot::MarkerStyle{"#41ab5d", 3.0, "square"});
+    if (!strong.empty()) volumes.add_line(depth, strong, plot::LineStyle{"#d94801", 2.0, "4 2", 1.0}, "amplitude above threshold");
+    volumes.add_vline(best, best_style, best_label);
+
+    plot::Figure delays(960, 420);
+    delays.title("Time between the two paths over the two-path region");
+    delays.x_label("receiver depth (m)");
+    delays.y_label("time between paths (ns)");
+    delays.add_line(depth, median, plot::LineStyle{"#6a51a3", 2.0, "", 1.0}, "volume-weighted median");
+    delays.add_markers(depth, median, plot::MarkerStyle{"#6a51a3", 3.0, "circle"});
+    delays.add_line(depth, low, plot::LineStyle{"#9e9ac8", 1.2, "3 3", 1.0}, "minimum");
+    delays.add_line(depth, high, plot::LineStyle{"#9e9ac8", 1.2, "3 3", 1.0}, "maximum");
+    delays.add_vline(best, best_style, best_label);
+
+    return plot::compose_figures({&volumes, &delays}, 1,
+                                 fmt::format("Receiver-depth scan (model: {}; sources within {:g} m, {:g}-{:g} m deep)",
+                                             model.name, region.distance_max_m, region.depth_min_m, region.depth_max_m));
+}
+
+}  // namespace firnray

@@ -1,0 +1,114 @@
+// End-to-end: firnray shadow and firnray depths, run as a user would, outputs parsed and
+// SVGs rendered with rsvg-convert (librsvg, Debian package librsvg2-bin) to prove they parse.
+#include <catch2/catch.hpp>
+
+#include <cstdlib>
+#include <filesystem>
+#include <sstream>
+
+#include "support/run_cli.hpp"
+
+using namespace firnray::test;
+namespace fs = std::filesystem;
+
+namespace {
+std::vector<std::vector<std::string>> csv_rows(const std::string& text) {
+    std::vector<std::vector<std::string>> rows;
+    std::stringstream in(text);
+    std::string line;
+    while (std::getline(in, line)) {
+        std::vector<std::string> fields;
+        std::stringstream l(line);
+        std::string f;
+        while (std::getline(l, f, ',')) fields.push_back(f);
+        if (!line.empty() && line.back() == ',') fields.emplace_back();
+        rows.push_back(fields);
+    }
+    return rows;
+}
+
+void require_svg_renders(const std::string& svg_path) {
+    const std::string png = svg_path + ".png";
+    const int status = std::system(("rsvg-convert '" + svg_path + "' -o '" + png + "' 2>/dev/null").c_str());
+    INFO("rsvg-convert (Debian package librsvg2-bin) must render " << svg_path);
+    REQUIRE(status == 0);
+    REQUIRE(fs::file_size(png) > 1000);
+}
+}  // namespace
+
+TEST_CASE("firnray shadow: grid, boundary and map for one receiver", "[cli][shadow]") {
+    const std::string dir = temp_folder("shadow");
+    const auto r = run_firnray({"shadow", "--receiver", "0,-60", "--distance", "0:1500", "--distance-cells", "60",
+                                "--depth", "0:300", "--depth-cells", "30", "-o", dir + "/grid.csv", "--boundary",
+                                dir + "/boundary.csv", "--plot", dir + "/map.svg", "--quiet"});
+    INFO(r.err);
+    REQUIRE(r.exit_code == 0);
+    const auto grid = csv_rows(read_file(dir + "/grid.csv"));
+    REQUIRE(grid.size() == 1 + 60 * 30);
+    CHECK(grid[0][0] == "depth_m");
+    CHECK(grid[0][3] == "kinds");
+    int shadow = 0, seen = 0;
+    for (std::size_t i = 1; i < grid.size(); ++i) (grid[i][3] == "none" ? shadow : seen)++;
+    CHECK(shadow > 0);  // a receiver at 60 m in firn has a shadow zone within 1.5 km
+    CHECK(seen > 0);
+    const auto boundary = csv_rows(read_file(dir + "/boundary.csv"));
+    REQUIRE(boundary.size() == 31);
+    CHECK(std::stod(boundary[1][1]) < std::stod(boundary[30][1]));  // deeper sources are seen farther
+    require_svg_renders(dir + "/map.svg");
+}
+
+TEST_CASE("firnray shadow: a station with --min-receivers, and its errors", "[cli][shadow]") {
+    const std::string dir = temp_folder("shadow-station");
+    const auto r = run_firnray({"shadow", "--station", source_path("demo/station.toml"), "--min-receivers", "12",
+                                "--distance-cells", "40", "--depth-cells", "20", "-o", dir + "/grid.csv", "--plot",
+                                dir + "/map.svg", "--quiet"});
+    INFO(r.err);
+    REQUIRE(r.exit_code == 0);
+    require_svg_renders(dir + "/map.svg");
+
+    const auto too_many = run_firnray({"shadow", "--station", source_path("demo/station.toml"), "--min-receivers", "13",
+                                       "-o", dir + "/x.csv"});
+    CHECK(too_many.exit_code == 4);
+    CHECK(too_many.err.find("min-receivers") != std::string::npos);
+    CHECK_FALSE(fs::exists(dir + "/x.csv"));
+
+    const auto neither = run_firnray({"shadow"});
+    CHECK(neither.exit_code == 2);
+    const auto bad_point = run_firnray({"shadow", "--receiver", "0,abc"});
+    CHECK(bad_point.exit_code == 2);
+    CHECK(bad_point.err.find("--receiver") != std::string::npos);
+    const auto in_air = run_firnray({"shadow", "--receiver", "0,5"});
+    CHECK(in_air.exit_code == 2);
+    CHECK(in_air.err.find("above the surface") != std::string::npos);
+
+    const std::string bad_station = write_file(dir + "/bad.toml", "[[receiver]]\nname = \"R\"\nx_m = 0\ny_m = 0\nz_m = 4\n");
+    const auto bad = run_firnray({"shadow", "--station", bad_station, "-o", dir + "/y.csv"});
+    CHECK(bad.exit_code == 3);
+    CHECK(bad.err.find("bad.toml:1") != std::string::npos);
+    CHECK_FALSE(fs::exists(dir + "/y.csv"));
+}
+
+TEST_CASE("firnray depths: one row per candidate depth, the best flagged once, and a plot", "[cli][depths]") {
+    const std::string dir = temp_folder("depths");
+    const auto r = run_firnray({"depths", "--depths", "20,60,100", "--max-distance", "800", "--source-depth", "0:200",
+                                "--distance-cells", "40", "--depth-cells", "20", "--plot", dir + "/depths.svg",
+                                "--quiet"});
+    INFO(r.err);
+    REQUIRE(r.exit_code == 0);
+    const auto rows = csv_rows(r.out);
+    REQUIRE(rows.size() == 4);
+    int best = 0;
+    for (std::size_t i = 1; i < rows.size(); ++i) {
+        const double region = std::stod(rows[i][1]), visible = std::stod(rows[i][2]);
+        CHECK(region == Approx(3.14159265358979 * 800.0 * 800.0 * 200.0).epsilon(1e-9));  // π R² H
+        CHECK(visible <= region);
+        best += rows[i].back() == "1";
+    }
+    CHECK(best == 1);
+    require_svg_renders(dir + "/depths.svg");
+    const auto json = run_firnray({"depths", "--depths", "50", "--distance-cells", "10", "--depth-cells", "10",
+                                   "--format", "json", "--quiet"});
+    CHECK(json.exit_code == 0);
+    CHECK(json.out.find("\"best_receiver_depth_m\": 50") != std::string::npos);
+    CHECK(run_firnray({"depths", "--depths", "-5"}).exit_code == 2);
+}
