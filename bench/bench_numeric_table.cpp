@@ -1,0 +1,109 @@
+// Benchmark of map-scale work on the numeric solver with a tabulated profile: an ArrivalTable
+// (receiver at z = −60 m, 500 source depths 1..500 m, 1500 ray parameters) on 1 and 2 threads,
+// the same table through the default RaySolver::segments_from (segment() level to level) for
+// comparison, and a whole 1000 × 500 visibility map on 2 threads. Prints medians of a few runs
+// (the machine is shared); docs/performance-numeric-table.md has the figures.
+//
+// Usage: bench_numeric_table [model-file] [repetitions]
+// (default models/table-density.toml, relative to the working directory, and 3).
+#include <algorithm>
+#include <chrono>
+#include <cstdio>
+#include <cstdlib>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "model/model_file.hpp"
+#include "solver/numeric_solver.hpp"
+#include "station/arrival_table.hpp"
+#include "station/visibility_map.hpp"
+
+using namespace firnray;
+
+namespace {
+
+template <class Body>
+double median_seconds(int repetitions, const Body& body) {
+    std::vector<double> times;
+    for (int r = 0; r < repetitions; ++r) {
+        const auto start = std::chrono::steady_clock::now();
+        body();
+        times.push_back(std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count());
+    }
+    std::sort(times.begin(), times.end());
+    return times[times.size() / 2];
+}
+
+// The numeric solver without its segments_from: what every table cost before it had one.
+class LevelByLevel final : public RaySolver {
+public:
+    explicit LevelByLevel(const NumericSolver& inner)
+        : RaySolver(std::shared_ptr<const FirnModel>(&inner.model(), [](const FirnModel*) {})), inner_(&inner) {}
+    std::string name() const override { return "numeric, level by level"; }
+    Segment segment(double xi, double z_a, double z_b) const override { return inner_->segment(xi, z_a, z_b); }
+    std::optional<double> turning_z(double xi, double z_start) const override { return inner_->turning_z(xi, z_start); }
+
+private:
+    const NumericSolver* inner_;
+};
+
+}  // namespace
+
+int main(int argc, char** argv) {
+    const std::string model_path = argc > 1 ? argv[1] : "models/table-density.toml";
+    const int repetitions = argc > 2 ? std::max(1, std::atoi(argv[2])) : 3;
+    const auto model = std::make_shared<const FirnModel>(load_model_file(model_path));
+    std::printf("model: %s (%s: %s)\n", model->name.c_str(), model_path.c_str(), model->index->describe().c_str());
+
+    const double receiver_z = -60.0;
+    std::vector<double> sources;
+    for (int depth = 1; depth <= 500; ++depth) sources.push_back(-static_cast<double>(depth));
+    ArrivalTableOptions options;
+    options.ray_parameters = 1500;
+
+    const NumericSolver plain(model, {}, DistanceDerivative::not_computed);
+    const NumericSolver with_derivative(model);
+    std::printf("ArrivalTable, receiver z = %.0f m, %zu source depths 1..500 m, %d ray parameters, median of %d:\n",
+                receiver_z, sources.size(), options.ray_parameters, repetitions);
+    double one_thread = 0.0, two_threads = 0.0;
+    for (int threads : {1, 2}) {
+        options.threads = threads;
+        const double t = median_seconds(repetitions, [&] {
+            const ArrivalTable table(plain, receiver_z, sources, options);
+            if (table.rows() != sources.size()) std::abort();
+        });
+        (threads == 1 ? one_thread : two_threads) = t;
+        std::printf("  numeric (no ∂x/∂ξ), %d thread(s): %.3f s\n", threads, t);
+    }
+    std::printf("  1 -> 2 threads: %.2fx faster\n", one_thread / two_threads);
+    options.threads = 1;
+    const double derivative_t = median_seconds(repetitions, [&] {
+        const ArrivalTable table(with_derivative, receiver_z, sources, options);
+    });
+    std::printf("  numeric (∂x/∂ξ computed in segment()), 1 thread: %.3f s\n", derivative_t);
+    const LevelByLevel level_by_level(plain);
+    const double old_t = median_seconds(1, [&] { const ArrivalTable table(level_by_level, receiver_z, sources, options); });
+    std::printf("  default segments_from (segment() level to level), 1 thread, one run: %.3f s\n", old_t);
+
+    Receiver receiver;
+    receiver.name = "R";
+    receiver.z_m = receiver_z;
+    MapGrid grid;
+    grid.distance_max_m = 2000.0;
+    grid.distance_cells = 1000;
+    grid.depth_max_m = 500.0;
+    grid.depth_cells = 500;
+    VisibilityOptions map_options;
+    map_options.threads = 2;
+    std::size_t visible = 0;
+    const double map_t = median_seconds(repetitions, [&] {
+        const VisibilityMap map = compute_visibility_map(plain, std::span<const Receiver>(&receiver, 1), grid, map_options);
+        visible = static_cast<std::size_t>(std::count_if(map.cells.begin(), map.cells.end(),
+                                                         [&](const MapCell& c) { return map.visible(c); }));
+    });
+    std::printf("visibility map 1000 x 500 (distance 0..2000 m, depth 0..500 m), one receiver, 2 threads: %.3f s "
+                "(%zu of %zu cells visible)\n",
+                map_t, visible, grid.cells());
+    return 0;
+}
