@@ -21,5 +21,7 @@ void add_trace_command(CLI::App& app, CommandSlot& slot);
 void add_shadow_command(CLI::App& app, CommandSlot& slot);
 // firnray depths: receiver-depth scan of visible volume and time between paths.
 void add_depths_command(CLI::App& app, CommandSlot& slot);
+// firnray delays: arrival times and differences at every channel of a station.
+void add_delays_command(CLI::App& app, CommandSlot& slot);
 
 }  // namespace firnray::cli

@@ -23,6 +23,7 @@ int main(int argc, char** argv) {
     add_trace_command(app, slot);
     add_shadow_command(app, slot);
     add_depths_command(app, slot);
+    add_delays_command(app, slot);
 
     try {
         app.parse(argc, argv);

@@ -271,7 +271,9 @@ void ArrivalTable::add_arrival(const Row& row, ArrivalKind family, const Sample&
         arrival.caustic = true;
         arrival.amplitude_per_m = nan;
     } else {
-        arrival.amplitude_per_m = fresnel_magnitude * std::exp(-attenuation) / std::sqrt(spreading2);
+        // √(n0/nr): energy-flux factor of the ray tube, as in find_paths (amplitude reciprocity).
+        arrival.amplitude_per_m =
+            fresnel_magnitude * std::sqrt(n0 / nr) * std::exp(-attenuation) / std::sqrt(spreading2);
     }
     out.push_back(arrival);
 }

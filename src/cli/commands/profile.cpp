@@ -280,7 +280,7 @@ void add_profile_command(CLI::App& app, CommandSlot& slot) {
     cmd->add_option("--format", o->format, "output format: csv or json for a table (default csv); text or json for a "
                                            "fit (default text)")
         ->check(CLI::IsMember({"csv", "json", "text"}));
-    cmd->add_option("--output", o->output, "output file ('-' = standard output)")->capture_default_str();
+    cmd->add_option("--output,-o", o->output, "output file ('-' = standard output)")->capture_default_str();
     cmd->add_option("--plot", o->plot_path, "also write an SVG of n against depth (for a fit: data and fitted curve)");
 
     auto* fit = cmd->add_option("--fit", o->fit_path, "fit the exponential model to this CSV of measurements");

@@ -260,7 +260,7 @@ void add_trace_command(CLI::App& app, CommandSlot& slot) {
     cmd->add_option("--format", args->format, "Output format: csv (one row per point) or json (rays, branches, events)")
         ->capture_default_str()
         ->check(CLI::IsMember({"csv", "json"}));
-    cmd->add_option("--output", args->output, "Output file; - for standard output")->capture_default_str();
+    cmd->add_option("--output,-o", args->output, "Output file; - for standard output")->capture_default_str();
     cmd->add_option("--plot", args->plot_path, "Also draw the rays as an SVG figure into this file");
     cmd->footer(
         "Example: rays every 5 degrees from a transmitter 150 m deep, out to 1 km, with a plot:\n"

@@ -1,0 +1,61 @@
+// Arrival-time tables for a station: for each source position, every path to every receiver,
+// the differences relative to a reference channel, the time between the first two paths at each
+// receiver and, optionally, the derivatives of each arrival time with respect to the source
+// position (what the resolution of a reconstruction depends on).
+#pragma once
+
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "core/cancel.hpp"
+#include "paths/find_paths.hpp"
+#include "station/station.hpp"
+
+namespace firnray {
+
+struct DelaySource {
+    std::string name;  // from the input, or "row N" / "grid i,j"
+    int input_line = 0;  // line in the source file (0 for grid sources)
+    Point position;
+    std::string error;   // non-empty: this input row is bad; no paths are computed for it
+};
+
+struct DelayOptions {
+    std::size_t reference = 0;  // index of the reference receiver
+    PathOptions paths;
+    int threads = 1;
+    RunControl control;
+};
+
+struct ReceiverArrivals {
+    std::vector<ConnectedPath> paths;  // sorted by time; empty in the shadow zone
+    // ∂T/∂(source x, y, z) per path, s/m: minus the slowness vector of the ray where it leaves
+    // the source (Fermat's principle: ∇_source T = −n(source)/c · launch direction).
+    struct Gradient {
+        double dx = 0.0, dy = 0.0, dz = 0.0;
+    };
+    std::vector<Gradient> gradients;
+};
+
+struct SourceDelays {
+    std::vector<ReceiverArrivals> receivers;  // in station order
+    std::string error;                        // non-empty when this source failed
+};
+
+// One entry per source, in input order; a failing source records its error and the rest go on.
+std::vector<SourceDelays> compute_delays(const RaySolver& solver, const std::vector<Receiver>& receivers,
+                                         const std::vector<DelaySource>& sources, const DelayOptions& options);
+
+// Sources from a CSV file with columns x_m, z_m and optionally y_m and name (one source per row;
+// a bad row becomes a DelaySource with its error set).
+std::vector<DelaySource> read_delay_sources(const std::string& path);
+
+// Output writers (long format: one row per source × receiver × path; error rows for bad sources).
+std::string delay_table_csv(const std::vector<DelaySource>& sources, const std::vector<SourceDelays>& delays,
+                            const std::vector<Receiver>& receivers, const DelayOptions& options, bool derivatives);
+std::string delay_table_json(const std::vector<DelaySource>& sources, const std::vector<SourceDelays>& delays,
+                             const std::vector<Receiver>& receivers, const DelayOptions& options, bool derivatives,
+                             const std::string& model_name);
+
+}  // namespace firnray
