@@ -2,7 +2,8 @@
 // (receiver at z = −60 m, 500 source depths 1..500 m, 1500 ray parameters) on 1 and 2 threads,
 // the same table through the default RaySolver::segments_from (segment() level to level) for
 // comparison, and a whole 1000 × 500 visibility map on 2 threads. Prints medians of a few runs
-// (the machine is shared); docs/performance-numeric-table.md has the figures.
+// (the machine is shared), and the cost of single legs; docs/performance-numeric-table.md has
+// the figures.
 //
 // Usage: bench_numeric_table [model-file] [repetitions]
 // (default models/table-density.toml, relative to the working directory, and 3).
@@ -48,6 +49,46 @@ private:
     const NumericSolver* inner_;
 };
 
+// Median time of one call in µs, over `batches` batches of `per_batch` calls.
+template <class Call>
+double median_us(const Call& call, int batches = 21, int per_batch = 200) {
+    std::vector<double> times;
+    for (int b = 0; b < batches; ++b) {
+        const auto start = std::chrono::steady_clock::now();
+        for (int i = 0; i < per_batch; ++i) call();
+        times.push_back(std::chrono::duration<double, std::micro>(std::chrono::steady_clock::now() - start).count() /
+                        per_batch);
+    }
+    std::sort(times.begin(), times.end());
+    return times[times.size() / 2];
+}
+
+// Single legs, as in bench_trace (exponential 1.78/1.35/40 m), with and without ∂x/∂ξ, and one
+// ray with 500 levels.
+void time_legs() {
+    auto exponential = std::make_shared<FirnModel>();
+    exponential->name = "bench";
+    exponential->index = std::make_shared<ExponentialProfile>(1.78, 1.35, 40.0);
+    const NumericSolver computed(exponential), not_computed(exponential, {}, DistanceDerivative::not_computed);
+    volatile double sink = 0.0;
+    std::printf("single legs, exponential firn (n 1.78/1.35, 40 m), default tolerances, median per call:\n");
+    for (const NumericSolver* solver : {&computed, &not_computed}) {
+        const char* what = solver == &computed ? "with d(distance)/d(xi)" : "without d(distance)/d(xi)";
+        const double us = median_us([&] { sink = sink + solver->segment(1.5, -500.0, -30.0).distance_m; });
+        std::printf("  segment(xi 1.5, z -500 -> -30 m) %s: %.2f us\n", what, us);
+    }
+    const double z_t = *computed.turning_z(1.6, -500.0);
+    const double turn_us = median_us([&] { sink = sink + computed.segment(1.6, -500.0, z_t).distance_m; });
+    std::printf("  segment(xi 1.6, z -500 m -> turning point %.3f m): %.2f us\n", z_t, turn_us);
+    std::vector<double> levels;
+    for (int depth = 35; depth <= 534; ++depth) levels.push_back(-static_cast<double>(depth));
+    std::vector<Segment> out(levels.size());
+    const double from_us = median_us([&] { computed.segments_from(1.6, z_t, levels, out); }, 21, 20);
+    std::printf("  segments_from(xi 1.6, turning point -> 500 levels, 35..534 m): %.2f us\n", from_us);
+    const double by_level_us = median_us([&] { computed.RaySolver::segments_from(1.6, z_t, levels, out); }, 5, 4);
+    std::printf("  the same through the default (segment() level to level): %.2f us\n", by_level_us);
+}
+
 }  // namespace
 
 int main(int argc, char** argv) {
@@ -55,6 +96,8 @@ int main(int argc, char** argv) {
     const int repetitions = argc > 2 ? std::max(1, std::atoi(argv[2])) : 3;
     const auto model = std::make_shared<const FirnModel>(load_model_file(model_path));
     std::printf("model: %s (%s: %s)\n", model->name.c_str(), model_path.c_str(), model->index->describe().c_str());
+
+    time_legs();
 
     const double receiver_z = -60.0;
     std::vector<double> sources;

@@ -38,26 +38,32 @@ void require_ray_parameter(double xi) {
 }
 
 
-// One ray through the ice, restarted at the end of every step on a fresh base: the height origin
-// moved to the ray, the sums (x, c·T, s, α) carried outside the state, and p_z put back on
-// |p| = n. Two reasons, both measured in tests/solver/test_numeric_segments_from.cpp:
-// - dopri5's error control is relative to the size of each component, so on a state that holds
-//   the depth and the running sums it lets through errors of 1e-10 of hundreds of metres per
-//   step; nearly horizontal rays turn the height error into µm of distance. On the rebased state
-//   the control applies to what the step itself adds.
-// - The embedded pair's error estimate misses most of the error of steps across points where the
-//   profile is less smooth (the knots of a table, where the third derivative of n jumps; the joins
-//   of a layered profile, where the first does): |p|² − n² then drifts by ~5e-9 over a few
-//   hundred metres and the direction with it. Projecting back onto the invariant (Hairer, Lubich
-//   & Wanner, Geometric Numerical Integration, §IV.4) removes that. It is skipped within 0.06° of
-//   the horizontal, where the correction is ill-conditioned.
-// A restart costs one right-hand side more per step.
+// How a ray is restarted at the end of every step. Always: p_z is put back on |p| = n. The
+// embedded pair's error estimate misses most of the error of steps across points where the
+// profile is less smooth (the knots of a table, where the third derivative of n jumps; the joins
+// of a layered profile, where the first does), and |p|² − n² then drifts by ~5e-9 over a few
+// hundred metres, the direction with it (0.3 mm over a 5 km grazing ray through a 5 m table).
+// Projecting back onto the invariant (Hairer, Lubich & Wanner, Geometric Numerical Integration,
+// §IV.4) removes that; it is skipped within 0.06° of the horizontal, where the correction is
+// ill-conditioned. For rays read at many levels, also rebased: the height origin moved to the
+// ray and the sums (x, c·T, s, α) carried outside the state. dopri5's error control is relative
+// to the size of each component, so on a state holding the depth and the running sums it lets
+// through 1e-10 of hundreds of metres per step, which a nearly horizontal ray turns into µm of
+// distance; on the rebased state the control applies to what each step adds. That takes about
+// 1.7 times the steps and brings a whole ray to within ~1e-7 m of legs summed level to level.
+// Either restart costs one right-hand side more per step (measured in
+// tests/solver/test_numeric_segments_from.cpp and docs/performance-numeric-table.md).
+enum class Restart { projected, projected_and_rebased };
+
 template <class State>
-class RebasedRay {
+class RestartedRay {
 public:
-    RebasedRay(const FirnModel& model, const IntegrationTolerances& tolerances, const State& start)
+    RestartedRay(const FirnModel& model, const IntegrationTolerances& tolerances, const State& start, Restart restart)
         : profile_(model.index.get()),
-          origin_(start[ray_state::z]),
+          absolute_(tolerances.absolute),
+          relative_(tolerances.relative),
+          rebased_(restart == Restart::projected_and_rebased),
+          origin_(rebased_ ? start[ray_state::z] : 0.0),
           stepper_(equations_from(model, origin_), tolerances) {
         State y = start;
         y[ray_state::z] -= origin_;
@@ -65,7 +71,7 @@ public:
     }
 
     RayStepper<State>& stepper() { return stepper_; }
-    const RayStepper<State>& stepper() const { return stepper_; }
+    // Heights in the stepper's states are from this origin.
     double origin() const { return origin_; }
     double height(const State& y) const { return origin_ + y[ray_state::z]; }
 
@@ -81,22 +87,31 @@ public:
         return s;
     }
 
-    // Ends the step: the end state goes on as the start of the next one, rebased.
-    void rebase() {
+    // Ends the step: its end state goes on as the start of the next one.
+    void restart() {
         using namespace ray_state;
         State y = stepper_.end_state();
         const double h = height(y);
         if (h <= 0.0) {  // only a step that ends a leg leaves the ice
             const double n = profile_->index(h);
             const double open = (n - y[px]) * (n + y[px]);
-            if (open > 0.0 && std::abs(y[pz]) >= 1e-3 * n) y[pz] = std::copysign(std::sqrt(open), y[pz]);
+            if (open > 0.0 && std::abs(y[pz]) >= 1e-3 * n) {
+                const double projected = std::copysign(std::sqrt(open), y[pz]);
+                // A correction well inside what the step controller grants p_z is not worth the
+                // restart (smooth profiles: almost every step).
+                if (!rebased_ && std::abs(projected - y[pz]) <= 0.1 * (absolute_ + relative_ * std::abs(y[pz])))
+                    return;
+                y[pz] = projected;
+            }
         }
-        for (std::size_t i = 0; i < sums.size(); ++i) {
-            gathered_[i] += y[sums[i]];
-            y[sums[i]] = 0.0;
+        if (rebased_) {
+            for (std::size_t i = 0; i < sums.size(); ++i) {
+                gathered_[i] += y[sums[i]];
+                y[sums[i]] = 0.0;
+            }
+            origin_ = h;
+            y[z] = 0.0;
         }
-        origin_ = h;
-        y[z] = 0.0;
         stepper_.restart_at_end(y, origin_);
     }
 
@@ -110,6 +125,8 @@ private:
     static constexpr std::array<std::size_t, 4> sums{ray_state::x, ray_state::optical_path, ray_state::length,
                                                      ray_state::attenuation};
     const IndexProfile* profile_;
+    double absolute_, relative_;
+    bool rebased_;
     double origin_;
     RayStepper<State> stepper_;
     std::array<double, 4> gathered_{};  // the sums, in the order of `sums`
@@ -130,7 +147,9 @@ Segment integrate_leg(const FirnModel& model, const IntegrationTolerances& toler
     y[pz] = heading * std::sqrt((n_start - xi) * (n_start + xi));
     if constexpr (with_variation) y[dpz_dxi] = -xi / y[pz];  // keeps p_x² + p_z² = n² at fixed z_start
 
-    RebasedRay<State> ray(model, tolerances, y);
+    // Legs are integrated in one go and their accuracy is set by the tolerances alone (main's
+    // figures: < 1 mm and < 1 ps over 2 km); rebasing would take 1.7 times the steps.
+    RestartedRay<State> ray(model, tolerances, y, Restart::projected);
     RayStepper<State>& stepper = ray.stepper();
     constexpr double overshoot_m = 1.0;
     for (;;) {
@@ -143,7 +162,7 @@ Segment integrate_leg(const FirnModel& model, const IntegrationTolerances& toler
                         : std::array{LevelCrossing{z, z_end - ray.origin(), direction}, LevelCrossing{pz, 0.0, 0}};
         const auto found = stepper.first_crossing(events, stepper.begin_sigma(), stepper.begin_state());
         if (!found) {
-            ray.rebase();
+            ray.restart();
             continue;
         }
         const LevelCrossing& hit = events[found->which];
@@ -241,7 +260,7 @@ void NumericSolver::segments_from(double xi, double z_top, std::span<const doubl
     y[px] = xi;
     y[pz] = turning_top ? 0.0 : -std::sqrt(open * (n_top + xi));
 
-    RebasedRay<RayState> ray(*model_, tolerances_, y);
+    RestartedRay<RayState> ray(*model_, tolerances_, y, Restart::projected_and_rebased);
     RayStepper<RayState>& stepper = ray.stepper();
     while (next < levels.size()) {
         stepper.step();
@@ -277,7 +296,7 @@ void NumericSolver::segments_from(double xi, double z_top, std::span<const doubl
                                                  "(ξ exceeds n on the way down from z = {} m)",
                                                  xi, z_b, levels.back(), z_top));
         }
-        ray.rebase();
+        ray.restart();
     }
 }
 

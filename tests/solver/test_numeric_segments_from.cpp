@@ -1,8 +1,9 @@
 // Tests of NumericSolver::segments_from (one ray, legs to many levels) against the default
 // RaySolver::segments_from (segment() summed level to level) and against tanh_sinh quadrature
 // of the Snell integrals (Boost.Math, the reference library of physics notes §7), for an
-// exponential, a layered and a tabulated-like (cubic spline) profile; and an ArrivalTable built
-// on it against one built on the default.
+// exponential, a layered and a tabulated profile (TableProfile: a cubic spline through samples
+// every 5 m), and against the closed form for the exponential; and an ArrivalTable built on it
+// against one built on the default.
 #include <catch2/catch.hpp>
 
 #include <cmath>
@@ -13,6 +14,8 @@
 
 #include "core/constants.hpp"
 #include "core/errors.hpp"
+#include "model/table_profile.hpp"
+#include "solver/closed_form_solver.hpp"
 #include "solver/numeric_solver.hpp"
 #include "station/arrival_table.hpp"
 #include "support/snell_integrals.hpp"
@@ -25,17 +28,24 @@ namespace {
 
 struct ProfileCase {
     std::shared_ptr<const IndexProfile> profile;
-    std::vector<double> breaks;  // kinks of the profile, for the quadrature
+    std::vector<double> breaks;  // where the quadrature should split (kinks, knots)
+    bool kinked = false;         // dn/dz jumps somewhere
 };
 
 std::vector<ProfileCase> profile_cases() {
     // A smooth firn-like shape with decaying ripples (monotone: the ripples decay faster than the
-    // exponential's gradient), sampled every 5 m as a table would be.
+    // exponential's gradient), sampled every 5 m like a log: the spline's third derivative jumps
+    // at every sample, which the integrator's error estimate does not see.
     auto shape = [](double z) { return 1.78 - 0.43 * std::exp(z / 40.0) + 0.004 * std::sin(z / 9.0) * std::exp(z / 30.0); };
-    auto table = std::make_shared<test::SplineProfile>(shape, 5.0, 1000.0);
+    std::vector<double> depth, n, knots;
+    for (double d = 0.0; d <= 1000.0; d += 5.0) {
+        depth.push_back(d);
+        n.push_back(shape(-d));
+        knots.insert(knots.begin(), -d);  // lowest first, for the quadrature
+    }
     return {{std::make_shared<ExponentialProfile>(1.78, 1.35, 40.0), {}},
-            {std::make_shared<test::TwoStageProfile>(1.78, 1.30, 20.0, -15.0, 45.0), {-15.0}},
-            {table, table->knots()}};
+            {std::make_shared<test::TwoStageProfile>(1.78, 1.30, 20.0, -15.0, 45.0), {-15.0}, true},
+            {std::make_shared<TableProfile>(depth, n), knots}};
 }
 
 // n(z) − ξ below a turning point z_t (n(z_t) = ξ): close to it, as −∫ dn/dz from z to z_t by
@@ -135,6 +145,31 @@ TEST_CASE("numeric segments_from agrees with tanh_sinh quadrature of the Snell i
     }
 }
 
+TEST_CASE("numeric segments_from agrees with the closed form of the exponential profile (physics notes §4, "
+          "Gradshteyn & Ryzhik §2.26) over 1 m levels down to 1000 m",
+          "[solver][segments-from]") {
+    auto model = model_with(std::make_shared<ExponentialProfile>(1.78, 1.35, 40.0));
+    model->attenuation = std::make_shared<test::ConstantAttenuation>(900.0);
+    const NumericSolver numeric(model);
+    const ClosedFormSolver closed(model);
+    for (double xi : {0.0, 0.9, 1.3, 1.35, 1.5, 1.7, 1.775}) {
+        const double top = xi < 1.35 ? 0.0 : closed.turning_z(xi, -1000.0).value();
+        std::vector<double> levels;
+        for (double z = std::floor(top); z >= -1000.0; z -= 1.0) levels.push_back(z);
+        std::vector<Segment> fast(levels.size());
+        numeric.segments_from(xi, top, levels, fast);
+        double worst_m = 0.0, worst_s = 0.0;
+        for (std::size_t i = 0; i < levels.size(); ++i) {
+            const Segment exact = levels[i] < top ? closed.segment(xi, top, levels[i]) : Segment{};
+            worst_m = std::max(worst_m, std::abs(fast[i].distance_m - exact.distance_m));
+            worst_s = std::max(worst_s, std::abs(fast[i].time_s - exact.time_s));
+        }
+        INFO("ξ " << xi << " top " << top);
+        CHECK(worst_m < 1e-6);
+        CHECK(worst_s < 1e-14);
+    }
+}
+
 TEST_CASE("numeric segments_from: bad levels, a ray parameter above n at the top and a ray that turns back "
           "up before the lowest level are errors",
           "[solver][segments-from]") {
@@ -196,7 +231,9 @@ TEST_CASE("arrival table on the numeric segments_from agrees with one on the def
         std::size_t compared = 0;
         for (std::size_t row = 0; row < sources.size(); ++row) {
             INFO(c.profile->kind() << " source z " << sources[row]);
-            CHECK(fast.max_reach_m(row) == Approx(reference.max_reach_m(row)).margin(1e-6));
+            // Where the largest reach belongs to a ray turning at the join of a layered profile it
+            // is a cusp in ξ, which the table's Brent refinement finds to ~1e-8 in ξ only: mm.
+            CHECK(fast.max_reach_m(row) == Approx(reference.max_reach_m(row)).margin(c.kinked ? 1e-2 : 1e-6));
             for (double r : {5.0, 90.0, 400.0, 1100.0, 2500.0}) {
                 fast.arrivals(row, r, a);
                 reference.arrivals(row, r, b);
