@@ -37,22 +37,23 @@ void require_ray_parameter(double xi) {
                              {"", 0, "ray_parameter"});
 }
 
-
-// How a ray is restarted at the end of every step. Always: p_z is put back on |p| = n. The
+// How a ray is restarted at the end of a step. Projected: p_z is put back on |p| = n. The
 // embedded pair's error estimate misses most of the error of steps across points where the
 // profile is less smooth (the knots of a table, where the third derivative of n jumps; the joins
 // of a layered profile, where the first does), and |p|² − n² then drifts by ~5e-9 over a few
 // hundred metres, the direction with it (0.3 mm over a 5 km grazing ray through a 5 m table).
 // Projecting back onto the invariant (Hairer, Lubich & Wanner, Geometric Numerical Integration,
 // §IV.4) removes that; it is skipped within 0.06° of the horizontal, where the correction is
-// ill-conditioned. For rays read at many levels, also rebased: the height origin moved to the
-// ray and the sums (x, c·T, s, α) carried outside the state. dopri5's error control is relative
-// to the size of each component, so on a state holding the depth and the running sums it lets
-// through 1e-10 of hundreds of metres per step, which a nearly horizontal ray turns into µm of
-// distance; on the rebased state the control applies to what each step adds. That takes about
-// 1.7 times the steps and brings a whole ray to within ~1e-7 m of legs summed level to level.
-// Either restart costs one right-hand side more per step (measured in
-// tests/solver/test_numeric_segments_from.cpp and docs/performance-numeric-table.md).
+// ill-conditioned, and (for single legs) when it is below a tenth of the step tolerance of p_z,
+// as on smooth profiles. Rebased as well, for rays read at many levels: the height origin moved
+// to the ray and the sums (x, c·T, s, α) carried outside the state. dopri5's error control is
+// relative to the size of each component, so on a state holding the depth and the running sums
+// it lets through 1e-10 of hundreds of metres per step, which a nearly horizontal ray turns into
+// µm of distance; on the rebased state the control applies to what each step adds. That takes
+// about 1.7 times the steps and brings a whole ray to within 5e-8 m (smooth profiles) to 7e-7 m
+// (a 5 m table, 4.7 km grazing ray) of legs summed level to level. A restart costs one
+// right-hand side more. Figures: tests/solver/test_numeric_segments_from.cpp and
+// docs/performance-numeric-table.md.
 enum class Restart { projected, projected_and_rebased };
 
 template <class State>
@@ -92,18 +93,17 @@ public:
         using namespace ray_state;
         State y = stepper_.end_state();
         const double h = height(y);
+        bool projected = false;
         if (h <= 0.0) {  // only a step that ends a leg leaves the ice
             const double n = profile_->index(h);
             const double open = (n - y[px]) * (n + y[px]);
             if (open > 0.0 && std::abs(y[pz]) >= 1e-3 * n) {
-                const double projected = std::copysign(std::sqrt(open), y[pz]);
-                // A correction well inside what the step controller grants p_z is not worth the
-                // restart (smooth profiles: almost every step).
-                if (!rebased_ && std::abs(projected - y[pz]) <= 0.1 * (absolute_ + relative_ * std::abs(y[pz])))
-                    return;
-                y[pz] = projected;
+                const double on_invariant = std::copysign(std::sqrt(open), y[pz]);
+                projected = rebased_ || std::abs(on_invariant - y[pz]) > 0.1 * (absolute_ + relative_ * std::abs(y[pz]));
+                if (projected) y[pz] = on_invariant;
             }
         }
+        if (!rebased_ && !projected) return;  // goes on as it is, without the cost of a restart
         if (rebased_) {
             for (std::size_t i = 0; i < sums.size(); ++i) {
                 gathered_[i] += y[sums[i]];
