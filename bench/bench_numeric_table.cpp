@@ -128,7 +128,8 @@ int main(int argc, char** argv) {
     });
     std::printf("  numeric (∂x/∂ξ computed in segment()), 1 thread: %.3f s\n", derivative_t);
     const LevelByLevel level_by_level(plain);
-    const double old_t = median_seconds(1, [&] { const ArrivalTable table(level_by_level, receiver_z, sources, options); });
+    const double old_t =
+        median_seconds(1, [&] { const ArrivalTable table(level_by_level, receiver_z, sources, options); });
     std::printf("  default segments_from (segment() level to level), 1 thread, one run: %.3f s\n", old_t);
 
     Receiver receiver;
@@ -144,7 +145,8 @@ int main(int argc, char** argv) {
     auto time_map = [&](const RaySolver& solver, const char* what) {
         std::size_t visible = 0;
         const double t = median_seconds(repetitions, [&] {
-            const VisibilityMap map = compute_visibility_map(solver, std::span<const Receiver>(&receiver, 1), grid, map_options);
+            const VisibilityMap map =
+                compute_visibility_map(solver, std::span<const Receiver>(&receiver, 1), grid, map_options);
             visible = static_cast<std::size_t>(std::count_if(map.cells.begin(), map.cells.end(),
                                                              [&](const MapCell& c) { return map.visible(c); }));
         });
@@ -167,7 +169,8 @@ int main(int argc, char** argv) {
     dense->index = std::make_shared<TableProfile>(depth, n);
     const NumericSolver dense_solver(dense, {}, DistanceDerivative::not_computed);
     options.threads = 1;
-    const double dense_t = median_seconds(repetitions, [&] { const ArrivalTable t(dense_solver, receiver_z, sources, options); });
+    const double dense_t =
+        median_seconds(repetitions, [&] { const ArrivalTable t(dense_solver, receiver_z, sources, options); });
     std::printf("ArrivalTable as above on a dense table (1201 points every 0.5 m to 600 m), 1 thread: %.3f s\n", dense_t);
     time_map(dense_solver, "dense table");
     return 0;

@@ -244,12 +244,13 @@ void NumericSolver::segments_from(double xi, double z_top, std::span<const doubl
     if (open < -turning_index_tolerance)
         throw NumericalError(
             fmt::format("ray parameter {} exceeds the index {} at z = {} m: no ray there", xi, n_top, z_top));
-    // At a turning top the ray starts horizontal. p_z = 0 rather than −√(n² − ξ²) from the
+    // At a turning top the ray starts horizontal. p_z = 0 rather than the tiny −√(n² − ξ²) of the
     // computed n: that makes z_top the exact turning point of the ray integrated (its |p| then
-    // differs from n by at most the tolerance, a change of ξ by ~1e-12 with no visible effect),
-    // whereas a tiny downward start would drop the leg between z_top and the true turning point,
-    // which grows like √(n − ξ) (a few µm for n − ξ ~ 1e-14). It is what segment() does too: it
-    // integrates up to p_z = 0.
+    // differs from n by at most the tolerance, like a change of ξ by 1e-12, which moves the
+    // distances by far less than the legs above a turning point do), whereas a downward start
+    // drops the leg between z_top and the true turning point, which grows like √(n − ξ)/|n'|:
+    // 19 µm for n − ξ = 1e-15 and 0.3 mm for 1e-13 on the exponential profile (measured against
+    // the closed form). segment() likewise integrates up to p_z = 0.
     const bool turning_top = open <= turning_index_tolerance;
     if (turning_top && !(slope_top < 0.0))
         throw NumericalError(fmt::format("the ray of parameter {} is horizontal at z = {} m and does not bend "

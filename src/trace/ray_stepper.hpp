@@ -99,7 +99,6 @@ public:
         equations_.set_z_origin(z_origin);
         dense_.initialize(y, end_sigma(), dense_.current_time_step());
     }
-    const RayEquations& equations() const { return equations_; }
 
     double begin_sigma() const { return dense_.previous_time(); }
     double end_sigma() const { return dense_.current_time(); }
@@ -160,8 +159,8 @@ public:
     // Newton's method on the dense output from the secant guess, kept inside the shrinking
     // bracket (bisection when a Newton step would leave it). Two or three dense-output
     // evaluations, against about ten for locate(): for tables with thousands of levels per ray.
-    // Stops once the Newton step is below 1e-12 of σ (metres): the state returned is off the
-    // crossing by at most that much.
+    // Stops once the Newton step is below 1e-12 m of σ: the state returned is off the crossing by
+    // at most that much.
     std::pair<double, State> locate_with_rate(std::size_t k, std::size_t rate, double level, double a, double b,
                                               double ga, double gb) const {
         if (gb == 0.0) return {b, at(b)};

@@ -49,10 +49,10 @@ public:
     void set_z_origin(double z_origin) { z_origin_ = z_origin; }
     double z_origin() const { return z_origin_; }
 
-    // n and dn/dz at z (absolute height, not from the origin). Above the surface (where only the trial stages of a step that crosses
-    // z = 0 ever look) the profile is continued linearly, so the right-hand side stays
-    // continuous with a continuous first derivative in n across the step and the step
-    // controller is not misled by a kink.
+    // n and dn/dz at z (the absolute height, not from the origin). Above the surface (where only
+    // the trial stages of a step that crosses z = 0 ever look) the profile is continued linearly,
+    // so the right-hand side stays continuous with a continuous first derivative in n across the
+    // step and the step controller is not misled by a kink.
     void index_and_gradient(double z, double& n, double& dn_dz) const {
         if (z > 0.0) {
             n = n_surface_ + gradient_surface_ * z;

@@ -36,7 +36,9 @@ std::vector<ProfileCase> profile_cases() {
     // A smooth firn-like shape with decaying ripples (monotone: the ripples decay faster than the
     // exponential's gradient), sampled every 5 m like a log: the spline's third derivative jumps
     // at every sample, which the integrator's error estimate does not see.
-    auto shape = [](double z) { return 1.78 - 0.43 * std::exp(z / 40.0) + 0.004 * std::sin(z / 9.0) * std::exp(z / 30.0); };
+    auto shape = [](double z) {
+        return 1.78 - 0.43 * std::exp(z / 40.0) + 0.004 * std::sin(z / 9.0) * std::exp(z / 30.0);
+    };
     std::vector<double> depth, n, knots;
     for (double d = 0.0; d <= 1000.0; d += 5.0) {
         depth.push_back(d);
@@ -167,6 +169,17 @@ TEST_CASE("numeric segments_from agrees with the closed form of the exponential 
         INFO("ξ " << xi << " top " << top);
         CHECK(worst_m < 1e-6);
         CHECK(worst_s < 1e-14);
+        if (top < 0.0) {
+            // A top a hair below the turning point (n − ξ ≈ 1e-13, within turning_index_tolerance)
+            // still counts as the turning point: the ray starts horizontal there, and its legs
+            // match those from the exact turning point (a start at −√(n² − ξ²) would lose 0.3 mm).
+            const double low_top = top - 1e-11;
+            std::vector<double> below{low_top - 1.0, -1000.0};
+            std::vector<Segment> legs(below.size());
+            numeric.segments_from(xi, low_top, below, legs);
+            for (std::size_t i = 0; i < below.size(); ++i)
+                CHECK(legs[i].distance_m == Approx(closed.segment(xi, top, below[i]).distance_m).margin(1e-6));
+        }
     }
 }
 
