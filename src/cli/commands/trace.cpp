@@ -209,12 +209,8 @@ int run_trace(const TraceArguments& a) {
 void add_trace_command(CLI::App& app, CommandSlot& slot) {
     auto args = std::make_shared<TraceArguments>();
     CLI::App* cmd = app.add_subcommand(
-        "trace",
-        "Trace a fan of rays from one point through the model: numeric rays in the ice, straight lines in the air,\n"
-        "reflection and transmission at the surface (Fresnel), reflection at the model's bottom.\n"
-        "Conventions: z is up (m), the surface is z = 0 and the ice z < 0; zenith angles of the direction of\n"
-        "travel (0 = up, 90 = horizontal toward +x, 180 = down; negative angles travel toward -x); times in ns,\n"
-        "times and lengths counted from the launch.");
+        "trace", "Trace a fan of rays from a point: curved rays in the ice, straight lines in the air, Fresnel "
+                 "reflection and transmission at the surface, reflection at the model's bottom");
     cmd->add_option("--model", args->model_path, "Model file (TOML); default: the built-in generic polar firn model");
     cmd->add_option("--from", args->from, "Launch point X,Z in metres (z up; z > 0 starts in the air)")
         ->required()
@@ -263,6 +259,9 @@ void add_trace_command(CLI::App& app, CommandSlot& slot) {
     cmd->add_option("--output,-o", args->output, "Output file; - for standard output")->capture_default_str();
     cmd->add_option("--plot", args->plot_path, "Also draw the rays as an SVG figure into this file");
     cmd->footer(
+        "\nConventions: z is up (m), the surface is z = 0 and the ice z < 0; zenith angles of the direction of\n"
+        "travel (0 = up, 90 = horizontal toward +x, 180 = down; negative angles travel toward -x); times in ns,\n"
+        "times and lengths counted from the launch.\n"
         "Example: rays every 5 degrees from a transmitter 150 m deep, out to 1 km, with a plot:\n"
         "  firnray trace --from 0,-150 --zenith-range 40:140:5 --max-distance 1000 --plot fan.svg > fan.csv\n"
         "CSV columns: ray, branch, parent, kind, launch_zenith_deg, x_m, z_m, time_ns, length_m; kind is ice,\n"
