@@ -4,6 +4,7 @@
 #include <array>
 #include <cmath>
 #include <limits>
+#include <utility>
 
 #include <boost/math/tools/toms748_solve.hpp>
 #include <fmt/format.h>
@@ -14,28 +15,186 @@
 
 namespace firnray {
 
-NumericSolver::NumericSolver(std::shared_ptr<const FirnModel> model, IntegrationTolerances tolerances)
-    : RaySolver(std::move(model)), tolerances_(tolerances) {
+NumericSolver::NumericSolver(std::shared_ptr<const FirnModel> model, IntegrationTolerances tolerances,
+                             DistanceDerivative derivative)
+    : RaySolver(std::move(model)), tolerances_(tolerances), derivative_(derivative) {
     if (!model_ || !model_->index) throw DataInputError("the numeric solver needs a model with an index profile");
     tolerances_.validate();
 }
 
 namespace {
 
+constexpr double nan = std::numeric_limits<double>::quiet_NaN();
+
 void require_in_ice(double z, const char* key) {
     if (!std::isfinite(z) || z > 0.0)
         throw DataInputError(fmt::format("a segment end must be a finite z <= 0 in the ice (got {})", z), {"", 0, key});
 }
 
-}  // namespace
-
-Segment NumericSolver::segment(double xi, double z_a, double z_b) const {
-    using namespace ray_state;
-    require_in_ice(z_a, "z_a");
-    require_in_ice(z_b, "z_b");
+void require_ray_parameter(double xi) {
     if (!std::isfinite(xi) || xi < 0.0)
         throw DataInputError(fmt::format("the ray parameter must be a finite number >= 0 (got {})", xi),
                              {"", 0, "ray_parameter"});
+}
+
+// How a ray is restarted at the end of a step. Projected: p_z is put back on |p| = n. The
+// embedded pair's error estimate misses most of the error of steps across points where the
+// profile is less smooth (the knots of a table, where the third derivative of n jumps; the joins
+// of a layered profile, where the first does), and |p|² − n² then drifts by ~5e-9 over a few
+// hundred metres, the direction with it (0.3 mm over a 5 km grazing ray through a 5 m table).
+// Projecting back onto the invariant (Hairer, Lubich & Wanner, Geometric Numerical Integration,
+// §IV.4) removes that; it is skipped within 0.06° of the horizontal, where the correction is
+// ill-conditioned, and (for single legs) when it is below a tenth of the step tolerance of p_z,
+// as on smooth profiles. Rebased as well, for rays read at many levels: the height origin moved
+// to the ray and the sums (x, c·T, s, α) carried outside the state. dopri5's error control is
+// relative to the size of each component, so on a state holding the depth and the running sums
+// it lets through 1e-10 of hundreds of metres per step, which a nearly horizontal ray turns into
+// µm of distance; on the rebased state the control applies to what each step adds. That takes
+// about 1.7 times the steps and brings a whole ray to within 5e-8 m (smooth profiles) to 7e-7 m
+// (a 5 m table, 4.7 km grazing ray) of legs summed level to level. A restart costs one
+// right-hand side more. Figures: tests/solver/test_numeric_segments_from.cpp and
+// docs/performance-numeric-table.md.
+enum class Restart { projected, projected_and_rebased };
+
+template <class State>
+class RestartedRay {
+public:
+    RestartedRay(const FirnModel& model, const IntegrationTolerances& tolerances, const State& start, Restart restart)
+        : profile_(model.index.get()),
+          absolute_(tolerances.absolute),
+          relative_(tolerances.relative),
+          rebased_(restart == Restart::projected_and_rebased),
+          origin_(rebased_ ? start[ray_state::z] : 0.0),
+          stepper_(equations_from(model, origin_), tolerances) {
+        State y = start;
+        y[ray_state::z] -= origin_;
+        stepper_.start(y, 0.0, tolerances.initial_step_m);
+    }
+
+    RayStepper<State>& stepper() { return stepper_; }
+    // Heights in the stepper's states are from this origin.
+    double origin() const { return origin_; }
+    double height(const State& y) const { return origin_ + y[ray_state::z]; }
+
+    // The leg from the start of the ray to state y (on the current step).
+    Segment leg_to(const State& y) const {
+        using namespace ray_state;
+        Segment s;
+        s.distance_m = std::abs(gathered_[0] + y[x]);
+        s.time_s = (gathered_[1] + y[optical_path]) / speed_of_light;
+        s.length_m = gathered_[2] + y[length];
+        s.attenuation_exponent = gathered_[3] + y[attenuation];
+        s.distance_derivative = nan;
+        return s;
+    }
+
+    // Ends the step: its end state goes on as the start of the next one.
+    void restart() {
+        using namespace ray_state;
+        State y = stepper_.end_state();
+        const double h = height(y);
+        bool projected = false;
+        if (h <= 0.0) {  // only a step that ends a leg leaves the ice
+            const double n = profile_->index(h);
+            const double open = (n - y[px]) * (n + y[px]);
+            if (open > 0.0 && std::abs(y[pz]) >= 1e-3 * n) {
+                const double on_invariant = std::copysign(std::sqrt(open), y[pz]);
+                projected = rebased_ || std::abs(on_invariant - y[pz]) > 0.1 * (absolute_ + relative_ * std::abs(y[pz]));
+                if (projected) y[pz] = on_invariant;
+            }
+        }
+        if (!rebased_ && !projected) return;  // goes on as it is, without the cost of a restart
+        if (rebased_) {
+            for (std::size_t i = 0; i < sums.size(); ++i) {
+                gathered_[i] += y[sums[i]];
+                y[sums[i]] = 0.0;
+            }
+            origin_ = h;
+            y[z] = 0.0;
+        }
+        stepper_.restart_at_end(y, origin_);
+    }
+
+private:
+    static RayEquations equations_from(const FirnModel& model, double origin) {
+        RayEquations equations(*model.index, model.attenuation.get());
+        equations.set_z_origin(origin);
+        return equations;
+    }
+
+    static constexpr std::array<std::size_t, 4> sums{ray_state::x, ray_state::optical_path, ray_state::length,
+                                                     ray_state::attenuation};
+    const IndexProfile* profile_;
+    double absolute_, relative_;
+    bool rebased_;
+    double origin_;
+    RayStepper<State> stepper_;
+    std::array<double, 4> gathered_{};  // the sums, in the order of `sums`
+};
+
+// A leg from z_start (the more open end, not a turning point) to z_end, which may be a turning
+// point. The state type decides whether the variational equations come along.
+template <class State>
+Segment integrate_leg(const FirnModel& model, const IntegrationTolerances& tolerances, double xi, double z_start,
+                      double n_start, double z_end, bool turning_end) {
+    using namespace ray_state;
+    constexpr bool with_variation = std::tuple_size_v<State> == size_with_variation;
+    const double heading = z_end > z_start ? 1.0 : -1.0;
+    const int direction = heading > 0.0 ? +1 : -1;
+    State y{};
+    y[z] = z_start;
+    y[px] = xi;
+    y[pz] = heading * std::sqrt((n_start - xi) * (n_start + xi));
+    if constexpr (with_variation) y[dpz_dxi] = -xi / y[pz];  // keeps p_x² + p_z² = n² at fixed z_start
+
+    // Legs are integrated in one go and their accuracy is set by the tolerances alone (main's
+    // figures: < 1 mm and < 1 ps over 2 km); rebasing would take 1.7 times the steps.
+    RestartedRay<State> ray(model, tolerances, y, Restart::projected);
+    RayStepper<State>& stepper = ray.stepper();
+    constexpr double overshoot_m = 1.0;
+    for (;;) {
+        stepper.step();
+        // Crossings, with heights from the current origin: reaching z_end, turning (p_z = 0) and,
+        // for a turning end, overshooting it.
+        const std::array<LevelCrossing, 2> events =
+            turning_end ? std::array{LevelCrossing{pz, 0.0, 0},
+                                     LevelCrossing{z, z_end + heading * overshoot_m - ray.origin(), direction}}
+                        : std::array{LevelCrossing{z, z_end - ray.origin(), direction}, LevelCrossing{pz, 0.0, 0}};
+        const auto found = stepper.first_crossing(events, stepper.begin_sigma(), stepper.begin_state());
+        if (!found) {
+            ray.restart();
+            continue;
+        }
+        const LevelCrossing& hit = events[found->which];
+        const State ye = stepper.on_level(found->sigma, hit.component, hit.level);
+        bool at_turning = false;
+        if (hit.component == pz) {
+            // Accept a turn at the far end (drift may make it a hair early); elsewhere ξ > n inside.
+            constexpr double end_slack_m = 1e-6;
+            if (!turning_end && std::abs(ray.height(ye) - z_end) > end_slack_m)
+                throw NumericalError(fmt::format("the ray of parameter {} turns at z = {} m, before reaching z = {} m "
+                                                 "(ξ exceeds n between the ends)",
+                                                 xi, ray.height(ye), z_end));
+            at_turning = true;
+        } else if (turning_end) {
+            throw NumericalError(fmt::format("the ray of parameter {} did not turn at z = {} m, where n = ξ "
+                                             "(passed it by {} m)",
+                                             xi, z_end, overshoot_m));
+        }
+        Segment out = ray.leg_to(ye);
+        // x at fixed end depth: x(σ_end(ξ), ξ), with dσ_end/dξ = −δz / p_z.
+        if constexpr (with_variation)
+            if (!at_turning) out.distance_derivative = ye[dx_dxi] - ye[px] * ye[dz_dxi] / ye[pz];
+        return out;
+    }
+}
+
+}  // namespace
+
+Segment NumericSolver::segment(double xi, double z_a, double z_b) const {
+    require_in_ice(z_a, "z_a");
+    require_in_ice(z_b, "z_b");
+    require_ray_parameter(xi);
     const IndexProfile& profile = *model_->index;
     Segment out;
     if (z_a == z_b) return out;
@@ -57,53 +216,88 @@ Segment NumericSolver::segment(double xi, double z_a, double z_b) const {
     const double z_start = from_a ? z_a : z_b, z_end = from_a ? z_b : z_a;
     const double n_start = from_a ? n_a : n_b;
     const bool turning_end = from_a ? turning_b : turning_a;
-    const double heading = z_end > z_start ? 1.0 : -1.0;
+    // The derivative is NaN at a turning end anyway: no need for the variational equations.
+    if (derivative_ == DistanceDerivative::computed && !turning_end)
+        return integrate_leg<RayStateWithVariation>(*model_, tolerances_, xi, z_start, n_start, z_end, false);
+    return integrate_leg<RayState>(*model_, tolerances_, xi, z_start, n_start, z_end, turning_end);
+}
 
-    RayStateWithVariation y{};
-    y[z] = z_start;
+void NumericSolver::segments_from(double xi, double z_top, std::span<const double> levels,
+                                  std::span<Segment> out) const {
+    using namespace ray_state;
+    if (out.size() != levels.size()) throw NumericalError("segments_from: levels and output differ in size");
+    require_in_ice(z_top, "z_top");
+    require_ray_parameter(xi);
+    double previous = z_top;
+    for (double level : levels) {
+        if (!(level <= previous)) throw NumericalError("segments_from: levels must descend from z_top");
+        previous = level;
+    }
+    std::size_t next = 0;  // the first level not yet filled
+    for (; next < levels.size() && levels[next] == z_top; ++next) out[next] = Segment{};
+    if (next == levels.size()) return;
+
+    const IndexProfile& profile = *model_->index;
+    double n_top, slope_top;
+    profile.index_and_gradient(z_top, n_top, slope_top);
+    const double open = n_top - xi;
+    if (open < -turning_index_tolerance)
+        throw NumericalError(
+            fmt::format("ray parameter {} exceeds the index {} at z = {} m: no ray there", xi, n_top, z_top));
+    // At a turning top the ray starts horizontal. p_z = 0 rather than the tiny −√(n² − ξ²) of the
+    // computed n: that makes z_top the exact turning point of the ray integrated (its |p| then
+    // differs from n by at most the tolerance, like a change of ξ by 1e-12, which moves the
+    // distances by far less than the legs above a turning point do), whereas a downward start
+    // drops the leg between z_top and the true turning point, which grows like √(n − ξ)/|n'|:
+    // 19 µm for n − ξ = 1e-15 and 0.3 mm for 1e-13 on the exponential profile (measured against
+    // the closed form). segment() likewise integrates up to p_z = 0.
+    const bool turning_top = open <= turning_index_tolerance;
+    if (turning_top && !(slope_top < 0.0))
+        throw NumericalError(fmt::format("the ray of parameter {} is horizontal at z = {} m and does not bend "
+                                         "downward there (dn/dz = {} is not negative)",
+                                         xi, z_top, slope_top));
+    RayState y{};
+    y[z] = z_top;
     y[px] = xi;
-    y[pz] = heading * std::sqrt((n_start - xi) * (n_start + xi));
-    y[dpz_dxi] = -xi / y[pz];  // keeps p_x² + p_z² = n² at fixed z_start
+    y[pz] = turning_top ? 0.0 : -std::sqrt(open * (n_top + xi));
 
-    // Crossings: 0 = reaching z_end, 1 = turning (p_z = 0), 2 = overshooting a turning end.
-    constexpr double overshoot_m = 1.0;
-    std::array<LevelCrossing, 3> crossings{LevelCrossing{z, z_end, heading > 0.0 ? +1 : -1},
-                                           LevelCrossing{pz, 0.0, 0},
-                                           LevelCrossing{z, z_end + heading * overshoot_m, heading > 0.0 ? +1 : -1}};
-    const std::span<const LevelCrossing> events =
-        turning_end ? std::span<const LevelCrossing>(crossings.data() + 1, 2)
-                    : std::span<const LevelCrossing>(crossings.data(), 2);
-
-    RayStepper<RayStateWithVariation> stepper(RayEquations(profile, model_->attenuation.get()), tolerances_);
-    stepper.start(y, 0.0, tolerances_.initial_step_m);
-    for (;;) {
+    RestartedRay<RayState> ray(*model_, tolerances_, y, Restart::projected_and_rebased);
+    RayStepper<RayState>& stepper = ray.stepper();
+    while (next < levels.size()) {
         stepper.step();
-        const auto found = stepper.first_crossing(events, stepper.begin_sigma(), stepper.begin_state());
-        if (!found) continue;
-        const LevelCrossing& hit = events[found->which];
-        RayStateWithVariation ye = stepper.on_level(found->sigma, hit.component, hit.level);
-        bool at_turning = false;
-        if (hit.component == pz) {
-            // Accept a turn at the far end (drift may make it a hair early); elsewhere ξ > n inside.
-            constexpr double end_slack_m = 1e-6;
-            if (!turning_end && std::abs(ye[z] - z_end) > end_slack_m)
-                throw NumericalError(fmt::format("the ray of parameter {} turns at z = {} m, before reaching z = {} m "
-                                                 "(ξ exceeds n between the ends)",
-                                                 xi, ye[z], z_end));
-            at_turning = true;
-        } else if (hit.level != z_end) {
-            throw NumericalError(fmt::format("the ray of parameter {} did not turn at z = {} m, where n = ξ "
-                                             "(passed it by {} m)",
-                                             xi, z_end, overshoot_m));
+        const double a = stepper.begin_sigma();
+        const RayState& y_a = stepper.begin_state();
+        double b = stepper.end_sigma();
+        RayState y_b = stepper.end_state();
+        // The ray goes down while p_z < 0; if it turns back up inside the step, only the part
+        // before the turn counts (z is monotone on it).
+        const bool turns = y_b[pz] > 0.0;
+        if (turns) {
+            b = stepper.locate(pz, 0.0, a, b, y_a[pz], y_b[pz]);
+            y_b = stepper.at(b);
         }
-        out.distance_m = std::abs(ye[x]);
-        out.time_s = ye[optical_path] / speed_of_light;
-        out.length_m = ye[length];
-        out.attenuation_exponent = ye[attenuation];
-        // x at fixed end depth: x(σ_end(ξ), ξ), with dσ_end/dξ = −δz / p_z.
-        out.distance_derivative = at_turning ? std::numeric_limits<double>::quiet_NaN()
-                                             : ye[dx_dxi] - ye[px] * ye[dz_dxi] / ye[pz];
-        return out;
+        // Every level above the step's start is filled, so the next ones crossed lie in
+        // (end, start) of the step.
+        const double z_b = ray.height(y_b);
+        for (; next < levels.size() && levels[next] >= z_b; ++next) {
+            if (next > 0 && levels[next] == levels[next - 1]) {
+                out[next] = out[next - 1];
+                continue;
+            }
+            const double level = levels[next] - ray.origin();
+            const auto crossing = stepper.locate_with_rate(z, pz, level, a, b, y_a[z] - level, y_b[z] - level);
+            out[next] = ray.leg_to(crossing.second);
+        }
+        if (turns && next < levels.size()) {
+            // A turn at the lowest level itself (drift may make it a hair early) is its leg.
+            constexpr double end_slack_m = 1e-6;
+            for (; next < levels.size() && levels[next] >= z_b - end_slack_m; ++next) out[next] = ray.leg_to(y_b);
+            if (next < levels.size())
+                throw NumericalError(fmt::format("the ray of parameter {} turns at z = {} m, before reaching z = {} m "
+                                                 "(ξ exceeds n on the way down from z = {} m)",
+                                                 xi, z_b, levels.back(), z_top));
+        }
+        ray.restart();
     }
 }
 
