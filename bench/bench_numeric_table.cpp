@@ -2,7 +2,7 @@
 // (receiver at z = −60 m, 500 source depths 1..500 m, 1500 ray parameters) on 1 and 2 threads,
 // the same table through the default RaySolver::segments_from (segment() level to level) for
 // comparison, and a whole 1000 × 500 visibility map on 2 threads. Prints medians of a few runs
-// (the machine is shared), and the cost of single legs; docs/performance-numeric-table.md has
+// (the machine is shared), and the cost of single legs; docs/performance.md has
 // the figures.
 //
 // Usage: bench_numeric_table [model-file] [repetitions]

@@ -52,8 +52,8 @@ void require_ray_parameter(double xi) {
 // µm of distance; on the rebased state the control applies to what each step adds. That takes
 // about 1.7 times the steps and brings a whole ray to within 5e-8 m (smooth profiles) to 7e-7 m
 // (a 5 m table, 4.7 km grazing ray) of legs summed level to level. A restart costs one
-// right-hand side more. Figures: tests/solver/test_numeric_segments_from.cpp and
-// docs/performance-numeric-table.md.
+// right-hand side more. Figures: tests/solver/test_numeric_segments_from.cpp,
+// docs/physics.md §2.7 and docs/performance.md.
 enum class Restart { projected, projected_and_rebased };
 
 template <class State>

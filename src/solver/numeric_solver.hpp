@@ -50,7 +50,7 @@ public:
     // distance_derivative is NaN below z_top and 0 at it. Agrees with the default (segment()
     // summed level to level) within 5e-8 m / 3e-16 s on smooth profiles and 7e-7 m / 4e-15 s on
     // a table sampled every 5 m, at the default tolerances (tests/solver/test_numeric_segments_from.cpp,
-    // docs/performance-numeric-table.md). Throws NumericalError for levels that do not descend
+    // docs/physics.md §2.7). Throws NumericalError for levels that do not descend
     // from z_top, and if the ray turns back up above the lowest level (ξ exceeds n on the way).
     void segments_from(double ray_parameter, double z_top, std::span<const double> levels,
                        std::span<Segment> out) const override;
