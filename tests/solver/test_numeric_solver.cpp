@@ -51,7 +51,7 @@ TEST_CASE("numeric segment(): distance, time, length and ∂distance/∂ξ agree
 
 TEST_CASE("numeric segment(): an end at the turning point agrees with tanh_sinh quadrature of the singular "
           "Snell integrals, and turning_z matches z_t = z0 ln((n_deep − ξ)/(n_deep − n_surface)) "
-          "(notes §4; Boost.Math)",
+          "(notes §4, Boost.Math)",
           "[solver]") {
     const double n_deep = 1.78, n_surface = 1.35, z0 = 40.0, b = n_deep - n_surface;
     auto profile = std::make_shared<ExponentialProfile>(n_deep, n_surface, z0);
@@ -118,7 +118,7 @@ TEST_CASE("numeric turning_z: first root of n = ξ above the start, also for pro
     }
 }
 
-TEST_CASE("numeric segment(): a ray parameter above n on the leg is a NumericalError; ends above the surface "
+TEST_CASE("numeric segment(): a ray parameter above n on the leg is a NumericalError, ends above the surface "
           "are input errors",
           "[solver]") {
     auto profile = std::make_shared<ExponentialProfile>(1.78, 1.35, 40.0);
