@@ -1,6 +1,6 @@
 // Time of one closed-form distance-and-time evaluation (ClosedFormSolver::distance_and_time) and
 // of one full segment(), on a fixed set of legs typical of firn: median over many repetitions.
-// Usage: bench_closed_form [repetitions]   (figures recorded in docs/performance-closed-form.md)
+// Usage: bench_closed_form [repetitions]   (figures recorded in docs/performance.md)
 #include <algorithm>
 #include <chrono>
 #include <cmath>

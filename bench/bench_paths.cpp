@@ -1,6 +1,6 @@
 // Source-receiver pairs per second for find_paths with the closed-form solver, all paths and
 // amplitudes: median over repetitions of one pass over a fixed set of random pairs.
-// Usage: bench_paths [repetitions]   (figures recorded in docs/performance-closed-form.md)
+// Usage: bench_paths [repetitions]   (figures recorded in docs/performance.md)
 #include <algorithm>
 #include <chrono>
 #include <cstdio>

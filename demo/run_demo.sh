@@ -42,6 +42,10 @@ echo "  6/6 summary"
   echo
   echo "## Receiver depth"
   awk -F, 'NR > 1 { printf "- receiver at %4d m sees %5.1f %% of the region (two paths: %5.1f %%), median time between paths %6.1f ns%s\n", $1, 100 * $4, 100 * $5 / $2, $6, ($10 == 1 ? "  <- largest visible volume" : "") }' "$out/depth-scan.csv"
+  awk -F, 'NR > 1 { if (NR > 2 && $4 < last) falls = 1; last = $4; if (!half && $4 >= 0.5) half = $1 }
+           END { printf "\nThe visible volume %s with receiver depth over the scan", falls ? "does not simply grow" : "grows"
+                 if (half) printf "; the shallowest depth that sees at least half of the region is %d m", half
+                 printf ".\n" }' "$out/depth-scan.csv"
   echo
   echo "## Shadow boundary (largest distance at which a source is seen)"
   for depth in 40 100 200; do
@@ -52,10 +56,16 @@ echo "  6/6 summary"
   done
   echo
   echo "## Calibration pulsers"
-  awk -F, 'NR > 1 && $5 != "none" && $4 == 1 { seen[$1]++ ; if (!($1 in lo) || $8 < lo[$1]) lo[$1] = $8; if (!($1 in hi) || $8 > hi[$1]) hi[$1] = $8 }
+  awk -F, 'NR > 1 { names[$1] = 1 }
            NR > 1 && $5 == "none" { dark[$1]++ }
-           NR > 1 { names[$1] = 1 }
-           END { for (n in names) printf "- %s: first arrival at %d of 12 channels (%d in shadow); first-arrival differences to A1 span %.1f to %.1f ns\n", n, seen[n], dark[n], lo[n], hi[n] }' \
+           NR > 1 && $4 == 1 { seen[$1]++
+                               if ($8 != "") { n[$1]++; if (!($1 in lo) || $8 + 0 < lo[$1]) lo[$1] = $8 + 0; if (!($1 in hi) || $8 + 0 > hi[$1]) hi[$1] = $8 + 0 } }
+           END { for (s in names) {
+                   line = sprintf("- %s: seen by %d of 12 channels", s, seen[s] + 0)
+                   if (n[s] > 0) line = line sprintf("; first arrivals span %.1f to %.1f ns relative to A1", lo[s], hi[s])
+                   else if (seen[s] > 0) line = line "; A1 itself is in its shadow, so use another reference channel"
+                   else line = line " (every channel is in its shadow)"
+                   print line } }' \
       "$out/calibration-delays.csv" | sort
   echo
   echo "A deeper receiver sees more of the region and farther, at the price of a deeper borehole;"

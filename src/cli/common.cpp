@@ -55,6 +55,19 @@ void finish_progress(const RunOptions& options) {
     if (!options.quiet && stderr_is_terminal()) std::fprintf(stderr, "\r\033[K");
 }
 
+CLI::Validator parser_check(std::function<void(const std::string& text)> parse, const std::string& shape) {
+    return CLI::Validator(
+        [parse](std::string& text) {
+            try {
+                parse(text);
+                return std::string();
+            } catch (const UsageError& e) {
+                return e.detail();  // CLI11 puts the option's name in front
+            }
+        },
+        shape);
+}
+
 static double parse_number(const std::string& text, const std::string& option, const std::string& whole);
 
 double parse_number(const std::string& text, const std::string& option) { return parse_number(text, option, text); }
@@ -84,10 +97,12 @@ static std::vector<std::string> split(const std::string& text, char separator) {
     return parts;
 }
 
-Point3 parse_point(const std::string& text, const std::string& option) {
+Point3 parse_point(const std::string& text, const std::string& option, PointForm form) {
     const auto parts = split(text, ',');
-    if (parts.size() != 2 && parts.size() != 3)
-        throw UsageError(option, fmt::format("'{}' is not a point: give X,Z or X,Y,Z in metres (z up, ice z < 0)", text));
+    const bool with_y = form == PointForm::xz_or_xyz;
+    if (parts.size() != 2 && !(with_y && parts.size() == 3))
+        throw UsageError(option, fmt::format("'{}' is not a point: give {} in metres (z up, ice z < 0)", text,
+                                             with_y ? "X,Z or X,Y,Z" : "X,Z"));
     Point3 p;
     p.x_m = parse_number(parts[0], option, text);
     if (parts.size() == 3) p.y_m = parse_number(parts[1], option, text);
@@ -95,25 +110,29 @@ Point3 parse_point(const std::string& text, const std::string& option) {
     return p;
 }
 
-std::vector<double> parse_list_or_range(const std::string& text, const std::string& option) {
-    if (text.find(':') != std::string::npos) {
-        const auto parts = split(text, ':');
-        if (parts.size() != 3)
-            throw UsageError(option, fmt::format("'{}' is not a range: give START:STOP:STEP", text));
-        const double start = parse_number(parts[0], option, text), stop = parse_number(parts[1], option, text),
-                     step = parse_number(parts[2], option, text);
-        if (step == 0.0 || (stop - start) / step < 0.0)
-            throw UsageError(option, fmt::format("range '{}' never reaches its stop value from its start with that step", text));
-        const double count = std::floor((stop - start) / step + 1e-9);
-        if (count > 1e6) throw UsageError(option, fmt::format("range '{}' has more than a million values", text));
-        std::vector<double> values;
-        for (int k = 0; k <= static_cast<int>(count); ++k) values.push_back(start + k * step);
-        return values;
-    }
+std::vector<double> parse_range(const std::string& text, const std::string& option) {
+    const auto parts = split(text, ':');
+    if (parts.size() != 3) throw UsageError(option, fmt::format("'{}' is not a range: give START:STOP:STEP", text));
+    const double start = parse_number(parts[0], option, text), stop = parse_number(parts[1], option, text),
+                 step = parse_number(parts[2], option, text);
+    if (step == 0.0 || (stop - start) / step < 0.0)
+        throw UsageError(option, fmt::format("range '{}' never reaches its stop value from its start with that step", text));
+    const double count = std::floor((stop - start) / step + 1e-9);
+    if (count > 1e6) throw UsageError(option, fmt::format("range '{}' has more than a million values", text));
+    std::vector<double> values;
+    for (int k = 0; k <= static_cast<int>(count); ++k) values.push_back(start + k * step);
+    return values;
+}
+
+std::vector<double> parse_list(const std::string& text, const std::string& option) {
     std::vector<double> values;
     for (const auto& part : split(text, ',')) values.push_back(parse_number(part, option, text));
     if (values.empty()) throw UsageError(option, "an empty list");
     return values;
+}
+
+std::vector<double> parse_list_or_range(const std::string& text, const std::string& option) {
+    return text.find(':') != std::string::npos ? parse_range(text, option) : parse_list(text, option);
 }
 
 std::pair<double, double> parse_span(const std::string& text, const std::string& option) {

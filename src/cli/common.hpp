@@ -17,11 +17,21 @@
 
 namespace firnray::cli {
 
-// A bad option value found after CLI11's own checks (a malformed point or range). Exit code 2.
+// A bad option value (a malformed point, list or range) found by one of the parsers below. Exit code 2.
 class UsageError : public std::runtime_error {
 public:
-    UsageError(const std::string& option, const std::string& what) : std::runtime_error(option + ": " + what) {}
+    UsageError(const std::string& option, const std::string& what)
+        : std::runtime_error(option + ": " + what), detail_(what) {}
+    const std::string& detail() const { return detail_; }  // the message without the option
+
+private:
+    std::string detail_;
 };
+
+// A CLI11 check made from one of the parsers below: a malformed value is then reported while the
+// command line is parsed, like CLI11's own checks (exit 2, naming the option), and `shape` shows
+// in --help after the option's type.
+CLI::Validator parser_check(std::function<void(const std::string& text)> parse, const std::string& shape);
 
 // --model FILE (default: the built-in generic model).
 void add_model_option(CLI::App* command, std::string& path);
@@ -40,18 +50,22 @@ void add_run_options(CLI::App* command, RunOptions& options);
 RunControl make_run_control(const RunOptions& options, const std::string& label);
 void finish_progress(const RunOptions& options);
 
-// A point "X,Z" or "X,Y,Z" in metres; throws UsageError naming the option.
+// A point "X,Z" or "X,Y,Z" in metres (y = 0 when not given), or only "X,Z" for commands that
+// work in the vertical plane; throws UsageError naming the option.
 struct Point3 {
     double x_m = 0.0, y_m = 0.0, z_m = 0.0;
 };
-Point3 parse_point(const std::string& text, const std::string& option);
+enum class PointForm { xz, xz_or_xyz };
+Point3 parse_point(const std::string& text, const std::string& option, PointForm form = PointForm::xz_or_xyz);
 
 // A finite number; throws UsageError naming the option.
 double parse_number(const std::string& text, const std::string& option);
 // "MIN:MAX" with MIN < MAX.
 std::pair<double, double> parse_span(const std::string& text, const std::string& option);
 
-// A list "a,b,c" or a range "start:stop:step" (inclusive of stop within rounding).
+// A list "a,b,c"; a range "start:stop:step" (inclusive of stop within rounding); or either.
+std::vector<double> parse_list(const std::string& text, const std::string& option);
+std::vector<double> parse_range(const std::string& text, const std::string& option);
 std::vector<double> parse_list_or_range(const std::string& text, const std::string& option);
 
 // The receivers of a command: one point (--receiver) or a station file, optionally a subset of

@@ -55,6 +55,8 @@ inline std::optional<DensityUnit> density_unit_from_name(std::string_view name) 
     return std::nullopt;
 }
 
+constexpr std::string_view density_unit_name(DensityUnit unit) { return unit == DensityUnit::kg_m3 ? "kg/m3" : "g/cm3"; }
+
 constexpr double to_g_cm3(double density, DensityUnit unit) {
     return unit == DensityUnit::kg_m3 ? density_kg_m3_to_g_cm3(density) : density;
 }

@@ -1,5 +1,5 @@
 // Ray legs in the exponential firn profile n(z) = A − B e^{z/z0} in closed form (physics notes §4;
-// the formulas as implemented and the cancellation-free forms are in docs/physics-closed-form.md).
+// the formulas as implemented and the cancellation-free forms are in docs/physics.md §3).
 // Distance, time, length and ∂distance/∂ξ cost a few elementary functions, no quadrature.
 //
 // Accuracy, measured against Boost.Math tanh_sinh quadrature of the Snell integrals in quadruple
@@ -14,7 +14,7 @@
 //   attenuation exponent: s / L exactly for a constant length; for a depth-dependent one, adaptive
 //   Gauss–Kronrod (15 points) after z = z_top − Δ·τ², which removes the 1/√ singularity of a
 //   turning end: 1e-10 relative.
-// Speed (bench/bench_closed_form.cpp, docs/performance-closed-form.md): one distance-and-time
+// Speed (bench/bench_closed_form.cpp, docs/performance.md): one distance-and-time
 // evaluation takes about 55 ns.
 #pragma once
 

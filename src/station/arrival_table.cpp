@@ -1,6 +1,7 @@
 #include "station/arrival_table.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <limits>
 
@@ -185,11 +186,16 @@ ArrivalTable::Sample ArrivalTable::exact_at(const Row& row, ArrivalKind family, 
         const Segment leg = solver_->segment(xi, z_source, receiver_z_);
         return Sample{leg.distance_m, leg.time_s, leg.attenuation_exponent, xi};
     }
+    const double z_deep = std::min(z_source, receiver_z_);
     double top = 0.0;
-    if (xi >= n_surface_) top = solver_->turning_z(xi, std::min(z_source, receiver_z_)).value_or(0.0);
-    const Segment up = solver_->segment(xi, top, z_source), down = solver_->segment(xi, top, receiver_z_);
-    return Sample{up.distance_m + down.distance_m, up.time_s + down.time_s,
-                  up.attenuation_exponent + down.attenuation_exponent, xi};
+    if (xi >= n_surface_) top = solver_->turning_z(xi, z_deep).value_or(0.0);
+    // Both legs from one ray down through the two ends (a single integration on solvers that
+    // override segments_from). The shallower end may sit a rounding error above a turning top.
+    const std::array<double, 2> ends{std::min(std::max(z_source, receiver_z_), top), z_deep};
+    std::array<Segment, 2> legs;
+    solver_->segments_from(xi, top, ends, legs);
+    return Sample{legs[0].distance_m + legs[1].distance_m, legs[0].time_s + legs[1].time_s,
+                  legs[0].attenuation_exponent + legs[1].attenuation_exponent, xi};
 }
 
 ArrivalTable::Sample ArrivalTable::exact_sample(const Row& row, ArrivalKind family, double xi_low,

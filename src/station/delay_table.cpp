@@ -60,10 +60,10 @@ std::vector<DelaySource> read_delay_sources(const std::string& path) {
         DelaySource source;
         source.input_line = row.line;
         try {
+            source.name = name ? table.text(row, *name) : fmt::format("line {}", row.line);
             source.position.x = table.number(row, x);
             source.position.z = table.number(row, z);
             if (y) source.position.y = table.number(row, *y);
-            source.name = name ? table.text(row, *name) : fmt::format("line {}", row.line);
         } catch (const InputError& e) {
             source.error = e.what();
             if (source.name.empty()) source.name = fmt::format("line {}", row.line);

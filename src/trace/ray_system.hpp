@@ -41,17 +41,27 @@ public:
         profile.index_and_gradient(0.0, n_surface_, gradient_surface_);
     }
 
+    // Heights in the state are measured from z_origin (0 unless set). A solver that integrates
+    // far below the surface moves the origin along with the ray, so that dopri5's relative error
+    // control, which scales with the size of each component, applies to the height gained in a
+    // step rather than to the depth (1e-10 of 500 m is 5e-8 m per step, which a nearly
+    // horizontal ray turns into µm of distance).
+    void set_z_origin(double z_origin) { z_origin_ = z_origin; }
+    double z_origin() const { return z_origin_; }
+
     // Evaluate one piece of a piecewise-smooth profile (IndexProfile::joins_z), continued beyond
     // its ends, instead of the profile itself: an integration that stops at the joins then never
     // steps across a kink. The air-side continuation below is not used then.
+    // whole_profile goes back to the profile itself.
+    static constexpr std::size_t whole_profile = static_cast<std::size_t>(-1);
     void use_piece(std::size_t piece) { piece_ = piece; }
 
-    // n and dn/dz at z. Above the surface (where only the trial stages of a step that crosses
-    // z = 0 ever look) the profile is continued linearly, so the right-hand side stays
-    // continuous with a continuous first derivative in n across the step and the step
-    // controller is not misled by a kink.
+    // n and dn/dz at z (the absolute height, not from the origin). Above the surface (where only
+    // the trial stages of a step that crosses z = 0 ever look) the profile is continued linearly,
+    // so the right-hand side stays continuous with a continuous first derivative in n across the
+    // step and the step controller is not misled by a kink.
     void index_and_gradient(double z, double& n, double& dn_dz) const {
-        if (piece_ != no_piece) {
+        if (piece_ != whole_profile) {
             double curvature;
             profile_->piece_index(piece_, z, n, dn_dz, curvature);
             return;
@@ -79,20 +89,21 @@ public:
     void operator()(const std::array<double, N>& y, std::array<double, N>& dy, double /*sigma*/) const {
         static_assert(N == ray_state::size || N == ray_state::size_with_variation);
         using namespace ray_state;
+        const double height = z_origin_ + y[z];
         double n, dn_dz, piece_curvature = 0.0;
-        if (piece_ != no_piece) profile_->piece_index(piece_, y[z], n, dn_dz, piece_curvature);
-        else index_and_gradient(y[z], n, dn_dz);
+        if (piece_ != whole_profile) profile_->piece_index(piece_, height, n, dn_dz, piece_curvature);
+        else index_and_gradient(height, n, dn_dz);
         dy[x] = y[px];
         dy[z] = y[pz];
         dy[px] = 0.0;
         dy[pz] = n * dn_dz;
         dy[optical_path] = n * n;
         dy[length] = n;
-        dy[attenuation] = attenuation_ ? n / attenuation_->length_m(y[z] > 0.0 ? 0.0 : y[z]) : 0.0;
+        dy[attenuation] = attenuation_ ? n / attenuation_->length_m(height > 0.0 ? 0.0 : height) : 0.0;
         if constexpr (N == size_with_variation) {
             // Linearised equations: d(δx)/dσ = δp_x = 1, d(δz)/dσ = δp_z,
             // d(δp_z)/dσ = d(n n')/dz · δz = (n'² + n n'') δz.
-            const double second = piece_ != no_piece ? piece_curvature : y[z] > 0.0 ? 0.0 : curvature(y[z]);
+            const double second = piece_ != whole_profile ? piece_curvature : height > 0.0 ? 0.0 : curvature(height);
             dy[dx_dxi] = 1.0;
             dy[dz_dxi] = y[dpz_dxi];
             dy[dpz_dxi] = (dn_dz * dn_dz + n * second) * y[dz_dxi];
@@ -100,11 +111,11 @@ public:
     }
 
 private:
-    static constexpr std::size_t no_piece = static_cast<std::size_t>(-1);
     const IndexProfile* profile_;
     const AttenuationProfile* attenuation_;
-    std::size_t piece_ = no_piece;
     double n_surface_ = 1.0, gradient_surface_ = 0.0;
+    double z_origin_ = 0.0;
+    std::size_t piece_ = whole_profile;
 };
 
 }  // namespace firnray

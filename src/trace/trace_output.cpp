@@ -1,9 +1,12 @@
 #include "trace/trace_output.hpp"
 
+#include <algorithm>
+
 #include <fmt/format.h>
 
 #include "core/constants.hpp"
 #include "io/json_writer.hpp"
+#include "plot/figure.hpp"
 
 namespace firnray {
 
@@ -68,15 +71,23 @@ void write_branch(JsonWriter& json, std::size_t index, const RayBranch& b) {
     json.end_object();
 }
 
+std::string branch_colour(BranchKind kind) {
+    switch (kind) {
+        case BranchKind::ice: return "#1f5fa8";
+        case BranchKind::ice_transmitted: return "#2b9348";
+        case BranchKind::air: return "#7b3fa0";
+        case BranchKind::air_transmitted: return "#e07b00";
+    }
+    return "#444444";
+}
+
 }  // namespace
 
 std::string trace_json(const FirnModel& model, const std::vector<RayTrace>& rays) {
     JsonWriter json;
     json.begin_object();
-    json.key("model").begin_object();
-    json.field("name", model.name).field("origin", model.origin).field("index", model.index->describe());
-    json.field("n_air", model.n_air);
-    json.end_object();
+    json.key("model");
+    write_model_json(json, model);
     json.field("conventions",
                "z up (m), surface z = 0, ice z < 0; zenith angle of travel (0 up, 90 horizontal, 180 down); "
                "time and length counted from the launch; amplitudes are products of Fresnel (and bottom) field "
@@ -95,6 +106,46 @@ std::string trace_json(const FirnModel& model, const std::vector<RayTrace>& rays
     }
     json.end_array().end_object();
     return json.str() + "\n";
+}
+
+std::string ray_fan_svg(const FirnModel& model, const std::vector<RayTrace>& rays, double launch_x_m, double launch_z_m) {
+    double z_low = std::min(0.0, launch_z_m), z_high = std::max(0.0, launch_z_m);
+    for (const RayTrace& ray : rays)
+        for (const RayBranch& b : ray.branches)
+            for (const RayPoint& p : b.points) {
+                z_low = std::min(z_low, p.z_m);
+                z_high = std::max(z_high, p.z_m);
+            }
+    const double margin = 0.05 * std::max(z_high - z_low, 1.0);
+    z_high = std::max(z_high, 0.0) + margin;
+    z_low -= margin;
+
+    plot::Figure figure;
+    figure.title(fmt::format("Rays from x = {} m, z = {} m; model: {}", launch_x_m, launch_z_m,
+                             model.name.empty() ? model.index->describe() : model.name));
+    figure.x_label("horizontal distance x (m)");
+    figure.y_label("z (m, up; surface at z = 0)");
+    figure.y_range(z_low, z_high);
+    figure.add_y_band(0.0, z_high, "#e3f1fb", "air");
+    figure.add_hline(0.0, plot::LineStyle{"#333333", 1.2, "", 1.0}, "surface");
+    if (model.bottom) figure.add_hline(model.bottom->z_m, plot::LineStyle{"#8c564b", 1.5, "6 3", 1.0}, "bottom");
+    bool legend_done[4] = {false, false, false, false};
+    for (const RayTrace& ray : rays)
+        for (const RayBranch& b : ray.branches) {
+            if (b.points.size() < 2) continue;
+            std::vector<double> xs, zs;
+            for (const RayPoint& p : b.points) {
+                xs.push_back(p.x_m);
+                zs.push_back(p.z_m);
+            }
+            const int k = static_cast<int>(b.kind);
+            const std::string legend = legend_done[k] ? "" : to_string(b.kind) + " rays";
+            legend_done[k] = true;
+            figure.add_line(xs, zs, plot::LineStyle{branch_colour(b.kind), 1.2, "", 0.9}, legend);
+        }
+    std::vector<double> source_x{launch_x_m}, source_z{launch_z_m};
+    figure.add_markers(source_x, source_z, plot::MarkerStyle{"#d62728", 4.0, "circle"}, "launch point");
+    return figure.svg();
 }
 
 }  // namespace firnray

@@ -1,5 +1,7 @@
-// Writing traced rays as CSV (one row per sampled point) or JSON (rays → branches → points,
-// events, amplitudes, drift). Positions in m, times in ns, angles in degrees, as named.
+// Writing traced rays as CSV (one row per sampled point), JSON (rays → branches → points,
+// events, amplitudes, drift) or an SVG figure of the fan. Positions in m, times in ns, angles in
+// degrees, as named. Pure functions from results to text, so the front end renders everything
+// first and writes files only once all of it succeeded.
 #pragma once
 
 #include <string>
@@ -15,5 +17,9 @@ std::string trace_csv(const std::vector<RayTrace>& rays);
 
 // The whole trace, with the model's name and description and the conventions used.
 std::string trace_json(const FirnModel& model, const std::vector<RayTrace>& rays);
+
+// The rays in the x-z plane, coloured by branch kind, over the air, the surface, the model's
+// bottom (if any) and the launch point (launch_x_m, launch_z_m).
+std::string ray_fan_svg(const FirnModel& model, const std::vector<RayTrace>& rays, double launch_x_m, double launch_z_m);
 
 }  // namespace firnray

@@ -439,7 +439,7 @@ TEST_CASE("firnray connect: closed form (physics notes §4) vs --solver numeric 
 }
 
 TEST_CASE("firnray connect: a vertical pair (ξ = 0, azimuth 0), equal depths (rays that rise and come back) and a "
-          "receiver in the air (one transmitted path) come out whole (definition; physics notes §4; Snell)",
+          "receiver in the air (one transmitted path) come out whole (definition, physics notes §4, Snell)",
           "[cli][connect]") {
     const JsonValue vertical = run_json({"--source", "5,-150", "--receiver", "5,-30"});
     CHECK(vertical["horizontal_distance_m"].num() == 0.0);

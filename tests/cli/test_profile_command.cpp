@@ -108,7 +108,7 @@ TEST_CASE("profile --fit: recovers synthetic parameters, and the written model l
     CHECK(json.out.find("\"covariance\": [") != std::string::npos);
 }
 
-TEST_CASE("profile --fit: densities with a rule; bad rows are data errors (exit 4) naming the line",
+TEST_CASE("profile --fit: densities with a rule, bad rows are data errors (exit 4) naming the line",
           "[cli][profile]") {
     const std::string data = source_path("models/synthetic-density.csv");
     const auto r = run_firnray({"profile", "--fit", data, "--density-column", "density_kg_m3", "--density-rule", "kovacs"});

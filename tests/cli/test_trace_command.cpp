@@ -4,6 +4,7 @@
 #include <catch2/catch.hpp>
 
 #include <cmath>
+#include <filesystem>
 #include <map>
 #include <sstream>
 #include <string>
@@ -72,11 +73,26 @@ TEST_CASE("firnray trace: CSV of a fan in a homogeneous-looking deep leg has one
     CHECK(launch_zenith[7] == 160.0);
     CHECK(saw_air);  // the steep upward rays (ξ < n_air) transmit into the air
     // Consecutive points of a branch: 10 m of path apart (or less, at events and ends), time increasing.
+    // Near the launch the time is n·s/c with n of the launch depth (the index changes by < 0.2 %
+    // over the first 10 m at 150 m depth); in the air every step takes exactly Δs/c.
+    const double n_launch = 1.78 - 0.43 * std::exp(-150.0 / 37.0);  // the built-in model
+    int near_launch = 0, air_steps = 0;
     for (std::size_t i = 1; i < rows.size(); ++i) {
         if (rows[i].ray != rows[i - 1].ray || rows[i].branch != rows[i - 1].branch) continue;
         CHECK(rows[i].length - rows[i - 1].length <= 10.0 + 1e-9);
         CHECK(rows[i].time_ns > rows[i - 1].time_ns);
+        if (rows[i].branch == 0 && rows[i - 1].length == 0.0 && rows[i].length > 0.0) {
+            CHECK(rows[i].time_ns == Approx(n_launch * rows[i].length / 0.299792458).epsilon(2e-3));
+            ++near_launch;
+        }
+        if (rows[i].kind == "air-transmitted") {
+            CHECK(rows[i].time_ns - rows[i - 1].time_ns ==
+                  Approx((rows[i].length - rows[i - 1].length) / 0.299792458).epsilon(1e-6));
+            ++air_steps;
+        }
     }
+    CHECK(near_launch == 8);
+    CHECK(air_steps > 0);
 }
 
 TEST_CASE("firnray trace: JSON from the air gives the air branch, its surface event and the transmitted ice "
@@ -151,4 +167,14 @@ TEST_CASE("firnray trace --help carries a worked example and the conventions", "
 TEST_CASE("firnray trace: an unwritable output is exit 6 and leaves no file", "[cli][trace]") {
     const auto r = run_firnray({"trace", "--from", "0,-10", "--zenith-deg", "90", "--output", "/nonexistent-dir/x.csv"});
     CHECK(r.exit_code == 6);
+    // An output path that is a folder: the temporary file is written beside it, the rename fails,
+    // and nothing is left behind.
+    const std::string dir = temp_folder("trace-unwritable");
+    std::filesystem::create_directory(dir + "/taken");
+    const auto r2 = run_firnray({"trace", "--from", "0,-10", "--zenith-deg", "90", "--output", dir + "/taken"});
+    CHECK(r2.exit_code == 6);
+    std::size_t entries = 0;
+    for ([[maybe_unused]] const auto& e : std::filesystem::directory_iterator(dir)) ++entries;
+    CHECK(entries == 1);  // only the folder itself
+    CHECK(std::filesystem::is_empty(dir + "/taken"));
 }

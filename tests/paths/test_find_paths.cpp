@@ -67,7 +67,7 @@ double vertical_travel(const ConnectedPath& p, double z_source, double z_receive
 }  // namespace
 
 TEST_CASE("paths, homogeneous medium: every path is a straight line from an image source, T = n·d/c, L_eff = d, "
-          "interface factors from Hecht and √R (definition; image sources; Hecht, Optics)",
+          "interface factors from Hecht and √R (definition, image sources, Hecht, Optics)",
           "[paths]") {
     const double n = 1.78, reflectivity = 0.25;
     auto model = std::const_pointer_cast<FirnModel>(test::homogeneous_model(n));
@@ -185,7 +185,7 @@ TEST_CASE("paths: a vertical pair has ξ = 0 paths with c·T = ∫ n dz = A Δz 
 }
 
 TEST_CASE("paths: at equal depths in graded firn only rays that rise and come back down join the two ends "
-          "(physics notes §4); in a homogeneous layer the horizontal ray does, with T = n·r/c (definition)",
+          "(physics notes §4), in a homogeneous layer the horizontal ray does, with T = n·r/c (definition)",
           "[paths]") {
     const ClosedFormSolver solver(firn_model());
     for (const double r : {1.0, 30.0, 100.0}) {
@@ -232,7 +232,7 @@ TEST_CASE("paths: a source at the surface and a receiver just below it are joine
 }
 
 TEST_CASE("paths: across the meeting point of the direct and refracted families the time follows dT/dR = ξ/c "
-          "and the spreading stays continuous (definition of the ray parameter; Červený 2001)",
+          "and the spreading stays continuous (definition of the ray parameter, Červený 2001)",
           "[paths]") {
     auto model = firn_model();
     const ClosedFormSolver solver(model);
@@ -287,7 +287,7 @@ double largest_reach(const ClosedFormSolver& solver, double z1, double z2) {
 }  // namespace
 
 TEST_CASE("paths: beyond the largest distance the families reach there is no path, the shadow zone "
-          "(physics notes §4; reach from a dense scan of the closed form)",
+          "(physics notes §4, reach from a dense scan of the closed form)",
           "[paths]") {
     const ClosedFormSolver solver(firn_model());
     for (const auto& [z1, z2] : {std::pair{-100.0, -20.0}, std::pair{-60.0, -3.0}, std::pair{-250.0, -120.0},
@@ -304,7 +304,7 @@ TEST_CASE("paths: beyond the largest distance the families reach there is no pat
 }
 
 TEST_CASE("paths: near-grazing surface reflections carry Hecht's r_s, r_p at their angle with |r| → 1 and meet "
-          "the refracted family at the grazing ray, beyond which the reflected family ends (Hecht, Optics; "
+          "the refracted family at the grazing ray, beyond which the reflected family ends (Hecht, Optics, "
           "definition of the grazing ray)",
           "[paths]") {
     auto model = firn_model();
@@ -365,7 +365,7 @@ TEST_CASE("paths: total versus partial reflection at the surface on either side 
 }
 
 TEST_CASE("paths: a receiver in the air is reached through the surface with Snell's law, a straight air leg and "
-          "Hecht's t_s, t_p; in homogeneous ice the time is Fermat's minimum (Snell; Hecht, Optics; Fermat)",
+          "Hecht's t_s, t_p, in homogeneous ice the time is Fermat's minimum (Snell, Hecht, Optics, Fermat)",
           "[paths]") {
     auto model = firn_model();
     const ClosedFormSolver solver(model);
@@ -406,7 +406,7 @@ TEST_CASE("paths: a receiver in the air is reached through the surface with Snel
 }
 
 TEST_CASE("paths: two ends in the air, the straight line and the surface reflection from the image source "
-          "(definition; Hecht, Optics)",
+          "(definition, Hecht, Optics)",
           "[paths]") {
     auto model = firn_model();
     const ClosedFormSolver solver(model);
@@ -634,7 +634,7 @@ TEST_CASE("paths: on the numeric solver (ODE of notes §3) the paths agree with 
 }
 
 TEST_CASE("paths: towards a fold caustic (the largest distance of the refracted family) two refracted paths merge "
-          "and L_eff vanishes like (R_max − R)^{1/4} (fold caustic, Červený 2001); the flag is set, nothing is "
+          "and L_eff vanishes like (R_max − R)^{1/4} (fold caustic, Červený 2001), the flag is set, nothing is "
           "divided by zero",
           "[paths]") {
     auto model = firn_model();

@@ -23,7 +23,7 @@
 using namespace firnray;
 
 TEST_CASE("paths in a linear velocity gradient: the one direct or refracted path is the circular arc centred on "
-          "v = 0, with T = arccosh(1 + g²d²/(2 v1 v2))/|g| within 1 ps (Shearer, Introduction to Seismology; "
+          "v = 0, with T = arccosh(1 + g²d²/(2 v1 v2))/|g| within 1 ps (Shearer, Introduction to Seismology, "
           "Červený 2001)",
           "[paths][numeric]") {
     const double c = speed_of_light;

@@ -333,7 +333,7 @@ TEST_CASE("line simplification drops only invisible detail", "[plot][svg]") {
     CHECK(point_count(smooth) > 10);
 }
 
-TEST_CASE("numbers are written with at most two decimals; fonts are at least 12 px", "[plot][svg]") {
+TEST_CASE("numbers are written with at most two decimals, fonts are at least 12 px", "[plot][svg]") {
     const std::string svg = every_layer_figure().svg() + value_map_figure(true).svg();
     const std::regex long_number("=\"-?[0-9]+\\.[0-9]{3,}\"|[ ,\"][-]?[0-9]+\\.[0-9]{3,}[ ,\"]");
     CHECK_FALSE(std::regex_search(svg, long_number));
@@ -363,7 +363,7 @@ TEST_CASE("invert_y puts larger y lower on the page, e.g. depth downward", "[plo
     CHECK(down[1] > down[0]);  // depth 100 m below 0 m
 }
 
-TEST_CASE("the automatic legend avoids data; tick labels use the data range", "[plot][svg]") {
+TEST_CASE("the automatic legend avoids data, tick labels use the data range", "[plot][svg]") {
     Figure f;
     // Data filling the upper part (a zigzag between 0.7 and 1): the legend goes to a lower corner.
     std::vector<double> x, y;

@@ -54,7 +54,7 @@ TEST_CASE("numeric segment(): distance, time, length and ∂distance/∂ξ agree
 
 TEST_CASE("numeric segment(): an end at the turning point agrees with tanh_sinh quadrature of the singular "
           "Snell integrals, and turning_z matches z_t = z0 ln((n_deep − ξ)/(n_deep − n_surface)) "
-          "(notes §4; Boost.Math)",
+          "(notes §4, Boost.Math)",
           "[solver]") {
     const double n_deep = 1.78, n_surface = 1.35, z0 = 40.0, b = n_deep - n_surface;
     auto profile = std::make_shared<ExponentialProfile>(n_deep, n_surface, z0);
@@ -121,7 +121,7 @@ TEST_CASE("numeric turning_z: first root of n = ξ above the start, also for pro
     }
 }
 
-TEST_CASE("numeric segment(): a ray parameter above n on the leg is a NumericalError; ends above the surface "
+TEST_CASE("numeric segment(): a ray parameter above n on the leg is a NumericalError, ends above the surface "
           "are input errors",
           "[solver]") {
     auto profile = std::make_shared<ExponentialProfile>(1.78, 1.35, 40.0);
@@ -187,7 +187,9 @@ TEST_CASE("numeric distance_to_turning: one integration with the variational equ
                 INFO(profile->kind() << ": ξ " << xi << ", z_start " << z_start);
                 const LegDistance a = generic.distance_to_turning(xi, z_start);
                 const LegDistance b = fast.distance_to_turning(xi, z_start);
-                CHECK(b.distance_m == Approx(a.distance_m).epsilon(1e-12));
+                // Two integrations of the same leg with different states (with and without the
+                // variational equations), so different steps: they agree to the tolerances.
+                CHECK(b.distance_m == Approx(a.distance_m).epsilon(1e-9));
                 CHECK(b.derivative == Approx(a.derivative).epsilon(1e-5));
             }
     }

@@ -37,7 +37,7 @@ std::string failure_of(const std::string& text) {
 }
 }  // namespace
 
-TEST_CASE("station file: strings share their x, y; depth_m and z_m both work", "[station]") {
+TEST_CASE("station file: strings share their x, y, depth_m and z_m both work", "[station]") {
     const Station s = parse_station(good, "st.toml");
     REQUIRE(s.receivers.size() == 3);
     CHECK(s.name == "test station");

@@ -57,7 +57,7 @@ TEST_CASE("tracer: homogeneous medium gives straight lines and T = n·d/c (defin
 }
 
 TEST_CASE("tracer: linear velocity gradient rays are circular arcs centred on v = 0 and "
-          "T = arccosh(1 + g²d²/(2 v1 v2))/|g| within 1 ps over 2 km (Shearer, Introduction to Seismology; "
+          "T = arccosh(1 + g²d²/(2 v1 v2))/|g| within 1 ps over 2 km (Shearer, Introduction to Seismology, "
           "Červený, Seismic Ray Theory 2001)",
           "[trace]") {
     const double c = speed_of_light;
@@ -150,7 +150,7 @@ TEST_CASE("tracer: a downward ray agrees with tanh_sinh quadrature of the Snell 
 }
 
 TEST_CASE("tracer: at the surface from below the branches carry the Fresnel coefficients and the air ray obeys "
-          "n_ice sin θ = n_air sin θ_air (Hecht, Optics; Snell's law)",
+          "n_ice sin θ = n_air sin θ_air (Hecht, Optics, Snell's law)",
           "[trace]") {
     auto model = exponential_model();
     TraceOptions options;

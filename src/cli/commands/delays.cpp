@@ -80,7 +80,7 @@ int run_delays(const DelaysArguments& args) {
 
 void add_delays_command(CLI::App& app, CommandSlot& slot) {
     auto args = std::make_shared<DelaysArguments>();
-    CLI::App* cmd = app.add_subcommand("delays", "arrival times and time differences of source positions at every channel of a station");
+    CLI::App* cmd = app.add_subcommand("delays", "Arrival times and time differences of source positions at every channel of a station");
     add_model_option(cmd, args->model_path);
     cmd->add_option("--station", args->station_path, "station file (TOML, docs/station-files.md)")->required()->type_name("FILE");
     cmd->add_option("--sources", args->sources_path, "CSV of sources: columns x_m, z_m, optional y_m and name")->type_name("FILE.csv");

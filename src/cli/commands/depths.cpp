@@ -54,7 +54,7 @@ int run_depths(const DepthsArguments& args) {
 
 void add_depths_command(CLI::App& app, CommandSlot& slot) {
     auto args = std::make_shared<DepthsArguments>();
-    CLI::App* cmd = app.add_subcommand("depths", "scan receiver depths: visible volume, two-path volume, time between paths");
+    CLI::App* cmd = app.add_subcommand("depths", "Scan candidate receiver depths: visible volume, two-path volume, time between the paths");
     add_model_option(cmd, args->model_path);
     cmd->add_option("--depths", args->depths, "candidate receiver depths (m, positive down): a list a,b,c or START:STOP:STEP")
         ->capture_default_str();

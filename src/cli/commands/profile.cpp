@@ -1,26 +1,18 @@
 // firnray profile: tabulate (and plot) the index profile of a model, or fit the exponential model
 // to measured index or density data and write it as a model file.
-#include <algorithm>
 #include <cmath>
-#include <filesystem>
 #include <memory>
 #include <optional>
 #include <string>
-#include <vector>
 
 #include <fmt/format.h>
 
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
-#include "core/errors.hpp"
-#include "io/atomic_file.hpp"
-#include "io/csv_reader.hpp"
-#include "io/json_writer.hpp"
 #include "model/density.hpp"
-#include "model/fit.hpp"
-#include "model/model_file.hpp"
+#include "model/fit_data.hpp"
+#include "model/profile_output.hpp"
 #include "model/profile_samples.hpp"
-#include "plot/figure.hpp"
 
 namespace firnray::cli {
 
@@ -40,205 +32,48 @@ struct ProfileOptions {
     std::string write_model_path, model_name;
 };
 
-std::string number(double value) { return fmt::format("{:.10g}", value); }
-
-
-// ---------------------------------------------------------------------------------------------
-// Tabulating a model
-
-std::string samples_csv(const std::vector<ProfileSample>& samples) {
-    std::string out = "depth_m,z_m,n,dn_dz_per_m\n";
-    for (const auto& s : samples)
-        out += fmt::format("{},{},{},{}\n", number(s.depth_m), number(s.z_m), number(s.n), number(s.dn_dz_per_m));
-    return out;
-}
-
-std::string samples_json(const FirnModel& model, const std::vector<ProfileSample>& samples) {
-    JsonWriter json;
-    json.begin_object();
-    json.key("model").begin_object();
-    json.field("name", model.name).field("origin", model.origin).field("index", model.index->describe());
-    json.field("n_air", model.n_air);
-    json.end_object();
-    json.field("conventions", "z up, surface z = 0, ice z < 0; depth_m = -z_m; dn_dz_per_m is dn/dz with z up");
-    json.key("samples").begin_array();
-    for (const auto& s : samples) {
-        json.begin_object();
-        json.field("depth_m", s.depth_m).field("z_m", s.z_m).field("n", s.n).field("dn_dz_per_m", s.dn_dz_per_m);
-        json.end_object();
-    }
-    json.end_array();
-    json.end_object();
-    return json.str() + "\n";
-}
-
-// n against depth, depth increasing downward.
-plot::Figure profile_figure(const std::string& title) {
-    plot::Figure figure(760, 680);
-    figure.title(title).x_label("refractive index n").y_label("depth (m, increasing downward; z = -depth)");
-    figure.invert_y(true);
-    return figure;
-}
-
-std::vector<double> depths_of(const std::vector<ProfileSample>& samples) {
-    std::vector<double> depth;
-    for (const auto& s : samples) depth.push_back(s.depth_m);
-    return depth;
-}
-std::vector<double> indexes_of(const std::vector<ProfileSample>& samples) {
-    std::vector<double> n;
-    for (const auto& s : samples) n.push_back(s.n);
-    return n;
-}
-
 int tabulate(const ProfileOptions& o) {
-    const auto shared_model = load_model_or_default(o.model_path);
-    const FirnModel& model = *shared_model;
-    const auto samples = sample_profile(*model.index, o.from_depth_m, o.to_depth_m, o.step_m);
-    const std::string text = o.format == "json" ? samples_json(model, samples) : samples_csv(samples);
-    if (!o.plot_path.empty()) {
-        plot::Figure figure = profile_figure(fmt::format("Refractive index: {}", model.name));
-        figure.add_line(indexes_of(samples), depths_of(samples), plot::LineStyle{},
-                        fmt::format("n, {} profile", model.index->kind()));
-        figure.write_svg(o.plot_path);
-    }
-    write_text_file(o.output, text);
+    const auto model = load_model_or_default(o.model_path);
+    const auto samples = sample_profile(*model->index, o.from_depth_m, o.to_depth_m, o.step_m);
+    const std::string text = o.format == "json" ? profile_samples_json(*model, samples) : profile_samples_csv(samples);
+    const std::string svg = o.plot_path.empty() ? std::string() : profile_svg(*model, samples);
+    if (!o.plot_path.empty()) emit(o.plot_path, svg);
+    emit(o.output, text);
     return 0;
 }
 
-// ---------------------------------------------------------------------------------------------
-// Fitting data
-
-struct FitData {
-    std::vector<double> depth, value;  // value: n, or density in g/cm³
-    bool density = false;
-    DensityRule rule = DensityRule::kovacs;
-};
-
-FitData read_fit_data(const ProfileOptions& o) {
-    const CsvTable csv = read_csv(o.fit_path, CsvErrorKind::data);
-    FitData data;
-    const bool use_z = !o.z_column.empty();
-    const std::size_t depth_index = csv.column(use_z ? o.z_column : (o.depth_column.empty() ? "depth_m" : o.depth_column));
-    data.density = !o.density_column.empty();
-    const std::size_t value_index = csv.column(data.density ? o.density_column : (o.n_column.empty() ? "n" : o.n_column));
-    const DensityUnit unit = *density_unit_from_name(o.density_unit);  // checked by CLI11
-    if (data.density) data.rule = *density_rule_from_name(o.density_rule);
-    for (const CsvRow& row : csv.rows) {
-        double depth = csv.number(row, depth_index);
-        if (use_z) depth = -depth;
-        if (depth < 0.0)
-            csv.fail(row, csv.columns[depth_index],
-                     use_z ? fmt::format("z = {} m is above the surface (the ice is z <= 0)", -depth)
-                           : fmt::format("depth {} m is negative (depths are positive down)", depth));
-        double value = csv.number(row, value_index);
-        if (data.density) {
-            value = to_g_cm3(value, unit);
-            if (value < lowest_plausible_density_g_cm3 || value > highest_plausible_density_g_cm3)
-                csv.fail(row, csv.columns[value_index],
-                         fmt::format("density {} {} is not a snow, firn or ice density; is --density-unit right?",
-                                     csv.number(row, value_index), o.density_unit));
-        } else if (value < 1.0) {
-            csv.fail(row, csv.columns[value_index], fmt::format("n = {} is below 1", value));
-        }
-        data.depth.push_back(depth);
-        data.value.push_back(value);
+FitColumns fit_columns(const ProfileOptions& o) {
+    FitColumns columns;
+    if (!o.z_column.empty()) {
+        columns.depth = o.z_column;
+        columns.depth_is_z = true;
+    } else if (!o.depth_column.empty()) {
+        columns.depth = o.depth_column;
     }
-    if (data.depth.empty()) throw DataInputError("the file has a header but no data rows", {o.fit_path, 0, ""});
-    return data;
-}
-
-std::string fit_text(const ProfileOptions& o, const FitData& data, const ExponentialFit& fit) {
-    std::string out = fmt::format("exponential fit to {} ({} points, {})\n", o.fit_path, fit.points,
-                                  data.density ? fmt::format("densities converted with the {} rule",
-                                                             density_rule_name(data.rule))
-                                               : std::string("index values"));
-    out += "model: n(z) = n_deep - (n_deep - n_surface) * exp(z / scale_depth_m), z <= 0 (z up)\n";
-    if (fit.n_deep_fixed)
-        out += fmt::format("n_deep        = {:.6f} (held fixed)\n", fit.n_deep);
-    else
-        out += fmt::format("n_deep        = {:.6f} ± {:.6f} (1 sigma)\n", fit.n_deep, fit.n_deep_sigma);
-    out += fmt::format("n_surface     = {:.6f} ± {:.6f} (1 sigma)\n", fit.n_surface, fit.n_surface_sigma);
-    out += fmt::format("scale_depth_m = {:.4f} ± {:.4f} (1 sigma)\n", fit.scale_depth_m, fit.scale_depth_sigma_m);
-    out += fmt::format("residual rms  = {:.3g} in n ({} iterations)\n", fit.residual_rms, fit.iterations);
-    return out;
-}
-
-std::string fit_json(const ProfileOptions& o, const FitData& data, const ExponentialFit& fit) {
-    JsonWriter json;
-    json.begin_object();
-    json.field("data", o.fit_path).field("points", static_cast<unsigned long>(fit.points));
-    json.key("values");
-    if (data.density)
-        json.value(fmt::format("density converted with the {} rule", density_rule_name(data.rule)));
-    else
-        json.value("index n");
-    json.field("model", "n(z) = n_deep - (n_deep - n_surface) * exp(z / scale_depth_m), z <= 0 (z up)");
-    auto parameter = [&](const char* name, double value, double sigma, bool fixed) {
-        json.key(name).begin_object();
-        json.field("value", value).field("sigma", sigma).field("fixed", fixed);
-        json.end_object();
-    };
-    parameter("n_deep", fit.n_deep, fit.n_deep_sigma, fit.n_deep_fixed);
-    parameter("n_surface", fit.n_surface, fit.n_surface_sigma, false);
-    parameter("scale_depth_m", fit.scale_depth_m, fit.scale_depth_sigma_m, false);
-    json.key("covariance").begin_array();
-    for (int r = 0; r < 3; ++r) {
-        json.begin_array();
-        for (int c = 0; c < 3; ++c) json.value(fit.covariance(r, c));
-        json.end_array();
+    if (!o.density_column.empty()) {
+        columns.value = o.density_column;
+        columns.density_rule = density_rule_from_name(o.density_rule);  // both checked by CLI11
+        columns.density_unit = *density_unit_from_name(o.density_unit);
+    } else if (!o.n_column.empty()) {
+        columns.value = o.n_column;
     }
-    json.end_array();
-    json.field("residual_rms", fit.residual_rms).field("residual_sigma", fit.residual_sigma);
-    json.field("iterations", fit.iterations);
-    json.end_object();
-    return json.str() + "\n";
-}
-
-FirnModel fitted_model(const ProfileOptions& o, const ExponentialFit& fit) {
-    FirnModel model = default_model();  // air and attenuation: the built-in defaults
-    model.name = o.model_name.empty() ? fmt::format("exponential fit to {}", o.fit_path) : o.model_name;
-    model.origin = o.write_model_path;
-    model.index = std::make_shared<ExponentialProfile>(fit.profile());
-    return model;
+    return columns;
 }
 
 int fit_data(const ProfileOptions& o) {
-    const FitData data = read_fit_data(o);
+    const FitData data = read_fit_data(o.fit_path, fit_columns(o));
     ExponentialFitOptions options;
     options.fixed_n_deep = o.fixed_n_deep;
-    const ExponentialFit fit = data.density ? fit_exponential_to_density(data.depth, data.value, data.rule, options)
-                                            : fit_exponential(data.depth, data.value, options);
-    const std::string report = o.format == "json" ? fit_json(o, data, fit) : fit_text(o, data, fit);
+    const ExponentialFit fit = fit_exponential(data, options);
 
-    if (!o.write_model_path.empty()) {
-        const std::string comment = fmt::format(
-            "Written by firnray profile --fit from {} ({} points).\n"
-            "1-sigma uncertainties: n_deep {}, n_surface {:.6f}, scale_depth_m {:.4f}; residual rms {:.3g}.\n"
-            "[air] and [attenuation] are the built-in defaults, not fitted: edit them for your site.",
-            o.fit_path, fit.points, fit.n_deep_fixed ? std::string("held fixed") : fmt::format("{:.6f}", fit.n_deep_sigma),
-            fit.n_surface_sigma, fit.scale_depth_sigma_m, fit.residual_rms);
-        write_text_file(o.write_model_path, model_to_toml(fitted_model(o, fit), comment));
-    }
-    if (!o.plot_path.empty()) {
-        std::vector<double> data_n = data.value;
-        if (data.density)
-            for (auto& v : data_n) v = index_from_density(v, data.rule);
-        const double deepest = *std::max_element(data.depth.begin(), data.depth.end());
-        const double extent = std::max(deepest * 1.05, 1.0);
-        const ExponentialProfile profile = fit.profile();
-        const auto samples = sample_profile(profile, 0.0, extent, extent / 400.0);
-        plot::Figure figure = profile_figure(
-            fmt::format("Exponential fit to {}", std::filesystem::path(o.fit_path).filename().string()));
-        figure.add_markers(data_n, data.depth, plot::MarkerStyle{},
-                           data.density ? fmt::format("data (density by the {} rule)", density_rule_name(data.rule))
-                                        : std::string("data"));
-        figure.add_line(indexes_of(samples), depths_of(samples), plot::LineStyle{},
-                        fmt::format("fit: n_deep {:.4f}, n_surface {:.4f}, scale depth {:.1f} m", fit.n_deep,
-                                    fit.n_surface, fit.scale_depth_m));
-        figure.write_svg(o.plot_path);
-    }
-    write_text_file(o.output, report);
+    // Render everything before writing anything, so that a failure leaves no partial set of files.
+    const std::string report = o.format == "json" ? fit_report_json(data, fit) : fit_report_text(data, fit);
+    const std::string model_file =
+        o.write_model_path.empty() ? std::string() : fitted_model_toml(data, fit, o.model_name, o.write_model_path);
+    const std::string svg = o.plot_path.empty() ? std::string() : fit_svg(data, fit);
+    if (!o.write_model_path.empty()) emit(o.write_model_path, model_file);
+    if (!o.plot_path.empty()) emit(o.plot_path, svg);
+    emit(o.output, report);
     return 0;
 }
 
@@ -280,7 +115,7 @@ void add_profile_command(CLI::App& app, CommandSlot& slot) {
     cmd->add_option("--format", o->format, "output format: csv or json for a table (default csv); text or json for a "
                                            "fit (default text)")
         ->check(CLI::IsMember({"csv", "json", "text"}));
-    cmd->add_option("--output", o->output, "output file ('-' = standard output)")->capture_default_str();
+    cmd->add_option("--output,-o", o->output, "output file ('-' = standard output)")->capture_default_str();
     cmd->add_option("--plot", o->plot_path, "also write an SVG of n against depth (for a fit: data and fitted curve)");
 
     auto* fit = cmd->add_option("--fit", o->fit_path, "fit the exponential model to this CSV of measurements");

@@ -69,7 +69,7 @@ int run_shadow(const ShadowArguments& args) {
 
 void add_shadow_command(CLI::App& app, CommandSlot& slot) {
     auto args = std::make_shared<ShadowArguments>();
-    CLI::App* cmd = app.add_subcommand("shadow", "shadow and visibility map of source positions for a receiver or a station");
+    CLI::App* cmd = app.add_subcommand("shadow", "Shadow and visibility map of source positions for a receiver or a station, with the shadow boundary");
     add_model_option(cmd, args->model_path);
     auto* receiver = cmd->add_option("--receiver", args->receiver_text, "one receiver at X,Z or X,Y,Z (m, z up, ice z < 0)")
                          ->type_name("POINT");

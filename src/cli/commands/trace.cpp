@@ -1,6 +1,7 @@
 // firnray trace: a fan of rays from one point, written as CSV or JSON, optionally plotted as SVG.
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <memory>
 #include <string>
 #include <vector>
@@ -8,10 +9,8 @@
 #include <fmt/format.h>
 
 #include "cli/commands.hpp"
+#include "cli/common.hpp"
 #include "core/constants.hpp"
-#include "io/atomic_file.hpp"
-#include "model/model_file.hpp"
-#include "plot/figure.hpp"
 #include "trace/ray_tracer.hpp"
 #include "trace/trace_output.hpp"
 
@@ -19,125 +18,17 @@ namespace firnray::cli {
 
 namespace {
 
-std::vector<std::string> split(const std::string& text, char sep) {
-    std::vector<std::string> parts;
-    std::size_t start = 0;
-    for (;;) {
-        const std::size_t end = text.find(sep, start);
-        parts.push_back(text.substr(start, end == std::string::npos ? std::string::npos : end - start));
-        if (end == std::string::npos) return parts;
-        start = end + 1;
-    }
-}
+// --zenith-deg takes a list only and --zenith-range a range only, so each reads as its name says.
+// More angles than most_zenith_angles is a mistyped step rather than a fan anyone wants.
+constexpr std::size_t most_zenith_angles = 100000;
 
-// A finite number filling the whole text, or an explanation.
-bool to_number(const std::string& text, double& value) {
-    try {
-        std::size_t used = 0;
-        value = std::stod(text, &used);
-        return used == text.size() && std::isfinite(value);
-    } catch (const std::exception&) {
-        return false;
-    }
-}
-
-// "X,Z" in metres.
-std::string parse_point(const std::string& text, double& x, double& z) {
-    const auto parts = split(text, ',');
-    if (parts.size() != 2 || !to_number(parts[0], x) || !to_number(parts[1], z))
-        return "expected X,Z in metres (two numbers, z up, e.g. 0,-150), got '" + text + "'";
-    return {};
-}
-
-// "a,b,c" (a list) or "START:STOP:STEP" (a range, STOP included within rounding), in degrees.
-std::string parse_angles(const std::string& text, bool range, std::vector<double>& out) {
-    out.clear();
-    if (!range) {
-        for (const auto& part : split(text, ',')) {
-            double v;
-            if (!to_number(part, v)) return "expected a comma-separated list of angles in degrees, got '" + text + "'";
-            out.push_back(v);
-        }
-        return {};
-    }
-    const auto parts = split(text, ':');
-    double start, stop, step;
-    if (parts.size() != 3 || !to_number(parts[0], start) || !to_number(parts[1], stop) || !to_number(parts[2], step))
-        return "expected START:STOP:STEP in degrees (e.g. 60:120:5), got '" + text + "'";
-    if (step == 0.0 || (stop - start) * step < 0.0)
-        return "the step must be non-zero and lead from START to STOP, got '" + text + "'";
-    const double count = std::floor((stop - start) / step + 1e-9) + 1.0;
-    if (count > 100000) return "the range gives more than 100000 angles";
-    for (int i = 0; i < static_cast<int>(count); ++i) out.push_back(start + i * step);
-    return {};
-}
-
-CLI::Validator point_check() {
-    return CLI::Validator(
-        [](std::string& text) {
-            double x, z;
-            return parse_point(text, x, z);
-        },
-        "X,Z");
-}
-
-CLI::Validator angles_check(bool range) {
-    return CLI::Validator(
-        [range](std::string& text) {
-            std::vector<double> angles;
-            return parse_angles(text, range, angles);
-        },
-        range ? "START:STOP:STEP" : "LIST");
-}
-
-std::string branch_colour(BranchKind kind) {
-    switch (kind) {
-        case BranchKind::ice: return "#1f5fa8";
-        case BranchKind::ice_transmitted: return "#2b9348";
-        case BranchKind::air: return "#7b3fa0";
-        case BranchKind::air_transmitted: return "#e07b00";
-    }
-    return "#444444";
-}
-
-std::string fan_svg(const FirnModel& model, const std::vector<RayTrace>& rays, double x_from, double z_from) {
-    double z_low = std::min(0.0, z_from), z_high = std::max(0.0, z_from);
-    for (const RayTrace& ray : rays)
-        for (const RayBranch& b : ray.branches)
-            for (const RayPoint& p : b.points) {
-                z_low = std::min(z_low, p.z_m);
-                z_high = std::max(z_high, p.z_m);
-            }
-    const double margin = 0.05 * std::max(z_high - z_low, 1.0);
-    z_high = std::max(z_high, 0.0) + margin;
-    z_low -= margin;
-
-    plot::Figure figure;
-    figure.title(fmt::format("Rays from x = {} m, z = {} m; model: {}", x_from, z_from,
-                             model.name.empty() ? model.index->describe() : model.name));
-    figure.x_label("horizontal distance x (m)");
-    figure.y_label("z (m, up; surface at z = 0)");
-    figure.y_range(z_low, z_high);
-    figure.add_y_band(0.0, z_high, "#e3f1fb", "air");
-    figure.add_hline(0.0, plot::LineStyle{"#333333", 1.2, "", 1.0}, "surface");
-    if (model.bottom) figure.add_hline(model.bottom->z_m, plot::LineStyle{"#8c564b", 1.5, "6 3", 1.0}, "bottom");
-    bool legend_done[4] = {false, false, false, false};
-    for (const RayTrace& ray : rays)
-        for (const RayBranch& b : ray.branches) {
-            if (b.points.size() < 2) continue;
-            std::vector<double> xs, zs;
-            for (const RayPoint& p : b.points) {
-                xs.push_back(p.x_m);
-                zs.push_back(p.z_m);
-            }
-            const int k = static_cast<int>(b.kind);
-            const std::string legend = legend_done[k] ? "" : to_string(b.kind) + " rays";
-            legend_done[k] = true;
-            figure.add_line(xs, zs, plot::LineStyle{branch_colour(b.kind), 1.2, "", 0.9}, legend);
-        }
-    std::vector<double> source_x{x_from}, source_z{z_from};
-    figure.add_markers(source_x, source_z, plot::MarkerStyle{"#d62728", 4.0, "circle"}, "launch point");
-    return figure.svg();
+Point3 launch_point(const std::string& text) { return parse_point(text, "--from", PointForm::xz); }
+std::vector<double> zenith_list_deg(const std::string& text) { return parse_list(text, "--zenith-deg"); }
+std::vector<double> zenith_range_deg(const std::string& text) {
+    std::vector<double> angles = parse_range(text, "--zenith-range");
+    if (angles.size() > most_zenith_angles)
+        throw UsageError("--zenith-range", fmt::format("the range gives more than {} angles", most_zenith_angles));
+    return angles;
 }
 
 struct TraceArguments {
@@ -161,29 +52,26 @@ struct TraceArguments {
 };
 
 int run_trace(const TraceArguments& a) {
-    const FirnModel model = a.model_path.empty() ? default_model() : load_model_file(a.model_path);
-    const auto shared_model = std::make_shared<const FirnModel>(model);
-
-    double x_from, z_from;
-    parse_point(a.from, x_from, z_from);  // checked by the option's validator
-    std::vector<double> zenith_deg;
-    parse_angles(a.zenith_range.empty() ? a.zenith_list : a.zenith_range, !a.zenith_range.empty(), zenith_deg);
+    const Point3 from = launch_point(a.from);  // both checked while parsing the command line
+    const std::vector<double> zenith_deg =
+        a.zenith_range.empty() ? zenith_list_deg(a.zenith_list) : zenith_range_deg(a.zenith_range);
+    const auto model = load_model_or_default(a.model_path);
 
     TraceOptions options;
     options.max_distance_m = a.max_distance_m;
     options.max_length_m = a.max_length_m;
     options.floor_z_m = a.floor_z_m;
-    options.ceiling_z_m = std::isnan(a.ceiling_z_m) ? std::max(50.0, z_from) : a.ceiling_z_m;
+    options.ceiling_z_m = std::isnan(a.ceiling_z_m) ? std::max(50.0, from.z_m) : a.ceiling_z_m;
     options.tolerances.relative = a.relative_tolerance;
     options.tolerances.absolute = a.absolute_tolerance;
     options.max_surface_interactions = a.max_interactions;
     options.max_branches = a.max_branches;
-    const RayTracer tracer(shared_model, options);
+    const RayTracer tracer(model, options);
 
     std::vector<RayTrace> rays;
     rays.reserve(zenith_deg.size());
     for (const double angle : zenith_deg) {
-        const RayLaunch launch{x_from, z_from, deg_to_rad(angle)};
+        const RayLaunch launch{from.x_m, from.z_m, deg_to_rad(angle)};
         if (a.sample == "steps") {
             EveryStepRecorder recorder;
             rays.push_back(tracer.trace(launch, recorder));
@@ -197,10 +85,10 @@ int run_trace(const TraceArguments& a) {
     }
 
     // Render everything before writing anything, so that a failure leaves no partial set of files.
-    const std::string text = a.format == "json" ? trace_json(model, rays) : trace_csv(rays);
-    const std::string svg = a.plot_path.empty() ? std::string() : fan_svg(model, rays, x_from, z_from);
-    if (!a.plot_path.empty()) write_text_file(a.plot_path, svg);
-    write_text_file(a.output, text);
+    const std::string text = a.format == "json" ? trace_json(*model, rays) : trace_csv(rays);
+    const std::string svg = a.plot_path.empty() ? std::string() : ray_fan_svg(*model, rays, from.x_m, from.z_m);
+    if (!a.plot_path.empty()) emit(a.plot_path, svg);
+    emit(a.output, text);
     return 0;
 }
 
@@ -209,21 +97,17 @@ int run_trace(const TraceArguments& a) {
 void add_trace_command(CLI::App& app, CommandSlot& slot) {
     auto args = std::make_shared<TraceArguments>();
     CLI::App* cmd = app.add_subcommand(
-        "trace",
-        "Trace a fan of rays from one point through the model: numeric rays in the ice, straight lines in the air,\n"
-        "reflection and transmission at the surface (Fresnel), reflection at the model's bottom.\n"
-        "Conventions: z is up (m), the surface is z = 0 and the ice z < 0; zenith angles of the direction of\n"
-        "travel (0 = up, 90 = horizontal toward +x, 180 = down; negative angles travel toward -x); times in ns,\n"
-        "times and lengths counted from the launch.");
-    cmd->add_option("--model", args->model_path, "Model file (TOML); default: the built-in generic polar firn model");
+        "trace", "Trace a fan of rays from a point: curved rays in the ice, straight lines in the air, Fresnel "
+                 "reflection and transmission at the surface, reflection at the model's bottom");
+    add_model_option(cmd, args->model_path);
     cmd->add_option("--from", args->from, "Launch point X,Z in metres (z up; z > 0 starts in the air)")
         ->required()
-        ->check(point_check());
+        ->check(parser_check(launch_point, "X,Z"));
     auto* list = cmd->add_option("--zenith-deg", args->zenith_list, "Launch zenith angles, a list: 60,80,100")
-                     ->check(angles_check(false));
+                     ->check(parser_check(zenith_list_deg, "LIST"));
     auto* range = cmd->add_option("--zenith-range", args->zenith_range,
                                   "Launch zenith angles, a range START:STOP:STEP in degrees (STOP included)")
-                      ->check(angles_check(true));
+                      ->check(parser_check(zenith_range_deg, "START:STOP:STEP"));
     list->excludes(range);
     range->excludes(list);
     cmd->add_option("--max-distance", args->max_distance_m, "Horizontal distance from the launch point where rays stop (m)")
@@ -260,19 +144,21 @@ void add_trace_command(CLI::App& app, CommandSlot& slot) {
     cmd->add_option("--format", args->format, "Output format: csv (one row per point) or json (rays, branches, events)")
         ->capture_default_str()
         ->check(CLI::IsMember({"csv", "json"}));
-    cmd->add_option("--output", args->output, "Output file; - for standard output")->capture_default_str();
+    cmd->add_option("--output,-o", args->output, "Output file; - for standard output")->capture_default_str();
     cmd->add_option("--plot", args->plot_path, "Also draw the rays as an SVG figure into this file");
     cmd->footer(
+        "\nConventions: z is up (m), the surface is z = 0 and the ice z < 0; zenith angles of the direction of\n"
+        "travel (0 = up, 90 = horizontal toward +x, 180 = down; negative angles travel toward -x); times in ns,\n"
+        "times and lengths counted from the launch.\n"
         "Example: rays every 5 degrees from a transmitter 150 m deep, out to 1 km, with a plot:\n"
         "  firnray trace --from 0,-150 --zenith-range 40:140:5 --max-distance 1000 --plot fan.svg > fan.csv\n"
         "CSV columns: ray, branch, parent, kind, launch_zenith_deg, x_m, z_m, time_ns, length_m; kind is ice,\n"
         "ice-transmitted, air or air-transmitted. JSON adds each branch's events (surface and bottom\n"
         "reflections, turning points), its end reason, its amplitude factors [re, im] for s and p, and the\n"
         "drift of the ray invariants (an accuracy check).");
-    cmd->callback([cmd, args, &slot] {
+    cmd->callback([args, &slot] {
         if (args->zenith_list.empty() && args->zenith_range.empty())
             throw CLI::RequiredError("--zenith-deg or --zenith-range");
-        (void)cmd;
         slot.run = [args] { return run_trace(*args); };
     });
 }

@@ -1,0 +1,150 @@
+#include "model/profile_output.hpp"
+
+#include <algorithm>
+#include <filesystem>
+#include <memory>
+
+#include <fmt/format.h>
+
+#include "io/json_writer.hpp"
+#include "model/model_file.hpp"
+#include "plot/figure.hpp"
+
+namespace firnray {
+
+namespace {
+
+std::string number(double value) { return fmt::format("{:.10g}", value); }
+
+// n against depth, depth increasing downward.
+plot::Figure profile_figure(const std::string& title) {
+    plot::Figure figure(760, 680);
+    figure.title(title).x_label("refractive index n").y_label("depth (m, increasing downward; z = -depth)");
+    figure.invert_y(true);
+    return figure;
+}
+
+std::vector<double> depths_of(const std::vector<ProfileSample>& samples) {
+    std::vector<double> depth;
+    for (const auto& s : samples) depth.push_back(s.depth_m);
+    return depth;
+}
+std::vector<double> indexes_of(const std::vector<ProfileSample>& samples) {
+    std::vector<double> n;
+    for (const auto& s : samples) n.push_back(s.n);
+    return n;
+}
+
+}  // namespace
+
+std::string profile_samples_csv(const std::vector<ProfileSample>& samples) {
+    std::string out = "depth_m,z_m,n,dn_dz_per_m\n";
+    for (const auto& s : samples)
+        out += fmt::format("{},{},{},{}\n", number(s.depth_m), number(s.z_m), number(s.n), number(s.dn_dz_per_m));
+    return out;
+}
+
+std::string profile_samples_json(const FirnModel& model, const std::vector<ProfileSample>& samples) {
+    JsonWriter json;
+    json.begin_object();
+    json.key("model");
+    write_model_json(json, model);
+    json.field("conventions", "z up, surface z = 0, ice z < 0; depth_m = -z_m; dn_dz_per_m is dn/dz with z up");
+    json.key("samples").begin_array();
+    for (const auto& s : samples) {
+        json.begin_object();
+        json.field("depth_m", s.depth_m).field("z_m", s.z_m).field("n", s.n).field("dn_dz_per_m", s.dn_dz_per_m);
+        json.end_object();
+    }
+    json.end_array();
+    json.end_object();
+    return json.str() + "\n";
+}
+
+std::string profile_svg(const FirnModel& model, const std::vector<ProfileSample>& samples) {
+    plot::Figure figure = profile_figure(fmt::format("Refractive index: {}", model.name));
+    figure.add_line(indexes_of(samples), depths_of(samples), plot::LineStyle{},
+                    fmt::format("n, {} profile", model.index->kind()));
+    return figure.svg();
+}
+
+std::string fit_report_text(const FitData& data, const ExponentialFit& fit) {
+    std::string out = fmt::format("exponential fit to {} ({} points, {})\n", data.path, fit.points,
+                                  data.density_rule ? fmt::format("densities converted with the {} rule",
+                                                                  density_rule_name(*data.density_rule))
+                                                    : std::string("index values"));
+    out += "model: n(z) = n_deep - (n_deep - n_surface) * exp(z / scale_depth_m), z <= 0 (z up)\n";
+    if (fit.n_deep_fixed)
+        out += fmt::format("n_deep        = {:.6f} (held fixed)\n", fit.n_deep);
+    else
+        out += fmt::format("n_deep        = {:.6f} ± {:.6f} (1 sigma)\n", fit.n_deep, fit.n_deep_sigma);
+    out += fmt::format("n_surface     = {:.6f} ± {:.6f} (1 sigma)\n", fit.n_surface, fit.n_surface_sigma);
+    out += fmt::format("scale_depth_m = {:.4f} ± {:.4f} (1 sigma)\n", fit.scale_depth_m, fit.scale_depth_sigma_m);
+    out += fmt::format("residual rms  = {:.3g} in n ({} iterations)\n", fit.residual_rms, fit.iterations);
+    return out;
+}
+
+std::string fit_report_json(const FitData& data, const ExponentialFit& fit) {
+    JsonWriter json;
+    json.begin_object();
+    json.field("data", data.path).field("points", static_cast<unsigned long>(fit.points));
+    json.key("values");
+    if (data.density_rule)
+        json.value(fmt::format("density converted with the {} rule", density_rule_name(*data.density_rule)));
+    else
+        json.value("index n");
+    json.field("model", "n(z) = n_deep - (n_deep - n_surface) * exp(z / scale_depth_m), z <= 0 (z up)");
+    auto parameter = [&](const char* name, double value, double sigma, bool fixed) {
+        json.key(name).begin_object();
+        json.field("value", value).field("sigma", sigma).field("fixed", fixed);
+        json.end_object();
+    };
+    parameter("n_deep", fit.n_deep, fit.n_deep_sigma, fit.n_deep_fixed);
+    parameter("n_surface", fit.n_surface, fit.n_surface_sigma, false);
+    parameter("scale_depth_m", fit.scale_depth_m, fit.scale_depth_sigma_m, false);
+    json.key("covariance").begin_array();
+    for (int r = 0; r < 3; ++r) {
+        json.begin_array();
+        for (int c = 0; c < 3; ++c) json.value(fit.covariance(r, c));
+        json.end_array();
+    }
+    json.end_array();
+    json.field("residual_rms", fit.residual_rms).field("residual_sigma", fit.residual_sigma);
+    json.field("iterations", fit.iterations);
+    json.end_object();
+    return json.str() + "\n";
+}
+
+std::string fit_svg(const FitData& data, const ExponentialFit& fit) {
+    // The curve runs a little below the deepest point, so the last points do not sit on the frame.
+    const double deepest = *std::max_element(data.depth_m.begin(), data.depth_m.end());
+    const double extent = std::max(deepest * 1.05, 1.0);
+    const auto samples = sample_profile(fit.profile(), 0.0, extent, extent / 400.0);
+    plot::Figure figure =
+        profile_figure(fmt::format("Exponential fit to {}", std::filesystem::path(data.path).filename().string()));
+    figure.add_markers(data.index_values(), data.depth_m, plot::MarkerStyle{},
+                       data.density_rule
+                           ? fmt::format("data (density by the {} rule)", density_rule_name(*data.density_rule))
+                           : std::string("data"));
+    figure.add_line(indexes_of(samples), depths_of(samples), plot::LineStyle{},
+                    fmt::format("fit: n_deep {:.4f}, n_surface {:.4f}, scale depth {:.1f} m", fit.n_deep,
+                                fit.n_surface, fit.scale_depth_m));
+    return figure.svg();
+}
+
+std::string fitted_model_toml(const FitData& data, const ExponentialFit& fit, const std::string& name,
+                              const std::string& origin) {
+    FirnModel model = default_model();  // air and attenuation: the built-in defaults
+    model.name = name.empty() ? fmt::format("exponential fit to {}", data.path) : name;
+    model.origin = origin;
+    model.index = std::make_shared<ExponentialProfile>(fit.profile());
+    const std::string comment = fmt::format(
+        "Written by firnray profile --fit from {} ({} points).\n"
+        "1-sigma uncertainties: n_deep {}, n_surface {:.6f}, scale_depth_m {:.4f}; residual rms {:.3g}.\n"
+        "[air] and [attenuation] are the built-in defaults, not fitted: edit them for your site.",
+        data.path, fit.points, fit.n_deep_fixed ? std::string("held fixed") : fmt::format("{:.6f}", fit.n_deep_sigma),
+        fit.n_surface_sigma, fit.scale_depth_sigma_m, fit.residual_rms);
+    return model_to_toml(model, comment);
+}
+
+}  // namespace firnray

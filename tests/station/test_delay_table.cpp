@@ -1,0 +1,115 @@
+// Delay tables: homogeneous-medium delays against distance × n / c (definition), time
+// derivatives against finite differences of the times themselves (Fermat's principle: the
+// gradient of T with respect to the source is minus the slowness vector at the source), and a
+// batch that survives a bad row.
+#include <catch2/catch.hpp>
+
+#include <cmath>
+#include <sstream>
+
+#include "core/constants.hpp"
+#include "model/model_file.hpp"
+#include "solver/closed_form_solver.hpp"
+#include "station/delay_table.hpp"
+#include "support/run_cli.hpp"
+#include "support/straight_line_solver.hpp"
+
+using namespace firnray;
+
+namespace {
+std::vector<Receiver> two_receivers() {
+    std::vector<Receiver> receivers(2);
+    receivers[0].name = "A";
+    receivers[0].x_m = 0.0;
+    receivers[0].z_m = -40.0;
+    receivers[1].name = "B";
+    receivers[1].x_m = 30.0;
+    receivers[1].y_m = 20.0;
+    receivers[1].z_m = -90.0;
+    return receivers;
+}
+}  // namespace
+
+TEST_CASE("delays in a homogeneous medium equal distance × n / c (definition)", "[station][delays]") {
+    const double n = 1.78;
+    ClosedFormSolver solver(test::homogeneous_model(n));
+    const auto receivers = two_receivers();
+    std::vector<DelaySource> sources(2);
+    sources[0].position = {200.0, -50.0, -70.0};
+    sources[1].position = {-80.0, 10.0, -300.0};
+    const auto delays = compute_delays(solver, receivers, sources, DelayOptions{});
+    for (std::size_t i = 0; i < sources.size(); ++i) {
+        REQUIRE(delays[i].error.empty());
+        for (std::size_t k = 0; k < receivers.size(); ++k) {
+            const auto& s = sources[i].position;
+            const auto& r = receivers[k];
+            const double d = std::sqrt((s.x - r.x_m) * (s.x - r.x_m) + (s.y - r.y_m) * (s.y - r.y_m) + (s.z - r.z_m) * (s.z - r.z_m));
+            const auto& paths = delays[i].receivers[k].paths;
+            REQUIRE_FALSE(paths.empty());
+            CHECK(paths.front().kind == PathKind::direct);
+            CHECK(paths.front().time_s == Approx(n * d / speed_of_light).epsilon(1e-12));
+        }
+    }
+}
+
+TEST_CASE("time derivatives with respect to the source equal finite differences of the times (Fermat's principle)",
+          "[station][delays]") {
+    ClosedFormSolver solver(std::make_shared<const FirnModel>(default_model()));
+    const auto receivers = two_receivers();
+    const Point base{150.0, 40.0, -120.0};
+    const double h = 1e-3;
+    std::vector<DelaySource> sources(7);
+    sources[0].position = base;
+    for (int axis = 0; axis < 3; ++axis)
+        for (int sign : {-1, 1}) {
+            Point p = base;
+            (axis == 0 ? p.x : axis == 1 ? p.y : p.z) += sign * h;
+            sources[1 + 2 * axis + (sign > 0)].position = p;
+        }
+    const auto delays = compute_delays(solver, receivers, sources, DelayOptions{});
+    for (std::size_t k = 0; k < receivers.size(); ++k) {
+        const auto& at = delays[0].receivers[k];
+        REQUIRE_FALSE(at.paths.empty());
+        for (std::size_t p = 0; p < at.paths.size(); ++p) {
+            const double fd[3] = {
+                (delays[2].receivers[k].paths[p].time_s - delays[1].receivers[k].paths[p].time_s) / (2 * h),
+                (delays[4].receivers[k].paths[p].time_s - delays[3].receivers[k].paths[p].time_s) / (2 * h),
+                (delays[6].receivers[k].paths[p].time_s - delays[5].receivers[k].paths[p].time_s) / (2 * h)};
+            INFO("receiver " << k << " path " << p << " kind " << to_string(at.paths[p].kind));
+            CHECK(at.gradients[p].dx == Approx(fd[0]).margin(1e-14));
+            CHECK(at.gradients[p].dy == Approx(fd[1]).margin(1e-14));
+            CHECK(at.gradients[p].dz == Approx(fd[2]).margin(1e-14));
+        }
+    }
+}
+
+TEST_CASE("firnray delays: a bad source row gets an error row, the rest runs, exit code 7", "[cli][delays]") {
+    const std::string dir = test::temp_folder("delays");
+    const std::string sources = test::write_file(dir + "/sources.csv", "name,x_m,y_m,z_m\nnear,100,0,-50\nbroken,abc,0,-50\nfar,300,10,-150\n");
+    const auto r = test::run_firnray({"delays", "--station", test::source_path("demo/station.toml"), "--sources", sources,
+                                      "--reference", "B2", "--derivatives", "--quiet", "-o", dir + "/delays.csv"});
+    CHECK(r.exit_code == 7);
+    CHECK(r.err.find("1 of 3 sources failed") != std::string::npos);
+    const std::string text = test::read_file(dir + "/delays.csv");
+    CHECK(text.find("broken,3,") != std::string::npos);
+    CHECK(text.find("sources.csv:3: key 'x_m'") != std::string::npos);
+    CHECK(text.find("near,2,A1,1,") != std::string::npos);
+    CHECK(text.find("far,4,C4,") != std::string::npos);
+    // The reference channel differs from itself by zero.
+    const auto at = text.find("near,2,B2,1,direct,");
+    REQUIRE(at != std::string::npos);
+    const std::string row = text.substr(at, text.find('\n', at) - at);
+    std::vector<std::string> fields;
+    std::stringstream in(row);
+    for (std::string f; std::getline(in, f, ',');) fields.push_back(f);
+    REQUIRE(fields.size() >= 8);
+    CHECK(std::stod(fields[6]) == 0.0);  // minus_reference_same_kind_ns
+    CHECK(std::stod(fields[7]) == 0.0);  // first_minus_reference_first_ns
+
+    const auto unknown = test::run_firnray({"delays", "--station", test::source_path("demo/station.toml"), "--sources",
+                                            sources, "--reference", "Z9"});
+    CHECK(unknown.exit_code == 4);
+    CHECK(unknown.err.find("no receiver named 'Z9'") != std::string::npos);
+    const auto neither = test::run_firnray({"delays", "--station", test::source_path("demo/station.toml")});
+    CHECK(neither.exit_code == 2);
+}
