@@ -26,7 +26,7 @@ struct ConnectArguments {
 Point to_point(const Point3& p) { return {p.x_m, p.y_m, p.z_m}; }
 
 // Per-step tolerance of the numeric solver here (its default is 1e-10): on pairs up to 3 km apart
-// times stay within 0.004 ps and angles within 1e-6 degrees of the closed form (exponential model)
+// times stay within 0.004 ps and angles within 4e-6 degrees of the closed form (exponential model)
 // and of the 1e-10 integration (a table), far inside the 1 ps and 1e-4 degrees promised, at 1.7
 // times the speed (docs/performance-connect.md).
 constexpr double numeric_tolerance = 1e-8;
