@@ -74,10 +74,7 @@ void add_connect_command(CLI::App& app, CommandSlot& slot) {
     auto args = std::make_shared<ConnectArguments>();
     CLI::App* cmd = app.add_subcommand(
         "connect",
-        "every ray path between a source and a receiver: kind, time, angles, length, ray parameter, amplitude;\n"
-        "one pair (--source, --receiver) or a CSV batch (--pairs).\n"
-        "Conventions: z is up (m), the surface is z = 0, the ice z < 0 and the air z > 0; angles are zenith angles\n"
-        "of the direction of travel (0 = up, 90 = horizontal, 180 = down); times in ns.");
+        "Every ray path between a source and a receiver, with its time, angles and amplitude, for one pair or a CSV batch");
     add_model_option(cmd, args->model_path);
     cmd->add_option("--source", args->source, "source point X,Z or X,Y,Z in metres (z up, ice z < 0)")->type_name("X,Z");
     cmd->add_option("--receiver", args->receiver, "receiver point X,Z or X,Y,Z in metres (z up, ice z < 0)")
@@ -100,6 +97,9 @@ void add_connect_command(CLI::App& app, CommandSlot& slot) {
         ->type_name("FILE");
     add_run_options(cmd, args->run);
     cmd->footer(R"(
+Conventions: z is up (m), the surface is z = 0, the ice z < 0 and the air z > 0; angles are zenith
+angles of the direction of travel (0 = up, 90 = horizontal, 180 = down); times in ns.
+
 Paths are sorted by arrival time. Their kinds: direct (monotone in depth), refracted (turns below
 the surface), reflected (off the surface), transmitted (through the surface: one end in the air),
 bottom (off the model's bottom). Each has its time (ns), launch and arrival zenith angles (deg),
@@ -113,7 +113,8 @@ zone gets one row of kind "none", a bad row one row with the error, and the rest
 code 7 when any row failed). --threads does not change the output. See docs/connect.md.
 
 Examples:
-  firnray connect --source 300,-20 --receiver 0,-100
+  firnray connect --source 250,-20 --receiver 0,-100     # refracted and reflected
+  firnray connect --source 300,-20 --receiver 0,-100     # the shadow zone: no path
   firnray connect --source 0,0,-150 --receiver 120,80,-30 --format json
   firnray connect --pairs pairs.csv --format csv -o paths.csv)");
     cmd->callback([args, &slot] { slot.run = [args] { return run_connect(*args); }; });
