@@ -98,6 +98,60 @@ CubicSpline::CubicSpline(std::vector<double> x, std::vector<double> y, SplineEnd
     locator_ = IntervalLocator(x_);
 }
 
+std::vector<double> fritsch_carlson_slopes(const std::vector<double>& x, const std::vector<double>& y) {
+    const std::size_t n = x.size();
+    if (n < 2 || y.size() != n) throw std::invalid_argument("monotone slopes need two or more (x, y) pairs");
+    std::vector<double> h(n - 1), delta(n - 1), slope(n, 0.0);
+    for (std::size_t i = 0; i + 1 < n; ++i) {
+        h[i] = x[i + 1] - x[i];
+        delta[i] = (y[i + 1] - y[i]) / h[i];
+    }
+    if (n == 2) {
+        slope[0] = slope[1] = delta[0];
+        return slope;
+    }
+    // Interior: weighted harmonic mean of the neighbouring secants, zero at a local extremum.
+    for (std::size_t i = 1; i + 1 < n; ++i) {
+        if (delta[i - 1] * delta[i] <= 0.0) continue;
+        const double w1 = 2.0 * h[i] + h[i - 1], w2 = h[i] + 2.0 * h[i - 1];
+        slope[i] = (w1 + w2) / (w1 / delta[i - 1] + w2 / delta[i]);
+    }
+    // Ends: the three-point formula, limited so that the end piece stays monotone.
+    auto end_slope = [](double h0, double h1, double d0, double d1) {
+        double s = ((2.0 * h0 + h1) * d0 - h0 * d1) / (h0 + h1);
+        if (s * d0 <= 0.0) s = 0.0;
+        else if (d0 * d1 <= 0.0 && std::abs(s) > std::abs(3.0 * d0)) s = 3.0 * d0;
+        return s;
+    };
+    slope[0] = end_slope(h[0], h[1], delta[0], delta[1]);
+    slope[n - 1] = end_slope(h[n - 2], h[n - 3], delta[n - 2], delta[n - 3]);
+    return slope;
+}
+
+CubicSpline CubicSpline::hermite(std::vector<double> x, std::vector<double> y, const std::vector<double>& slopes) {
+    const std::size_t n = x.size();
+    if (n < 2 || y.size() != n || slopes.size() != n)
+        throw std::invalid_argument("Hermite interpolation needs two or more (x, y, slope) triples");
+    for (std::size_t i = 1; i < n; ++i)
+        if (!(x[i] > x[i - 1])) throw std::invalid_argument("Hermite knots must increase strictly");
+    CubicSpline out;
+    out.x_ = std::move(x);
+    out.y_ = std::move(y);
+    out.pieces_.resize(n - 1);
+    for (std::size_t i = 0; i + 1 < n; ++i) {
+        const double h = out.x_[i + 1] - out.x_[i], delta = (out.y_[i + 1] - out.y_[i]) / h;
+        CubicPiece& p = out.pieces_[i];
+        p.a = out.y_[i];
+        p.b = slopes[i];
+        p.c = (3.0 * delta - 2.0 * slopes[i] - slopes[i + 1]) / h;
+        p.d = (slopes[i] + slopes[i + 1] - 2.0 * delta) / (h * h);
+    }
+    out.first_slope_ = slopes.front();
+    out.last_slope_ = slopes.back();
+    out.locator_ = IntervalLocator(out.x_);
+    return out;
+}
+
 CubicSpline::CubicSpline(const CubicSpline& other)
     : x_(other.x_), y_(other.y_), pieces_(other.pieces_), first_slope_(other.first_slope_),
       last_slope_(other.last_slope_) {
@@ -183,30 +237,12 @@ MonotoneCubic::MonotoneCubic(std::vector<double> x, std::vector<double> y) : x_(
     for (std::size_t i = 1; i < n; ++i)
         if (!(x_[i] > x_[i - 1])) throw std::invalid_argument("MonotoneCubic knots must increase strictly");
 
-    std::vector<double> h(n - 1), delta(n - 1), slope(n, 0.0);
+    std::vector<double> h(n - 1), delta(n - 1);
     for (std::size_t i = 0; i + 1 < n; ++i) {
         h[i] = x_[i + 1] - x_[i];
         delta[i] = (y_[i + 1] - y_[i]) / h[i];
     }
-    if (n == 2) {
-        slope[0] = slope[1] = delta[0];
-    } else {
-        // Interior: weighted harmonic mean of the neighbouring secants, zero at a local extremum.
-        for (std::size_t i = 1; i + 1 < n; ++i) {
-            if (delta[i - 1] * delta[i] <= 0.0) continue;
-            const double w1 = 2.0 * h[i] + h[i - 1], w2 = h[i] + 2.0 * h[i - 1];
-            slope[i] = (w1 + w2) / (w1 / delta[i - 1] + w2 / delta[i]);
-        }
-        // Ends: the three-point formula, limited so that the end piece stays monotone.
-        auto end_slope = [](double h0, double h1, double d0, double d1) {
-            double s = ((2.0 * h0 + h1) * d0 - h0 * d1) / (h0 + h1);
-            if (s * d0 <= 0.0) s = 0.0;
-            else if (d0 * d1 <= 0.0 && std::abs(s) > std::abs(3.0 * d0)) s = 3.0 * d0;
-            return s;
-        };
-        slope[0] = end_slope(h[0], h[1], delta[0], delta[1]);
-        slope[n - 1] = end_slope(h[n - 2], h[n - 3], delta[n - 2], delta[n - 3]);
-    }
+    const std::vector<double> slope = fritsch_carlson_slopes(x_, y_);
     pieces_.resize(n - 1);
     for (std::size_t i = 0; i + 1 < n; ++i) {
         CubicPiece& p = pieces_[i];

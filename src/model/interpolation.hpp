@@ -54,6 +54,11 @@ public:
     CubicSpline(CubicSpline&&) noexcept = default;
     CubicSpline& operator=(CubicSpline&&) noexcept = default;
 
+    // Cubic Hermite interpolation through the knots with the given slopes there: C¹ (the
+    // curvature may jump at the knots), the same piece structure and straight continuation
+    // outside [x_0, x_last] as the C² spline. With fritsch_carlson_slopes it preserves monotonicity.
+    static CubicSpline hermite(std::vector<double> x, std::vector<double> y, const std::vector<double>& slopes);
+
     double value(double x) const;
     void value_and_slope(double x, double& y, double& dy_dx) const;
     // Smallest value over [x_0, x_last] (from the extrema of every cubic piece).
@@ -75,6 +80,11 @@ private:
     double first_slope_ = 0.0, last_slope_ = 0.0;
     IntervalLocator locator_;
 };
+
+// Knot slopes for a monotone piecewise-cubic Hermite interpolant (Fritsch & Carlson 1980, SIAM J.
+// Numer. Anal. 17(2), harmonic-mean slopes of Fritsch & Butland): zero at a local extremum of the
+// data, so the interpolant never leaves the range of neighbouring points (no overshoot).
+std::vector<double> fritsch_carlson_slopes(const std::vector<double>& x, const std::vector<double>& y);
 
 // Monotone piecewise-cubic Hermite interpolation (Fritsch & Carlson 1980, SIAM J. Numer. Anal.
 // 17(2), with the harmonic-mean slopes of Fritsch & Butland): C¹, never leaves the range of the

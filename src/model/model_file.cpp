@@ -387,7 +387,7 @@ const std::vector<std::string_view> index_kinds{"constant", "exponential", "laye
 const std::vector<std::string_view> every_index_key{
     "kind",         "n",        "n_deep",         "n_surface", "scale_depth_m", "transition_m", "layer",
     "file",         "depth_m",  "z_m",            "density",   "depth_column",  "z_column",     "n_column",
-    "density_column", "density_unit", "density_rule"};
+    "density_column", "density_unit", "density_rule", "interpolation"};
 
 std::shared_ptr<const IndexProfile> read_layered(const Section& s) {
     const double n_surface = s.number("n_surface", "n_surface, the index at the surface");
@@ -479,8 +479,16 @@ std::shared_ptr<const IndexProfile> read_index_table(const Section& s) {
             n.push_back(p.value);
         }
     }
+    TableInterpolation interpolation = TableInterpolation::monotone;
+    if (s.has("interpolation")) {
+        const std::string name = s.text("interpolation", "interpolation = \"monotone\" or \"spline\"");
+        if (name == "spline") interpolation = TableInterpolation::spline;
+        else if (name != "monotone")
+            s.fail("interpolation", fmt::format("\"{}\" is not a table interpolation: use \"monotone\" (Fritsch-Carlson, "
+                                                "the default) or \"spline\" (C² cubic spline)", name));
+    }
     try {
-        return std::make_shared<TableProfile>(std::move(depth), std::move(n));
+        return std::make_shared<TableProfile>(std::move(depth), std::move(n), interpolation);
     } catch (const ModelInputError& e) {
         fail_at(table.where, fmt::format("{}: {}", table.description, e.reason()));
     }
@@ -510,7 +518,7 @@ std::shared_ptr<const IndexProfile> read_index(const Section& s) {
         }
         if (kind == "table") {
             s.allow_only({"kind", "file", "depth_column", "z_column", "n_column", "density_column", "depth_m", "z_m",
-                          "n", "density", "density_unit", "density_rule"},
+                          "n", "density", "density_unit", "density_rule", "interpolation"},
                          context, every_index_key);
             return read_index_table(s);
         }

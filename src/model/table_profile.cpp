@@ -10,7 +10,7 @@ namespace firnray {
 
 namespace {
 
-CubicSpline build_spline(std::vector<double> depth, std::vector<double> n) {
+CubicSpline build_spline(std::vector<double> depth, std::vector<double> n, TableInterpolation interpolation) {
     if (depth.size() != n.size())
         throw ModelInputError(fmt::format("the table has {} depths but {} index values", depth.size(), n.size()),
                               {"", 0, "n"});
@@ -35,13 +35,17 @@ CubicSpline build_spline(std::vector<double> depth, std::vector<double> n) {
             throw ModelInputError(fmt::format("point {}: n = {} is below 1 (no medium is faster than vacuum)", i + 1, n[i]),
                                   {"", 0, "n"});
     }
-    return CubicSpline(std::move(depth), std::move(n), SplineEnd::natural(), SplineEnd::clamped(0.0));
+    if (interpolation == TableInterpolation::spline)
+        return CubicSpline(std::move(depth), std::move(n), SplineEnd::natural(), SplineEnd::clamped(0.0));
+    std::vector<double> slopes = fritsch_carlson_slopes(depth, n);
+    slopes.back() = 0.0;  // flat at the deepest point, like the spline; still monotone (Fritsch & Carlson)
+    return CubicSpline::hermite(std::move(depth), std::move(n), slopes);
 }
 
 }  // namespace
 
-TableProfile::TableProfile(std::vector<double> depth_m, std::vector<double> n)
-    : spline_(build_spline(std::move(depth_m), std::move(n))) {
+TableProfile::TableProfile(std::vector<double> depth_m, std::vector<double> n, TableInterpolation interpolation)
+    : spline_(build_spline(std::move(depth_m), std::move(n), interpolation)), interpolation_(interpolation) {
     for (const double d : spline_.x()) joins_z_.push_back(-d);
     const double lowest = spline_.minimum_on_knots();
     if (lowest < 1.0)
@@ -81,8 +85,9 @@ void TableProfile::piece_index(std::size_t piece, double z, double& n, double& d
 std::string TableProfile::describe() const {
     const auto& d = spline_.x();
     const auto& n = spline_.y();
-    return fmt::format("table: {} points from {} m (n {:.6g}) to {} m (n {:.6g}), cubic spline", d.size(), d.front(),
-                       n.front(), d.back(), n.back());
+    return fmt::format("table: {} points from {} m (n {:.6g}) to {} m (n {:.6g}), {}", d.size(), d.front(), n.front(),
+                       d.back(), n.back(),
+                       interpolation_ == TableInterpolation::spline ? "cubic spline" : "monotone cubic");
 }
 
 }  // namespace firnray

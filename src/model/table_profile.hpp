@@ -1,6 +1,9 @@
 // n(z) from measured points (a borehole or core log, or densities converted to n), interpolated
-// with a C² cubic spline so that dn/dz is continuous everywhere, as the ray equations need.
-// Noisy logs should be fitted (model/fit.hpp) rather than splined through every wiggle.
+// so that dn/dz is continuous everywhere, as the ray equations need: by default with a monotone
+// cubic (Fritsch & Carlson 1980), which never overshoots the data, so a log whose n grows with
+// depth gives a profile that grows with depth too (what the path finders assume); or with a C²
+// cubic spline, which is smoother but may overshoot between uneven points.
+// Noisy logs should be fitted (model/fit.hpp) rather than interpolated through every wiggle.
 #pragma once
 
 #include <string>
@@ -11,9 +14,14 @@
 
 namespace firnray {
 
+enum class TableInterpolation {
+    monotone,  // C¹ Hermite cubic with Fritsch–Carlson slopes, zero slope at the deepest point
+    spline,    // C² cubic spline, natural at the shallowest point, zero slope at the deepest
+};
+
 // Interpolation in depth d = -z between the shallowest point d_0 and the deepest d_last:
-//  - inside the table: a cubic spline, C², natural (zero curvature) at d_0 and with zero slope at
-//    d_last, the deepest point being taken as solid ice where n no longer changes;
+//  - inside the table: the chosen cubic (see TableInterpolation), with zero slope at d_last, the
+//    deepest point being taken as solid ice where n no longer changes;
 //  - below d_last: n held at the deepest value (dn/dz = 0, so dn/dz stays continuous);
 //  - above d_0 (when the table does not start at the surface): the straight line with the
 //    spline's end value and slope, up to z = 0 (C² there too, since the curvature is zero).
@@ -24,7 +32,8 @@ public:
 
     // depth_m strictly increasing and >= 0, n finite and >= 1, at least minimum_points points.
     // Throws ModelInputError (key "depth_m" or "n") naming the offending point (counting from 1).
-    TableProfile(std::vector<double> depth_m, std::vector<double> n);
+    TableProfile(std::vector<double> depth_m, std::vector<double> n,
+                 TableInterpolation interpolation = TableInterpolation::monotone);
 
     double index(double z) const override;
     double gradient(double z) const override;
@@ -39,7 +48,8 @@ public:
     const std::vector<double>& n_values() const { return spline_.y(); }
 
 private:
-    CubicSpline spline_;  // n against depth
+    CubicSpline spline_;  // n against depth (C² spline or C¹ monotone Hermite, same pieces)
+    TableInterpolation interpolation_;
     std::vector<double> joins_z_;
 };
 

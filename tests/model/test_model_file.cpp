@@ -312,9 +312,12 @@ TEST_CASE("model file errors: table depths not monotone, too few points, bad val
                  "attenuation.depth_m", 9, "at least 2");
     expect_error(good_exponential + "[attenuation]\nkind = \"table\"\ndepth_m = [0, 10]\nlength_m = [900, -1]\n",
                  "attenuation.length_m[1]", 10, "positive");
-    // Spline through wild data dips below 1: reported at the table.
-    expect_error("[index]\nkind = \"table\"\ndepth_m = [0, 1, 2, 3, 4]\nn = [1.7, 1.0, 1.7, 1.0, 1.7]\n", "index.depth_m",
-                 3, "below 1");
+    // A C² spline through wild data dips below 1: reported at the table.
+    expect_error("[index]\nkind = \"table\"\ninterpolation = \"spline\"\ndepth_m = [0, 1, 2, 3, 4]\n"
+                 "n = [1.7, 1.0, 1.7, 1.0, 1.7]\n",
+                 "index.depth_m", 4, "below 1");
+    expect_error("[index]\nkind = \"table\"\ninterpolation = \"linear\"\ndepth_m = [0, 1, 2, 3]\nn = [1.3, 1.4, 1.5, 1.6]\n",
+                 "index.interpolation", 3, "monotone");
     expect_error("[index]\nkind = \"table\"\nfile = \"a.csv\"\ndepth_m = [0, 1, 2, 3]\n", "index.depth_m", 4,
                  "not both");
     expect_error("[index]\nkind = \"table\"\ndepth_column = \"d\"\ndepth_m = [0, 1, 2, 3]\nn = [1.3, 1.4, 1.5, 1.6]\n",
