@@ -24,6 +24,18 @@ std::shared_ptr<const FirnModel> load_model_or_default(const std::string& path) 
     return std::make_shared<const FirnModel>(path.empty() ? default_model() : load_model_file(path));
 }
 
+void add_solver_option(CLI::App* command, std::string& choice) {
+    command->add_option("--solver", choice, "auto (closed form for exponential models), closed, or numeric")
+        ->capture_default_str()
+        ->check(CLI::IsMember({"auto", "closed", "numeric"}));
+}
+
+void add_ray_parameters_option(CLI::App* command, int& count) {
+    command->add_option("--ray-parameters", count, "ray parameters tabulated per receiver depth (accuracy)")
+        ->capture_default_str()
+        ->check(CLI::Range(16, 200000));
+}
+
 int RunOptions::thread_count() const {
     if (threads > 0) return threads;
     const unsigned cores = std::thread::hardware_concurrency();

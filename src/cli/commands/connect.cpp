@@ -83,9 +83,7 @@ void add_connect_command(CLI::App& app, CommandSlot& slot) {
                     "CSV batch of pairs: columns source_x_m, source_z_m, receiver_x_m, receiver_z_m, optional "
                     "source_y_m, receiver_y_m and id")
         ->type_name("FILE.csv");
-    cmd->add_option("--solver", args->solver, "auto (closed form for exponential models), closed, or numeric")
-        ->capture_default_str()
-        ->check(CLI::IsMember({"auto", "closed", "numeric"}));
+    add_solver_option(cmd, args->solver);
     cmd->add_option("--max-bounces", args->max_bounces,
                     "most turns back at the surface, a turning point or the bottom per path (default 1: direct, "
                     "refracted or reflected, and one bottom reflection when the model has a bottom)")

@@ -92,9 +92,7 @@ void add_delays_command(CLI::App& app, CommandSlot& slot) {
         ->type_name("NAME");
     cmd->add_flag("--derivatives", args->derivatives, "add dT/dx, dT/dy, dT/dz of each arrival with respect to the source position (ns/m)");
     cmd->add_option("--max-bounces", args->max_bounces, "most surface/bottom bounces per path (default 1)")->check(CLI::Range(0, 32));
-    cmd->add_option("--solver", args->solver, "auto (closed form for exponential models), closed, or numeric")
-        ->capture_default_str()
-        ->check(CLI::IsMember({"auto", "closed", "numeric"}));
+    add_solver_option(cmd, args->solver);
     cmd->add_option("--format", args->format, "csv (long format: one row per source, receiver and path) or json")
         ->capture_default_str()
         ->check(CLI::IsMember({"csv", "json"}));

@@ -67,12 +67,8 @@ void add_depths_command(CLI::App& app, CommandSlot& slot) {
     cmd->add_option("--amplitude-threshold", args->amplitude_threshold,
                     "also report the volume whose received amplitude factor (1/m) exceeds this")
         ->check(CLI::PositiveNumber);
-    cmd->add_option("--solver", args->solver, "auto (closed form for exponential models), closed, or numeric")
-        ->capture_default_str()
-        ->check(CLI::IsMember({"auto", "closed", "numeric"}));
-    cmd->add_option("--ray-parameters", args->ray_parameters, "ray parameters tabulated per receiver depth (accuracy)")
-        ->capture_default_str()
-        ->check(CLI::Range(16, 200000));
+    add_solver_option(cmd, args->solver);
+    add_ray_parameters_option(cmd, args->ray_parameters);
     cmd->add_option("--format", args->format, "csv or json")->capture_default_str()->check(CLI::IsMember({"csv", "json"}));
     cmd->add_option("--output,-o", args->output, "table (default: stdout)")->type_name("FILE");
     cmd->add_option("--plot", args->plot_path, "SVG of each metric against depth, with the best depth marked")->type_name("FILE.svg");

@@ -89,12 +89,8 @@ void add_shadow_command(CLI::App& app, CommandSlot& slot) {
     cmd->add_option("--distance-cells", args->distance_cells, "grid columns")->capture_default_str()->check(CLI::Range(1, 20000));
     cmd->add_option("--depth", args->depth_range, "source depth range MIN:MAX (m, positive down)")->capture_default_str();
     cmd->add_option("--depth-cells", args->depth_cells, "grid rows")->capture_default_str()->check(CLI::Range(1, 20000));
-    cmd->add_option("--solver", args->solver, "auto (closed form for exponential models), closed, or numeric")
-        ->capture_default_str()
-        ->check(CLI::IsMember({"auto", "closed", "numeric"}));
-    cmd->add_option("--ray-parameters", args->ray_parameters, "ray parameters tabulated per receiver depth (accuracy)")
-        ->capture_default_str()
-        ->check(CLI::Range(16, 200000));
+    add_solver_option(cmd, args->solver);
+    add_ray_parameters_option(cmd, args->ray_parameters);
     cmd->add_option("--output,-o", args->grid_path, "grid CSV, one row per cell (default: stdout)")->type_name("FILE");
     cmd->add_option("--boundary", args->boundary_path, "shadow boundary CSV: largest visible distance per source depth")
         ->type_name("FILE");
