@@ -5,6 +5,7 @@
 #include <fmt/format.h>
 
 #include "core/errors.hpp"
+#include "model/table_checks.hpp"
 
 namespace firnray {
 
@@ -19,23 +20,8 @@ std::string ConstantAttenuation::describe() const { return fmt::format("constant
 namespace {
 
 MonotoneCubic build_curve(std::vector<double> depth, std::vector<double> length) {
-    if (depth.size() != length.size())
-        throw ModelInputError(fmt::format("the table has {} depths but {} lengths", depth.size(), length.size()),
-                              {"", 0, "length_m"});
-    if (depth.size() < TableAttenuation::minimum_points)
-        throw ModelInputError(fmt::format("an attenuation table needs at least {} points (got {})",
-                                          TableAttenuation::minimum_points, depth.size()),
-                              {"", 0, "depth_m"});
+    require_table_depths(depth, length.size(), TableAttenuation::minimum_points, "an attenuation table", "length_m");
     for (std::size_t i = 0; i < depth.size(); ++i) {
-        if (!std::isfinite(depth[i]) || depth[i] < 0.0)
-            throw ModelInputError(fmt::format("point {}: depth {} m must be a finite depth at or below the surface",
-                                              i + 1, depth[i]),
-                                  {"", 0, "depth_m"});
-        if (i > 0 && !(depth[i] > depth[i - 1]))
-            throw ModelInputError(fmt::format("point {}: depth {} m is not deeper than the point before ({} m); "
-                                              "depths must increase strictly",
-                                              i + 1, depth[i], depth[i - 1]),
-                                  {"", 0, "depth_m"});
         if (!std::isfinite(length[i]) || length[i] <= 0.0)
             throw ModelInputError(fmt::format("point {}: attenuation length {} m must be positive and finite", i + 1,
                                               length[i]),

@@ -5,30 +5,15 @@
 #include <fmt/format.h>
 
 #include "core/errors.hpp"
+#include "model/table_checks.hpp"
 
 namespace firnray {
 
 namespace {
 
 CubicSpline build_spline(std::vector<double> depth, std::vector<double> n, TableInterpolation interpolation) {
-    if (depth.size() != n.size())
-        throw ModelInputError(fmt::format("the table has {} depths but {} index values", depth.size(), n.size()),
-                              {"", 0, "n"});
-    if (depth.size() < TableProfile::minimum_points)
-        throw ModelInputError(fmt::format("an index table needs at least {} points (got {}) for a smooth spline",
-                                          TableProfile::minimum_points, depth.size()),
-                              {"", 0, "depth_m"});
+    require_table_depths(depth, n.size(), TableProfile::minimum_points, "an index table", "n");
     for (std::size_t i = 0; i < depth.size(); ++i) {
-        if (!std::isfinite(depth[i]))
-            throw ModelInputError(fmt::format("point {}: depth is not a finite number", i + 1), {"", 0, "depth_m"});
-        if (depth[i] < 0.0)
-            throw ModelInputError(fmt::format("point {}: depth {} m is above the surface", i + 1, depth[i]),
-                                  {"", 0, "depth_m"});
-        if (i > 0 && !(depth[i] > depth[i - 1]))
-            throw ModelInputError(fmt::format("point {}: depth {} m is not deeper than the point before ({} m); "
-                                              "depths must increase strictly",
-                                              i + 1, depth[i], depth[i - 1]),
-                                  {"", 0, "depth_m"});
         if (!std::isfinite(n[i]))
             throw ModelInputError(fmt::format("point {}: n is not a finite number", i + 1), {"", 0, "n"});
         if (n[i] < 1.0)
