@@ -16,6 +16,7 @@ public:
     explicit ConstantAttenuation(double length_m);  // throws ModelInputError unless finite and > 0
     double length_m(double) const override { return length_m_; }
     std::optional<double> constant_length_m() const override { return length_m_; }
+    std::string kind() const override { return "constant"; }
     std::string describe() const override;
     double length() const { return length_m_; }
 
@@ -34,6 +35,7 @@ public:
     // (key "depth_m" or "length_m") naming the offending point (counting from 1).
     TableAttenuation(std::vector<double> depth_m, std::vector<double> length_m);
     double length_m(double z) const override;
+    std::string kind() const override { return "table"; }
     std::string describe() const override;
 
     const std::vector<double>& depth_m() const { return curve_.x(); }

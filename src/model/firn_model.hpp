@@ -21,6 +21,9 @@ public:
     // The length when it is the same at every depth, so that solvers can use s / L instead of a
     // quadrature; empty (the default) for a length that varies with depth.
     virtual std::optional<double> constant_length_m() const { return std::nullopt; }
+    // "constant" or "table" for the kinds model files hold (model/profile_kinds.hpp); empty for a
+    // profile made in code that no model file can express.
+    virtual std::string kind() const { return ""; }
     virtual std::string describe() const = 0;
 };
 

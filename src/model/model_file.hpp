@@ -15,7 +15,7 @@ FirnModel load_model_file(const std::string& path);
 // Parses model text; `origin` is used in messages and to resolve relative table paths.
 FirnModel parse_model(const std::string& toml_text, const std::string& origin);
 
-// Generic polar firn with values inside published ranges (physics notes §2); not a real site.
+// Generic polar firn with values inside published ranges (docs/physics.md §1.2); not a real site.
 FirnModel default_model();
 
 // The text of the built-in model, exactly as in models/default.toml.
@@ -23,7 +23,7 @@ std::string_view default_model_toml();
 
 // Writes a model as model-file text that parse_model reads back to the same model. Tables are
 // written inline. `comment` (may be empty, may hold several lines) goes at the top as # lines.
-// Throws std::invalid_argument for a profile kind that model files cannot express.
+// Throws OutputError for a profile kind that model files cannot express (one made in code).
 std::string model_to_toml(const FirnModel& model, const std::string& comment = "");
 
 }  // namespace firnray

@@ -46,6 +46,7 @@ public:
 
     const std::vector<double>& depth_m() const { return spline_.x(); }
     const std::vector<double>& n_values() const { return spline_.y(); }
+    TableInterpolation interpolation() const { return interpolation_; }
 
 private:
     CubicSpline spline_;  // n against depth (C² spline or C¹ monotone Hermite, same pieces)

@@ -257,18 +257,18 @@ TEST_CASE("model file errors: indexes below 1 and n_surface above n_deep", "[mod
 }
 
 TEST_CASE("model file errors: scale depths and other lengths not positive", "[model][model_file][errors]") {
-    expect_error(replace(good_exponential, "= 37", "= 0"), "index.scale_depth_m", 6, "positive");
-    expect_error(replace(good_exponential, "= 37", "= -5.0"), "index.scale_depth_m", 6, "positive");
+    expect_error(replace(good_exponential, "= 37", "= 0"), "index.scale_depth_m", 6, "scale_depth_m = 0 m is below 0.01 m");
+    expect_error(replace(good_exponential, "= 37", "= -5.0"), "index.scale_depth_m", 6, "below 0.01 m");
     expect_error("[index]\nkind = \"layered\"\nn_surface = 1.35\n[[index.layer]]\nn_deep = 1.78\nscale_depth_m = -4\n",
-                 "index.layer[0].scale_depth_m", 6, "positive");
+                 "index.layer[0].scale_depth_m", 6, "below 0.01 m");
     expect_error("[index]\nkind = \"layered\"\nn_surface = 1.35\ntransition_m = 0\n[[index.layer]]\nn_deep = 1.78\n"
                  "scale_depth_m = 40\n",
-                 "index.transition_m", 4, "positive");
+                 "index.transition_m", 4, "transition_m = 0 m is below 0.01 m");
     expect_error("[index]\nkind = \"layered\"\nn_surface = 1.35\ntransition_m = 30\n[[index.layer]]\nbottom_depth_m = 10\n"
                  "n_deep = 1.8\nscale_depth_m = 20\n[[index.layer]]\nn_deep = 1.78\nscale_depth_m = 40\n",
                  "index.transition_m", 4, "do not fit");
     expect_error(good_exponential + "[attenuation]\nkind = \"constant\"\nlength_m = 0\n", "attenuation.length_m", 9,
-                 "positive");
+                 "length_m = 0 m is below 1 m");
     expect_error(good_exponential + "[bottom]\ndepth_m = -10\npower_reflectivity = 0.5\n", "bottom.depth_m", 8,
                  "not below the surface");
     expect_error(good_exponential + "[bottom]\ndepth_m = 100\npower_reflectivity = 1.5\n", "bottom.power_reflectivity",
@@ -311,7 +311,7 @@ TEST_CASE("model file errors: table depths not monotone, too few points, bad val
     expect_error(good_exponential + "[attenuation]\nkind = \"table\"\ndepth_m = [0]\nlength_m = [900]\n",
                  "attenuation.depth_m", 9, "at least 2");
     expect_error(good_exponential + "[attenuation]\nkind = \"table\"\ndepth_m = [0, 10]\nlength_m = [900, -1]\n",
-                 "attenuation.length_m[1]", 10, "positive");
+                 "attenuation.length_m[1]", 10, "below 1 m");
     // A C² spline through wild data dips below 1: reported at the table.
     expect_error("[index]\nkind = \"table\"\ninterpolation = \"spline\"\ndepth_m = [0, 1, 2, 3, 4]\n"
                  "n = [1.7, 1.0, 1.7, 1.0, 1.7]\n",
@@ -351,7 +351,14 @@ TEST_CASE("model file errors: tables in CSV files", "[model][model_file][errors]
         CHECK(std::string(e.what()) == dir + "/log.csv:3: key 'n': 'x' is not a finite number");
     }
     write_file(dir + "/log.csv", "depth_m,n\n0,1.3\n10,1.4\n20,1.5\n");
-    expect_error(csv_model("n_column = \"n\"\n"), "index.file", 3, "has 3 points; an index table needs at least 4", model);
+    // Too few rows: the CSV file is blamed, at its last row, and the message says which key named it.
+    try {
+        parse_model(csv_model("n_column = \"n\"\n"), model);
+        FAIL("expected an error");
+    } catch (const ModelInputError& e) {
+        CHECK(std::string(e.what()) == dir + "/log.csv:4: key 'n': the table has 3 data rows; an index table needs "
+                                             "at least 4 points (it is named by key 'index.file' of '" + model + "')");
+    }
     try {
         parse_model(csv_model("n_column = \"index\"\n"), model);
         FAIL("expected an error");

@@ -57,7 +57,7 @@ TEST_CASE("station file: duplicate receiver names are refused with the line", "[
                              "[[receiver]]\nname = \"R\"\nx_m = 1\ny_m = 0\nz_m = -10\n";
     const std::string msg = failure_of(text);
     CHECK(msg.find("duplicate receiver name 'R'") != std::string::npos);
-    CHECK(msg.find("st.toml:6") != std::string::npos);
+    CHECK(msg.find("st.toml:7: key 'receiver[1].name'") != std::string::npos);
 }
 
 TEST_CASE("station file: a receiver above the surface must say in_air", "[station][bad-input]") {
@@ -78,11 +78,47 @@ TEST_CASE("station file: unknown and mistyped keys, bad TOML, empty station", "[
           std::string::npos);
     CHECK(failure_of("[[receiver]]\nname = \"R\"\nx_m = \"zero\"\ny_m = 0\nz_m = -2\n").find("must be a number") !=
           std::string::npos);
-    CHECK(failure_of("[[receiver]\n").find("not valid TOML") != std::string::npos);
+    CHECK(failure_of("[[receiver]\n").find("TOML syntax error") != std::string::npos);
     CHECK(failure_of("name = \"empty\"\n").find("no receivers") != std::string::npos);
     CHECK(failure_of("[[receiver]]\nname = \"R\"\nx_m = nan\ny_m = 0\nz_m = -2\n").find("finite") != std::string::npos);
 }
 
 TEST_CASE("station file: a missing file is a model-input error naming the path", "[station][bad-input]") {
     CHECK_THROWS_WITH(load_station_file("/nonexistent/station.toml"), Catch::Contains("/nonexistent/station.toml"));
+}
+
+TEST_CASE("station file: misspelt keys get a did-you-mean, as in model files", "[station][bad-input]") {
+    CHECK(failure_of("[[receiver]]\nname = \"R\"\nx_m = 0\ny_m = 0\nz_m = -2\ndepht_m = 3\n") ==
+          "st.toml:6: key 'receiver[0].depht_m': unknown key (did you mean 'depth_m'?) in a [[receiver]] table; the keys "
+          "there are: name, x_m, y_m, z_m, depth_m, in_air");
+    CHECK(failure_of("[[recevier]]\nname = \"R\"\n").find("st.toml:1: key 'recevier': unknown key (did you mean "
+                                                          "'receiver'?) at the top level of a station file") == 0);
+    CHECK(failure_of("[[string]]\nname = \"S\"\nx_m = 0\ny_mm = 0\n").find("(did you mean 'y_m'?)") != std::string::npos);
+    // x_m of a receiver in a string belongs to the string: no suggestion, the reason instead.
+    CHECK(failure_of("[[string]]\nname = \"S\"\nx_m = 0\ny_m = 0\n[[string.receiver]]\nname = \"a\"\nx_m = 1\nz_m = -1\n")
+              .find("st.toml:7: key 'string[0].receiver[0].x_m': not used in a [[string.receiver]] table (x_m and "
+                    "y_m are the string's)") == 0);
+}
+
+TEST_CASE("station file: positions out of range, wrong types and bad bytes", "[station][bad-input]") {
+    CHECK(failure_of("[[receiver]]\nname = \"R\"\nx_m = 1e300\ny_m = 0\nz_m = -2\n")
+              .find("st.toml:3: key 'receiver[0].x_m': x_m = 1e+300 m is above 100000 m") == 0);
+    CHECK(failure_of("[[receiver]]\nname = \"R\"\nx_m = 0\ny_m = 0\ndepth_m = 1e6\n")
+              .find("st.toml:5: key 'receiver[0].depth_m': depth_m = 1e+06 m is above 10000 m") == 0);
+    CHECK(failure_of("[[receiver]]\nname = \"R\"\nx_m = 0\ny_m = 0\nz_m = 2e4\nin_air = true\n").find("above 10000 m") !=
+          std::string::npos);
+    CHECK(failure_of("[[receiver]]\nname = \"R\"\nx_m = 0\ny_m = 0\nz_m = -2\nin_air = \"no\"\n")
+              .find("key 'receiver[0].in_air': must be true or false, but is a string") != std::string::npos);
+    CHECK(failure_of("name = 5\n[[receiver]]\nname = \"R\"\nx_m = 0\ny_m = 0\nz_m = -2\n")
+              .find("st.toml:1: key 'name': must be a string") == 0);
+    CHECK(failure_of("[[receiver]]\nname = \"\"\nx_m = 0\ny_m = 0\nz_m = -2\n").find("must not be empty") != std::string::npos);
+    CHECK(failure_of("receiver = 3\n").find("must be an array of tables ([[receiver]])") != std::string::npos);
+    CHECK(failure_of("[[string]]\nname = \"S\"\nx_m = 0\ny_m = 0\n").find("string 'S' has no receivers") != std::string::npos);
+    const std::string binary = failure_of(std::string("\x7f" "ELF\x02\x01\0\0\xff", 9));
+    CHECK(binary.find("st.toml:1: TOML syntax error") == 0);
+    for (const char ch : binary) CHECK((static_cast<unsigned char>(ch) >= 0x20 && static_cast<unsigned char>(ch) < 0x7f));
+}
+
+TEST_CASE("station file: a folder is named as such", "[station][bad-input]") {
+    CHECK_THROWS_WITH(load_station_file("/tmp"), Catch::Contains("/tmp: is a folder, not a station file"));
 }
