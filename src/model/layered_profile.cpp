@@ -106,7 +106,7 @@ LayeredProfile::LayeredProfile(double n_surface, std::vector<ExponentialLayer> l
             if (slope < -1e-12)
                 throw ModelInputError(
                     fmt::format("with a transition of {} m the index would fall with depth near the boundary at "
-                                "{} m: use a smaller transition_m",
+                                "{} m: use a smaller transition_m, or layers whose slopes differ less there",
                                 transition_m, layers_[k].bottom_depth_m),
                     {"", 0, "transition_m"});
         }
