@@ -1,5 +1,6 @@
-// Loading site models from TOML files (schema in docs/model-files.md) and the built-in default.
-// Every problem in a file is reported as a ModelInputError naming the file, the line and the key.
+// Loading site models from TOML files (schema in docs/model-files.md) and the built-in default,
+// and writing them back. Every problem in a file, including a value outside the bounds of
+// model/model_limits.hpp, is a ModelInputError naming the file, the line and the key.
 #pragma once
 
 #include <string>

@@ -1,6 +1,7 @@
 #include "model/point_table.hpp"
 
 #include <algorithm>
+#include <cmath>
 #include <optional>
 
 #include <fmt/format.h>

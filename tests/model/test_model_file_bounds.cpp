@@ -226,3 +226,36 @@ TEST_CASE("model files: a model fault is exit code 3 with file, line and key", "
     CHECK(d.exit_code == 3);
     CHECK(d.err.find(deep + ":3: key 'index.depth_m[3]'") != std::string::npos);
 }
+
+TEST_CASE("model files: every message about a table CSV names the CSV file", "[model][model_file][errors]") {
+    const std::string dir = temp_folder("csv-names");
+    const std::string model = write_file(dir + "/m.toml", "[index]\nkind = \"table\"\ninterpolation = \"spline\"\n"
+                                                          "file = \"log.csv\"\ndepth_column = \"depth\"\nn_column = \"n\"\n");
+    auto failure = [&]() -> ModelInputError {
+        try {
+            load_model_file(model);
+        } catch (const ModelInputError& e) {
+            return e;
+        }
+        FAIL("no error");
+        throw;
+    };
+    // Data whose C² spline dips below 1: the data are at fault, so the CSV is named (at its header).
+    write_file(dir + "/log.csv", "# wild\ndepth,n\n0,1.7\n1,1.0\n2,1.7\n3,1.0\n4,1.7\n");
+    const ModelInputError dip = failure();
+    CHECK(dip.where().file == dir + "/log.csv");
+    CHECK(dip.where().line == 2);
+    CHECK(dip.reason().find("below 1") != std::string::npos);
+    // A column the model file asks for but the CSV lacks: the CSV's header line.
+    write_file(dir + "/log.csv", "depth,index\n0,1.3\n1,1.4\n2,1.5\n3,1.6\n");
+    const ModelInputError column = failure();
+    CHECK(column.where().file == dir + "/log.csv");
+    CHECK(column.where().line == 1);
+    CHECK(column.reason().find("no column named 'n'") != std::string::npos);
+    // A table file that does not exist: the model file's `file` key.
+    write_file(model, "[index]\nkind = \"table\"\nfile = \"none.csv\"\ndepth_column = \"depth\"\nn_column = \"n\"\n");
+    const ModelInputError missing = failure();
+    CHECK(missing.where().file == model);
+    CHECK(missing.where().line == 3);
+    CHECK(missing.where().key == "index.file");
+}
