@@ -4,7 +4,6 @@
 #include <cmath>
 #include <filesystem>
 #include <fstream>
-#include <sstream>
 
 #include <fmt/format.h>
 #include <toml++/toml.h>
@@ -19,6 +18,9 @@ struct TomlData {
 };
 
 namespace {
+
+// The largest TOML file read: far beyond any model or station file, small enough for any machine.
+constexpr std::size_t largest_file_bytes = std::size_t(64) << 20;
 
 // The longest excerpt of file text (a value, a key, a parser message) that a message repeats.
 constexpr std::size_t excerpt_chars = 60;
@@ -100,10 +102,20 @@ TomlDocument TomlDocument::read(const std::string& path, std::string_view what) 
     if (std::filesystem::is_directory(path, ec)) throw ModelInputError(fmt::format("is a folder, not a {}", what), {path, 0, ""});
     std::ifstream in(path, std::ios::binary);
     if (!in) throw ModelInputError(fmt::format("cannot open the {} (is the path right?)", what), {path, 0, ""});
-    std::ostringstream text;
-    text << in.rdbuf();
+    // Read in blocks up to a limit, so that a device or an endless pipe named by mistake is
+    // refused instead of filling the memory.
+    std::string text;
+    std::vector<char> block(1 << 16);
+    while (in.read(block.data(), static_cast<std::streamsize>(block.size())) || in.gcount() > 0) {
+        text.append(block.data(), static_cast<std::size_t>(in.gcount()));
+        if (text.size() > largest_file_bytes)
+            throw ModelInputError(fmt::format("is larger than {} MB; a {} is a few kilobytes of text (long tables "
+                                              "belong in a CSV file beside it)",
+                                              largest_file_bytes >> 20, what),
+                                  {path, 0, ""});
+    }
     if (in.bad()) throw ModelInputError(fmt::format("reading the {} failed", what), {path, 0, ""});
-    return parse(text.str(), path);
+    return parse(text, path);
 }
 
 TomlTable TomlDocument::root() const { return TomlTable(data_, &data_->root, ""); }

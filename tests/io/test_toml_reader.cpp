@@ -206,3 +206,11 @@ TEST_CASE("TOML reader: tables outlive the document object they came from", "[io
     CHECK(index.number("n", "n") == 1.25);
     CHECK(index.origin() == "t.toml");
 }
+
+TEST_CASE("TOML reader: a device or endless stream named as a file is refused, not read forever",
+          "[io][toml][errors]") {
+    CHECK(message_of([] { TomlDocument::read("/dev/zero", "model file"); }) ==
+          "/dev/zero: is larger than 64 MB; a model file is a few kilobytes of text (long tables belong in a CSV file "
+          "beside it)");
+    CHECK(message_of([] { TomlDocument::read("/dev/null", "station file"); }) == "(no error)");  // empty is valid TOML
+}
