@@ -38,7 +38,8 @@ class TomlDocument {
 public:
     // `origin` names the file in every message.
     static TomlDocument parse(std::string_view text, const std::string& origin);
-    // Reads and parses a file; `what` names it in messages ("model file", "station file").
+    // Reads and parses a file; `what` names it in messages ("model file", "station file"). Files
+    // over 64 MB (a device, an endless pipe) are refused.
     static TomlDocument read(const std::string& path, std::string_view what);
 
     TomlTable root() const;
