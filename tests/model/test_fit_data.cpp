@@ -8,7 +8,7 @@
 #include "core/errors.hpp"
 #include "io/csv_reader.hpp"
 #include "model/model_file.hpp"
-#include "model/profile_output.hpp"
+#include "output/profile_output.hpp"
 #include "support/run_cli.hpp"
 
 using namespace firnray;

@@ -1,4 +1,4 @@
-// Rendering traced rays (src/trace/trace_output.*): the JSON model block and the fan figure.
+// Rendering traced rays (src/output/trace_output.*): the JSON model block and the fan figure.
 #include <catch2/catch.hpp>
 
 #include <cstdlib>
@@ -7,15 +7,16 @@
 #include "core/constants.hpp"
 #include "io/json_writer.hpp"
 #include "model/model_file.hpp"
+#include "output/model_json.hpp"
+#include "output/trace_output.hpp"
 #include "support/run_cli.hpp"
 #include "trace/ray_tracer.hpp"
-#include "trace/trace_output.hpp"
 
 using namespace firnray;
 
 TEST_CASE("trace outputs: the JSON names the model as write_model_json does, and the fan figure shows every "
           "kind of branch traced and parses in librsvg",
-          "[trace][output]") {
+          "[output][trace]") {
     auto model = std::make_shared<const FirnModel>(default_model());
     TraceOptions options;
     options.max_distance_m = 300.0;
