@@ -140,12 +140,13 @@ JsonWriter& JsonWriter::value(unsigned long v) { before_value(); out_ += std::to
 JsonWriter& JsonWriter::value(bool v) { before_value(); out_ += v ? "true" : "false"; return *this; }
 JsonWriter& JsonWriter::value(std::string_view v) { before_value(); append_json_string(out_, v); return *this; }
 JsonWriter& JsonWriter::value(std::optional<double> v) { return v ? value(*v) : null(); }
-JsonWriter& JsonWriter::value(std::complex<double> v) {
-    begin_array();
+JsonWriter& JsonWriter::value(std::complex<double> v) { return value(std::optional(v)); }
+JsonWriter& JsonWriter::value(std::optional<std::complex<double>> v) {
+    begin_array();  // on one line, even in pretty output
     const bool was_pretty = pretty_;
     pretty_ = false;
-    value(v.real());
-    value(v.imag());
+    if (v) value(v->real()).value(v->imag());
+    else null().null();
     end_array();
     pretty_ = was_pretty;
     return *this;

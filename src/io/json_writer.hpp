@@ -37,6 +37,7 @@ public:
     JsonWriter& value(const char* v) { return value(std::string_view(v)); }
     JsonWriter& value(std::optional<double> v);  // null when empty
     JsonWriter& value(std::complex<double> v);   // as [re, im]
+    JsonWriter& value(std::optional<std::complex<double>> v);  // [null, null] when empty
     JsonWriter& null();
 
     template <class T>

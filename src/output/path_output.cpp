@@ -188,11 +188,11 @@ void json_path(JsonWriter& json, const ConnectedPath& p) {
     else json.null();
     json.field("attenuation", a.attenuation_factor);
     json.field("attenuation_exponent", p.attenuation_exponent);
-    for (const auto& [name, field] : {std::pair{"field_s", a.field_s}, {"field_p", a.field_p}}) {
-        json.key(name);
-        if (has_field(a)) json.value(field);
-        else json.begin_array().null().null().end_array();  // [re, im], neither defined
-    }
+    const auto field_if_defined = [&](std::complex<double> field) {
+        return has_field(a) ? std::optional(field) : std::nullopt;  // [null, null] at a caustic
+    };
+    json.field("field_s", field_if_defined(a.field_s));
+    json.field("field_p", field_if_defined(a.field_p));
     json.field("caustic", a.caustic);
     json.end_object();
     json.key("events").begin_array();

@@ -120,3 +120,9 @@ TEST_CASE("JSON to a stream: the text arrives in pieces and is the same as in me
     CHECK(streamed.str().empty());
     CHECK(sink.str() == in_memory.str());
 }
+
+TEST_CASE("JSON: an absent complex value is [null,null] on one line", "[io][json]") {
+    JsonWriter json;
+    json.begin_object().field("field_s", std::optional<std::complex<double>>{}).end_object();
+    CHECK(json.str() == "{\n  \"field_s\": [null,null]\n}");
+}
