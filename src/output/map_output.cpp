@@ -135,7 +135,7 @@ void write_visibility_map_svg(std::ostream& out, const VisibilityMap& map, const
                               const std::vector<Receiver>& receivers, MapColouring colouring) {
     plot::Figure figure(1000, 620);
     const std::string who = receivers.size() == 1
-                                ? fmt::format("receiver at {:g} m depth", -receivers[0].z_m)
+                                ? fmt::format("receiver at {:g} m depth", require_finite(-receivers[0].z_m, "receiver depth"))
                                 : fmt::format("{} receivers, visible = seen by at least {}", receivers.size(), map.min_receivers);
     figure.title(fmt::format("Source visibility: {} (model: {})", who, model.name));
     figure.x_label(receivers.size() == 1 ? "horizontal distance from the receiver (m)"
@@ -298,7 +298,10 @@ void write_depth_scan_svg(std::ostream& out, const DepthScan& scan, const FirnMo
         high.push_back(row.max_time_between_ns);
         if (row.strong_volume_m3) strong.push_back(100.0 * *row.strong_volume_m3 / row.region_volume_m3);
     }
-    const double best = scan.rows.empty() ? 0.0 : scan.rows[scan.best].receiver_depth_m;
+    const double best = scan.rows.empty() ? 0.0 : require_finite(scan.rows[scan.best].receiver_depth_m, "best depth");
+    for (const auto& [value, name] : {std::pair{region.distance_max_m, "region max_distance_m"},
+                                      {region.depth_min_m, "region min_depth_m"}, {region.depth_max_m, "region max_depth_m"}})
+        require_finite(value, name);
     const plot::LineStyle best_style{"#d7191c", 1.5, "6 4", 1.0};
     const std::string best_label = fmt::format("best depth {:g} m (largest visible volume)", best);
 

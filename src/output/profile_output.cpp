@@ -173,8 +173,9 @@ void write_fit_svg(std::ostream& out, const FitData& data, const ExponentialFit&
                            ? fmt::format("data (density by the {} rule)", density_rule_name(*data.density_rule))
                            : std::string("data"));
     figure.add_line(indexes_of(samples), depths_of(samples), plot::LineStyle{},
-                    fmt::format("fit: n_deep {:.4f}, n_surface {:.4f}, scale depth {:.1f} m", fit.n_deep,
-                                fit.n_surface, fit.scale_depth_m));
+                    fmt::format("fit: n_deep {:.4f}, n_surface {:.4f}, scale depth {:.1f} m",
+                                require_finite(fit.n_deep, "n_deep"), require_finite(fit.n_surface, "n_surface"),
+                                require_finite(fit.scale_depth_m, "scale_depth_m")));
     out << figure.svg();
 }
 
@@ -184,7 +185,9 @@ std::string fit_svg(const FitData& data, const ExponentialFit& fit) {
 
 void write_fitted_model_toml(std::ostream& out, const FitData& data, const ExponentialFit& fit, const std::string& name,
                              const std::string& origin) {
-    for (const auto& [value, field] : {std::pair{fit.n_deep_sigma, "n_deep sigma"}, {fit.n_surface_sigma, "n_surface sigma"},
+    for (const auto& [value, field] : {std::pair{fit.n_deep, "n_deep"}, {fit.n_surface, "n_surface"},
+                                       {fit.scale_depth_m, "scale_depth_m"}, {fit.n_deep_sigma, "n_deep sigma"},
+                                       {fit.n_surface_sigma, "n_surface sigma"},
                                        {fit.scale_depth_sigma_m, "scale_depth_m sigma"}, {fit.residual_rms, "residual rms"}})
         require_finite(value, field);
     FirnModel model = default_model();  // air and attenuation: the built-in defaults

@@ -142,7 +142,8 @@ void write_ray_fan_svg(std::ostream& out, const FirnModel& model, const std::vec
     z_low -= margin;
 
     plot::Figure figure;
-    figure.title(fmt::format("Rays from x = {} m, z = {} m; model: {}", launch_x_m, launch_z_m,
+    figure.title(fmt::format("Rays from x = {} m, z = {} m; model: {}", require_finite(launch_x_m, "launch x_m"),
+                             require_finite(launch_z_m, "launch z_m"),
                              model.name.empty() ? model.index->describe() : model.name));
     figure.x_label("horizontal distance x (m)");
     figure.y_label("z (m, up; surface at z = 0)");
