@@ -10,6 +10,7 @@
 #include <optional>
 #include <stdexcept>
 #include <string>
+#include <tuple>
 #include <utility>
 #include <variant>
 #include <vector>
@@ -1011,6 +1012,95 @@ struct FigureLayoutInput {
     const std::vector<Layer>& layers;
 };
 
+// The x and y axes, with as many tick labels as fit without crowding. Maps use their data
+// range exactly (tight); other figures widen it to the nearest nice ticks.
+std::pair<Axis, Axis> fit_axes(const FigureLayoutInput& in, const Extent& xs, const Extent& ys, bool tight) {
+    const double rough_plot_width = in.width_px - 140.0, rough_plot_height = in.height_px - 110.0;
+    const int x_target = std::clamp(static_cast<int>(rough_plot_width / 100.0), 5, 10);
+    const int y_target = std::clamp(static_cast<int>(rough_plot_height / 62.0), 5, 10);
+    Axis x_axis = fitted_axis(in.x_low, in.x_high, xs, tight, x_target, [&](const Axis& a) {
+        return a.ticks.size() < 2 ||
+               a.widest_label_px + 14.0 < rough_plot_width * (a.ticks[1] - a.ticks[0]) / (a.high - a.low);
+    });
+    Axis y_axis = fitted_axis(in.y_low, in.y_high, ys, tight, y_target, [&](const Axis& a) {
+        return a.ticks.size() < 2 || tick_font * 1.8 < rough_plot_height * (a.ticks[1] - a.ticks[0]) / (a.high - a.low);
+    });
+    return {std::move(x_axis), std::move(y_axis)};
+}
+
+// The space around the axes that the title, tick labels and axis labels need; the colour bar and
+// an outside legend add to it (Margins::frame).
+struct Margins {
+    double left = 0.0, top = 0.0, bottom = 0.0, base_right = 0.0;
+
+    // The plot area when the legend goes to `where`.
+    Frame frame(LegendPosition where, const Layout& layout, const FigureLayoutInput& in) const {
+        const double bar_block = layout.bar ? layout.bar->block : 0.0;
+        double right_margin = base_right, bottom_margin = bottom;
+        if (layout.bar) right_margin = std::max(right_margin, bar_block + outer_margin);
+        if (where == LegendPosition::outside_right && !layout.entries.empty())
+            right_margin = bar_block + 16.0 + layout.stacked.width + outer_margin;
+        if (where == LegendPosition::below && !layout.entries.empty()) bottom_margin += 8.0 + layout.flowing.height;
+        Frame f;
+        // Whole pixels, so that the frame and map cells line up with the pixel grid.
+        f.area = {std::round(left), std::round(top), std::round(std::max(left + 20.0, in.width_px - right_margin)),
+                  std::round(std::max(top + 20.0, in.height_px - bottom_margin))};
+        f.x0 = layout.x_axis.low;
+        f.x1 = layout.x_axis.high;
+        f.y0 = layout.y_axis.low;
+        f.y1 = layout.y_axis.high;
+        f.y_inverted = in.y_inverted;
+        return f;
+    }
+};
+
+Margins measure_margins(const FigureLayoutInput& in, const Layout& layout) {
+    Margins m;
+    m.top = layout.title_lines.empty()
+                ? outer_margin + 8.0
+                : outer_margin + title_font * 1.25 * static_cast<double>(layout.title_lines.size()) + 10.0;
+    const Axis& x_axis = layout.x_axis;
+    const double first_x_label_half =
+        x_axis.labels.empty() ? 0.0 : text_width_px(x_axis.labels.front(), tick_font) / 2.0;
+    const double last_x_label_half = x_axis.labels.empty() ? 0.0 : text_width_px(x_axis.labels.back(), tick_font) / 2.0;
+    m.left = std::max(outer_margin + (in.y_label.empty() ? 0.0 : label_font + 10.0) + layout.y_axis.widest_label_px +
+                          tick_gap + tick_length,
+                      outer_margin + first_x_label_half);
+    m.bottom = tick_length + tick_gap + tick_font + (in.x_label.empty() ? 0.0 : 8.0 + label_font) + outer_margin;
+    m.base_right = std::max(outer_margin + 12.0, last_x_label_half + 10.0);
+    return m;
+}
+
+// Where the legend goes: as asked, or (automatic) an inside corner that covers no ink, else
+// outside the axes, right of them or below them, whichever leaves them the larger area. A
+// figure with a grid map always has its legend outside.
+LegendPosition place_legend(const FigureLayoutInput& in, const Layout& layout, const Margins& margins,
+                            bool has_map) {
+    if (layout.entries.empty()) return LegendPosition::hidden;
+    if (in.legend_position != LegendPosition::automatic) return in.legend_position;
+    const auto outside = [&] {
+        const Rect right = margins.frame(LegendPosition::outside_right, layout, in).area;
+        const Rect below = margins.frame(LegendPosition::below, layout, in).area;
+        return right.width() * right.height() >= below.width() * below.height() ? LegendPosition::outside_right
+                                                                                 : LegendPosition::below;
+    };
+    if (has_map) return outside();
+    const Frame f = margins.frame(LegendPosition::hidden, layout, in);
+    const std::vector<Point> samples = ink_samples(in.layers, f);
+    const LegendLayout& stacked = layout.stacked;
+    const bool fits_inside = stacked.width < f.area.width() * 0.6 && stacked.height < f.area.height() * 0.7;
+    if (fits_inside) {
+        for (LegendPosition p : {LegendPosition::top_right, LegendPosition::top_left, LegendPosition::bottom_right,
+                                 LegendPosition::bottom_left}) {
+            const Rect box = inside_legend_box(f, p, stacked);
+            const bool covers =
+                std::any_of(samples.begin(), samples.end(), [&](const Point& s) { return box.contains(s.x, s.y, 4.0); });
+            if (!covers) return p;
+        }
+    }
+    return outside();
+}
+
 // Ranges, ticks, colour bar, margins, legend entries and the legend's place, and the plot area
 // that results.
 Layout lay_out(const FigureLayoutInput& in) {
@@ -1021,92 +1111,15 @@ Layout lay_out(const FigureLayoutInput& in) {
     const auto [xs, ys] = data_extents(in.layers);
     layout.entries = legend_entries(in.layers);
     layout.stacked = stacked_legend(layout.entries);
-
-    // Ticks, with as many labels as fit without crowding.
-    const bool tight = map != nullptr;
-    const double rough_plot_width = in.width_px - 140.0, rough_plot_height = in.height_px - 110.0;
-    const int x_target = std::clamp(static_cast<int>(rough_plot_width / 100.0), 5, 10);
-    const int y_target = std::clamp(static_cast<int>(rough_plot_height / 62.0), 5, 10);
-    layout.x_axis = fitted_axis(in.x_low, in.x_high, xs, tight, x_target, [&](const Axis& a) {
-        return a.ticks.size() < 2 ||
-               a.widest_label_px + 14.0 < rough_plot_width * (a.ticks[1] - a.ticks[0]) / (a.high - a.low);
-    });
-    layout.y_axis = fitted_axis(in.y_low, in.y_high, ys, tight, y_target, [&](const Axis& a) {
-        return a.ticks.size() < 2 || tick_font * 1.8 < rough_plot_height * (a.ticks[1] - a.ticks[0]) / (a.high - a.low);
-    });
-
-    // Margins.
+    std::tie(layout.x_axis, layout.y_axis) = fit_axes(in, xs, ys, map != nullptr);
     layout.title_lines =
         in.title.empty() ? std::vector<std::string>{} : wrap_text(in.title, title_font, in.width_px - 2 * outer_margin);
-    const double top = layout.title_lines.empty()
-                           ? outer_margin + 8.0
-                           : outer_margin + title_font * 1.25 * static_cast<double>(layout.title_lines.size()) + 10.0;
-    const Axis& x_axis = layout.x_axis;
-    const double first_x_label_half =
-        x_axis.labels.empty() ? 0.0 : text_width_px(x_axis.labels.front(), tick_font) / 2.0;
-    const double last_x_label_half = x_axis.labels.empty() ? 0.0 : text_width_px(x_axis.labels.back(), tick_font) / 2.0;
-    const double left = std::max(outer_margin + (in.y_label.empty() ? 0.0 : label_font + 10.0) +
-                                     layout.y_axis.widest_label_px + tick_gap + tick_length,
-                                 outer_margin + first_x_label_half);
-    const double bottom_margin =
-        tick_length + tick_gap + tick_font + (in.x_label.empty() ? 0.0 : 8.0 + label_font) + outer_margin;
-    const double base_right = std::max(outer_margin + 12.0, last_x_label_half + 10.0);
-
+    const Margins margins = measure_margins(in, layout);
     // The legend under the axes spans at most their width (known well enough before the layout).
-    layout.flowing = flowing_legend(layout.entries, in.width_px - left - base_right);
-    layout.x_label_bottom = bottom_margin - outer_margin;
-    const double bar_block = layout.bar ? layout.bar->block : 0.0;
-    const auto frame_for = [&](LegendPosition where) {
-        double right_margin = base_right, bottom = bottom_margin;
-        if (layout.bar) right_margin = std::max(right_margin, bar_block + outer_margin);
-        if (where == LegendPosition::outside_right && !layout.entries.empty())
-            right_margin = bar_block + 16.0 + layout.stacked.width + outer_margin;
-        if (where == LegendPosition::below && !layout.entries.empty()) bottom += 8.0 + layout.flowing.height;
-        Frame f;
-        // Whole pixels, so that the frame and map cells line up with the pixel grid.
-        f.area = {std::round(left), std::round(top), std::round(std::max(left + 20.0, in.width_px - right_margin)),
-                  std::round(std::max(top + 20.0, in.height_px - bottom))};
-        f.x0 = layout.x_axis.low;
-        f.x1 = layout.x_axis.high;
-        f.y0 = layout.y_axis.low;
-        f.y1 = layout.y_axis.high;
-        f.y_inverted = in.y_inverted;
-        return f;
-    };
-
-    // Legend placement: a corner that hides no data, else outside the axes, right of them or
-    // below them, whichever leaves them the larger area.
-    LegendPosition where = layout.entries.empty() ? LegendPosition::hidden : in.legend_position;
-    const auto outside = [&] {
-        const Rect right = frame_for(LegendPosition::outside_right).area, below = frame_for(LegendPosition::below).area;
-        return right.width() * right.height() >= below.width() * below.height() ? LegendPosition::outside_right
-                                                                                 : LegendPosition::below;
-    };
-    if (where == LegendPosition::automatic) {
-        if (map) {
-            where = outside();
-        } else {
-            const Frame f = frame_for(LegendPosition::hidden);
-            const std::vector<Point> samples = ink_samples(in.layers, f);
-            where = outside();
-            const LegendLayout& stacked = layout.stacked;
-            const bool fits_inside = stacked.width < f.area.width() * 0.6 && stacked.height < f.area.height() * 0.7;
-            if (fits_inside) {
-                for (LegendPosition p : {LegendPosition::top_right, LegendPosition::top_left,
-                                         LegendPosition::bottom_right, LegendPosition::bottom_left}) {
-                    const Rect box = inside_legend_box(f, p, stacked);
-                    const bool covers = std::any_of(samples.begin(), samples.end(),
-                                                    [&](const Point& s) { return box.contains(s.x, s.y, 4.0); });
-                    if (!covers) {
-                        where = p;
-                        break;
-                    }
-                }
-            }
-        }
-    }
-    layout.where = where;
-    layout.frame = frame_for(where);
+    layout.flowing = flowing_legend(layout.entries, in.width_px - margins.left - margins.base_right);
+    layout.x_label_bottom = margins.bottom - outer_margin;
+    layout.where = place_legend(in, layout, margins, map != nullptr);
+    layout.frame = margins.frame(layout.where, layout, in);
     return layout;
 }
 
