@@ -1,7 +1,7 @@
 // Delay tables: homogeneous-medium delays against distance × n / c (definition), time
 // derivatives against finite differences of the times themselves (Fermat's principle: the
-// gradient of T with respect to the source is minus the slowness vector at the source), and a
-// batch that survives a bad row.
+// gradient of T with respect to the source is minus the slowness vector at the source), a
+// batch that survives a bad row, and a source at one receiver that fails that channel alone.
 #include <catch2/catch.hpp>
 
 #include <cmath>
