@@ -4,6 +4,7 @@
 #include <cmath>
 #include <iterator>
 #include <limits>
+#include <optional>
 
 #include <fmt/compile.h>
 #include <fmt/format.h>
