@@ -20,6 +20,7 @@
 #include "core/constants.hpp"
 #include "io/csv_reader.hpp"
 #include "model/model_file.hpp"
+#include "output/path_output.hpp"
 #include "paths/pair_batch.hpp"
 #include "solver/closed_form_solver.hpp"
 #include "solver/numeric_solver.hpp"

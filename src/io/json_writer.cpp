@@ -6,17 +6,17 @@
 #include <fmt/compile.h>
 #include <fmt/format.h>
 
+#include "core/errors.hpp"
+#include "io/csv_writer.hpp"
+
 namespace firnray {
 
-namespace {
-
-// Appends the quoted, escaped text (no temporary string: batches write many keys).
-void append_escaped(std::string& out, std::string_view text) {
+void append_json_string(std::string& out, std::string_view text) {
     out += '"';
     const bool plain = std::none_of(text.begin(), text.end(), [](char ch) {
         return ch == '"' || ch == '\\' || static_cast<unsigned char>(ch) < 0x20;
     });
-    if (plain) {
+    if (plain) {  // the common case, without a pass per character
         out += text;
         out += '"';
         return;
@@ -38,19 +38,42 @@ void append_escaped(std::string& out, std::string_view text) {
     out += '"';
 }
 
-}  // namespace
-
 std::string json_escape(std::string_view text) {
     std::string out;
     out.reserve(text.size() + 2);
-    append_escaped(out, text);
+    append_json_string(out, text);
     return out;
+}
+
+std::string JsonWriter::current_field() const {
+    std::string path;
+    for (const Level& level : levels_) {
+        if (level.array) {
+            path += '[';
+            path += std::to_string(level.count == 0 ? 0 : level.count - 1);
+            path += ']';
+        } else {
+            if (!path.empty()) path += '.';
+            path += level.key;
+        }
+    }
+    return path.empty() ? std::string("(top level)") : path;
+}
+
+void JsonWriter::flush() {
+    if (!sink_ || out_.empty()) return;
+    sink_->write(out_.data(), static_cast<std::streamsize>(out_.size()));
+    out_.clear();
+}
+
+void JsonWriter::maybe_flush() {
+    if (sink_ && out_.size() >= (std::size_t{1} << 16)) flush();
 }
 
 void JsonWriter::newline() {
     if (!pretty_) return;
     out_ += '\n';
-    out_.append(2 * first_.size(), ' ');
+    out_.append(2 * levels_.size(), ' ');
 }
 
 void JsonWriter::before_value() {
@@ -58,9 +81,11 @@ void JsonWriter::before_value() {
         after_key_ = false;
         return;
     }
-    if (!first_.empty()) {
-        if (!first_.back()) out_ += ',';
-        first_.back() = false;
+    if (!levels_.empty()) {
+        Level& level = levels_.back();
+        if (!level.empty) out_ += ',';
+        level.empty = false;
+        ++level.count;
         newline();
     }
 }
@@ -68,59 +93,60 @@ void JsonWriter::before_value() {
 JsonWriter& JsonWriter::begin_object() {
     before_value();
     out_ += '{';
-    first_.push_back(true);
+    levels_.push_back({false, true, 0, {}});
     return *this;
 }
 JsonWriter& JsonWriter::end_object() {
-    const bool empty = first_.back();
-    first_.pop_back();
+    const bool empty = levels_.back().empty;
+    levels_.pop_back();
     if (!empty) newline();
     out_ += '}';
+    maybe_flush();
     return *this;
 }
 JsonWriter& JsonWriter::begin_array() {
     before_value();
     out_ += '[';
-    first_.push_back(true);
+    levels_.push_back({true, true, 0, {}});
     return *this;
 }
 JsonWriter& JsonWriter::end_array() {
-    const bool empty = first_.back();
-    first_.pop_back();
+    const bool empty = levels_.back().empty;
+    levels_.pop_back();
     if (!empty) newline();
     out_ += ']';
+    maybe_flush();
     return *this;
 }
 JsonWriter& JsonWriter::key(std::string_view name) {
     before_value();
-    append_escaped(out_, name);
+    if (!levels_.empty()) levels_.back().key.assign(name);
+    append_json_string(out_, name);
     out_ += pretty_ ? ": " : ":";
     after_key_ = true;
     return *this;
 }
 JsonWriter& JsonWriter::value(double v) {
     before_value();
-    if (std::isfinite(v)) {
-        char text[32];  // the shortest round-trip form of a double needs at most 24 characters
-        const char* end = fmt::format_to(text, FMT_COMPILE("{}"), v);
-        out_.append(text, static_cast<std::size_t>(end - text));
-    } else {
-        out_ += "null";
-    }
+    if (!std::isfinite(v)) require_finite(v, current_field());
+    char text[32];  // the shortest round-trip form of a double needs at most 24 characters
+    const char* end = fmt::format_to(text, FMT_COMPILE("{}"), v);
+    out_.append(text, static_cast<std::size_t>(end - text));
     return *this;
 }
 JsonWriter& JsonWriter::value(int v) { before_value(); out_ += std::to_string(v); return *this; }
 JsonWriter& JsonWriter::value(long v) { before_value(); out_ += std::to_string(v); return *this; }
 JsonWriter& JsonWriter::value(unsigned long v) { before_value(); out_ += std::to_string(v); return *this; }
 JsonWriter& JsonWriter::value(bool v) { before_value(); out_ += v ? "true" : "false"; return *this; }
-JsonWriter& JsonWriter::value(std::string_view v) { before_value(); append_escaped(out_, v); return *this; }
+JsonWriter& JsonWriter::value(std::string_view v) { before_value(); append_json_string(out_, v); return *this; }
 JsonWriter& JsonWriter::value(std::optional<double> v) { return v ? value(*v) : null(); }
-JsonWriter& JsonWriter::value(std::complex<double> v) {
-    begin_array();
+JsonWriter& JsonWriter::value(std::complex<double> v) { return value(std::optional(v)); }
+JsonWriter& JsonWriter::value(std::optional<std::complex<double>> v) {
+    begin_array();  // on one line, even in pretty output
     const bool was_pretty = pretty_;
     pretty_ = false;
-    value(v.real());
-    value(v.imag());
+    if (v) value(v->real()).value(v->imag());
+    else null().null();
     end_array();
     pretty_ = was_pretty;
     return *this;

@@ -10,8 +10,6 @@
 
 namespace firnray {
 
-class JsonWriter;
-
 // Field attenuation in the ice: the field factor along a path is exp(-∫ ds / L(z)).
 class AttenuationProfile {
 public:
@@ -44,9 +42,5 @@ struct FirnModel {
     // n at z: the profile in the ice (z <= 0), n_air above.
     double index_at(double z) const { return z > 0.0 ? n_air : index->index(z); }
 };
-
-// The model as the JSON outputs of profiles and traces describe it: an object with name, origin,
-// index (the profile's description) and n_air, written as the next value (after a key).
-void write_model_json(JsonWriter& json, const FirnModel& model);
 
 }  // namespace firnray

@@ -55,7 +55,7 @@ PairPaths connect_pair(const RaySolver& solver, const PathPair& pair, const Path
 }
 
 BatchRun connect_batch(const RaySolver& solver, const std::vector<PathPair>& pairs, const PathOptions& options,
-                       const BatchFormatter& formatter, int threads, const RunControl& control) {
+                       const PairFormatter& formatter, int threads, const RunControl& control) {
     // Pairs go in blocks of a fixed size (whatever the thread count, so the text is the same): each
     // block is found and formatted into one string by one thread, and the blocks are joined in order.
     constexpr std::size_t block_size = 64;

@@ -10,7 +10,7 @@
 
 #include "core/cancel.hpp"
 #include "io/csv_reader.hpp"
-#include "paths/path_output.hpp"
+#include "paths/pair_formatter.hpp"
 
 namespace firnray {
 
@@ -47,6 +47,6 @@ struct BatchRun {
 // text made by the thread that computed it) and joins the blocks in input order. Progress is
 // reported in pairs. Throws Cancelled when asked to stop.
 BatchRun connect_batch(const RaySolver& solver, const std::vector<PathPair>& pairs, const PathOptions& options,
-                       const BatchFormatter& formatter, int threads, const RunControl& control = {});
+                       const PairFormatter& formatter, int threads, const RunControl& control = {});
 
 }  // namespace firnray

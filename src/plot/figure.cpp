@@ -10,7 +10,9 @@
 #include <optional>
 #include <stdexcept>
 #include <string>
+#include <tuple>
 #include <utility>
+#include <variant>
 #include <vector>
 
 #include "core/errors.hpp"
@@ -21,33 +23,83 @@ namespace firnray::plot {
 
 namespace detail {
 
-struct LayerData {
-    enum class Kind { line, markers, band, hline, vline, text, category_map, value_map };
-    Kind kind = Kind::line;
-    std::vector<double> x, y;  // lines and markers
-    LineStyle line;
-    MarkerStyle marker;
-    TextStyle text_style;
-    std::string fill, text, legend;
-    double a = 0.0, b = 0.0;  // band limits; the hline y or vline x; the text position
+// One type per kind of layer, held in a variant: each has only the fields its kind uses.
+struct LineLayer {
+    std::vector<double> x, y;  // a NaN in either breaks the line
+    LineStyle style;
+    std::string legend;
+};
+struct MarkerLayer {
+    std::vector<double> x, y;
+    MarkerStyle style;
+    std::string legend;
+};
+struct BandLayer {  // a horizontal band across the axes, drawn under everything else
+    double y_low = 0.0, y_high = 0.0;  // y_low <= y_high; either may be infinite
+    std::string fill, legend;
+};
+struct HorizontalLineLayer {
+    double y = 0.0;
+    LineStyle style;
+    std::string legend;
+};
+struct VerticalLineLayer {
+    double x = 0.0;
+    LineStyle style;
+    std::string legend;
+};
+struct TextLayer {
+    double x = 0.0, y = 0.0;  // data coordinates
+    std::string text;
+    TextStyle style;
+};
+struct CategoryMapLayer {
     CellGrid grid;
-    std::vector<int> categories;
-    std::vector<double> values;
-    std::vector<Category> category_legend;
+    std::vector<int> categories;  // per cell; -1 blank
+    std::vector<Category> legend;
+};
+struct ValueMapLayer {
+    CellGrid grid;
+    std::vector<double> values;  // per cell; NaN blank
     ColourScale scale;
+};
+
+struct Layer {
+    std::variant<LineLayer, MarkerLayer, BandLayer, HorizontalLineLayer, VerticalLineLayer, TextLayer, CategoryMapLayer,
+                 ValueMapLayer>
+        content;
 };
 
 }  // namespace detail
 
-struct Figure::Layer : detail::LayerData {};
-
 namespace {
 
 using detail::append_number;
-using detail::LayerData;
+using detail::BandLayer;
+using detail::CategoryMapLayer;
+using detail::HorizontalLineLayer;
+using detail::Layer;
+using detail::LineLayer;
+using detail::MarkerLayer;
 using detail::number;
+using detail::TextLayer;
 using detail::text_width_px;
-using Kind = LayerData::Kind;
+using detail::ValueMapLayer;
+using detail::VerticalLineLayer;
+
+// std::visit with one lambda per layer type.
+template <class... Lambdas>
+struct Overloaded : Lambdas... {
+    using Lambdas::operator()...;
+};
+template <class... Lambdas>
+Overloaded(Lambdas...) -> Overloaded<Lambdas...>;
+
+// The layer's content when it is of type T, else null.
+template <class T>
+const T* layer_as(const Layer& layer) {
+    return std::get_if<T>(&layer.content);
+}
 
 constexpr double outer_margin = 12.0;
 constexpr double title_font = 18.0, label_font = 15.0, tick_font = 13.0, legend_font = 13.0;
@@ -184,7 +236,7 @@ std::string level_colour(int level) {
     return sequential_colour(static_cast<double>(level) / (colour_levels - 1));
 }
 
-ColourRange resolve_colour_range(const LayerData& map) {
+ColourRange resolve_colour_range(const ValueMapLayer& map) {
     const ColourScale& s = map.scale;
     ColourRange range;
     range.logarithmic = s.logarithmic;
@@ -314,7 +366,7 @@ bool clip_segment(Point& a, Point& b, const Rect& box) {
 }
 
 // Ramer-Douglas-Peucker simplification: keeps the points that lie more than `tolerance` pixels
-// from the chord of the stretch they sit in. Smooth ray paths of thousands of points shrink to a
+// from the chord of the stretch they sit in. Smooth curves of thousands of points shrink to a
 // few dozen without a visible change.
 Polyline simplified(const Polyline& line, double tolerance) {
     const std::size_t n = line.size();
@@ -331,8 +383,8 @@ Polyline simplified(const Polyline& line, double tolerance) {
         double farthest = -1.0;
         std::size_t at = first;
         for (std::size_t i = first + 1; i < last; ++i) {
-            // Distance to the chord as a segment, not a line: a path that doubles back (a ray
-            // turning) must keep its turning point.
+            // Distance to the chord as a segment, not a line: a curve that doubles back must
+            // keep the point where it turns.
             const double ex = line[i].x - a.x, ey = line[i].y - a.y;
             const double t = length > 0 ? (ex * dx + ey * dy) / (length * length) : 0.0;
             const double d = t <= 0.0   ? std::hypot(ex, ey)
@@ -357,7 +409,7 @@ Polyline simplified(const Polyline& line, double tolerance) {
 
 // Pixel polylines of a data line: broken at NaN, clipped to (a little beyond) the plot area,
 // and simplified to within a tenth of a pixel.
-std::vector<Polyline> pixel_polylines(const LayerData& layer, const Frame& frame) {
+std::vector<Polyline> pixel_polylines(const LineLayer& layer, const Frame& frame) {
     const Rect box{frame.area.left - 4, frame.area.top - 4, frame.area.right + 4, frame.area.bottom + 4};
     std::vector<Polyline> lines;
     Polyline current;
@@ -673,13 +725,7 @@ Figure& Figure::add_line(std::span<const double> x, std::span<const double> y, c
     if (x.size() != y.size())
         throw std::invalid_argument("add_line: " + std::to_string(x.size()) + " x values but " +
                                     std::to_string(y.size()) + " y values");
-    Layer layer;
-    layer.kind = Kind::line;
-    layer.x.assign(x.begin(), x.end());
-    layer.y.assign(y.begin(), y.end());
-    layer.line = style;
-    layer.legend = std::move(legend);
-    layers_.push_back(std::move(layer));
+    layers_.push_back({LineLayer{{x.begin(), x.end()}, {y.begin(), y.end()}, style, std::move(legend)}});
     return *this;
 }
 
@@ -691,64 +737,40 @@ Figure& Figure::add_markers(std::span<const double> x, std::span<const double> y
     static const char* shapes[] = {"circle", "square", "diamond", "triangle", "cross", "plus"};
     if (std::find(std::begin(shapes), std::end(shapes), style.shape) == std::end(shapes))
         throw std::invalid_argument("add_markers: unknown marker shape '" + style.shape + "'");
-    Layer layer;
-    layer.kind = Kind::markers;
-    layer.x.assign(x.begin(), x.end());
-    layer.y.assign(y.begin(), y.end());
-    layer.marker = style;
-    layer.legend = std::move(legend);
-    layers_.push_back(std::move(layer));
+    layers_.push_back({MarkerLayer{{x.begin(), x.end()}, {y.begin(), y.end()}, style, std::move(legend)}});
     return *this;
 }
 
 Figure& Figure::add_y_band(double y_low, double y_high, std::string fill, std::string legend) {
-    Layer layer;
-    layer.kind = Kind::band;
-    layer.a = std::min(y_low, y_high);
-    layer.b = std::max(y_low, y_high);
-    layer.fill = std::move(fill);
-    layer.legend = std::move(legend);
-    layers_.push_back(std::move(layer));
+    layers_.push_back({BandLayer{std::min(y_low, y_high), std::max(y_low, y_high), std::move(fill), std::move(legend)}});
     return *this;
 }
 
 Figure& Figure::add_hline(double y, const LineStyle& style, std::string legend) {
-    Layer layer;
-    layer.kind = Kind::hline;
-    layer.a = y;
-    layer.line = style;
-    layer.legend = std::move(legend);
-    layers_.push_back(std::move(layer));
+    layers_.push_back({HorizontalLineLayer{y, style, std::move(legend)}});
     return *this;
 }
 
 Figure& Figure::add_vline(double x, const LineStyle& style, std::string legend) {
-    Layer layer;
-    layer.kind = Kind::vline;
-    layer.a = x;
-    layer.line = style;
-    layer.legend = std::move(legend);
-    layers_.push_back(std::move(layer));
+    layers_.push_back({VerticalLineLayer{x, style, std::move(legend)}});
     return *this;
 }
 
 Figure& Figure::add_text(double x, double y, std::string text) { return add_text(x, y, std::move(text), TextStyle{}); }
 
 Figure& Figure::add_text(double x, double y, std::string text, const TextStyle& style) {
-    Layer layer;
-    layer.kind = Kind::text;
-    layer.a = x;
-    layer.b = y;
-    layer.text = std::move(text);
-    layer.text_style = style;
-    layers_.push_back(std::move(layer));
+    layers_.push_back({TextLayer{x, y, std::move(text), style}});
     return *this;
 }
 
+static bool has_grid_map(const std::vector<Layer>& layers) {
+    return std::any_of(layers.begin(), layers.end(), [](const Layer& l) {
+        return layer_as<CategoryMapLayer>(l) != nullptr || layer_as<ValueMapLayer>(l) != nullptr;
+    });
+}
+
 Figure& Figure::category_map(CellGrid grid, std::vector<int> categories, std::vector<Category> legend) {
-    for (const auto& l : layers_)
-        if (l.kind == Kind::category_map || l.kind == Kind::value_map)
-            throw std::logic_error("a figure holds at most one grid map");
+    if (has_grid_map(layers_)) throw std::logic_error("a figure holds at most one grid map");
     check_grid(grid, categories.size(), "category_map");
     for (std::size_t i = 0; i < categories.size(); ++i) {
         if (categories[i] < -1 || categories[i] >= static_cast<int>(legend.size()))
@@ -756,27 +778,16 @@ Figure& Figure::category_map(CellGrid grid, std::vector<int> categories, std::ve
                                         std::to_string(categories[i]) + " but " + std::to_string(legend.size()) +
                                         " categories are listed");
     }
-    Layer layer;
-    layer.kind = Kind::category_map;
-    layer.grid = std::move(grid);
-    layer.categories = std::move(categories);
-    layer.category_legend = std::move(legend);
-    layers_.push_back(std::move(layer));
+    layers_.push_back({CategoryMapLayer{std::move(grid), std::move(categories), std::move(legend)}});
     return *this;
 }
 
 Figure& Figure::value_map(CellGrid grid, std::vector<double> values, ColourScale scale) {
-    for (const auto& l : layers_)
-        if (l.kind == Kind::category_map || l.kind == Kind::value_map)
-            throw std::logic_error("a figure holds at most one grid map");
+    if (has_grid_map(layers_)) throw std::logic_error("a figure holds at most one grid map");
     check_grid(grid, values.size(), "value_map");
-    Layer layer;
-    layer.kind = Kind::value_map;
-    layer.grid = std::move(grid);
-    layer.values = std::move(values);
-    layer.scale = std::move(scale);
-    resolve_colour_range(layer);  // reports a bad scale now rather than when drawing
-    layers_.push_back(std::move(layer));
+    ValueMapLayer map{std::move(grid), std::move(values), std::move(scale)};
+    resolve_colour_range(map);  // reports a bad scale now rather than when drawing
+    layers_.push_back({std::move(map)});
     return *this;
 }
 
@@ -801,199 +812,611 @@ void Figure::write_svg(const std::string& path) const { write_text_file(path, sv
 
 std::string Figure::svg_body() const { return svg_body("fig"); }
 
-std::string Figure::svg_body(const std::string& id_prefix) const {
-    const LayerData* map = nullptr;
-    for (const auto& l : layers_)
-        if (l.kind == Kind::category_map || l.kind == Kind::value_map) map = &l;
-    std::optional<ColourRange> colours;
-    if (map && map->kind == Kind::value_map) colours = resolve_colour_range(*map);
+namespace {
 
-    // Data extents.
-    Extent xs, ys;
-    for (const auto& l : layers_) {
-        switch (l.kind) {
-            case Kind::line:
-            case Kind::markers:
-                for (std::size_t i = 0; i < l.x.size(); ++i) {
-                    if (std::isfinite(l.x[i]) && std::isfinite(l.y[i])) {
-                        xs.add(l.x[i]);
-                        ys.add(l.y[i]);
-                    }
-                }
-                break;
-            case Kind::band: ys.add(l.a), ys.add(l.b); break;
-            case Kind::hline: ys.add(l.a); break;
-            case Kind::vline: xs.add(l.a); break;
-            case Kind::text: xs.add(l.a), ys.add(l.b); break;
-            case Kind::category_map:
-            case Kind::value_map:
-                xs.add(l.grid.x_edges.front()), xs.add(l.grid.x_edges.back());
-                ys.add(l.grid.y_edges.front()), ys.add(l.grid.y_edges.back());
-                break;
-        }
-    }
+// ---------------------------------------------------------------------------------------------
+// Laying out a figure: everything decided before drawing
 
-    // Legend entries, in the order the layers were added.
+constexpr double bar_gap = 20.0, bar_width = 16.0;
+
+// The colour bar of a value map: its resolved scale, ticks and labels, and the width it takes
+// right of the axes.
+struct ColourBar {
+    ColourRange colours;
+    std::vector<double> ticks;
+    std::vector<std::string> labels;
+    double label_width = 0.0;
+    double block = 0.0;
+};
+
+// What the figure's settings and layers decide before anything is drawn.
+struct Layout {
+    Axis x_axis, y_axis;
+    std::optional<ColourBar> bar;
+    std::vector<std::string> title_lines;
     std::vector<LegendEntry> entries;
-    for (const auto& l : layers_) {
-        LegendEntry e;
-        switch (l.kind) {
-            case Kind::line:
-            case Kind::hline:
-            case Kind::vline: e.swatch = LegendEntry::Swatch::line, e.line = l.line; break;
-            case Kind::markers: e.swatch = LegendEntry::Swatch::marker, e.marker = l.marker; break;
-            case Kind::band: e.swatch = LegendEntry::Swatch::patch, e.fill = l.fill; break;
-            case Kind::category_map:
-                for (const auto& c : l.category_legend) {
-                    if (c.label.empty()) continue;
-                    entries.push_back({LegendEntry::Swatch::patch, {}, {}, c.colour, c.label});
-                }
-                continue;
-            default: continue;
-        }
-        if (l.legend.empty()) continue;
-        e.label = l.legend;
-        entries.push_back(std::move(e));
-    }
-    const LegendLayout stacked = stacked_legend(entries);
+    LegendLayout stacked;  // one entry per row: inside the axes or right of them
+    LegendLayout flowing;  // entries side by side: below the axes
+    LegendPosition where = LegendPosition::hidden;
+    double x_label_bottom = 0.0;  // below the axes: tick labels and axis label
+    Frame frame;
+};
 
-    // Ticks, with as many labels as fit without crowding.
-    const bool tight = map != nullptr;
-    const double rough_plot_width = width_px_ - 140.0, rough_plot_height = height_px_ - 110.0;
+// The figure's grid map, if it has one.
+const Layer* grid_map_layer(const std::vector<Layer>& layers) {
+    const Layer* map = nullptr;
+    for (const auto& l : layers)
+        if (layer_as<CategoryMapLayer>(l) || layer_as<ValueMapLayer>(l)) map = &l;
+    return map;
+}
+
+// The x and y ranges the layers cover (finite values only).
+std::pair<Extent, Extent> data_extents(const std::vector<Layer>& layers) {
+    Extent xs, ys;
+    const auto add_points = [&](const std::vector<double>& x, const std::vector<double>& y) {
+        for (std::size_t i = 0; i < x.size(); ++i) {
+            if (std::isfinite(x[i]) && std::isfinite(y[i])) {
+                xs.add(x[i]);
+                ys.add(y[i]);
+            }
+        }
+    };
+    const auto add_grid = [&](const CellGrid& grid) {
+        xs.add(grid.x_edges.front()), xs.add(grid.x_edges.back());
+        ys.add(grid.y_edges.front()), ys.add(grid.y_edges.back());
+    };
+    for (const auto& l : layers) {
+        std::visit(Overloaded{
+                       [&](const LineLayer& line) { add_points(line.x, line.y); },
+                       [&](const MarkerLayer& markers) { add_points(markers.x, markers.y); },
+                       [&](const BandLayer& band) { ys.add(band.y_low), ys.add(band.y_high); },
+                       [&](const HorizontalLineLayer& line) { ys.add(line.y); },
+                       [&](const VerticalLineLayer& line) { xs.add(line.x); },
+                       [&](const TextLayer& text) { xs.add(text.x), ys.add(text.y); },
+                       [&](const CategoryMapLayer& map) { add_grid(map.grid); },
+                       [&](const ValueMapLayer& map) { add_grid(map.grid); },
+                   },
+                   l.content);
+    }
+    return {xs, ys};
+}
+
+// Legend entries, in the order the layers were added: layers with a legend text, and each
+// labelled category of a category map.
+std::vector<LegendEntry> legend_entries(const std::vector<Layer>& layers) {
+    std::vector<LegendEntry> entries;
+    const auto add = [&](LegendEntry e, const std::string& label) {
+        if (label.empty()) return;
+        e.label = label;
+        entries.push_back(std::move(e));
+    };
+    const auto line_entry = [](const LineStyle& style) {
+        LegendEntry e;
+        e.swatch = LegendEntry::Swatch::line;
+        e.line = style;
+        return e;
+    };
+    for (const auto& l : layers) {
+        std::visit(Overloaded{
+                       [&](const LineLayer& line) { add(line_entry(line.style), line.legend); },
+                       [&](const HorizontalLineLayer& line) { add(line_entry(line.style), line.legend); },
+                       [&](const VerticalLineLayer& line) { add(line_entry(line.style), line.legend); },
+                       [&](const MarkerLayer& markers) {
+                           LegendEntry e;
+                           e.swatch = LegendEntry::Swatch::marker;
+                           e.marker = markers.style;
+                           add(std::move(e), markers.legend);
+                       },
+                       [&](const BandLayer& band) {
+                           LegendEntry e;
+                           e.swatch = LegendEntry::Swatch::patch;
+                           e.fill = band.fill;
+                           add(std::move(e), band.legend);
+                       },
+                       [&](const CategoryMapLayer& map) {
+                           for (const auto& c : map.legend) {
+                               if (c.label.empty()) continue;
+                               entries.push_back({LegendEntry::Swatch::patch, {}, {}, c.colour, c.label});
+                           }
+                       },
+                       [](const TextLayer&) {},
+                       [](const ValueMapLayer&) {},
+                   },
+                   l.content);
+    }
+    return entries;
+}
+
+// Ticks and labels of a value map's colour bar, and the width the bar takes.
+ColourBar make_colour_bar(const ValueMapLayer& map) {
+    ColourBar bar;
+    bar.colours = resolve_colour_range(map);
+    if (bar.colours.logarithmic) {
+        bar.ticks = detail::log_ticks(bar.colours.low, bar.colours.high);
+        for (double t : bar.ticks) bar.labels.push_back(detail::log_tick_label(t));
+    } else {
+        bar.ticks = detail::inner_ticks(bar.colours.low, bar.colours.high, 6);
+        bar.labels = tick_labels(bar.ticks);
+    }
+    for (const auto& l : bar.labels) bar.label_width = std::max(bar.label_width, text_width_px(l, tick_font));
+    bar.block = bar_gap + bar_width + tick_length + tick_gap + bar.label_width +
+                (bar.colours.label.empty() ? 0.0 : 10.0 + label_font);
+    return bar;
+}
+
+// Where the stacked legend sits in one of the inside corners of the axes.
+Rect inside_legend_box(const Frame& f, LegendPosition p, const LegendLayout& stacked) {
+    const double inset = 10.0;
+    const bool right = p == LegendPosition::top_right || p == LegendPosition::bottom_right;
+    const bool lower = p == LegendPosition::bottom_right || p == LegendPosition::bottom_left;
+    const double x = right ? f.area.right - inset - stacked.width : f.area.left + inset;
+    const double y = lower ? f.area.bottom - inset - stacked.height : f.area.top + inset;
+    return Rect{x, y, x + stacked.width, y + stacked.height};
+}
+
+// Points (in pixels) where the layers put ink, for finding a legend corner that covers none.
+std::vector<Point> ink_samples(const std::vector<Layer>& layers, const Frame& f) {
+    std::vector<Point> samples;
+    for (const auto& l : layers) {
+        std::visit(Overloaded{
+                       [&](const LineLayer& layer) {
+                           for (const auto& line : pixel_polylines(layer, f)) {
+                               for (std::size_t i = 1; i < line.size(); ++i) {
+                                   const double length =
+                                       std::hypot(line[i].x - line[i - 1].x, line[i].y - line[i - 1].y);
+                                   const int steps = std::max(1, static_cast<int>(length / 3.0));
+                                   for (int s = 0; s <= steps; ++s) {
+                                       const double t = static_cast<double>(s) / steps;
+                                       samples.push_back({line[i - 1].x + t * (line[i].x - line[i - 1].x),
+                                                          line[i - 1].y + t * (line[i].y - line[i - 1].y)});
+                                   }
+                               }
+                           }
+                       },
+                       [&](const MarkerLayer& markers) {
+                           for (std::size_t i = 0; i < markers.x.size(); ++i)
+                               samples.push_back({f.px(markers.x[i]), f.py(markers.y[i])});
+                       },
+                       [&](const TextLayer& text) {
+                           const double w = text_width_px(text.text, text.style.size_px);
+                           const double x = f.px(text.x), y = f.py(text.y);
+                           const double x0 = text.style.anchor == "middle" ? x - w / 2
+                                             : text.style.anchor == "end"  ? x - w
+                                                                           : x;
+                           for (double fx = 0; fx <= 1.0; fx += 0.25)
+                               for (double fy : {0.0, 0.5, 1.0})
+                                   samples.push_back({x0 + fx * w, y - fy * text.style.size_px});
+                       },
+                       [&](const HorizontalLineLayer& line) {
+                           for (double x = f.area.left; x <= f.area.right; x += 3.0) samples.push_back({x, f.py(line.y)});
+                       },
+                       [&](const VerticalLineLayer& line) {
+                           for (double y = f.area.top; y <= f.area.bottom; y += 3.0) samples.push_back({f.px(line.x), y});
+                       },
+                       [](const BandLayer&) {},
+                       [](const CategoryMapLayer&) {},
+                       [](const ValueMapLayer&) {},
+                   },
+                   l.content);
+    }
+    return samples;
+}
+
+// The figure's settings and layers, as lay_out reads them.
+struct FigureLayoutInput {
+    double width_px, height_px;
+    const std::string &title, &x_label, &y_label;
+    double x_low, x_high, y_low, y_high;
+    bool y_inverted;
+    LegendPosition legend_position;
+    const std::vector<Layer>& layers;
+};
+
+// The x and y axes, with as many tick labels as fit without crowding. Maps use their data
+// range exactly (tight); other figures widen it to the nearest nice ticks.
+std::pair<Axis, Axis> fit_axes(const FigureLayoutInput& in, const Extent& xs, const Extent& ys, bool tight) {
+    const double rough_plot_width = in.width_px - 140.0, rough_plot_height = in.height_px - 110.0;
     const int x_target = std::clamp(static_cast<int>(rough_plot_width / 100.0), 5, 10);
     const int y_target = std::clamp(static_cast<int>(rough_plot_height / 62.0), 5, 10);
-    const Axis x_axis = fitted_axis(x_low_, x_high_, xs, tight, x_target, [&](const Axis& a) {
+    Axis x_axis = fitted_axis(in.x_low, in.x_high, xs, tight, x_target, [&](const Axis& a) {
         return a.ticks.size() < 2 ||
                a.widest_label_px + 14.0 < rough_plot_width * (a.ticks[1] - a.ticks[0]) / (a.high - a.low);
     });
-    const Axis y_axis = fitted_axis(y_low_, y_high_, ys, tight, y_target, [&](const Axis& a) {
+    Axis y_axis = fitted_axis(in.y_low, in.y_high, ys, tight, y_target, [&](const Axis& a) {
         return a.ticks.size() < 2 || tick_font * 1.8 < rough_plot_height * (a.ticks[1] - a.ticks[0]) / (a.high - a.low);
     });
+    return {std::move(x_axis), std::move(y_axis)};
+}
 
-    // Colour bar ticks.
-    std::vector<double> bar_ticks;
-    std::vector<std::string> bar_labels;
-    double bar_label_width = 0.0;
-    if (colours) {
-        if (colours->logarithmic) {
-            bar_ticks = detail::log_ticks(colours->low, colours->high);
-            for (double t : bar_ticks) bar_labels.push_back(detail::log_tick_label(t));
-        } else {
-            bar_ticks = detail::inner_ticks(colours->low, colours->high, 6);
-            bar_labels = tick_labels(bar_ticks);
-        }
-        for (const auto& l : bar_labels) bar_label_width = std::max(bar_label_width, text_width_px(l, tick_font));
+// The space around the axes that the title, tick labels and axis labels need; the colour bar and
+// an outside legend add to it (Margins::frame).
+struct Margins {
+    double left = 0.0, top = 0.0, bottom = 0.0, base_right = 0.0;
+
+    // The plot area when the legend goes to `where`.
+    Frame frame(LegendPosition where, const Layout& layout, const FigureLayoutInput& in) const {
+        const double bar_block = layout.bar ? layout.bar->block : 0.0;
+        double right_margin = base_right, bottom_margin = bottom;
+        if (layout.bar) right_margin = std::max(right_margin, bar_block + outer_margin);
+        if (where == LegendPosition::outside_right && !layout.entries.empty())
+            right_margin = bar_block + 16.0 + layout.stacked.width + outer_margin;
+        if (where == LegendPosition::below && !layout.entries.empty()) bottom_margin += 8.0 + layout.flowing.height;
+        Frame f;
+        // Whole pixels, so that the frame and map cells line up with the pixel grid.
+        f.area = {std::round(left), std::round(top), std::round(std::max(left + 20.0, in.width_px - right_margin)),
+                  std::round(std::max(top + 20.0, in.height_px - bottom_margin))};
+        f.x0 = layout.x_axis.low;
+        f.x1 = layout.x_axis.high;
+        f.y0 = layout.y_axis.low;
+        f.y1 = layout.y_axis.high;
+        f.y_inverted = in.y_inverted;
+        return f;
     }
-    constexpr double bar_gap = 20.0, bar_width = 16.0;
-    const double bar_block = colours ? bar_gap + bar_width + tick_length + tick_gap + bar_label_width +
-                                           (colours->label.empty() ? 0.0 : 10.0 + label_font)
-                                     : 0.0;
+};
 
-    // Margins.
-    const std::vector<std::string> title_lines =
-        title_.empty() ? std::vector<std::string>{} : wrap_text(title_, title_font, width_px_ - 2 * outer_margin);
-    const double top = title_lines.empty() ? outer_margin + 8.0
-                                           : outer_margin + title_font * 1.25 * static_cast<double>(title_lines.size()) + 10.0;
+Margins measure_margins(const FigureLayoutInput& in, const Layout& layout) {
+    Margins m;
+    m.top = layout.title_lines.empty()
+                ? outer_margin + 8.0
+                : outer_margin + title_font * 1.25 * static_cast<double>(layout.title_lines.size()) + 10.0;
+    const Axis& x_axis = layout.x_axis;
     const double first_x_label_half =
         x_axis.labels.empty() ? 0.0 : text_width_px(x_axis.labels.front(), tick_font) / 2.0;
     const double last_x_label_half = x_axis.labels.empty() ? 0.0 : text_width_px(x_axis.labels.back(), tick_font) / 2.0;
-    const double left = std::max(outer_margin + (y_label_.empty() ? 0.0 : label_font + 10.0) + y_axis.widest_label_px +
-                                     tick_gap + tick_length,
-                                 outer_margin + first_x_label_half);
-    const double bottom_margin =
-        tick_length + tick_gap + tick_font + (x_label_.empty() ? 0.0 : 8.0 + label_font) + outer_margin;
-    const double base_right = std::max(outer_margin + 12.0, last_x_label_half + 10.0);
+    m.left = std::max(outer_margin + (in.y_label.empty() ? 0.0 : label_font + 10.0) + layout.y_axis.widest_label_px +
+                          tick_gap + tick_length,
+                      outer_margin + first_x_label_half);
+    m.bottom = tick_length + tick_gap + tick_font + (in.x_label.empty() ? 0.0 : 8.0 + label_font) + outer_margin;
+    m.base_right = std::max(outer_margin + 12.0, last_x_label_half + 10.0);
+    return m;
+}
 
-    // The legend under the axes spans at most their width (known well enough before the layout).
-    const LegendLayout flowing = flowing_legend(entries, width_px_ - left - base_right);
-    const double x_label_bottom = bottom_margin - outer_margin;  // below the axes
-    const auto frame_for = [&](LegendPosition where) {
-        double right_margin = base_right, bottom = bottom_margin;
-        if (colours) right_margin = std::max(right_margin, bar_block + outer_margin);
-        if (where == LegendPosition::outside_right && !entries.empty())
-            right_margin = (colours ? bar_block : 0.0) + 16.0 + stacked.width + outer_margin;
-        if (where == LegendPosition::below && !entries.empty()) bottom += 8.0 + flowing.height;
-        Frame f;
-        // Whole pixels, so that the frame and map cells line up with the pixel grid.
-        f.area = {std::round(left), std::round(top), std::round(std::max(left + 20.0, width_px_ - right_margin)),
-                  std::round(std::max(top + 20.0, height_px_ - bottom))};
-        f.x0 = x_axis.low;
-        f.x1 = x_axis.high;
-        f.y0 = y_axis.low;
-        f.y1 = y_axis.high;
-        f.y_inverted = y_inverted_;
-        return f;
-    };
-
-    // Legend placement: a corner that hides no data, else outside the axes.
-    LegendPosition where = entries.empty() ? LegendPosition::hidden : legend_position_;
-    const auto inside_box = [&](const Frame& f, LegendPosition p) {
-        const double inset = 10.0;
-        const bool right = p == LegendPosition::top_right || p == LegendPosition::bottom_right;
-        const bool lower = p == LegendPosition::bottom_right || p == LegendPosition::bottom_left;
-        const double x = right ? f.area.right - inset - stacked.width : f.area.left + inset;
-        const double y = lower ? f.area.bottom - inset - stacked.height : f.area.top + inset;
-        return Rect{x, y, x + stacked.width, y + stacked.height};
-    };
-    // Outside the axes: right of them or below them, whichever leaves them the larger area.
+// Where the legend goes: as asked, or (automatic) an inside corner that covers no ink, else
+// outside the axes, right of them or below them, whichever leaves them the larger area. A
+// figure with a grid map always has its legend outside.
+LegendPosition place_legend(const FigureLayoutInput& in, const Layout& layout, const Margins& margins,
+                            bool has_map) {
+    if (layout.entries.empty()) return LegendPosition::hidden;
+    if (in.legend_position != LegendPosition::automatic) return in.legend_position;
     const auto outside = [&] {
-        const Rect right = frame_for(LegendPosition::outside_right).area, below = frame_for(LegendPosition::below).area;
+        const Rect right = margins.frame(LegendPosition::outside_right, layout, in).area;
+        const Rect below = margins.frame(LegendPosition::below, layout, in).area;
         return right.width() * right.height() >= below.width() * below.height() ? LegendPosition::outside_right
                                                                                  : LegendPosition::below;
     };
-    if (where == LegendPosition::automatic) {
-        if (map) {
-            where = outside();
-        } else {
-            const Frame f = frame_for(LegendPosition::hidden);
-            std::vector<Point> samples;
-            for (const auto& l : layers_) {
-                if (l.kind == Kind::line) {
-                    for (const auto& line : pixel_polylines(l, f)) {
-                        for (std::size_t i = 1; i < line.size(); ++i) {
-                            const double length = std::hypot(line[i].x - line[i - 1].x, line[i].y - line[i - 1].y);
-                            const int steps = std::max(1, static_cast<int>(length / 3.0));
-                            for (int s = 0; s <= steps; ++s) {
-                                const double t = static_cast<double>(s) / steps;
-                                samples.push_back({line[i - 1].x + t * (line[i].x - line[i - 1].x),
-                                                   line[i - 1].y + t * (line[i].y - line[i - 1].y)});
-                            }
-                        }
-                    }
-                } else if (l.kind == Kind::markers) {
-                    for (std::size_t i = 0; i < l.x.size(); ++i) samples.push_back({f.px(l.x[i]), f.py(l.y[i])});
-                } else if (l.kind == Kind::text) {
-                    const double w = text_width_px(l.text, l.text_style.size_px);
-                    const double x = f.px(l.a), y = f.py(l.b);
-                    const double x0 = l.text_style.anchor == "middle" ? x - w / 2 : l.text_style.anchor == "end" ? x - w : x;
-                    for (double fx = 0; fx <= 1.0; fx += 0.25)
-                        for (double fy : {0.0, 0.5, 1.0}) samples.push_back({x0 + fx * w, y - fy * l.text_style.size_px});
-                } else if (l.kind == Kind::hline) {
-                    for (double x = f.area.left; x <= f.area.right; x += 3.0) samples.push_back({x, f.py(l.a)});
-                } else if (l.kind == Kind::vline) {
-                    for (double y = f.area.top; y <= f.area.bottom; y += 3.0) samples.push_back({f.px(l.a), y});
-                }
-            }
-            where = outside();
-            const bool fits_inside = stacked.width < f.area.width() * 0.6 && stacked.height < f.area.height() * 0.7;
-            if (fits_inside) {
-                for (LegendPosition p : {LegendPosition::top_right, LegendPosition::top_left,
-                                         LegendPosition::bottom_right, LegendPosition::bottom_left}) {
-                    const Rect box = inside_box(f, p);
-                    const bool covers = std::any_of(samples.begin(), samples.end(),
-                                                    [&](const Point& s) { return box.contains(s.x, s.y, 4.0); });
-                    if (!covers) {
-                        where = p;
-                        break;
-                    }
+    if (has_map) return outside();
+    const Frame f = margins.frame(LegendPosition::hidden, layout, in);
+    const std::vector<Point> samples = ink_samples(in.layers, f);
+    const LegendLayout& stacked = layout.stacked;
+    const bool fits_inside = stacked.width < f.area.width() * 0.6 && stacked.height < f.area.height() * 0.7;
+    if (fits_inside) {
+        for (LegendPosition p : {LegendPosition::top_right, LegendPosition::top_left, LegendPosition::bottom_right,
+                                 LegendPosition::bottom_left}) {
+            const Rect box = inside_legend_box(f, p, stacked);
+            const bool covers =
+                std::any_of(samples.begin(), samples.end(), [&](const Point& s) { return box.contains(s.x, s.y, 4.0); });
+            if (!covers) return p;
+        }
+    }
+    return outside();
+}
+
+// Ranges, ticks, colour bar, margins, legend entries and the legend's place, and the plot area
+// that results.
+Layout lay_out(const FigureLayoutInput& in) {
+    Layout layout;
+    const Layer* map = grid_map_layer(in.layers);
+    if (map)
+        if (const auto* values = layer_as<ValueMapLayer>(*map)) layout.bar = make_colour_bar(*values);
+    const auto [xs, ys] = data_extents(in.layers);
+    layout.entries = legend_entries(in.layers);
+    layout.stacked = stacked_legend(layout.entries);
+    std::tie(layout.x_axis, layout.y_axis) = fit_axes(in, xs, ys, map != nullptr);
+    layout.title_lines =
+        in.title.empty() ? std::vector<std::string>{} : wrap_text(in.title, title_font, in.width_px - 2 * outer_margin);
+    const Margins margins = measure_margins(in, layout);
+    // The legend under the axes spans at most their width (known well enough before the layout).
+    layout.flowing = flowing_legend(layout.entries, in.width_px - margins.left - margins.base_right);
+    layout.x_label_bottom = margins.bottom - outer_margin;
+    layout.where = place_legend(in, layout, margins, map != nullptr);
+    layout.frame = margins.frame(layout.where, layout, in);
+    return layout;
+}
+
+// ---------------------------------------------------------------------------------------------
+// Drawing a laid-out figure, back to front
+
+void draw_bands(Svg& svg, const std::vector<Layer>& layers, const Frame& frame) {
+    const Rect& area = frame.area;
+    for (const auto& l : layers) {
+        const auto* band = layer_as<BandLayer>(l);
+        if (!band) continue;
+        // Limits clamped to the axis range first, so infinite limits reach the edge.
+        const double low = std::max(band->y_low, frame.y0), high = std::min(band->y_high, frame.y1);
+        if (!(high > low)) continue;
+        double y0 = frame.py(high), y1 = frame.py(low);
+        if (y0 > y1) std::swap(y0, y1);
+        if (!(y1 > y0)) continue;
+        svg.raw("<rect").attr("x", area.left).attr("y", y0).attr("width", area.width()).attr("height", y1 - y0);
+        svg.attr("fill", band->fill).raw("/>\n");
+    }
+}
+
+void draw_grid_lines(Svg& svg, const Layout& layout) {
+    const Frame& frame = layout.frame;
+    const Rect& area = frame.area;
+    svg.raw("<g").attr("stroke", grid_colour).raw(" stroke-width=\"1\" shape-rendering=\"crispEdges\">\n");
+    for (double t : layout.x_axis.ticks) {
+        const double x = frame.px(t);
+        if (x <= area.left + 0.5 || x >= area.right - 0.5) continue;
+        svg.raw("<line").attr("x1", x).attr("y1", area.top).attr("x2", x).attr("y2", area.bottom).raw("/>\n");
+    }
+    for (double t : layout.y_axis.ticks) {
+        const double y = frame.py(t);
+        if (y <= area.top + 0.5 || y >= area.bottom - 0.5) continue;
+        svg.raw("<line").attr("x1", area.left).attr("y1", y).attr("x2", area.right).attr("y2", y).raw("/>\n");
+    }
+    svg.raw("</g>\n");
+}
+
+void draw_category_map(Svg& svg, const CategoryMapLayer& map, const Frame& frame) {
+    const std::size_t nx = map.grid.nx();
+    draw_cells(
+        svg, map.grid, frame, [&](std::size_t ix, std::size_t iy) { return map.categories[iy * nx + ix]; },
+        [&](int key) { return map.legend[static_cast<std::size_t>(key)].colour; });
+}
+
+void draw_value_map(Svg& svg, const ValueMapLayer& map, const ColourRange& colours, const Frame& frame) {
+    const std::size_t nx = map.grid.nx();
+    std::vector<int> levels(map.values.size());
+    for (std::size_t i = 0; i < levels.size(); ++i) levels[i] = colours.level(map.values[i]);
+    draw_cells(
+        svg, map.grid, frame, [&](std::size_t ix, std::size_t iy) { return levels[iy * nx + ix]; },
+        [](int key) { return level_colour(key); });
+}
+
+void draw_line(Svg& svg, const LineLayer& layer, const Frame& frame) {
+    for (const auto& line : pixel_polylines(layer, frame)) {
+        svg.raw("<polyline fill=\"none\"");
+        stroke_attributes(svg, layer.style);
+        svg.raw(layer.style.dash.empty() ? " stroke-linecap=\"round\"" : " stroke-linecap=\"butt\"");
+        svg.raw(" stroke-linejoin=\"round\" points=\"");
+        for (std::size_t i = 0; i < line.size(); ++i) {
+            if (i > 0) svg.raw(" ");
+            svg.num(line[i].x).raw(",").num(line[i].y);
+        }
+        svg.raw("\"/>\n");
+    }
+}
+
+// A horizontal (at data y = at) or vertical (at data x = at) line across the axes.
+void draw_reference_line(Svg& svg, bool horizontal, double at, const LineStyle& style, const Frame& frame) {
+    const Rect& area = frame.area;
+    const double p = horizontal ? frame.py(at) : frame.px(at);
+    if (!std::isfinite(p)) return;
+    if (horizontal ? (p < area.top - 1 || p > area.bottom + 1) : (p < area.left - 1 || p > area.right + 1)) return;
+    svg.raw("<line");
+    if (horizontal) svg.attr("x1", area.left).attr("y1", p).attr("x2", area.right).attr("y2", p);
+    else svg.attr("x1", p).attr("y1", area.top).attr("x2", p).attr("y2", area.bottom);
+    stroke_attributes(svg, style);
+    svg.raw("/>\n");
+}
+
+// Lines and reference lines, in the order they were added (clipped to the axes by the caller).
+void draw_lines(Svg& svg, const std::vector<Layer>& layers, const Frame& frame) {
+    for (const auto& l : layers) {
+        if (const auto* line = layer_as<LineLayer>(l)) draw_line(svg, *line, frame);
+        else if (const auto* h = layer_as<HorizontalLineLayer>(l)) draw_reference_line(svg, true, h->y, h->style, frame);
+        else if (const auto* v = layer_as<VerticalLineLayer>(l)) draw_reference_line(svg, false, v->x, v->style, frame);
+    }
+}
+
+// Markers outside the axes are left out.
+void draw_markers(Svg& svg, const MarkerLayer& markers, const Frame& frame) {
+    open_marker_group(svg, markers.style);
+    svg.raw("\n");
+    for (std::size_t i = 0; i < markers.x.size(); ++i) {
+        if (!std::isfinite(markers.x[i]) || !std::isfinite(markers.y[i])) continue;
+        const double x = frame.px(markers.x[i]), y = frame.py(markers.y[i]);
+        if (!frame.area.contains(x, y, 0.5)) continue;
+        draw_marker(svg, markers.style, x, y);
+        svg.raw("\n");
+    }
+    svg.raw("</g>\n");
+}
+
+void draw_text(Svg& svg, const TextLayer& text, const Frame& frame) {
+    const double x = frame.px(text.x), y = frame.py(text.y);
+    if (!std::isfinite(x) || !std::isfinite(y) || !frame.area.contains(x, y, 1.0)) return;
+    const std::string& anchor = text.style.anchor;
+    const char* a = anchor == "middle" ? "middle" : anchor == "end" ? "end" : "start";
+    svg.text_element(x, y, text.text, std::max(1.0, text.style.size_px), a, text.style.colour, text.style.bold);
+}
+
+// Markers and text sit above the clipped layers, in the order they were added.
+void draw_markers_and_text(Svg& svg, const std::vector<Layer>& layers, const Frame& frame) {
+    for (const auto& l : layers) {
+        if (const auto* markers = layer_as<MarkerLayer>(l)) draw_markers(svg, *markers, frame);
+        else if (const auto* text = layer_as<TextLayer>(l)) draw_text(svg, *text, frame);
+    }
+}
+
+void draw_frame_and_ticks(Svg& svg, const Layout& layout) {
+    const Frame& frame = layout.frame;
+    const Rect& area = frame.area;
+    svg.raw("<g").attr("stroke", axis_colour).raw(" stroke-width=\"1\" fill=\"none\" shape-rendering=\"crispEdges\">\n");
+    svg.raw("<rect").attr("x", area.left).attr("y", area.top).attr("width", area.width()).attr("height", area.height()).raw("/>\n");
+    svg.raw("<path d=\"");
+    for (double t : layout.x_axis.ticks) {
+        const double x = frame.px(t);
+        svg.raw("M").num(x).raw(" ").num(area.bottom).raw("v").num(tick_length);
+    }
+    for (double t : layout.y_axis.ticks) {
+        const double y = frame.py(t);
+        svg.raw("M").num(area.left).raw(" ").num(y).raw("h").num(-tick_length);
+    }
+    svg.raw("\"/>\n</g>\n");
+}
+
+void draw_axis_labels(Svg& svg, const Layout& layout, const std::string& x_label, const std::string& y_label) {
+    const Frame& frame = layout.frame;
+    const Rect& area = frame.area;
+    svg.raw("<g").attr("font-size", tick_font, 1).attr("fill", tick_label_colour).raw(">\n");
+    const double x_label_baseline = area.bottom + tick_length + tick_gap + ascent * tick_font;
+    for (std::size_t i = 0; i < layout.x_axis.ticks.size(); ++i) {
+        svg.raw("<text").attr("x", frame.px(layout.x_axis.ticks[i])).attr("y", x_label_baseline);
+        svg.raw(" text-anchor=\"middle\">").text(layout.x_axis.labels[i]).raw("</text>\n");
+    }
+    for (std::size_t i = 0; i < layout.y_axis.ticks.size(); ++i) {
+        svg.raw("<text").attr("x", area.left - tick_length - tick_gap).attr("y", frame.py(layout.y_axis.ticks[i]) + 0.36 * tick_font);
+        svg.raw(" text-anchor=\"end\">").text(layout.y_axis.labels[i]).raw("</text>\n");
+    }
+    svg.raw("</g>\n");
+    if (!x_label.empty()) {
+        const double baseline = x_label_baseline + descent * tick_font + 8.0 + ascent * label_font;
+        svg.text_element((area.left + area.right) / 2, baseline, x_label, label_font, "middle", label_colour);
+    }
+    if (!y_label.empty()) {
+        const double x = outer_margin + ascent * label_font, y = (area.top + area.bottom) / 2;
+        const std::string transform = "translate(" + number(x) + "," + number(y) + ") rotate(-90)";
+        svg.text_element(0, 0, y_label, label_font, "middle", label_colour, false, transform);
+    }
+}
+
+// Centred over the axes when it fits there, else over the figure.
+void draw_title(Svg& svg, const Layout& layout, double width_px) {
+    const Rect& area = layout.frame.area;
+    for (std::size_t i = 0; i < layout.title_lines.size(); ++i) {
+        const double w = text_width_px(layout.title_lines[i], title_font, true);
+        double centre = (area.left + area.right) / 2;
+        if (centre - w / 2 < outer_margin || centre + w / 2 > width_px - outer_margin) centre = width_px / 2;
+        const double baseline = outer_margin + ascent * title_font + title_font * 1.25 * static_cast<double>(i);
+        svg.text_element(centre, baseline, layout.title_lines[i], title_font, "middle", label_colour, true);
+    }
+}
+
+// One band per colour level, exactly as the map quantises them.
+void draw_colour_bar(Svg& svg, const ColourBar& bar, const Rect& area) {
+    const ColourRange& colours = bar.colours;
+    const double x0 = area.right + bar_gap, h = area.height();
+    svg.raw("<g shape-rendering=\"crispEdges\">\n");
+    for (int level = 0; level < colour_levels; ++level) {
+        const double y_top = std::round(area.bottom - h * (level + 1) / colour_levels);
+        const double y_bottom = std::round(area.bottom - h * level / colour_levels);
+        if (y_bottom <= y_top) continue;
+        svg.raw("<rect").attr("x", x0).attr("y", y_top).attr("width", bar_width).attr("height", y_bottom - y_top);
+        svg.attr("fill", level_colour(level)).raw("/>\n");
+    }
+    svg.raw("<rect").attr("x", x0).attr("y", area.top).attr("width", bar_width).attr("height", h);
+    svg.raw(" fill=\"none\"").attr("stroke", axis_colour).raw("/>\n<path").attr("stroke", axis_colour).raw(" d=\"");
+    std::vector<double> tick_y;
+    for (double t : bar.ticks) {
+        const double f = colours.fraction(t);
+        tick_y.push_back(area.bottom - f * h);
+        svg.raw("M").num(x0 + bar_width).raw(" ").num(tick_y.back()).raw("h").num(tick_length);
+    }
+    if (colours.logarithmic) {
+        // Unlabelled ticks at 2..9 x 10^k show the scale is logarithmic.
+        const int first = static_cast<int>(std::floor(std::log10(colours.low)));
+        const int last = static_cast<int>(std::ceil(std::log10(colours.high)));
+        if (last - first <= 8) {
+            for (int e = first; e <= last; ++e) {
+                for (int m = 2; m <= 9; ++m) {
+                    const double v = m * std::pow(10.0, e);
+                    if (v < colours.low || v > colours.high) continue;
+                    svg.raw("M").num(x0 + bar_width).raw(" ").num(area.bottom - colours.fraction(v) * h).raw("h3");
                 }
             }
         }
     }
-    const Frame frame = frame_for(where);
+    svg.raw("\"/>\n</g>\n");
+    svg.raw("<g").attr("font-size", tick_font, 1).attr("fill", tick_label_colour).raw(">\n");
+    for (std::size_t i = 0; i < bar.ticks.size(); ++i) {
+        svg.raw("<text").attr("x", x0 + bar_width + tick_length + tick_gap).attr("y", tick_y[i] + 0.36 * tick_font);
+        svg.raw(">").text(bar.labels[i]).raw("</text>\n");
+    }
+    svg.raw("</g>\n");
+    if (!colours.label.empty()) {
+        const double x = x0 + bar_width + tick_length + tick_gap + bar.label_width + 10.0 + ascent * label_font;
+        const std::string transform =
+            "translate(" + number(x) + "," + number((area.top + area.bottom) / 2) + ") rotate(-90)";
+        svg.text_element(0, 0, colours.label, label_font, "middle", label_colour, false, transform);
+    }
+}
+
+// The legend's box for the chosen position.
+Rect legend_box(const Layout& layout) {
+    const Rect& area = layout.frame.area;
+    const LegendLayout& entries = layout.where == LegendPosition::below ? layout.flowing : layout.stacked;
+    if (layout.where == LegendPosition::outside_right) {
+        const double x = area.right + (layout.bar ? layout.bar->block : 0.0) + 16.0;
+        return {x, area.top, x + entries.width, area.top + entries.height};
+    }
+    if (layout.where == LegendPosition::below) {
+        const double x = std::max(outer_margin, (area.left + area.right - entries.width) / 2);
+        const double y = area.bottom + layout.x_label_bottom + 8.0;
+        return {x, y, x + entries.width, y + entries.height};
+    }
+    return inside_legend_box(layout.frame, layout.where, layout.stacked);
+}
+
+void draw_legend_swatch(Svg& svg, const LegendEntry& e, double sx, double cy) {
+    const bool light = e.swatch == LegendEntry::Swatch::line     ? is_light_colour(e.line.colour)
+                       : e.swatch == LegendEntry::Swatch::marker ? is_light_colour(e.marker.colour)
+                                                                 : false;
+    if (light) {  // a grey backing, as light lines are meant to be seen on dark maps
+        svg.raw("<rect").attr("x", sx).attr("y", cy - 7).attr("width", legend_swatch).attr("height", 14);
+        svg.raw(" fill=\"#8c8c8c\"/>\n");
+    }
+    switch (e.swatch) {
+        case LegendEntry::Swatch::line: {
+            LineStyle style = e.line;
+            style.width_px = std::clamp(style.width_px, 1.0, 4.0);
+            style.opacity = std::max(style.opacity, 0.6);
+            svg.raw("<line").attr("x1", sx).attr("y1", cy).attr("x2", sx + legend_swatch).attr("y2", cy);
+            stroke_attributes(svg, style);
+            svg.raw("/>\n");
+            break;
+        }
+        case LegendEntry::Swatch::marker: {
+            MarkerStyle style = e.marker;
+            style.radius_px = std::clamp(style.radius_px, 2.5, 6.0);
+            open_marker_group(svg, style);
+            draw_marker(svg, style, sx + legend_swatch / 2, cy);
+            svg.raw("</g>\n");
+            break;
+        }
+        case LegendEntry::Swatch::patch:
+            svg.raw("<rect").attr("x", sx + 2).attr("y", cy - 6).attr("width", legend_swatch - 4).attr("height", 12);
+            svg.attr("fill", e.fill).raw(" stroke=\"#999999\" stroke-width=\"0.5\"/>\n");
+            break;
+    }
+}
+
+void draw_legend(Svg& svg, const Layout& layout) {
+    const Rect box = legend_box(layout);
+    const LegendLayout& placed = layout.where == LegendPosition::below ? layout.flowing : layout.stacked;
+    svg.raw("<g>\n<rect").attr("x", box.left).attr("y", box.top).attr("width", box.width()).attr("height", box.height());
+    svg.raw(" rx=\"3\" fill=\"#ffffff\" fill-opacity=\"0.92\" stroke=\"#c8c8c8\"/>\n");
+    for (std::size_t i = 0; i < layout.entries.size(); ++i) {
+        const LegendEntry& e = layout.entries[i];
+        const double cy = box.top + placed.entries[i].y;
+        const double sx = box.left + placed.entries[i].x;
+        draw_legend_swatch(svg, e, sx, cy);
+        svg.text_element(sx + legend_swatch + legend_gap, cy + 0.36 * legend_font, e.label, legend_font, "start",
+                         label_colour);
+    }
+    svg.raw("</g>\n");
+}
+
+}  // namespace
+
+std::string Figure::svg_body(const std::string& id_prefix) const {
+    const Layout layout = lay_out({width_px_, height_px_, title_, x_label_, y_label_, x_low_, x_high_, y_low_, y_high_,
+                                   y_inverted_, legend_position_, layers_});
+    const Frame& frame = layout.frame;
     const Rect& area = frame.area;
 
-    // ---- drawing
     std::string out;
     out.reserve(1 << 16);
     Svg svg(out);
@@ -1002,246 +1425,23 @@ std::string Figure::svg_body(const std::string& id_prefix) const {
     svg.raw("<defs><clipPath").attr("id", clip_id).raw("><rect").attr("x", area.left).attr("y", area.top);
     svg.attr("width", area.width()).attr("height", area.height()).raw("/></clipPath></defs>\n");
 
+    // Clipped to the axes: bands under the grid, then the grid, the map and the lines.
     svg.raw("<g clip-path=\"url(#").text(clip_id).raw(")\">\n");
-    // Bands first, under the grid and the data.
-    for (const auto& l : layers_) {
-        if (l.kind != Kind::band) continue;
-        // Limits clamped to the axis range first, so infinite limits reach the edge.
-        const double low = std::max(l.a, frame.y0), high = std::min(l.b, frame.y1);
-        if (!(high > low)) continue;
-        double y0 = frame.py(high), y1 = frame.py(low);
-        if (y0 > y1) std::swap(y0, y1);
-        if (!(y1 > y0)) continue;
-        svg.raw("<rect").attr("x", area.left).attr("y", y0).attr("width", area.width()).attr("height", y1 - y0);
-        svg.attr("fill", l.fill).raw("/>\n");
+    draw_bands(svg, layers_, frame);
+    if (grid_) draw_grid_lines(svg, layout);
+    if (const Layer* map = grid_map_layer(layers_)) {
+        if (const auto* categories = layer_as<CategoryMapLayer>(*map)) draw_category_map(svg, *categories, frame);
+        else draw_value_map(svg, std::get<ValueMapLayer>(map->content), layout.bar->colours, frame);
     }
-    if (grid_) {
-        svg.raw("<g").attr("stroke", grid_colour).raw(" stroke-width=\"1\" shape-rendering=\"crispEdges\">\n");
-        for (double t : x_axis.ticks) {
-            const double x = frame.px(t);
-            if (x <= area.left + 0.5 || x >= area.right - 0.5) continue;
-            svg.raw("<line").attr("x1", x).attr("y1", area.top).attr("x2", x).attr("y2", area.bottom).raw("/>\n");
-        }
-        for (double t : y_axis.ticks) {
-            const double y = frame.py(t);
-            if (y <= area.top + 0.5 || y >= area.bottom - 0.5) continue;
-            svg.raw("<line").attr("x1", area.left).attr("y1", y).attr("x2", area.right).attr("y2", y).raw("/>\n");
-        }
-        svg.raw("</g>\n");
-    }
-    if (map && map->kind == Kind::category_map) {
-        const LayerData& m = *map;
-        const std::size_t nx = m.grid.nx();
-        draw_cells(
-            svg, m.grid, frame, [&](std::size_t ix, std::size_t iy) { return m.categories[iy * nx + ix]; },
-            [&](int key) { return m.category_legend[static_cast<std::size_t>(key)].colour; });
-    } else if (map) {
-        const LayerData& m = *map;
-        const std::size_t nx = m.grid.nx();
-        std::vector<int> levels(m.values.size());
-        for (std::size_t i = 0; i < levels.size(); ++i) levels[i] = colours->level(m.values[i]);
-        draw_cells(
-            svg, m.grid, frame, [&](std::size_t ix, std::size_t iy) { return levels[iy * nx + ix]; },
-            [](int key) { return level_colour(key); });
-    }
-    for (const auto& l : layers_) {
-        if (l.kind == Kind::line) {
-            for (const auto& line : pixel_polylines(l, frame)) {
-                svg.raw("<polyline fill=\"none\"");
-                stroke_attributes(svg, l.line);
-                svg.raw(l.line.dash.empty() ? " stroke-linecap=\"round\"" : " stroke-linecap=\"butt\"");
-                svg.raw(" stroke-linejoin=\"round\" points=\"");
-                for (std::size_t i = 0; i < line.size(); ++i) {
-                    if (i > 0) svg.raw(" ");
-                    svg.num(line[i].x).raw(",").num(line[i].y);
-                }
-                svg.raw("\"/>\n");
-            }
-        } else if (l.kind == Kind::hline || l.kind == Kind::vline) {
-            const bool horizontal = l.kind == Kind::hline;
-            const double p = horizontal ? frame.py(l.a) : frame.px(l.a);
-            if (!std::isfinite(p)) continue;
-            if (horizontal ? (p < area.top - 1 || p > area.bottom + 1) : (p < area.left - 1 || p > area.right + 1)) continue;
-            svg.raw("<line");
-            if (horizontal) svg.attr("x1", area.left).attr("y1", p).attr("x2", area.right).attr("y2", p);
-            else svg.attr("x1", p).attr("y1", area.top).attr("x2", p).attr("y2", area.bottom);
-            stroke_attributes(svg, l.line);
-            svg.raw("/>\n");
-        }
-    }
+    draw_lines(svg, layers_, frame);
     svg.raw("</g>\n");
 
-    // Markers and text sit above the clipped layers; markers outside the axes are left out.
-    for (const auto& l : layers_) {
-        if (l.kind == Kind::markers) {
-            open_marker_group(svg, l.marker);
-            svg.raw("\n");
-            for (std::size_t i = 0; i < l.x.size(); ++i) {
-                if (!std::isfinite(l.x[i]) || !std::isfinite(l.y[i])) continue;
-                const double x = frame.px(l.x[i]), y = frame.py(l.y[i]);
-                if (!area.contains(x, y, 0.5)) continue;
-                draw_marker(svg, l.marker, x, y);
-                svg.raw("\n");
-            }
-            svg.raw("</g>\n");
-        } else if (l.kind == Kind::text) {
-            const double x = frame.px(l.a), y = frame.py(l.b);
-            if (!std::isfinite(x) || !std::isfinite(y) || !area.contains(x, y, 1.0)) continue;
-            const std::string& anchor = l.text_style.anchor;
-            const char* a = anchor == "middle" ? "middle" : anchor == "end" ? "end" : "start";
-            svg.text_element(x, y, l.text, std::max(1.0, l.text_style.size_px), a, l.text_style.colour,
-                             l.text_style.bold);
-        }
-    }
-
-    // Frame and ticks.
-    svg.raw("<g").attr("stroke", axis_colour).raw(" stroke-width=\"1\" fill=\"none\" shape-rendering=\"crispEdges\">\n");
-    svg.raw("<rect").attr("x", area.left).attr("y", area.top).attr("width", area.width()).attr("height", area.height()).raw("/>\n");
-    svg.raw("<path d=\"");
-    for (double t : x_axis.ticks) {
-        const double x = frame.px(t);
-        svg.raw("M").num(x).raw(" ").num(area.bottom).raw("v").num(tick_length);
-    }
-    for (double t : y_axis.ticks) {
-        const double y = frame.py(t);
-        svg.raw("M").num(area.left).raw(" ").num(y).raw("h").num(-tick_length);
-    }
-    svg.raw("\"/>\n</g>\n");
-
-    // Tick labels and axis labels.
-    svg.raw("<g").attr("font-size", tick_font, 1).attr("fill", tick_label_colour).raw(">\n");
-    const double x_label_baseline = area.bottom + tick_length + tick_gap + ascent * tick_font;
-    for (std::size_t i = 0; i < x_axis.ticks.size(); ++i) {
-        svg.raw("<text").attr("x", frame.px(x_axis.ticks[i])).attr("y", x_label_baseline);
-        svg.raw(" text-anchor=\"middle\">").text(x_axis.labels[i]).raw("</text>\n");
-    }
-    for (std::size_t i = 0; i < y_axis.ticks.size(); ++i) {
-        svg.raw("<text").attr("x", area.left - tick_length - tick_gap).attr("y", frame.py(y_axis.ticks[i]) + 0.36 * tick_font);
-        svg.raw(" text-anchor=\"end\">").text(y_axis.labels[i]).raw("</text>\n");
-    }
-    svg.raw("</g>\n");
-    if (!x_label_.empty()) {
-        const double baseline = x_label_baseline + descent * tick_font + 8.0 + ascent * label_font;
-        svg.text_element((area.left + area.right) / 2, baseline, x_label_, label_font, "middle", label_colour);
-    }
-    if (!y_label_.empty()) {
-        const double x = outer_margin + ascent * label_font, y = (area.top + area.bottom) / 2;
-        const std::string transform = "translate(" + number(x) + "," + number(y) + ") rotate(-90)";
-        svg.text_element(0, 0, y_label_, label_font, "middle", label_colour, false, transform);
-    }
-
-    // Title: centred over the axes when it fits there, else over the figure.
-    for (std::size_t i = 0; i < title_lines.size(); ++i) {
-        const double w = text_width_px(title_lines[i], title_font, true);
-        double centre = (area.left + area.right) / 2;
-        if (centre - w / 2 < outer_margin || centre + w / 2 > width_px_ - outer_margin) centre = width_px_ / 2;
-        const double baseline = outer_margin + ascent * title_font + title_font * 1.25 * static_cast<double>(i);
-        svg.text_element(centre, baseline, title_lines[i], title_font, "middle", label_colour, true);
-    }
-
-    // Colour bar: one band per colour level, exactly as the map quantises them.
-    if (colours) {
-        const double x0 = area.right + bar_gap, h = area.height();
-        svg.raw("<g shape-rendering=\"crispEdges\">\n");
-        for (int level = 0; level < colour_levels; ++level) {
-            const double y_top = std::round(area.bottom - h * (level + 1) / colour_levels);
-            const double y_bottom = std::round(area.bottom - h * level / colour_levels);
-            if (y_bottom <= y_top) continue;
-            svg.raw("<rect").attr("x", x0).attr("y", y_top).attr("width", bar_width).attr("height", y_bottom - y_top);
-            svg.attr("fill", level_colour(level)).raw("/>\n");
-        }
-        svg.raw("<rect").attr("x", x0).attr("y", area.top).attr("width", bar_width).attr("height", h);
-        svg.raw(" fill=\"none\"").attr("stroke", axis_colour).raw("/>\n<path").attr("stroke", axis_colour).raw(" d=\"");
-        std::vector<double> tick_y;
-        for (double t : bar_ticks) {
-            const double f = colours->fraction(t);
-            tick_y.push_back(area.bottom - f * h);
-            svg.raw("M").num(x0 + bar_width).raw(" ").num(tick_y.back()).raw("h").num(tick_length);
-        }
-        if (colours->logarithmic) {
-            // Unlabelled ticks at 2..9 x 10^k show the scale is logarithmic.
-            const int first = static_cast<int>(std::floor(std::log10(colours->low)));
-            const int last = static_cast<int>(std::ceil(std::log10(colours->high)));
-            if (last - first <= 8) {
-                for (int e = first; e <= last; ++e) {
-                    for (int m = 2; m <= 9; ++m) {
-                        const double v = m * std::pow(10.0, e);
-                        if (v < colours->low || v > colours->high) continue;
-                        svg.raw("M").num(x0 + bar_width).raw(" ").num(area.bottom - colours->fraction(v) * h).raw("h3");
-                    }
-                }
-            }
-        }
-        svg.raw("\"/>\n</g>\n");
-        svg.raw("<g").attr("font-size", tick_font, 1).attr("fill", tick_label_colour).raw(">\n");
-        for (std::size_t i = 0; i < bar_ticks.size(); ++i) {
-            svg.raw("<text").attr("x", x0 + bar_width + tick_length + tick_gap).attr("y", tick_y[i] + 0.36 * tick_font);
-            svg.raw(">").text(bar_labels[i]).raw("</text>\n");
-        }
-        svg.raw("</g>\n");
-        if (!colours->label.empty()) {
-            const double x = x0 + bar_width + tick_length + tick_gap + bar_label_width + 10.0 + ascent * label_font;
-            const std::string transform =
-                "translate(" + number(x) + "," + number((area.top + area.bottom) / 2) + ") rotate(-90)";
-            svg.text_element(0, 0, colours->label, label_font, "middle", label_colour, false, transform);
-        }
-    }
-
-    // Legend.
-    if (where != LegendPosition::hidden && !entries.empty()) {
-        Rect box;
-        const LegendLayout& layout = where == LegendPosition::below ? flowing : stacked;
-        if (where == LegendPosition::outside_right) {
-            const double x = area.right + (colours ? bar_block : 0.0) + 16.0;
-            box = {x, area.top, x + layout.width, area.top + layout.height};
-        } else if (where == LegendPosition::below) {
-            const double x = std::max(outer_margin, (area.left + area.right - layout.width) / 2);
-            const double y = area.bottom + x_label_bottom + 8.0;
-            box = {x, y, x + layout.width, y + layout.height};
-        } else {
-            box = inside_box(frame, where);
-        }
-        svg.raw("<g>\n<rect").attr("x", box.left).attr("y", box.top).attr("width", box.width()).attr("height", box.height());
-        svg.raw(" rx=\"3\" fill=\"#ffffff\" fill-opacity=\"0.92\" stroke=\"#c8c8c8\"/>\n");
-        for (std::size_t i = 0; i < entries.size(); ++i) {
-            const LegendEntry& e = entries[i];
-            const double cy = box.top + layout.entries[i].y;
-            const double sx = box.left + layout.entries[i].x;
-            const bool light = e.swatch == LegendEntry::Swatch::line     ? is_light_colour(e.line.colour)
-                               : e.swatch == LegendEntry::Swatch::marker ? is_light_colour(e.marker.colour)
-                                                                         : false;
-            if (light) {  // a grey backing, as light lines are meant to be seen on dark maps
-                svg.raw("<rect").attr("x", sx).attr("y", cy - 7).attr("width", legend_swatch).attr("height", 14);
-                svg.raw(" fill=\"#8c8c8c\"/>\n");
-            }
-            switch (e.swatch) {
-                case LegendEntry::Swatch::line: {
-                    LineStyle style = e.line;
-                    style.width_px = std::clamp(style.width_px, 1.0, 4.0);
-                    style.opacity = std::max(style.opacity, 0.6);
-                    svg.raw("<line").attr("x1", sx).attr("y1", cy).attr("x2", sx + legend_swatch).attr("y2", cy);
-                    stroke_attributes(svg, style);
-                    svg.raw("/>\n");
-                    break;
-                }
-                case LegendEntry::Swatch::marker: {
-                    MarkerStyle style = e.marker;
-                    style.radius_px = std::clamp(style.radius_px, 2.5, 6.0);
-                    open_marker_group(svg, style);
-                    draw_marker(svg, style, sx + legend_swatch / 2, cy);
-                    svg.raw("</g>\n");
-                    break;
-                }
-                case LegendEntry::Swatch::patch:
-                    svg.raw("<rect").attr("x", sx + 2).attr("y", cy - 6).attr("width", legend_swatch - 4).attr("height", 12);
-                    svg.attr("fill", e.fill).raw(" stroke=\"#999999\" stroke-width=\"0.5\"/>\n");
-                    break;
-            }
-            svg.text_element(sx + legend_swatch + legend_gap, cy + 0.36 * legend_font, e.label, legend_font, "start",
-                             label_colour);
-        }
-        svg.raw("</g>\n");
-    }
+    draw_markers_and_text(svg, layers_, frame);
+    draw_frame_and_ticks(svg, layout);
+    draw_axis_labels(svg, layout, x_label_, y_label_);
+    draw_title(svg, layout, width_px_);
+    if (layout.bar) draw_colour_bar(svg, *layout.bar, area);
+    if (layout.where != LegendPosition::hidden && !layout.entries.empty()) draw_legend(svg, layout);
     svg.raw("</g>\n");
     return out;
 }

@@ -1,5 +1,6 @@
-// SVG plots written by firnray itself: one set of axes per Figure, with ticks, labels in units,
-// a title naming the model, a legend or colour scale. Line, marker, band and grid-map layers.
+// A generic SVG figure library: one set of axes per Figure, with ticks, labels in units, a title,
+// a legend or colour scale, and layers of lines, markers, bands, reference lines, text and grid
+// maps. It knows nothing of what is plotted: the output layer (src/output/) configures it.
 // Figures can be placed side by side or stacked into one SVG document (compose_figures).
 #pragma once
 
@@ -58,6 +59,10 @@ struct ColourScale {
 // or below them, whichever leaves the axes more room.
 enum class LegendPosition { automatic, top_right, top_left, bottom_right, bottom_left, outside_right, below, hidden };
 
+namespace detail {
+struct Layer;  // one line, marker set, band, reference line, text or grid map (figure.cpp)
+}
+
 class Figure {
 public:
     explicit Figure(double width_px = 960, double height_px = 600);
@@ -74,7 +79,7 @@ public:
     // widened to the nearest nice ticks (maps: the data range exactly).
     Figure& x_range(double low, double high);
     Figure& y_range(double low, double high);
-    Figure& invert_y(bool inverted = true);  // y increasing downward, e.g. for depth
+    Figure& invert_y(bool inverted = true);  // y increasing downward
     Figure& legend_position(LegendPosition where);
     Figure& grid(bool shown = true);         // light grid lines at the ticks (default on)
 
@@ -82,7 +87,7 @@ public:
                      std::string legend = "");  // a NaN in x or y breaks the line
     Figure& add_markers(std::span<const double> x, std::span<const double> y, const MarkerStyle& style,
                         std::string legend = "");
-    // A shaded horizontal band (e.g. the air above z = 0), drawn under everything else.
+    // A shaded horizontal band across the axes, drawn under everything else.
     // Either limit may be infinite: the band then reaches the edge of the axes.
     Figure& add_y_band(double y_low, double y_high, std::string fill, std::string legend = "");
     Figure& add_hline(double y, const LineStyle& style, std::string legend = "");
@@ -107,12 +112,11 @@ public:
     std::string svg_body(const std::string& id_prefix) const;
 
 private:
-    struct Layer;
     double width_px_, height_px_;
     std::string title_, x_label_, y_label_;
     double x_low_ = std::numeric_limits<double>::quiet_NaN(), x_high_ = x_low_;
     double y_low_ = x_low_, y_high_ = x_low_;
-    std::vector<Layer> layers_;
+    std::vector<detail::Layer> layers_;
     bool y_inverted_ = false;
     bool grid_ = true;
     LegendPosition legend_position_ = LegendPosition::automatic;

@@ -1,7 +1,8 @@
 // Arrival-time tables for a station: for each source position, every path to every receiver,
 // the differences relative to a reference channel, the time between the first two paths at each
 // receiver and, optionally, the derivatives of each arrival time with respect to the source
-// position (what the resolution of a reconstruction depends on).
+// position (what the resolution of a reconstruction depends on). The tables are written by the
+// output layer (output/delay_output.hpp).
 #pragma once
 
 #include <optional>
@@ -29,33 +30,31 @@ struct DelayOptions {
 };
 
 struct ReceiverArrivals {
-    std::vector<ConnectedPath> paths;  // sorted by time; empty in the shadow zone
+    std::vector<ConnectedPath> paths;  // sorted by time; empty in the shadow zone or on failure
     // ∂T/∂(source x, y, z) per path, s/m: minus the slowness vector of the ray where it leaves
     // the source (Fermat's principle: ∇_source T = −n(source)/c · launch direction).
     struct Gradient {
         double dx = 0.0, dy = 0.0, dz = 0.0;
     };
     std::vector<Gradient> gradients;
+    // Non-empty when the paths to this receiver could not be found (a source at the receiver's
+    // own position, a numerical failure): only this channel fails, the others are computed.
+    std::string error;
 };
 
 struct SourceDelays {
-    std::vector<ReceiverArrivals> receivers;  // in station order
-    std::string error;                        // non-empty when this source failed
+    std::vector<ReceiverArrivals> receivers;  // in station order (empty when the source failed)
+    std::string error;                        // non-empty when the whole source failed (a bad input row)
+    std::size_t failed_channels() const;      // receivers whose own error is set
 };
 
-// One entry per source, in input order; a failing source records its error and the rest go on.
+// One entry per source, in input order. A bad source row records its error; a channel that fails
+// records its error in that receiver's entry; the rest go on.
 std::vector<SourceDelays> compute_delays(const RaySolver& solver, const std::vector<Receiver>& receivers,
                                          const std::vector<DelaySource>& sources, const DelayOptions& options);
 
 // Sources from a CSV file with columns x_m, z_m and optionally y_m and name (one source per row;
 // a bad row becomes a DelaySource with its error set).
 std::vector<DelaySource> read_delay_sources(const std::string& path);
-
-// Output writers (long format: one row per source × receiver × path; error rows for bad sources).
-std::string delay_table_csv(const std::vector<DelaySource>& sources, const std::vector<SourceDelays>& delays,
-                            const std::vector<Receiver>& receivers, const DelayOptions& options, bool derivatives);
-std::string delay_table_json(const std::vector<DelaySource>& sources, const std::vector<SourceDelays>& delays,
-                             const std::vector<Receiver>& receivers, const DelayOptions& options, bool derivatives,
-                             const std::string& model_name);
 
 }  // namespace firnray

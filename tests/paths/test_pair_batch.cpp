@@ -15,6 +15,7 @@
 #include "core/constants.hpp"
 #include "core/errors.hpp"
 #include "model/table_profile.hpp"
+#include "output/path_output.hpp"
 #include "paths/pair_batch.hpp"
 #include "solver/closed_form_solver.hpp"
 #include "solver/numeric_solver.hpp"

@@ -1,7 +1,7 @@
 // Delay tables: homogeneous-medium delays against distance × n / c (definition), time
 // derivatives against finite differences of the times themselves (Fermat's principle: the
-// gradient of T with respect to the source is minus the slowness vector at the source), and a
-// batch that survives a bad row.
+// gradient of T with respect to the source is minus the slowness vector at the source), a
+// batch that survives a bad row, and a source at one receiver that fails that channel alone.
 #include <catch2/catch.hpp>
 
 #include <cmath>
@@ -112,4 +112,27 @@ TEST_CASE("firnray delays: a bad source row gets an error row, the rest runs, ex
     CHECK(unknown.err.find("no receiver named 'Z9'") != std::string::npos);
     const auto neither = test::run_firnray({"delays", "--station", test::source_path("demo/station.toml")});
     CHECK(neither.exit_code == 2);
+}
+
+TEST_CASE("delays: a source exactly at one receiver fails only that channel, the others are computed "
+          "(homogeneous medium, distance × n / c by definition)",
+          "[station][delays]") {
+    const double n = 1.78;
+    ClosedFormSolver solver(test::homogeneous_model(n));
+    const auto receivers = two_receivers();
+    std::vector<DelaySource> sources(1);
+    sources[0].position = {receivers[0].x_m, receivers[0].y_m, receivers[0].z_m};  // at receiver A
+    const auto delays = compute_delays(solver, receivers, sources, DelayOptions{});
+    REQUIRE(delays.size() == 1);
+    CHECK(delays[0].error.empty());
+    REQUIRE(delays[0].receivers.size() == 2);
+    CHECK(delays[0].failed_channels() == 1);
+    const ReceiverArrivals& at_a = delays[0].receivers[0];
+    CHECK(at_a.paths.empty());
+    CHECK(at_a.error.find("receiver 'A'") != std::string::npos);
+    const ReceiverArrivals& at_b = delays[0].receivers[1];
+    CHECK(at_b.error.empty());
+    REQUIRE_FALSE(at_b.paths.empty());
+    const double d = std::sqrt(30.0 * 30.0 + 20.0 * 20.0 + 50.0 * 50.0);
+    CHECK(at_b.paths.front().time_s == Approx(n * d / speed_of_light).epsilon(1e-12));
 }

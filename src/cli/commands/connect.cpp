@@ -9,6 +9,7 @@
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
 #include "cli/exit_codes.hpp"
+#include "output/path_output.hpp"
 #include "paths/pair_batch.hpp"
 #include "solver/make_solver.hpp"
 

@@ -10,6 +10,7 @@
 #include "cli/exit_codes.hpp"
 #include "core/constants.hpp"
 #include "solver/make_solver.hpp"
+#include "output/delay_output.hpp"
 #include "station/delay_table.hpp"
 
 namespace firnray::cli {

@@ -7,7 +7,7 @@
 #include "core/errors.hpp"
 #include "solver/make_solver.hpp"
 #include "station/depth_scan.hpp"
-#include "station/map_output.hpp"
+#include "output/map_output.hpp"
 
 namespace firnray::cli {
 

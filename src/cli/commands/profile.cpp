@@ -11,7 +11,7 @@
 #include "cli/common.hpp"
 #include "model/density.hpp"
 #include "model/fit_data.hpp"
-#include "model/profile_output.hpp"
+#include "output/profile_output.hpp"
 #include "model/profile_samples.hpp"
 
 namespace firnray::cli {

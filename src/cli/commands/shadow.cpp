@@ -9,9 +9,8 @@
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
 #include "core/errors.hpp"
-#include "plot/figure.hpp"
 #include "solver/make_solver.hpp"
-#include "station/map_output.hpp"
+#include "output/map_output.hpp"
 #include "station/visibility_map.hpp"
 
 namespace firnray::cli {

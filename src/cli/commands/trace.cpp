@@ -12,7 +12,7 @@
 #include "cli/common.hpp"
 #include "core/constants.hpp"
 #include "trace/ray_tracer.hpp"
-#include "trace/trace_output.hpp"
+#include "output/trace_output.hpp"
 
 namespace firnray::cli {
 

@@ -1,6 +1,4 @@
-#include "model/firn_model.hpp"
-
-#include "io/json_writer.hpp"
+#include "output/model_json.hpp"
 
 namespace firnray {
 

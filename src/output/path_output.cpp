@@ -1,16 +1,19 @@
-#include "paths/path_output.hpp"
+#include "output/path_output.hpp"
 
 #include <algorithm>
 #include <cmath>
 #include <iterator>
 #include <limits>
+#include <optional>
 
 #include <fmt/compile.h>
 #include <fmt/format.h>
 
 #include "core/constants.hpp"
 #include "core/errors.hpp"
+#include "io/csv_writer.hpp"
 #include "io/json_writer.hpp"
+#include "output/text_sink.hpp"
 
 namespace firnray {
 
@@ -52,11 +55,11 @@ void put_repeated(Buffer& out, std::size_t count, char c) {
 
 constexpr double half_unit(int digits) { return digits <= 0 ? 0.5 : 0.1 * half_unit(digits - 1); }
 
-// Fixed-point text of a finite number, without a "-0.000" for values that round to zero;
-// non-finite values are left out (an empty CSV field).
+// Fixed-point text of a finite number, without a "-0.000" for values that round to zero; a
+// value that is not finite is refused with the field's name.
 template <int Digits>
-void fixed(Buffer& out, double value) {
-    if (!std::isfinite(value)) return;
+void fixed(Buffer& out, double value, std::string_view field) {
+    if (!std::isfinite(value)) require_finite(value, field);
     if (std::abs(value) < half_unit(Digits)) value = 0.0;
     if constexpr (Digits == 2) fmt::format_to(fmt::appender(out), FMT_COMPILE("{:.2f}"), value);
     else if constexpr (Digits == 3) fmt::format_to(fmt::appender(out), FMT_COMPILE("{:.3f}"), value);
@@ -68,8 +71,8 @@ void fixed(Buffer& out, double value) {
     else static_assert(Digits == 3, "add the format string for this precision");
 }
 
-void significant(Buffer& out, double value) {
-    if (!std::isfinite(value)) return;
+void significant(Buffer& out, double value, std::string_view field) {
+    if (!std::isfinite(value)) require_finite(value, field);
     fmt::format_to(fmt::appender(out), FMT_COMPILE("{:.9g}"), value + 0.0);
 }
 
@@ -83,18 +86,12 @@ constexpr std::string_view csv_path_columns =
     "fresnel_p_im,flux_factor,spreading_m,attenuation,field_s_re,field_s_im,field_p_re,field_p_im,caustic";
 constexpr std::size_t csv_path_column_count = 25;
 
-void csv_text(Buffer& out, std::string_view text) {
-    if (text.find_first_of(",\"\n\r") == std::string_view::npos) {
-        put(out, text);
-        return;
-    }
-    put(out, '"');
-    for (const char c : text) {
-        if (c == '"') put(out, "\"\"");
-        else put(out, (c == '\n' || c == '\r') ? ' ' : c);
-    }
-    put(out, '"');
-}
+void csv_text(Buffer& out, std::string_view text) { append_csv_field(out, text); }
+
+// What is absent at a caustic, where ray theory gives no amplitude (connected_path.hpp): the
+// field, and L_eff when it could not be computed.
+bool has_spreading(const PathAmplitude& a) { return !a.caustic || std::isfinite(a.spreading_distance_m); }
+bool has_field(const PathAmplitude& a) { return !a.caustic; }
 
 // The 25 path columns, without a leading or trailing separator.
 void csv_path(Buffer& out, std::size_t rank, const ConnectedPath& p, const Geometry& g) {
@@ -102,31 +99,41 @@ void csv_path(Buffer& out, std::size_t rank, const ConnectedPath& p, const Geome
     put(out, ',');
     put(out, to_string(p.kind));
     put(out, ',');
-    fixed<6>(out, p.time_s * seconds_to_ns);
+    fixed<6>(out, p.time_s * seconds_to_ns, "time_ns");
     put(out, ',');
-    fixed<8>(out, rad_to_deg(p.launch_zenith_rad));
+    fixed<8>(out, rad_to_deg(p.launch_zenith_rad), "launch_zenith_deg");
     put(out, ',');
-    fixed<8>(out, rad_to_deg(p.arrival_zenith_rad));
+    fixed<8>(out, rad_to_deg(p.arrival_zenith_rad), "arrival_zenith_deg");
     put(out, ',');
-    fixed<6>(out, p.length_m);
+    fixed<6>(out, p.length_m, "length_m");
     put(out, ',');
-    fixed<10>(out, p.ray_parameter);
+    fixed<10>(out, p.ray_parameter, "ray_parameter");
     put(out, ',');
-    if (p.turning_z_m) fixed<6>(out, *p.turning_z_m);
+    if (p.turning_z_m) fixed<6>(out, *p.turning_z_m, "turning_z_m");
     for (const int count : {p.turning_points, p.surface_bounces, p.bottom_bounces}) {
         put(out, ',');
         integer(out, count);
     }
     put(out, ',');
-    fixed<6>(out, g.distance_m);
+    fixed<6>(out, g.distance_m, "horizontal_distance_m");
     put(out, ',');
-    fixed<8>(out, g.azimuth_deg);
+    fixed<8>(out, g.azimuth_deg, "azimuth_deg");
     const PathAmplitude& a = p.amplitude;
-    for (const double v : {a.interface_s.real(), a.interface_s.imag(), a.interface_p.real(), a.interface_p.imag(),
-                           a.flux_factor, a.spreading_distance_m, a.attenuation_factor, a.field_s.real(),
-                           a.field_s.imag(), a.field_p.real(), a.field_p.imag()}) {
+    const struct {
+        double value;
+        const char* name;
+        bool present;
+    } amplitude_columns[] = {
+        {a.interface_s.real(), "fresnel_s_re", true}, {a.interface_s.imag(), "fresnel_s_im", true},
+        {a.interface_p.real(), "fresnel_p_re", true}, {a.interface_p.imag(), "fresnel_p_im", true},
+        {a.flux_factor, "flux_factor", true},         {a.spreading_distance_m, "spreading_m", has_spreading(a)},
+        {a.attenuation_factor, "attenuation", true},  {a.field_s.real(), "field_s_re", has_field(a)},
+        {a.field_s.imag(), "field_s_im", has_field(a)}, {a.field_p.real(), "field_p_re", has_field(a)},
+        {a.field_p.imag(), "field_p_im", has_field(a)},
+    };
+    for (const auto& column : amplitude_columns) {
         put(out, ',');
-        significant(out, v);
+        if (column.present) significant(out, column.value, column.name);
     }
     put(out, a.caustic ? ",true" : ",false");
 }
@@ -135,9 +142,9 @@ void csv_path(Buffer& out, std::size_t rank, const ConnectedPath& p, const Geome
 void csv_no_path(Buffer& out, const Geometry& g) {
     put(out, "0,none");
     put_repeated(out, 10, ',');  // time_ns .. bottom_bounces stay empty
-    fixed<6>(out, g.distance_m);
+    fixed<6>(out, g.distance_m, "horizontal_distance_m");
     put(out, ',');
-    fixed<8>(out, g.azimuth_deg);
+    fixed<8>(out, g.azimuth_deg, "azimuth_deg");
     put_repeated(out, csv_path_column_count - 13, ',');
 }
 
@@ -177,11 +184,16 @@ void json_path(JsonWriter& json, const ConnectedPath& p) {
     json.field("fresnel_s", a.interface_s);
     json.field("fresnel_p", a.interface_p);
     json.field("flux_factor", a.flux_factor);
-    json.field("spreading_m", a.spreading_distance_m);
+    json.key("spreading_m");
+    if (has_spreading(a)) json.value(a.spreading_distance_m);
+    else json.null();
     json.field("attenuation", a.attenuation_factor);
     json.field("attenuation_exponent", p.attenuation_exponent);
-    json.field("field_s", a.field_s);
-    json.field("field_p", a.field_p);
+    const auto field_if_defined = [&](std::complex<double> field) {
+        return has_field(a) ? std::optional(field) : std::nullopt;  // [null, null] at a caustic
+    };
+    json.field("field_s", field_if_defined(a.field_s));
+    json.field("field_p", field_if_defined(a.field_p));
     json.field("caustic", a.caustic);
     json.end_object();
     json.key("events").begin_array();
@@ -248,16 +260,19 @@ void text_cell(Buffer& out, std::size_t column, std::string_view text) {
     if (c.left && column + 1 < text_column_count) put_repeated(out, pad, ' ');
 }
 
-// A right-aligned fixed-point number ("-" when not finite).
+// A right-aligned fixed-point number; refused when not finite (the heading names the field).
 template <int Digits>
 void text_number(Buffer& out, std::size_t column, double value) {
-    if (!std::isfinite(value)) {
-        text_cell(out, column, "-");
-        return;
-    }
     Buffer number;
-    fixed<Digits>(number, value);
+    fixed<Digits>(number, value, text_columns[column].heading);
     text_cell(out, column, std::string_view(number.data(), number.size()));
+}
+
+// "-" for a value that is absent, else as text_number.
+template <int Digits>
+void text_number_if(Buffer& out, std::size_t column, bool present, double value) {
+    if (present) text_number<Digits>(out, column, value);
+    else text_cell(out, column, "-");
 }
 
 void text_heading(Buffer& out) {
@@ -277,14 +292,14 @@ void text_path(Buffer& out, std::size_t rank, const ConnectedPath& p) {
     text_number<6>(out, c_arrival, rad_to_deg(p.arrival_zenith_rad));
     text_number<3>(out, c_length, p.length_m);
     text_number<6>(out, c_ray, p.ray_parameter);
-    text_number<3>(out, c_turning, p.turning_z_m.value_or(std::numeric_limits<double>::quiet_NaN()));
+    text_number_if<3>(out, c_turning, p.turning_z_m.has_value(), p.turning_z_m.value_or(0.0));
     cell.clear();
     integer(cell, p.surface_bounces);
     put(cell, '/');
     integer(cell, p.bottom_bounces);
     text_cell(out, c_bounces, std::string_view(cell.data(), cell.size()));
     const PathAmplitude& a = p.amplitude;
-    text_number<3>(out, c_spreading, a.spreading_distance_m);
+    text_number_if<3>(out, c_spreading, has_spreading(a), a.spreading_distance_m);
     text_number<5>(out, c_attenuation, a.attenuation_factor);
     text_number<4>(out, c_fs, std::abs(a.interface_s));
     text_number<2>(out, c_arg_fs, phase_deg(a.interface_s));
@@ -307,6 +322,9 @@ std::string describe_solver(const std::string& name) {
 
 std::string single_text(const PathOutputContext& context, const Point& source, const Point& receiver,
                         const std::vector<ConnectedPath>& paths) {
+    for (const auto& [value, name] : {std::pair{source.x, "source x"}, {source.y, "source y"}, {source.z, "source z"},
+                                      {receiver.x, "receiver x"}, {receiver.y, "receiver y"}, {receiver.z, "receiver z"}})
+        require_finite(value, name);
     Buffer out;
     const Geometry g = geometry(source, receiver);
     fmt::format_to(fmt::appender(out), "model:    {}\nsolver:   {}\n", context.model_name,
@@ -333,14 +351,19 @@ std::string single_text(const PathOutputContext& context, const Point& source, c
 
 }  // namespace
 
+void write_paths(std::ostream& out, PathFormat format, const PathOutputContext& context, const Point& source,
+                 const Point& receiver, const std::vector<ConnectedPath>& paths) {
+    switch (format) {
+        case PathFormat::text: out << single_text(context, source, receiver, paths); break;
+        case PathFormat::csv: out << single_csv(source, receiver, paths); break;
+        case PathFormat::json: out << single_json(context, source, receiver, paths); break;
+    }
+}
+
 std::string format_paths(PathFormat format, const PathOutputContext& context, const Point& source,
                          const Point& receiver, const std::vector<ConnectedPath>& paths) {
-    switch (format) {
-        case PathFormat::text: return single_text(context, source, receiver, paths);
-        case PathFormat::csv: return single_csv(source, receiver, paths);
-        case PathFormat::json: return single_json(context, source, receiver, paths);
-    }
-    return {};
+    return output::render_to_string(
+        [&](std::ostream& out) { write_paths(out, format, context, source, receiver, paths); });
 }
 
 // ---- batches --------------------------------------------------------------------------------

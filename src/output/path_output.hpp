@@ -1,15 +1,19 @@
 // Writing the paths between sources and receivers (find_paths results) for people and programs:
 // an aligned text table, CSV with one row per path, or JSON. Used for one pair and, piece by
 // piece, for batches (paths/pair_batch.hpp), where each pair's piece is made on its own so that
-// pieces can be formatted in parallel and joined in input order.
+// pieces can be formatted in parallel and joined in input order. Numbers that are not finite are
+// refused (NumericalError naming the field); absent values (no turning point, no amplitude at a
+// caustic) are written as empty fields, "-" or null.
 #pragma once
 
 #include <cstddef>
+#include <ostream>
 #include <string>
 #include <vector>
 
 #include "paths/connected_path.hpp"
 #include "paths/find_paths.hpp"
+#include "paths/pair_formatter.hpp"
 
 namespace firnray {
 
@@ -24,21 +28,6 @@ struct PathOutputContext {
     std::string solver_name;  // "closed" or "numeric"
 };
 
-// One source-receiver pair of a batch: where it came from and where its ends are. A pair whose
-// input row could not be read carries the reason in `error` and no usable points.
-struct PathPair {
-    int input_line = 0;  // line of the input file (1-based; the header is a line too)
-    std::string id;      // from the optional id column; may be empty
-    Point source, receiver;
-    std::string error;
-};
-
-// The outcome for one pair: its paths (sorted by time, empty in the shadow zone) or why it failed.
-struct PairPaths {
-    std::vector<ConnectedPath> paths;
-    std::string error;
-};
-
 // One pair given on its own (the command line).
 //   text: a header naming the model, solver, ends, distance and azimuth, then an aligned table with
 //         units in the headings, or a line saying that the pair is in the shadow zone.
@@ -49,6 +38,8 @@ struct PairPaths {
 //         attenuation, field_s_re, field_s_im, field_p_re, field_p_im, caustic.
 //   json: one object with model, solver, conventions, source, receiver, horizontal_distance_m,
 //         azimuth_deg and an array `paths` (see docs/connect.md).
+void write_paths(std::ostream& out, PathFormat format, const PathOutputContext& context, const Point& source,
+                 const Point& receiver, const std::vector<ConnectedPath>& paths);
 std::string format_paths(PathFormat format, const PathOutputContext& context, const Point& source,
                          const Point& receiver, const std::vector<ConnectedPath>& paths);
 
@@ -59,15 +50,15 @@ std::string format_paths(PathFormat format, const PathOutputContext& context, co
 //         have one row of kind "none", failed pairs one row with only input_line, id and error.
 //   json: {model, solver, conventions, pairs: [...], pairs_failed}; each pair on one line, shaped
 //         like the single-pair object (input_line and id added, `error` instead of the paths).
-class BatchFormatter {
+class BatchFormatter : public PairFormatter {
 public:
     // The pairs are needed up front only to size the id column of the text table.
     BatchFormatter(PathFormat format, PathOutputContext context, const std::vector<PathPair>& pairs);
 
-    std::string begin() const;
+    std::string begin() const override;
     // Appends the piece of pair `index` (0-based position in the batch) to `out`. Thread-safe.
-    void append_pair(std::string& out, std::size_t index, const PathPair& pair, const PairPaths& result) const;
-    std::string end(std::size_t pairs, std::size_t failed) const;
+    void append_pair(std::string& out, std::size_t index, const PathPair& pair, const PairPaths& result) const override;
+    std::string end(std::size_t pairs, std::size_t failed) const override;
 
     PathFormat format() const { return format_; }
 

@@ -1,4 +1,4 @@
-#include "model/profile_output.hpp"
+#include "output/profile_output.hpp"
 
 #include <algorithm>
 #include <filesystem>
@@ -6,15 +6,23 @@
 
 #include <fmt/format.h>
 
+#include "io/csv_writer.hpp"
 #include "io/json_writer.hpp"
 #include "model/model_file.hpp"
+#include "output/model_json.hpp"
+#include "output/text_sink.hpp"
 #include "plot/figure.hpp"
 
 namespace firnray {
 
 namespace {
 
-std::string number(double value) { return fmt::format("{:.10g}", value); }
+using output::render_to_string;
+
+// Ten significant digits, refusing NaN and infinity with the column's name.
+void put_number(output::TextSink& out, double value, std::string_view column) {
+    fmt::format_to(fmt::appender(out.buffer()), "{:.10g}", require_finite(value, column));
+}
 
 // n against depth, depth increasing downward.
 plot::Figure profile_figure(const std::string& title) {
@@ -37,15 +45,29 @@ std::vector<double> indexes_of(const std::vector<ProfileSample>& samples) {
 
 }  // namespace
 
-std::string profile_samples_csv(const std::vector<ProfileSample>& samples) {
-    std::string out = "depth_m,z_m,n,dn_dz_per_m\n";
-    for (const auto& s : samples)
-        out += fmt::format("{},{},{},{}\n", number(s.depth_m), number(s.z_m), number(s.n), number(s.dn_dz_per_m));
-    return out;
+void write_profile_samples_csv(std::ostream& stream, const std::vector<ProfileSample>& samples) {
+    output::TextSink out(stream);
+    out.put("depth_m,z_m,n,dn_dz_per_m");
+    out.end_row();
+    for (const auto& s : samples) {
+        put_number(out, s.depth_m, "depth_m");
+        out.put(',');
+        put_number(out, s.z_m, "z_m");
+        out.put(',');
+        put_number(out, s.n, "n");
+        out.put(',');
+        put_number(out, s.dn_dz_per_m, "dn_dz_per_m");
+        out.end_row();
+    }
+    out.finish();
 }
 
-std::string profile_samples_json(const FirnModel& model, const std::vector<ProfileSample>& samples) {
-    JsonWriter json;
+std::string profile_samples_csv(const std::vector<ProfileSample>& samples) {
+    return render_to_string([&](std::ostream& out) { write_profile_samples_csv(out, samples); });
+}
+
+void write_profile_samples_json(std::ostream& out, const FirnModel& model, const std::vector<ProfileSample>& samples) {
+    JsonWriter json(out);
     json.begin_object();
     json.key("model");
     write_model_json(json, model);
@@ -58,17 +80,32 @@ std::string profile_samples_json(const FirnModel& model, const std::vector<Profi
     }
     json.end_array();
     json.end_object();
-    return json.str() + "\n";
+    json.flush();
+    out << '\n';
 }
 
-std::string profile_svg(const FirnModel& model, const std::vector<ProfileSample>& samples) {
+std::string profile_samples_json(const FirnModel& model, const std::vector<ProfileSample>& samples) {
+    return render_to_string([&](std::ostream& out) { write_profile_samples_json(out, model, samples); });
+}
+
+void write_profile_svg(std::ostream& out, const FirnModel& model, const std::vector<ProfileSample>& samples) {
     plot::Figure figure = profile_figure(fmt::format("Refractive index: {}", model.name));
     figure.add_line(indexes_of(samples), depths_of(samples), plot::LineStyle{},
                     fmt::format("n, {} profile", model.index->kind()));
-    return figure.svg();
+    out << figure.svg();
 }
 
-std::string fit_report_text(const FitData& data, const ExponentialFit& fit) {
+std::string profile_svg(const FirnModel& model, const std::vector<ProfileSample>& samples) {
+    return render_to_string([&](std::ostream& out) { write_profile_svg(out, model, samples); });
+}
+
+void write_fit_report_text(std::ostream& stream, const FitData& data, const ExponentialFit& fit) {
+    // Every number of the report, checked before any of it is written.
+    for (const auto& [value, name] : {std::pair{fit.n_deep, "n_deep"}, {fit.n_deep_sigma, "n_deep sigma"},
+                                      {fit.n_surface, "n_surface"}, {fit.n_surface_sigma, "n_surface sigma"},
+                                      {fit.scale_depth_m, "scale_depth_m"}, {fit.scale_depth_sigma_m, "scale_depth_m sigma"},
+                                      {fit.residual_rms, "residual rms"}})
+        require_finite(value, name);
     std::string out = fmt::format("exponential fit to {} ({} points, {})\n", data.path, fit.points,
                                   data.density_rule ? fmt::format("densities converted with the {} rule",
                                                                   density_rule_name(*data.density_rule))
@@ -81,11 +118,15 @@ std::string fit_report_text(const FitData& data, const ExponentialFit& fit) {
     out += fmt::format("n_surface     = {:.6f} ± {:.6f} (1 sigma)\n", fit.n_surface, fit.n_surface_sigma);
     out += fmt::format("scale_depth_m = {:.4f} ± {:.4f} (1 sigma)\n", fit.scale_depth_m, fit.scale_depth_sigma_m);
     out += fmt::format("residual rms  = {:.3g} in n ({} iterations)\n", fit.residual_rms, fit.iterations);
-    return out;
+    stream << out;
 }
 
-std::string fit_report_json(const FitData& data, const ExponentialFit& fit) {
-    JsonWriter json;
+std::string fit_report_text(const FitData& data, const ExponentialFit& fit) {
+    return render_to_string([&](std::ostream& out) { write_fit_report_text(out, data, fit); });
+}
+
+void write_fit_report_json(std::ostream& out, const FitData& data, const ExponentialFit& fit) {
+    JsonWriter json(out);
     json.begin_object();
     json.field("data", data.path).field("points", static_cast<unsigned long>(fit.points));
     json.key("values");
@@ -112,10 +153,15 @@ std::string fit_report_json(const FitData& data, const ExponentialFit& fit) {
     json.field("residual_rms", fit.residual_rms).field("residual_sigma", fit.residual_sigma);
     json.field("iterations", fit.iterations);
     json.end_object();
-    return json.str() + "\n";
+    json.flush();
+    out << '\n';
 }
 
-std::string fit_svg(const FitData& data, const ExponentialFit& fit) {
+std::string fit_report_json(const FitData& data, const ExponentialFit& fit) {
+    return render_to_string([&](std::ostream& out) { write_fit_report_json(out, data, fit); });
+}
+
+void write_fit_svg(std::ostream& out, const FitData& data, const ExponentialFit& fit) {
     // The curve runs a little below the deepest point, so the last points do not sit on the frame.
     const double deepest = *std::max_element(data.depth_m.begin(), data.depth_m.end());
     const double extent = std::max(deepest * 1.05, 1.0);
@@ -127,13 +173,23 @@ std::string fit_svg(const FitData& data, const ExponentialFit& fit) {
                            ? fmt::format("data (density by the {} rule)", density_rule_name(*data.density_rule))
                            : std::string("data"));
     figure.add_line(indexes_of(samples), depths_of(samples), plot::LineStyle{},
-                    fmt::format("fit: n_deep {:.4f}, n_surface {:.4f}, scale depth {:.1f} m", fit.n_deep,
-                                fit.n_surface, fit.scale_depth_m));
-    return figure.svg();
+                    fmt::format("fit: n_deep {:.4f}, n_surface {:.4f}, scale depth {:.1f} m",
+                                require_finite(fit.n_deep, "n_deep"), require_finite(fit.n_surface, "n_surface"),
+                                require_finite(fit.scale_depth_m, "scale_depth_m")));
+    out << figure.svg();
 }
 
-std::string fitted_model_toml(const FitData& data, const ExponentialFit& fit, const std::string& name,
-                              const std::string& origin) {
+std::string fit_svg(const FitData& data, const ExponentialFit& fit) {
+    return render_to_string([&](std::ostream& out) { write_fit_svg(out, data, fit); });
+}
+
+void write_fitted_model_toml(std::ostream& out, const FitData& data, const ExponentialFit& fit, const std::string& name,
+                             const std::string& origin) {
+    for (const auto& [value, field] : {std::pair{fit.n_deep, "n_deep"}, {fit.n_surface, "n_surface"},
+                                       {fit.scale_depth_m, "scale_depth_m"}, {fit.n_deep_sigma, "n_deep sigma"},
+                                       {fit.n_surface_sigma, "n_surface sigma"},
+                                       {fit.scale_depth_sigma_m, "scale_depth_m sigma"}, {fit.residual_rms, "residual rms"}})
+        require_finite(value, field);
     FirnModel model = default_model();  // air and attenuation: the built-in defaults
     model.name = name.empty() ? fmt::format("exponential fit to {}", data.path) : name;
     model.origin = origin;
@@ -144,7 +200,12 @@ std::string fitted_model_toml(const FitData& data, const ExponentialFit& fit, co
         "[air] and [attenuation] are the built-in defaults, not fitted: edit them for your site.",
         data.path, fit.points, fit.n_deep_fixed ? std::string("held fixed") : fmt::format("{:.6f}", fit.n_deep_sigma),
         fit.n_surface_sigma, fit.scale_depth_sigma_m, fit.residual_rms);
-    return model_to_toml(model, comment);
+    out << model_to_toml(model, comment);
+}
+
+std::string fitted_model_toml(const FitData& data, const ExponentialFit& fit, const std::string& name,
+                              const std::string& origin) {
+    return render_to_string([&](std::ostream& out) { write_fitted_model_toml(out, data, fit, name, origin); });
 }
 
 }  // namespace firnray

@@ -1,12 +1,16 @@
-#include "station/map_output.hpp"
+#include "output/map_output.hpp"
 
 #include <cmath>
 #include <iterator>
+#include <limits>
+#include <optional>
 
 #include <fmt/format.h>
 
 #include "core/errors.hpp"
+#include "io/csv_writer.hpp"
 #include "io/json_writer.hpp"
+#include "output/text_sink.hpp"
 #include "plot/figure.hpp"
 
 namespace firnray {
@@ -31,11 +35,28 @@ std::string kinds_label(std::uint8_t kinds) {
 
 namespace {
 
+using output::render_to_string;
+
 // Six significant digits keep million-cell grids small; scans use more (volumes are compared).
-void append_number(fmt::memory_buffer& out, double value, int digits = 6) {
-    if (std::isfinite(value)) fmt::format_to(std::back_inserter(out), "{:.{}g}", value, digits);
-    else if (std::isinf(value)) fmt::format_to(std::back_inserter(out), "inf");
+// A value that is not finite is refused with the column's name.
+void put_number(output::TextSink& out, double value, std::string_view column, int digits = 6) {
+    fmt::format_to(fmt::appender(out.buffer()), "{:.{}g}", require_finite(value, column), digits);
 }
+
+// A value that may be legitimately absent: an empty field when it is.
+void put_if(output::TextSink& out, bool present, double value, std::string_view column, int digits = 6) {
+    if (present) put_number(out, value, column, digits);
+}
+
+// Whether a cell's values are defined (see VisibilityMap): a first time where any receiver sees
+// the cell; a time between where the receiver with the earliest arrival has two paths; an
+// amplitude unless every arrival is at a caustic, where ray theory gives none (NaN by design).
+bool has_first_time(const MapCell& cell) { return cell.receivers_seeing > 0; }
+bool has_time_between(const MapCell& cell) { return cell.paths >= 2; }
+bool has_amplitude(const MapCell& cell) { return cell.receivers_seeing > 0 && !std::isnan(cell.amplitude_per_m); }
+
+// Times between paths exist only where some cell has two paths.
+bool has_times_between(const DepthScanRow& row) { return row.two_path_volume_m3 > 0.0; }
 
 // Categories of the "kinds" colouring.
 enum KindCategory { cat_shadow, cat_too_few, cat_direct, cat_direct_refracted, cat_direct_reflected, cat_second_only, cat_three };
@@ -63,47 +84,59 @@ plot::CellGrid cell_grid(const MapGrid& grid) {
 
 }  // namespace
 
-std::string visibility_grid_csv(const VisibilityMap& map) {
-    fmt::memory_buffer out;
-    fmt::format_to(std::back_inserter(out),
-                   "depth_m,distance_m,paths,kinds,receivers_seeing,visible,first_time_ns,time_between_ns,amplitude_per_m\n");
+void write_visibility_grid_csv(std::ostream& stream, const VisibilityMap& map) {
+    output::TextSink out(stream);
+    out.put("depth_m,distance_m,paths,kinds,receivers_seeing,visible,first_time_ns,time_between_ns,amplitude_per_m");
+    out.end_row();
     for (int j = 0; j < map.grid.depth_cells; ++j) {
         const double depth = map.grid.depth_at(j);
         for (int i = 0; i < map.grid.distance_cells; ++i) {
             const MapCell& cell = map.at(j, i);
-            append_number(out, depth);
-            out.push_back(',');
-            append_number(out, map.grid.distance_at(i));
-            fmt::format_to(std::back_inserter(out), ",{},{},{},{},", static_cast<int>(cell.paths), kinds_label(cell.kinds),
+            put_number(out, depth, "depth_m");
+            out.put(',');
+            put_number(out, map.grid.distance_at(i), "distance_m");
+            fmt::format_to(fmt::appender(out.buffer()), ",{},{},{},{},", static_cast<int>(cell.paths), kinds_label(cell.kinds),
                            static_cast<int>(cell.receivers_seeing), map.visible(cell) ? 1 : 0);
-            append_number(out, cell.first_time_ns);
-            out.push_back(',');
-            append_number(out, cell.time_between_ns);
-            out.push_back(',');
-            append_number(out, cell.amplitude_per_m);
-            out.push_back('\n');
+            put_if(out, has_first_time(cell), cell.first_time_ns, "first_time_ns");
+            out.put(',');
+            put_if(out, has_time_between(cell), cell.time_between_ns, "time_between_ns");
+            out.put(',');
+            put_if(out, has_amplitude(cell), cell.amplitude_per_m, "amplitude_per_m");
+            out.end_row();
         }
     }
-    return fmt::to_string(out);
+    out.finish();
+}
+
+std::string visibility_grid_csv(const VisibilityMap& map) {
+    return render_to_string([&](std::ostream& out) { write_visibility_grid_csv(out, map); });
+}
+
+void write_visibility_boundary_csv(std::ostream& stream, const VisibilityMap& map) {
+    output::TextSink out(stream);
+    out.put("depth_m,max_visible_distance_m");
+    out.end_row();
+    for (int j = 0; j < map.grid.depth_cells; ++j) {
+        put_number(out, map.grid.depth_at(j), "depth_m");
+        out.put(',');
+        // VisibilityMap::boundary_m: NaN where nothing is visible, +inf where the reach is unbounded.
+        const double boundary = map.boundary_m[j];
+        if (boundary == std::numeric_limits<double>::infinity()) out.put("inf");
+        else if (!std::isnan(boundary)) put_number(out, boundary, "max_visible_distance_m");
+        out.end_row();
+    }
+    out.finish();
 }
 
 std::string visibility_boundary_csv(const VisibilityMap& map) {
-    fmt::memory_buffer out;
-    fmt::format_to(std::back_inserter(out), "depth_m,max_visible_distance_m\n");
-    for (int j = 0; j < map.grid.depth_cells; ++j) {
-        append_number(out, map.grid.depth_at(j));
-        out.push_back(',');
-        append_number(out, map.boundary_m[j]);
-        out.push_back('\n');
-    }
-    return fmt::to_string(out);
+    return render_to_string([&](std::ostream& out) { write_visibility_boundary_csv(out, map); });
 }
 
-std::string visibility_map_svg(const VisibilityMap& map, const FirnModel& model, const std::vector<Receiver>& receivers,
-                               MapColouring colouring) {
+void write_visibility_map_svg(std::ostream& out, const VisibilityMap& map, const FirnModel& model,
+                              const std::vector<Receiver>& receivers, MapColouring colouring) {
     plot::Figure figure(1000, 620);
     const std::string who = receivers.size() == 1
-                                ? fmt::format("receiver at {:g} m depth", -receivers[0].z_m)
+                                ? fmt::format("receiver at {:g} m depth", require_finite(-receivers[0].z_m, "receiver depth"))
                                 : fmt::format("{} receivers, visible = seen by at least {}", receivers.size(), map.min_receivers);
     figure.title(fmt::format("Source visibility: {} (model: {})", who, model.name));
     figure.x_label(receivers.size() == 1 ? "horizontal distance from the receiver (m)"
@@ -176,32 +209,51 @@ std::string visibility_map_svg(const VisibilityMap& map, const FirnModel& model,
     }
     figure.add_markers(rx, ry, plot::MarkerStyle{"#000000", 6.0, "triangle"},
                        receivers.size() == 1 ? "receiver" : "receivers (projected on the map plane)");
-    return figure.svg();
+    out << figure.svg();
+}
+
+std::string visibility_map_svg(const VisibilityMap& map, const FirnModel& model, const std::vector<Receiver>& receivers,
+                               MapColouring colouring) {
+    return render_to_string([&](std::ostream& out) { write_visibility_map_svg(out, map, model, receivers, colouring); });
+}
+
+void write_depth_scan_csv(std::ostream& stream, const DepthScan& scan) {
+    output::TextSink out(stream);
+    out.put("receiver_depth_m,region_volume_m3,visible_volume_m3,visible_fraction,two_path_volume_m3,"
+            "median_time_between_ns,min_time_between_ns,max_time_between_ns,strong_volume_m3,best");
+    out.end_row();
+    for (std::size_t k = 0; k < scan.rows.size(); ++k) {
+        const DepthScanRow& row = scan.rows[k];
+        const bool between = has_times_between(row);
+        put_number(out, row.receiver_depth_m, "receiver_depth_m");
+        out.put(',');
+        put_number(out, row.region_volume_m3, "region_volume_m3", 10);
+        out.put(',');
+        put_number(out, row.visible_volume_m3, "visible_volume_m3", 10);
+        out.put(',');
+        put_number(out, row.visible_volume_m3 / row.region_volume_m3, "visible_fraction", 10);
+        out.put(',');
+        put_number(out, row.two_path_volume_m3, "two_path_volume_m3", 10);
+        out.put(',');
+        put_if(out, between, row.median_time_between_ns, "median_time_between_ns", 10);
+        out.put(',');
+        put_if(out, between, row.min_time_between_ns, "min_time_between_ns", 10);
+        out.put(',');
+        put_if(out, between, row.max_time_between_ns, "max_time_between_ns", 10);
+        out.put(',');
+        if (row.strong_volume_m3) put_number(out, *row.strong_volume_m3, "strong_volume_m3", 10);
+        fmt::format_to(fmt::appender(out.buffer()), ",{}", k == scan.best ? 1 : 0);
+        out.end_row();
+    }
+    out.finish();
 }
 
 std::string depth_scan_csv(const DepthScan& scan) {
-    fmt::memory_buffer out;
-    fmt::format_to(std::back_inserter(out),
-                   "receiver_depth_m,region_volume_m3,visible_volume_m3,visible_fraction,two_path_volume_m3,"
-                   "median_time_between_ns,min_time_between_ns,max_time_between_ns,strong_volume_m3,best\n");
-    for (std::size_t k = 0; k < scan.rows.size(); ++k) {
-        const DepthScanRow& row = scan.rows[k];
-        append_number(out, row.receiver_depth_m);
-        for (double v : {row.region_volume_m3, row.visible_volume_m3, row.visible_volume_m3 / row.region_volume_m3,
-                         row.two_path_volume_m3, row.median_time_between_ns, row.min_time_between_ns,
-                         row.max_time_between_ns}) {
-            out.push_back(',');
-            append_number(out, v, 10);
-        }
-        out.push_back(',');
-        if (row.strong_volume_m3) append_number(out, *row.strong_volume_m3, 10);
-        fmt::format_to(std::back_inserter(out), ",{}\n", k == scan.best ? 1 : 0);
-    }
-    return fmt::to_string(out);
+    return render_to_string([&](std::ostream& out) { write_depth_scan_csv(out, scan); });
 }
 
-std::string depth_scan_json(const DepthScan& scan, const FirnModel& model, const MapGrid& region) {
-    JsonWriter json;
+void write_depth_scan_json(std::ostream& out, const DepthScan& scan, const FirnModel& model, const MapGrid& region) {
+    JsonWriter json(out);
     json.begin_object();
     json.field("model", model.name);
     json.key("region").begin_object();
@@ -209,26 +261,34 @@ std::string depth_scan_json(const DepthScan& scan, const FirnModel& model, const
     json.field("min_depth_m", region.depth_min_m);
     json.field("max_depth_m", region.depth_max_m);
     json.end_object();
-    json.field("best_receiver_depth_m", scan.rows.empty() ? std::nan("") : scan.rows[scan.best].receiver_depth_m);
+    json.key("best_receiver_depth_m");
+    if (scan.rows.empty()) json.null();
+    else json.value(scan.rows[scan.best].receiver_depth_m);
     json.key("depths").begin_array();
     for (const DepthScanRow& row : scan.rows) {
+        const auto between = [&](double value) { return has_times_between(row) ? std::optional(value) : std::nullopt; };
         json.begin_object();
         json.field("receiver_depth_m", row.receiver_depth_m);
         json.field("region_volume_m3", row.region_volume_m3);
         json.field("visible_volume_m3", row.visible_volume_m3);
         json.field("two_path_volume_m3", row.two_path_volume_m3);
-        json.field("median_time_between_ns", row.median_time_between_ns);
-        json.field("min_time_between_ns", row.min_time_between_ns);
-        json.field("max_time_between_ns", row.max_time_between_ns);
+        json.field("median_time_between_ns", between(row.median_time_between_ns));
+        json.field("min_time_between_ns", between(row.min_time_between_ns));
+        json.field("max_time_between_ns", between(row.max_time_between_ns));
         json.field("strong_volume_m3", row.strong_volume_m3);
         json.end_object();
     }
     json.end_array();
     json.end_object();
-    return json.str() + "\n";
+    json.flush();
+    out << '\n';
 }
 
-std::string depth_scan_svg(const DepthScan& scan, const FirnModel& model, const MapGrid& region) {
+std::string depth_scan_json(const DepthScan& scan, const FirnModel& model, const MapGrid& region) {
+    return render_to_string([&](std::ostream& out) { write_depth_scan_json(out, scan, model, region); });
+}
+
+void write_depth_scan_svg(std::ostream& out, const DepthScan& scan, const FirnModel& model, const MapGrid& region) {
     std::vector<double> depth, visible, two, median, low, high, strong;
     for (const auto& row : scan.rows) {
         depth.push_back(row.receiver_depth_m);
@@ -239,7 +299,10 @@ std::string depth_scan_svg(const DepthScan& scan, const FirnModel& model, const 
         high.push_back(row.max_time_between_ns);
         if (row.strong_volume_m3) strong.push_back(100.0 * *row.strong_volume_m3 / row.region_volume_m3);
     }
-    const double best = scan.rows.empty() ? 0.0 : scan.rows[scan.best].receiver_depth_m;
+    const double best = scan.rows.empty() ? 0.0 : require_finite(scan.rows[scan.best].receiver_depth_m, "best depth");
+    for (const auto& [value, name] : {std::pair{region.distance_max_m, "region max_distance_m"},
+                                      {region.depth_min_m, "region min_depth_m"}, {region.depth_max_m, "region max_depth_m"}})
+        require_finite(value, name);
     const plot::LineStyle best_style{"#d7191c", 1.5, "6 4", 1.0};
     const std::string best_label = fmt::format("best depth {:g} m (largest visible volume)", best);
 
@@ -264,9 +327,13 @@ std::string depth_scan_svg(const DepthScan& scan, const FirnModel& model, const 
     delays.add_line(depth, high, plot::LineStyle{"#9e9ac8", 1.2, "3 3", 1.0}, "maximum");
     delays.add_vline(best, best_style, best_label);
 
-    return plot::compose_figures({&volumes, &delays}, 1,
+    out << plot::compose_figures({&volumes, &delays}, 1,
                                  fmt::format("Receiver-depth scan (model: {}; sources within {:g} m, {:g}-{:g} m deep)",
                                              model.name, region.distance_max_m, region.depth_min_m, region.depth_max_m));
+}
+
+std::string depth_scan_svg(const DepthScan& scan, const FirnModel& model, const MapGrid& region) {
+    return render_to_string([&](std::ostream& out) { write_depth_scan_svg(out, scan, model, region); });
 }
 
 }  // namespace firnray

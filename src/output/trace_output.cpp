@@ -1,28 +1,43 @@
-#include "trace/trace_output.hpp"
+#include "output/trace_output.hpp"
 
 #include <algorithm>
 
 #include <fmt/format.h>
 
 #include "core/constants.hpp"
+#include "io/csv_writer.hpp"
 #include "io/json_writer.hpp"
+#include "output/model_json.hpp"
+#include "output/text_sink.hpp"
 #include "plot/figure.hpp"
 
 namespace firnray {
 
-std::string trace_csv(const std::vector<RayTrace>& rays) {
-    std::string out = "ray,branch,parent,kind,launch_zenith_deg,x_m,z_m,time_ns,length_m\n";
+using output::render_to_string;
+
+void write_trace_csv(std::ostream& stream, const std::vector<RayTrace>& rays) {
+    output::TextSink out(stream);
+    out.put("ray,branch,parent,kind,launch_zenith_deg,x_m,z_m,time_ns,length_m");
+    out.end_row();
     for (std::size_t r = 0; r < rays.size(); ++r) {
-        const double zenith_deg = rad_to_deg(rays[r].launch.zenith_rad);
+        const double zenith_deg = require_finite(rad_to_deg(rays[r].launch.zenith_rad), "launch_zenith_deg");
         for (std::size_t b = 0; b < rays[r].branches.size(); ++b) {
             const RayBranch& branch = rays[r].branches[b];
             const std::string kind = to_string(branch.kind);
-            for (const RayPoint& p : branch.points)
-                out += fmt::format("{},{},{},{},{:.12g},{},{},{},{}\n", r, b, branch.parent, kind, zenith_deg, p.x_m, p.z_m,
-                                   p.time_s * seconds_to_ns, p.length_m);
+            for (const RayPoint& p : branch.points) {
+                fmt::format_to(fmt::appender(out.buffer()), "{},{},{},{},{:.12g},{},{},{},{}", r, b, branch.parent, kind,
+                               zenith_deg, require_finite(p.x_m, "x_m"), require_finite(p.z_m, "z_m"),
+                               require_finite(p.time_s * seconds_to_ns, "time_ns"),
+                               require_finite(p.length_m, "length_m"));
+                out.end_row();
+            }
         }
     }
-    return out;
+    out.finish();
+}
+
+std::string trace_csv(const std::vector<RayTrace>& rays) {
+    return render_to_string([&](std::ostream& out) { write_trace_csv(out, rays); });
 }
 
 namespace {
@@ -83,8 +98,8 @@ std::string branch_colour(BranchKind kind) {
 
 }  // namespace
 
-std::string trace_json(const FirnModel& model, const std::vector<RayTrace>& rays) {
-    JsonWriter json;
+void write_trace_json(std::ostream& out, const FirnModel& model, const std::vector<RayTrace>& rays) {
+    JsonWriter json(out);
     json.begin_object();
     json.key("model");
     write_model_json(json, model);
@@ -105,10 +120,16 @@ std::string trace_json(const FirnModel& model, const std::vector<RayTrace>& rays
         json.end_array().end_object();
     }
     json.end_array().end_object();
-    return json.str() + "\n";
+    json.flush();
+    out << '\n';
 }
 
-std::string ray_fan_svg(const FirnModel& model, const std::vector<RayTrace>& rays, double launch_x_m, double launch_z_m) {
+std::string trace_json(const FirnModel& model, const std::vector<RayTrace>& rays) {
+    return render_to_string([&](std::ostream& out) { write_trace_json(out, model, rays); });
+}
+
+void write_ray_fan_svg(std::ostream& out, const FirnModel& model, const std::vector<RayTrace>& rays, double launch_x_m,
+                       double launch_z_m) {
     double z_low = std::min(0.0, launch_z_m), z_high = std::max(0.0, launch_z_m);
     for (const RayTrace& ray : rays)
         for (const RayBranch& b : ray.branches)
@@ -121,7 +142,8 @@ std::string ray_fan_svg(const FirnModel& model, const std::vector<RayTrace>& ray
     z_low -= margin;
 
     plot::Figure figure;
-    figure.title(fmt::format("Rays from x = {} m, z = {} m; model: {}", launch_x_m, launch_z_m,
+    figure.title(fmt::format("Rays from x = {} m, z = {} m; model: {}", require_finite(launch_x_m, "launch x_m"),
+                             require_finite(launch_z_m, "launch z_m"),
                              model.name.empty() ? model.index->describe() : model.name));
     figure.x_label("horizontal distance x (m)");
     figure.y_label("z (m, up; surface at z = 0)");
@@ -145,7 +167,11 @@ std::string ray_fan_svg(const FirnModel& model, const std::vector<RayTrace>& ray
         }
     std::vector<double> source_x{launch_x_m}, source_z{launch_z_m};
     figure.add_markers(source_x, source_z, plot::MarkerStyle{"#d62728", 4.0, "circle"}, "launch point");
-    return figure.svg();
+    out << figure.svg();
+}
+
+std::string ray_fan_svg(const FirnModel& model, const std::vector<RayTrace>& rays, double launch_x_m, double launch_z_m) {
+    return render_to_string([&](std::ostream& out) { write_ray_fan_svg(out, model, rays, launch_x_m, launch_z_m); });
 }
 
 }  // namespace firnray

@@ -1,21 +1,24 @@
-// Rendering traced rays (src/trace/trace_output.*): the JSON model block and the fan figure.
+// Rendering traced rays (src/output/trace_output.*): the JSON model block and the fan figure.
 #include <catch2/catch.hpp>
 
+#include <cmath>
 #include <cstdlib>
 #include <memory>
+#include <sstream>
 
 #include "core/constants.hpp"
 #include "io/json_writer.hpp"
 #include "model/model_file.hpp"
+#include "output/model_json.hpp"
+#include "output/trace_output.hpp"
 #include "support/run_cli.hpp"
 #include "trace/ray_tracer.hpp"
-#include "trace/trace_output.hpp"
 
 using namespace firnray;
 
 TEST_CASE("trace outputs: the JSON names the model as write_model_json does, and the fan figure shows every "
           "kind of branch traced and parses in librsvg",
-          "[trace][output]") {
+          "[output][trace]") {
     auto model = std::make_shared<const FirnModel>(default_model());
     TraceOptions options;
     options.max_distance_m = 300.0;
@@ -46,4 +49,20 @@ TEST_CASE("trace outputs: the JSON names the model as write_model_json does, and
     const std::string path = firnray::test::write_file(firnray::test::temp_folder("fan") + "/fan.svg", svg);
     REQUIRE(std::system("command -v rsvg-convert >/dev/null 2>&1") == 0);
     CHECK(std::system(("rsvg-convert '" + path + "' -o '" + path + ".png' 2>/dev/null").c_str()) == 0);
+}
+
+TEST_CASE("trace outputs refuse a NaN point with the field named, and stream as they render", "[output][trace]") {
+    auto model = std::make_shared<const FirnModel>(default_model());
+    TraceOptions options;
+    options.max_distance_m = 100.0;
+    const RayTracer tracer(model, options);
+    FixedSpacingRecorder recorder(5.0);
+    std::vector<RayTrace> rays{tracer.trace({0.0, -60.0, deg_to_rad(80.0)}, recorder)};
+    std::ostringstream csv;
+    write_trace_csv(csv, rays);
+    CHECK(csv.str() == trace_csv(rays));
+    REQUIRE(rays[0].branches[0].points.size() > 2);
+    rays[0].branches[0].points[2].z_m = std::nan("");
+    CHECK_THROWS_WITH(trace_csv(rays), Catch::Contains("'z_m' is NaN"));
+    CHECK_THROWS_WITH(trace_json(*model, rays), Catch::Contains("rays[0].branches[0].points[2][1]"));
 }

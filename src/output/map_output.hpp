@@ -1,0 +1,48 @@
+// Writers for maps and scans: CSV tables, JSON and SVG figures. Each renders to a std::ostream
+// (a million-cell grid goes out in blocks); the std::string wrappers of the same name let the
+// front end render everything first and write files only once all of it succeeded.
+#pragma once
+
+#include <cstdint>
+#include <ostream>
+#include <string>
+#include <vector>
+
+#include "model/firn_model.hpp"
+#include "station/depth_scan.hpp"
+#include "station/station.hpp"
+#include "station/visibility_map.hpp"
+
+namespace firnray {
+
+enum class MapColouring { kinds, receivers, time_between, first_time, amplitude };
+// "kinds", "receivers", "time-between", "first-time", "amplitude"; DataInputError otherwise.
+MapColouring parse_map_colouring(const std::string& text);
+
+// "direct+refracted", or "none".
+std::string kinds_label(std::uint8_t kinds);
+
+// One row per cell: depth_m, distance_m, paths, kinds, receivers_seeing, visible,
+// first_time_ns, time_between_ns, amplitude_per_m. Empty fields where not defined: no time
+// where no receiver sees the cell, no time between where the first receiver has one path, no
+// amplitude where every arrival is at a caustic.
+void write_visibility_grid_csv(std::ostream& out, const VisibilityMap& map);
+std::string visibility_grid_csv(const VisibilityMap& map);
+// One row per source depth: depth_m, max_visible_distance_m ("inf" where unbounded, empty if none).
+void write_visibility_boundary_csv(std::ostream& out, const VisibilityMap& map);
+std::string visibility_boundary_csv(const VisibilityMap& map);
+void write_visibility_map_svg(std::ostream& out, const VisibilityMap& map, const FirnModel& model,
+                              const std::vector<Receiver>& receivers, MapColouring colouring);
+std::string visibility_map_svg(const VisibilityMap& map, const FirnModel& model, const std::vector<Receiver>& receivers,
+                               MapColouring colouring);
+
+// One row per candidate depth with every metric of DepthScanRow, and the best depth flagged. The
+// times between paths are empty (JSON: null) for a depth with no two-path cell.
+void write_depth_scan_csv(std::ostream& out, const DepthScan& scan);
+std::string depth_scan_csv(const DepthScan& scan);
+void write_depth_scan_json(std::ostream& out, const DepthScan& scan, const FirnModel& model, const MapGrid& region);
+std::string depth_scan_json(const DepthScan& scan, const FirnModel& model, const MapGrid& region);
+void write_depth_scan_svg(std::ostream& out, const DepthScan& scan, const FirnModel& model, const MapGrid& region);
+std::string depth_scan_svg(const DepthScan& scan, const FirnModel& model, const MapGrid& region);
+
+}  // namespace firnray
