@@ -189,7 +189,7 @@ const Receiver& receiver_named(const Station& station, const std::string& name, 
         if (r.name == name) return r;
         names.push_back(r.name);
     }
-    throw UsageError(option, fmt::format("the station has no receiver '{}'{}", printable_excerpt(name),
+    throw UsageError(option, fmt::format("the station has no receiver named '{}'{}", printable_excerpt(name),
                                          did_you_mean(name, names)));
 }
 

@@ -82,12 +82,7 @@ OutputSet::~OutputSet() {
 
 void OutputSet::declare(const std::string& option, const std::string& path, OutputFormat format) {
     if (path.empty()) return;
-    OutputTarget target;
-    try {
-        target = resolve_output_target(path);
-    } catch (const OutputError& e) {
-        throw UsageError(option, e.what());
-    }
+    const OutputTarget target = resolve_output_target(path);  // a folder: OutputError, exit 6
     const bool checked = target.mode != OutputMode::direct;  // stdout, devices and FIFOs take any name
     if (checked) check_extension(option, path, format);
     const bool shareable = target.mode == OutputMode::direct && !target.is_standard_output();  // /dev/null

@@ -194,8 +194,8 @@ void add_trace_command(CLI::App& app, CommandSlot& slot) {
         ->capture_default_str();
     cmd->add_option("--plot", args->plot_path, "Also draw the rays as an SVG figure into this file")->type_name("FILE.svg");
     cmd->footer(
-        "\nConventions: the launch point is X,Z with z up (m), the surface is z = 0 and the ice z < 0; the floor\n"
-        "and ceiling are a depth and a height (m, positive); zenith angles of the direction of\n"
+        "\nConventions: the launch point is X,Z in metres where z is up, the surface is z = 0 and the ice z < 0;\n"
+        "the floor and the ceiling are a depth and a height (m, positive); zenith angles of the direction of\n"
         "travel (0 = up, 90 = horizontal toward +x, 180 = down; negative angles travel toward -x); times in ns,\n"
         "times and lengths counted from the launch.\n"
         "Example: rays every 5 degrees from a transmitter 150 m deep, out to 1 km, with a plot:\n"
