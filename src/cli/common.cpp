@@ -27,7 +27,7 @@ std::shared_ptr<const FirnModel> load_model_or_default(const std::string& path) 
 void add_solver_option(CLI::App* command, std::string& choice) {
     command->add_option("--solver", choice, "auto (closed form for exponential models), closed, or numeric")
         ->capture_default_str()
-        ->check(CLI::IsMember({"auto", "closed", "numeric"}));
+        ->check(one_of({"auto", "closed", "numeric"}));
 }
 
 void add_ray_parameters_option(CLI::App* command, int& count) {
@@ -219,6 +219,18 @@ CLI::Validator finite_in_range(double low, double high) {
             return std::string();
         },
         fmt::format("{} to {}", number_for_message(low), number_for_message(high)));
+}
+
+CLI::Validator one_of(std::vector<std::string> names) {
+    std::string shown;
+    for (const auto& name : names) shown += (shown.empty() ? "" : "|") + name;
+    return CLI::Validator(
+        [names, shown](std::string& text) -> std::string {
+            for (const auto& name : names)
+                if (text == name) return std::string();
+            return fmt::format("'{}' is not one of {}{}", printable_excerpt(text), shown, did_you_mean(text, names));
+        },
+        "{" + shown + "}");
 }
 
 CLI::Validator finite_positive() {

@@ -82,6 +82,8 @@ const Receiver& receiver_named(const Station& station, const std::string& name, 
 
 // A CLI11 check that a number option is finite and within [low, high] (NaN and inf refused).
 CLI::Validator finite_in_range(double low, double high);
+// A CLI11 check that a word option is one of `names`, with a "did you mean" for a near miss.
+CLI::Validator one_of(std::vector<std::string> names);
 // A CLI11 check that a number option is finite and above zero.
 CLI::Validator finite_positive();
 

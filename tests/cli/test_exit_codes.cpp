@@ -30,6 +30,9 @@ TEST_CASE("exit 2: mistyped commands, unknown options and CLI11 parse errors, al
     check_usage_error({"shadow", "--distance-cells"}, "--distance-cells");
     check_usage_error({"shadow", "--distance-cells", "abc"}, "--distance-cells");
     check_usage_error({"profile", "--format", "xml"}, "--format");
+    check_usage_error({"connect", "--source", "1,-1", "--receiver", "2,-2", "--solver", "numerc"},
+                      "did you mean 'numeric'?");
+    check_usage_error({"shadow", "--receiver", "0,-60", "--colour-by", "recievers"}, "did you mean 'receivers'?");
 }
 
 TEST_CASE("exit 2: wrong option values, each finite and in range, numbers written as people read them", "[cli][exit]") {

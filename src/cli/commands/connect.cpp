@@ -103,7 +103,7 @@ void add_connect_command(CLI::App& app, CommandSlot& slot) {
         ->check(CLI::Range(0, 32));
     cmd->add_option("--format", args->format, "text (a table for people), csv (one row per path) or json")
         ->capture_default_str()
-        ->check(CLI::IsMember({"text", "csv", "json"}));
+        ->check(one_of({"text", "csv", "json"}));
     cmd->add_option("--output,-o", args->output, "output file, written whole or not at all (default: stdout)")
         ->type_name("FILE");
     add_run_options(cmd, args->run);

@@ -162,7 +162,7 @@ void add_delays_command(CLI::App& app, CommandSlot& slot) {
     add_solver_option(cmd, args->solver);
     cmd->add_option("--format", args->format, "csv (long format: one row per source, receiver and path) or json")
         ->capture_default_str()
-        ->check(CLI::IsMember({"csv", "json"}));
+        ->check(one_of({"csv", "json"}));
     add_memory_limit_option(cmd, args->memory_limit_mb);
     cmd->add_option("--output,-o", args->output, "output file, written whole or not at all (default: stdout)")->type_name("FILE");
     add_run_options(cmd, args->run);

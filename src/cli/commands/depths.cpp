@@ -103,7 +103,7 @@ void add_depths_command(CLI::App& app, CommandSlot& slot) {
         ->check(finite_positive());
     add_solver_option(cmd, args->solver);
     add_ray_parameters_option(cmd, args->ray_parameters);
-    cmd->add_option("--format", args->format, "csv or json")->capture_default_str()->check(CLI::IsMember({"csv", "json"}));
+    cmd->add_option("--format", args->format, "csv or json")->capture_default_str()->check(one_of({"csv", "json"}));
     add_memory_limit_option(cmd, args->memory_limit_mb);
     cmd->add_option("--output,-o", args->output, "table, written whole or not at all (default: stdout)")->type_name("FILE");
     cmd->add_option("--plot", args->plot_path, "SVG of each metric against depth, with the best depth marked")->type_name("FILE.svg");

@@ -154,7 +154,7 @@ void add_profile_command(CLI::App& app, CommandSlot& slot) {
     CLI::Option* step = cmd->get_option("--step");
     cmd->add_option("--format", o->format, "output format: csv or json for a table (default csv); text or json for a "
                                            "fit (default text)")
-        ->check(CLI::IsMember({"csv", "json", "text"}));
+        ->check(one_of({"csv", "json", "text"}));
     cmd->add_option("--output,-o", o->output, "output file, written whole or not at all ('-' = standard output)")
         ->capture_default_str();
     cmd->add_option("--plot", o->plot_path, "also write an SVG of n against depth (for a fit: data and fitted curve)")
@@ -168,11 +168,11 @@ void add_profile_command(CLI::App& app, CommandSlot& slot) {
     auto* density_column =
         cmd->add_option("--density-column", o->density_column, "CSV column with density (instead of n)");
     auto* density_unit = cmd->add_option("--density-unit", o->density_unit, "unit of the density column")
-                             ->capture_default_str()->check(CLI::IsMember({"kg/m3", "g/cm3"}));
+                             ->capture_default_str()->check(one_of({"kg/m3", "g/cm3"}));
     auto* density_rule =
         cmd->add_option("--density-rule", o->density_rule,
                         "density to index: kovacs (Kovacs, Gow & Morey 1995) or looyenga (Looyenga 1965)")
-            ->check(CLI::IsMember({"kovacs", "looyenga"}));
+            ->check(one_of({"kovacs", "looyenga"}));
     auto* fix = cmd->add_option("--fix-n-deep", o->fixed_n_deep, "hold n_deep at this value and fit the other two");
     auto* write_model = cmd->add_option("--write-model", o->write_model_path, "write the fitted model as a model file");
     auto* name = cmd->add_option("--name", o->model_name, "name of the written model (default: from the data file)");

@@ -164,7 +164,7 @@ void add_shadow_command(CLI::App& app, CommandSlot& slot) {
                     "what the map colours: kinds (path kinds), receivers (how many see it), time-between (ns), "
                     "first-time (ns), amplitude; auto = kinds for one receiver, receivers for a station")
         ->capture_default_str()
-        ->check(CLI::IsMember({"auto", "kinds", "receivers", "time-between", "first-time", "amplitude"}));
+        ->check(one_of({"auto", "kinds", "receivers", "time-between", "first-time", "amplitude"}));
     add_run_options(cmd, args->run);
     cmd->footer(R"(
 Grid cells are source positions; distances are measured from the receiver (or, for a station,

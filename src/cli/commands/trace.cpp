@@ -14,6 +14,7 @@
 #include "cli/output_set.hpp"
 #include "core/constants.hpp"
 #include "core/errors.hpp"
+#include "core/text.hpp"
 #include "trace/ray_tracer.hpp"
 #include "trace/trace_output.hpp"
 
@@ -61,7 +62,7 @@ constexpr double bytes_per_point = 120.0;
 void check_memory(const TraceArguments& a, std::size_t rays) {
     if (a.sample != "spacing") return;  // steps and ends: the count is known only once traced
     const double points = static_cast<double>(rays) * (a.max_length_m / a.spacing_m + 2.0);
-    check_memory_estimate(fmt::format("{} rays sampled every {} m over {} m", rays, a.spacing_m, a.max_length_m),
+    check_memory_estimate(fmt::format("{} rays sampled every {} m over {} m", rays, number_for_message(a.spacing_m), number_for_message(a.max_length_m)),
                           points * bytes_per_point * (a.plot_path.empty() ? 1.0 : 1.5), points * bytes_per_point / 2,
                           a.memory_limit_mb);
 }
@@ -170,7 +171,7 @@ void add_trace_command(CLI::App& app, CommandSlot& slot) {
                     "Points written per branch: spacing (every --spacing metres of path), steps (every integration "
                     "step) or ends (start, events, end)")
         ->capture_default_str()
-        ->check(CLI::IsMember({"spacing", "steps", "ends"}));
+        ->check(one_of({"spacing", "steps", "ends"}));
     cmd->add_option("--spacing", args->spacing_m, "Path length between written points with --sample spacing (m)")
         ->capture_default_str()
         ->check(finite_positive());
@@ -188,7 +189,7 @@ void add_trace_command(CLI::App& app, CommandSlot& slot) {
         ->check(CLI::Range(1, 100000));
     cmd->add_option("--format", args->format, "Output format: csv (one row per point) or json (rays, branches, events)")
         ->capture_default_str()
-        ->check(CLI::IsMember({"csv", "json"}));
+        ->check(one_of({"csv", "json"}));
     add_memory_limit_option(cmd, args->memory_limit_mb);
     cmd->add_option("--output,-o", args->output, "Output file, written whole or not at all; - for standard output")
         ->capture_default_str();
