@@ -281,14 +281,15 @@ void add_deprecated_option(CLI::App* command, const std::string& old_name, CLI::
     const std::string new_name = replacement->get_name();
     CLI::Option* old = command->add_option_function<std::string>(
         old_name,
-        [old_name, new_name, how, apply](const std::string& value) {
+        [old_name, new_name, how, apply, replacement](const std::string& value) {
+            if (replacement->count() > 0)  // checked here rather than with excludes(), which --help would show
+                throw UsageError(old_name, "give " + new_name + " or its old spelling " + old_name + ", not both");
             fmt::print(stderr, "firnray: warning: {} is deprecated and will be removed in the next release; use {}{}\n",
                        old_name, new_name, how.empty() ? "" : " " + how);
             apply(value);
         },
         "deprecated: use " + new_name);
     old->group("");  // hidden from --help
-    old->excludes(replacement);
 }
 
 }  // namespace firnray::cli
