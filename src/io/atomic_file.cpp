@@ -55,6 +55,12 @@ bool names_standard_output(const std::string& path) {
     return path == "-" || path == "/dev/stdout" || path == "/dev/fd/1" || path == "/proc/self/fd/1";
 }
 
+// Links to a file descriptor of the process (their target is not a path to replace).
+bool opens_a_descriptor(const std::string& path) {
+    return path.rfind("/proc/", 0) == 0 || path.rfind("/dev/fd/", 0) == 0 || path == "/dev/stderr" ||
+           path == "/dev/stdin";
+}
+
 }  // namespace
 
 void remove_output_temporaries_now() noexcept {
@@ -149,6 +155,13 @@ OutputTarget resolve_output_target(const std::string& path) {
             target.exists = false;
             break;
         }
+        if (S_ISLNK(info.st_mode) && opens_a_descriptor(current.string())) {
+            // /dev/stderr, /dev/fd/N, /proc/self/fd/N: a file already open in this process, which
+            // may be a regular file; it is written as it stands, never replaced.
+            target.exists = true;
+            target.mode = OutputMode::direct;
+            break;
+        }
         if (S_ISLNK(info.st_mode)) {
             const fs::path link = fs::read_symlink(current);
             current = link.is_absolute() ? link : current.parent_path() / link;
@@ -180,8 +193,9 @@ AtomicOutputFile::AtomicOutputFile(std::string path, const std::atomic<bool>* ca
         struct stat existing {};
         const bool keep_mode = target_.exists && ::stat(target_.path.c_str(), &existing) == 0;
         std::random_device seed;
-        const std::string suffix = ".part-" + std::to_string(::getpid()) + "-" + std::to_string(seed());
-        temp_path_ = (resolved.parent_path() / ("." + resolved.filename().string() + suffix)).string();
+        const std::string temp_name =
+            fmt::format(".{}.part-{}-{}", resolved.filename().string(), ::getpid(), seed());
+        temp_path_ = (resolved.parent_path() / temp_name).string();
         fd_ = ::open(temp_path_.c_str(), O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0666);
         const int create_errno = errno;
         if (fd_ < 0 && target_.exists && (create_errno == EACCES || create_errno == EPERM || create_errno == EROFS) &&

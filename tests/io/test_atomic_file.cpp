@@ -106,6 +106,9 @@ TEST_CASE("atomic file: standard output spelt - or /dev/stdout is never replaced
     CHECK(resolve_output_target("-").is_standard_output());
     CHECK(resolve_output_target("/dev/stdout").is_standard_output());
     CHECK(resolve_output_target("/dev/fd/1").is_standard_output());
+    // Standard error is written where it stands, even when it was redirected to a regular file.
+    CHECK(resolve_output_target("/dev/stderr").mode == OutputMode::direct);
+    CHECK(resolve_output_target("/proc/self/fd/2").mode == OutputMode::direct);
 }
 
 TEST_CASE("atomic file: a folder is not an output file", "[io][atomic]") {
