@@ -140,7 +140,7 @@ private:
 OutputTarget resolve_output_target(const std::string& path) {
     OutputTarget target;
     if (names_standard_output(path)) {
-        target.path = "-";
+        target.path.assign(1, '-');  // not = "-": GCC 12 warns falsely (-Wrestrict)
         target.mode = OutputMode::direct;
         target.exists = true;
         return target;
