@@ -1,4 +1,6 @@
 // firnray command-line front end: dispatches to one command per file under cli/commands/.
+#include <cstdio>
+#include <iostream>
 #include <string>
 #include <vector>
 
@@ -45,6 +47,16 @@ std::string option_suggestions(const CLI::App& app, const std::vector<std::strin
     return out;
 }
 
+// Help and version text go to standard output through iostreams: a failed write (> /dev/full) is exit 6 too.
+int help_written(int code) {
+    std::cout.flush();
+    if (!std::cout || std::fflush(stdout) != 0) {
+        fmt::print(stderr, "firnray: cannot write output: writing standard output failed\n");
+        return exit_output;
+    }
+    return code;
+}
+
 }  // namespace
 
 int main(int argc, char** argv) {
@@ -76,11 +88,11 @@ int main(int argc, char** argv) {
     try {
         app.parse(argc, argv);
     } catch (const CLI::CallForHelp& e) {
-        return app.exit(e);
+        return help_written(app.exit(e));
     } catch (const CLI::CallForAllHelp& e) {
-        return app.exit(e);
+        return help_written(app.exit(e));
     } catch (const CLI::CallForVersion& e) {
-        return app.exit(e);
+        return help_written(app.exit(e));
     } catch (const CLI::ExtrasError& e) {
         std::vector<std::string> extras;
         for (const CLI::App* command : app.get_subcommands())

@@ -128,6 +128,8 @@ TEST_CASE("outputs: a failed write on standard output (/dev/full) is exit 6", "[
     CHECK(shadow.err.find("firnray: cannot write output: writing standard output failed") != std::string::npos);
     CHECK(run_firnray_with_stdout({"profile", "--depths", "0:100:1"}, "/dev/full").exit_code == 6);
     CHECK(run_firnray_with_stdout({"connect", "--source", "250,-20", "--receiver", "0,-100"}, "/dev/full").exit_code == 6);
+    CHECK(run_firnray_with_stdout({"shadow", "--help"}, "/dev/full").exit_code == 6);
+    CHECK(run_firnray_with_stdout({"--version"}, "/dev/full").exit_code == 6);
 }
 
 TEST_CASE("outputs: on a full file system no output of the run is left (tmpfs of 64 kB)", "[cli][outputs]") {
