@@ -85,6 +85,13 @@ void OutputSet::declare(const std::string& option, const std::string& path, Outp
     const OutputTarget target = resolve_output_target(path);  // a folder: OutputError, exit 6
     const bool checked = target.mode != OutputMode::direct;  // stdout, devices and FIFOs take any name
     if (checked) check_extension(option, path, format);
+    if (checked && !target.exists) {
+        // A missing folder is reported before the computation rather than after it.
+        std::error_code ec;
+        const fs::path folder = fs::absolute(target.path).parent_path();
+        if (!fs::is_directory(folder, ec))
+            throw OutputError(fmt::format("cannot create '{}': the folder '{}' does not exist", path, folder.string()));
+    }
     const bool shareable = target.mode == OutputMode::direct && !target.is_standard_output();  // /dev/null
     if (!shareable) {
         const std::string identity = identity_of(target);
