@@ -2,7 +2,6 @@
 
 #include <cmath>
 #include <cstdio>
-#include <iostream>
 #include <sstream>
 #include <thread>
 
@@ -201,18 +200,24 @@ void require_in_range(double value, double low, double high, const std::string& 
                                              number_for_message(high), number_for_message(value)));
 }
 
+// The number of a CLI11 check: the reason it is not a finite number, or "" with `value` set.
+static std::string read_option_number(const std::string& text, double& value) {
+    std::size_t used = 0;
+    try {
+        value = std::stod(text, &used);
+    } catch (const std::exception&) {
+        used = 0;
+    }
+    if (used == 0 || used != text.size()) return fmt::format("'{}' is not a number", printable_excerpt(text));
+    if (!std::isfinite(value)) return fmt::format("must be a finite number, not {}", printable_excerpt(text));
+    return std::string();
+}
+
 CLI::Validator finite_in_range(double low, double high) {
     return CLI::Validator(
         [low, high](std::string& text) -> std::string {
-            std::size_t used = 0;
             double value = 0.0;
-            try {
-                value = std::stod(text, &used);
-            } catch (const std::exception&) {
-                used = 0;
-            }
-            if (used == 0 || used != text.size()) return fmt::format("'{}' is not a number", printable_excerpt(text));
-            if (!std::isfinite(value)) return fmt::format("must be a finite number, not {}", printable_excerpt(text));
+            if (const std::string problem = read_option_number(text, value); !problem.empty()) return problem;
             if (value < low || value > high)
                 return fmt::format("{} is outside {} to {}", number_for_message(value), number_for_message(low),
                                    number_for_message(high));
@@ -236,15 +241,8 @@ CLI::Validator one_of(std::vector<std::string> names) {
 CLI::Validator finite_positive() {
     return CLI::Validator(
         [](std::string& text) -> std::string {
-            std::size_t used = 0;
             double value = 0.0;
-            try {
-                value = std::stod(text, &used);
-            } catch (const std::exception&) {
-                used = 0;
-            }
-            if (used == 0 || used != text.size()) return fmt::format("'{}' is not a number", printable_excerpt(text));
-            if (!std::isfinite(value)) return fmt::format("must be a finite number, not {}", printable_excerpt(text));
+            if (const std::string problem = read_option_number(text, value); !problem.empty()) return problem;
             if (!(value > 0.0)) return fmt::format("must be above 0, not {}", number_for_message(value));
             return std::string();
         },
