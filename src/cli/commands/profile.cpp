@@ -1,5 +1,6 @@
 // firnray profile: tabulate (and plot) the index profile of a model, or fit the exponential model
 // to measured index or density data and write it as a model file.
+#include <algorithm>
 #include <cmath>
 #include <memory>
 #include <optional>
@@ -41,19 +42,36 @@ struct ProfileOptions {
 constexpr double sample_bytes = sizeof(ProfileSample);
 constexpr double csv_row_bytes = 60.0, json_row_bytes = 130.0, svg_row_bytes = 40.0;
 
+// The CSV table a block of rows at a time, so that a long table never exists as one string.
+constexpr std::size_t rows_per_block = 1 << 16;
+
+void write_samples_csv(std::ostream& out, const std::vector<ProfileSample>& samples) {
+    for (std::size_t first = 0; first == 0 || first < samples.size(); first += rows_per_block) {
+        const auto begin = samples.begin() + static_cast<std::ptrdiff_t>(first);
+        const auto end = samples.begin() + static_cast<std::ptrdiff_t>(std::min(samples.size(), first + rows_per_block));
+        const std::string text = profile_samples_csv(std::vector<ProfileSample>(begin, end));
+        const std::size_t body = first == 0 ? 0 : text.find('\n') + 1;  // the header once
+        out.write(text.data() + body, static_cast<std::streamsize>(text.size() - body));
+        if (!out) return;  // a write error or Ctrl-C: the output set reports it
+    }
+}
+
 int tabulate(const ProfileOptions& o) {
     OutputSet outputs;
     outputs.declare("--plot", o.plot_path, OutputFormat::svg);
     outputs.declare("--output", o.output, output_format_named(o.format));
     const double rows = std::floor((o.to_depth_m - o.from_depth_m) / o.step_m) + 1.0;
-    const double text_bytes = rows * (o.format == "json" ? json_row_bytes : csv_row_bytes);
+    const bool json = o.format == "json";
+    const double text_bytes = rows * (json ? json_row_bytes : csv_row_bytes);
+    const double held_text = json ? text_bytes : std::min(rows, static_cast<double>(rows_per_block)) * csv_row_bytes;
     check_memory_estimate(fmt::format("a table of {} rows", number_for_message(rows)),
-                          rows * sample_bytes + text_bytes + (o.plot_path.empty() ? 0.0 : rows * svg_row_bytes),
+                          rows * sample_bytes + held_text + (o.plot_path.empty() ? 0.0 : rows * svg_row_bytes),
                           text_bytes, o.memory_limit_mb);
     const auto model = load_model_or_default(o.model_path);
     const auto samples = sample_profile(*model->index, o.from_depth_m, o.to_depth_m, o.step_m);
     outputs.set_writer(o.output, [&](std::ostream& out) {
-        out << (o.format == "json" ? profile_samples_json(*model, samples) : profile_samples_csv(samples));
+        if (json) out << profile_samples_json(*model, samples);
+        else write_samples_csv(out, samples);
     });
     outputs.set_writer(o.plot_path, [&](std::ostream& out) { out << profile_svg(*model, samples); });
     outputs.write_all();
