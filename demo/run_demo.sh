@@ -10,23 +10,23 @@ mkdir -p "$out"
 echo "firnray demo: writing outputs and plots to $out/"
 
 echo "  1/6 index profile"
-"$firnray" profile --to-depth 200 --step 1 -o "$out/profile.csv" --plot "$out/profile.svg"
+"$firnray" profile --depths 0:200:1 -o "$out/profile.csv" --plot "$out/profile.svg"
 
 echo "  2/6 ray fan from a transmitter 60 m deep"
-"$firnray" trace --from 0,-60 --zenith-range 20:160:5 --max-distance 1200 --floor-z -400 \
+"$firnray" trace --from 0,-60 --zenith-range 20:160:5 --max-distance 1200 --floor-depth 400 \
     -o "$out/ray-fan.csv" --plot "$out/ray-fan.svg"
 
 echo "  3/6 shadow maps for three candidate receiver depths"
 for depth in 40 100 200; do
-  "$firnray" shadow --receiver "0,-$depth" --distance 0:1500 --depth 0:300 --quiet \
+  "$firnray" shadow --receiver "0,-$depth" --source-distance 0:1500 --source-depth 0:300 --quiet \
       -o "$out/shadow-${depth}m.csv" --boundary "$out/shadow-boundary-${depth}m.csv" \
       --plot "$out/shadow-${depth}m.svg"
 done
-"$firnray" shadow --station "$demo/station.toml" --min-receivers 6 --distance 0:1500 --depth 0:300 --quiet \
+"$firnray" shadow --station "$demo/station.toml" --min-receivers 6 --source-distance 0:1500 --source-depth 0:300 --quiet \
     -o "$out/station-visibility.csv" --plot "$out/station-visibility.svg"
 
 echo "  4/6 receiver-depth scan"
-"$firnray" depths --depths 20:200:10 --max-distance 1500 --source-depth 0:300 --quiet \
+"$firnray" depths --depths 20:200:10 --source-distance 0:1500 --source-depth 0:300 --quiet \
     -o "$out/depth-scan.csv" --plot "$out/depth-scan.svg"
 
 echo "  5/6 delays of the calibration pulsers at every channel"

@@ -2,7 +2,6 @@
 
 #include <cmath>
 #include <cstdio>
-#include <iostream>
 #include <sstream>
 #include <thread>
 
@@ -10,7 +9,7 @@
 
 #include "cli/interrupt.hpp"
 #include "core/errors.hpp"
-#include "io/atomic_file.hpp"
+#include "core/text.hpp"
 #include "model/model_file.hpp"
 
 namespace firnray::cli {
@@ -27,7 +26,7 @@ std::shared_ptr<const FirnModel> load_model_or_default(const std::string& path) 
 void add_solver_option(CLI::App* command, std::string& choice) {
     command->add_option("--solver", choice, "auto (closed form for exponential models), closed, or numeric")
         ->capture_default_str()
-        ->check(CLI::IsMember({"auto", "closed", "numeric"}));
+        ->check(one_of({"auto", "closed", "numeric"}));
 }
 
 void add_ray_parameters_option(CLI::App* command, int& count) {
@@ -93,7 +92,8 @@ static double parse_number(const std::string& text, const std::string& option, c
         used = 0;
     }
     if (used == 0 || used != text.size() || !std::isfinite(value))
-        throw UsageError(option, fmt::format("'{}' is not a number (in '{}')", text, whole));
+        throw UsageError(option, fmt::format("'{}' is not a finite number (in '{}')", printable_excerpt(text),
+                                             printable_excerpt(whole)));
     return value;
 }
 
@@ -109,28 +109,31 @@ static std::vector<std::string> split(const std::string& text, char separator) {
     return parts;
 }
 
-Point3 parse_point(const std::string& text, const std::string& option, PointForm form) {
+Point parse_point(const std::string& text, const std::string& option, PointForm form) {
     const auto parts = split(text, ',');
     const bool with_y = form == PointForm::xz_or_xyz;
     if (parts.size() != 2 && !(with_y && parts.size() == 3))
-        throw UsageError(option, fmt::format("'{}' is not a point: give {} in metres (z up, ice z < 0)", text,
+        throw UsageError(option, fmt::format("'{}' is not a point: give {} in metres (z up, ice z < 0)", printable_excerpt(text),
                                              with_y ? "X,Z or X,Y,Z" : "X,Z"));
-    Point3 p;
-    p.x_m = parse_number(parts[0], option, text);
-    if (parts.size() == 3) p.y_m = parse_number(parts[1], option, text);
-    p.z_m = parse_number(parts.back(), option, text);
+    Point p;
+    p.x = parse_number(parts[0], option, text);
+    if (parts.size() == 3) p.y = parse_number(parts[1], option, text);
+    p.z = parse_number(parts.back(), option, text);
     return p;
 }
 
 std::vector<double> parse_range(const std::string& text, const std::string& option) {
     const auto parts = split(text, ':');
-    if (parts.size() != 3) throw UsageError(option, fmt::format("'{}' is not a range: give START:STOP:STEP", text));
+    if (parts.size() != 3)
+        throw UsageError(option, fmt::format("'{}' is not a range: give START:STOP:STEP", printable_excerpt(text)));
     const double start = parse_number(parts[0], option, text), stop = parse_number(parts[1], option, text),
                  step = parse_number(parts[2], option, text);
     if (step == 0.0 || (stop - start) / step < 0.0)
-        throw UsageError(option, fmt::format("range '{}' never reaches its stop value from its start with that step", text));
+        throw UsageError(option, fmt::format("range '{}' never reaches its stop value from its start with that step",
+                                             printable_excerpt(text)));
     const double count = std::floor((stop - start) / step + 1e-9);
-    if (count > 1e6) throw UsageError(option, fmt::format("range '{}' has more than a million values", text));
+    if (!(count <= 1e6))
+        throw UsageError(option, fmt::format("range '{}' has more than a million values", printable_excerpt(text)));
     std::vector<double> values;
     for (int k = 0; k <= static_cast<int>(count); ++k) values.push_back(start + k * step);
     return values;
@@ -149,9 +152,10 @@ std::vector<double> parse_list_or_range(const std::string& text, const std::stri
 
 std::pair<double, double> parse_span(const std::string& text, const std::string& option) {
     const auto parts = split(text, ':');
-    if (parts.size() != 2) throw UsageError(option, fmt::format("'{}' is not a range: give MIN:MAX", text));
+    if (parts.size() != 2)
+        throw UsageError(option, fmt::format("'{}' is not a range: give MIN:MAX", printable_excerpt(text)));
     const double low = parse_number(parts[0], option, text), high = parse_number(parts[1], option, text);
-    if (!(low < high)) throw UsageError(option, fmt::format("'{}': MIN must be below MAX", text));
+    if (!(low < high)) throw UsageError(option, fmt::format("'{}': MIN must be below MAX", printable_excerpt(text)));
     return {low, high};
 }
 
@@ -160,31 +164,130 @@ std::vector<Receiver> select_receivers(const std::string& station_path, const st
     if (station_path.empty() == point_text.empty())
         throw UsageError(point_option, "give either " + point_option + " POINT or --station FILE");
     if (!point_text.empty()) {
-        const Point3 p = parse_point(point_text, point_option);
+        const Point p = parse_point(point_text, point_option);
         Receiver r;
         r.name = "receiver";
-        r.x_m = p.x_m;
-        r.y_m = p.y_m;
-        r.z_m = p.z_m;
+        r.x_m = p.x;
+        r.y_m = p.y;
+        r.z_m = p.z;
         if (r.z_m > 0.0)
             throw UsageError(point_option, fmt::format("the receiver at z = {} m is above the surface; "
-                                                       "it must be in the ice (z <= 0)", r.z_m));
+                                                       "it must be in the ice (z <= 0)", number_for_message(r.z_m)));
         return {r};
     }
     const Station station = load_station_file(station_path);
     if (subset.empty()) return station.receivers;
     std::vector<Receiver> chosen;
-    for (const auto& name : split(subset, ',')) chosen.push_back(station.receiver(name));
+    for (const auto& name : split(subset, ',')) chosen.push_back(receiver_named(station, name, "--receivers"));
     return chosen;
 }
 
-void emit(const std::string& path, const std::string& text) {
-    if (path.empty() || path == "-") {
-        std::cout << text;
-        std::cout.flush();
-        return;
+const Receiver& receiver_named(const Station& station, const std::string& name, const std::string& option) {
+    std::vector<std::string> names;
+    for (const Receiver& r : station.receivers) {
+        if (r.name == name) return r;
+        names.push_back(r.name);
     }
-    write_text_file(path, text);
+    throw UsageError(option, fmt::format("the station has no receiver named '{}'{}", printable_excerpt(name),
+                                         did_you_mean(name, names)));
+}
+
+void require_in_range(double value, double low, double high, const std::string& option, const std::string& what) {
+    if (!std::isfinite(value))
+        throw UsageError(option, fmt::format("{} must be a finite number, not {}", what, number_for_message(value)));
+    if (value < low || value > high)
+        throw UsageError(option, fmt::format("{} must be between {} and {}, not {}", what, number_for_message(low),
+                                             number_for_message(high), number_for_message(value)));
+}
+
+// The number of a CLI11 check: the reason it is not a finite number, or "" with `value` set.
+static std::string read_option_number(const std::string& text, double& value) {
+    std::size_t used = 0;
+    try {
+        value = std::stod(text, &used);
+    } catch (const std::exception&) {
+        used = 0;
+    }
+    if (used == 0 || used != text.size()) return fmt::format("'{}' is not a number", printable_excerpt(text));
+    if (!std::isfinite(value)) return fmt::format("must be a finite number, not {}", printable_excerpt(text));
+    return std::string();
+}
+
+CLI::Validator finite_in_range(double low, double high) {
+    return CLI::Validator(
+        [low, high](std::string& text) -> std::string {
+            double value = 0.0;
+            if (const std::string problem = read_option_number(text, value); !problem.empty()) return problem;
+            if (value < low || value > high)
+                return fmt::format("{} is outside {} to {}", number_for_message(value), number_for_message(low),
+                                   number_for_message(high));
+            return std::string();
+        },
+        fmt::format("{} to {}", number_for_message(low), number_for_message(high)));
+}
+
+CLI::Validator one_of(std::vector<std::string> names) {
+    std::string shown;
+    for (const auto& name : names) shown += (shown.empty() ? "" : "|") + name;
+    return CLI::Validator(
+        [names, shown](std::string& text) -> std::string {
+            for (const auto& name : names)
+                if (text == name) return std::string();
+            return fmt::format("'{}' is not one of {}{}", printable_excerpt(text), shown, did_you_mean(text, names));
+        },
+        "{" + shown + "}");
+}
+
+CLI::Validator finite_positive() {
+    return CLI::Validator(
+        [](std::string& text) -> std::string {
+            double value = 0.0;
+            if (const std::string problem = read_option_number(text, value); !problem.empty()) return problem;
+            if (!(value > 0.0)) return fmt::format("must be above 0, not {}", number_for_message(value));
+            return std::string();
+        },
+        "> 0");
+}
+
+void add_memory_limit_option(CLI::App* command, double& limit_mb) {
+    limit_mb = default_memory_limit_mb;
+    command->add_option("--memory-limit-mb", limit_mb,
+                        "refuse a run estimated to need more memory than this (MB); the estimate and the output size "
+                        "are given when it is refused")
+        ->type_name("MB")
+        ->capture_default_str()
+        ->check(finite_in_range(1.0, 1e9));
+}
+
+static std::string bytes_for_message(double bytes) {
+    if (bytes >= 1e9) return fmt::format("{:.1f} GB", bytes / 1e9);
+    if (bytes >= 1e6) return fmt::format("{:.0f} MB", bytes / 1e6);
+    return fmt::format("{:.0f} kB", std::max(1.0, bytes / 1e3));
+}
+
+void check_memory_estimate(const std::string& what, double memory_bytes, double output_bytes, double limit_mb) {
+    if (memory_bytes <= limit_mb * 1e6) return;
+    throw UsageError("--memory-limit-mb",
+                     fmt::format("{} would need about {} of memory and write about {}, above the limit of {} MB; "
+                                 "make it smaller or raise the limit with --memory-limit-mb",
+                                 what, bytes_for_message(memory_bytes), bytes_for_message(output_bytes),
+                                 number_for_message(limit_mb)));
+}
+
+void add_deprecated_option(CLI::App* command, const std::string& old_name, CLI::Option* replacement,
+                           std::function<void(const std::string& value)> apply, const std::string& how) {
+    const std::string new_name = replacement->get_name();
+    CLI::Option* old = command->add_option_function<std::string>(
+        old_name,
+        [old_name, new_name, how, apply, replacement](const std::string& value) {
+            if (replacement->count() > 0)  // checked here rather than with excludes(), which --help would show
+                throw UsageError(old_name, "give " + new_name + " or its old spelling " + old_name + ", not both");
+            fmt::print(stderr, "firnray: warning: {} is deprecated and will be removed in the next release; use {}{}\n",
+                       old_name, new_name, how.empty() ? "" : " " + how);
+            apply(value);
+        },
+        "deprecated: use " + new_name);
+    old->group("");  // hidden from --help
 }
 
 }  // namespace firnray::cli

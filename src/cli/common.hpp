@@ -1,5 +1,5 @@
 // Options and helpers shared by the command files: the model, the solver, threads, progress,
-// points given on the command line, and writing outputs whole.
+// points given on the command line, the memory limit, and old option spellings kept for a release.
 #pragma once
 
 #include <functional>
@@ -13,6 +13,7 @@
 
 #include "core/cancel.hpp"
 #include "model/firn_model.hpp"
+#include "paths/find_paths.hpp"  // Point (moving to core/point.hpp)
 #include "station/station.hpp"
 
 namespace firnray::cli {
@@ -55,16 +56,15 @@ void add_run_options(CLI::App* command, RunOptions& options);
 RunControl make_run_control(const RunOptions& options, const std::string& label);
 void finish_progress(const RunOptions& options);
 
-// A point "X,Z" or "X,Y,Z" in metres (y = 0 when not given), or only "X,Z" for commands that
-// work in the vertical plane; throws UsageError naming the option.
-struct Point3 {
-    double x_m = 0.0, y_m = 0.0, z_m = 0.0;
-};
+// A point "X,Z" or "X,Y,Z" in metres, z up (y = 0 when not given), or only "X,Z" for commands
+// that work in the vertical plane; throws UsageError naming the option.
 enum class PointForm { xz, xz_or_xyz };
-Point3 parse_point(const std::string& text, const std::string& option, PointForm form = PointForm::xz_or_xyz);
+Point parse_point(const std::string& text, const std::string& option, PointForm form = PointForm::xz_or_xyz);
 
 // A finite number; throws UsageError naming the option.
 double parse_number(const std::string& text, const std::string& option);
+// Throws UsageError unless value is finite and within [low, high] (the message gives the bounds).
+void require_in_range(double value, double low, double high, const std::string& option, const std::string& what);
 // "MIN:MAX" with MIN < MAX.
 std::pair<double, double> parse_span(const std::string& text, const std::string& option);
 
@@ -77,8 +77,28 @@ std::vector<double> parse_list_or_range(const std::string& text, const std::stri
 // its receivers by name. Exactly one of point_text and station_path must be given.
 std::vector<Receiver> select_receivers(const std::string& station_path, const std::string& point_text,
                                        const std::string& subset, const std::string& point_option);
+// A receiver of the station by name; an unknown name is a usage error of `option` (with a "did you mean").
+const Receiver& receiver_named(const Station& station, const std::string& name, const std::string& option);
 
-// Writes text to `path` atomically, or to stdout when path is empty or "-".
-void emit(const std::string& path, const std::string& text);
+// A CLI11 check that a number option is finite and within [low, high] (NaN and inf refused).
+CLI::Validator finite_in_range(double low, double high);
+// A CLI11 check that a word option is one of `names`, with a "did you mean" for a near miss.
+CLI::Validator one_of(std::vector<std::string> names);
+// A CLI11 check that a number option is finite and above zero.
+CLI::Validator finite_positive();
+
+// --memory-limit-mb MB: the one limit on what a run may hold in memory (every command that builds
+// a grid or a table). Default 2048 MB.
+constexpr double default_memory_limit_mb = 2048.0;
+void add_memory_limit_option(CLI::App* command, double& limit_mb);
+// Refuses a run whose estimated memory exceeds the limit, before anything is computed: the message
+// gives the estimated memory, the estimated output size and the option that raises the limit.
+void check_memory_estimate(const std::string& what, double memory_bytes, double output_bytes, double limit_mb);
+
+// An old spelling of an option, still accepted for one release: hidden from --help, it warns on
+// stderr and hands its value to `apply` (which usually stores it in the new option's variable).
+// It may not be given together with the new spelling.
+void add_deprecated_option(CLI::App* command, const std::string& old_name, CLI::Option* replacement,
+                           std::function<void(const std::string& value)> apply, const std::string& how = "");
 
 }  // namespace firnray::cli

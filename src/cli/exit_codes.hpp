@@ -12,7 +12,8 @@ enum ExitCode : int {
     exit_numerical = 5,     // the numerics failed
     exit_output = 6,        // an output could not be written
     exit_partial = 7,       // a batch ran, but some rows failed (see the error rows)
-    exit_interrupted = 130, // Ctrl-C
+    exit_interrupted = 130, // Ctrl-C (SIGINT); SIGTERM gives 143 (128 + the signal)
+    exit_terminated = 143,
 };
 
 }  // namespace firnray::cli

@@ -7,6 +7,7 @@
 
 #include "cli/common.hpp"
 #include "cli/exit_codes.hpp"
+#include "cli/interrupt.hpp"
 #include "core/errors.hpp"
 
 namespace firnray::cli {
@@ -33,8 +34,8 @@ int run_guarded(const std::function<int()>& body) {
         fmt::print(stderr, "firnray: cannot write output: {}\n", e.what());
         return exit_output;
     } catch (const Cancelled&) {
-        fmt::print(stderr, "firnray: interrupted; no output was written\n");
-        return exit_interrupted;
+        fmt::print(stderr, "firnray: interrupted; no output file was left behind\n");
+        return interrupted_exit_code();
     } catch (const std::exception& e) {
         fmt::print(stderr, "firnray: internal error: {}\n", e.what());
         return exit_internal;

@@ -9,6 +9,7 @@
 #include <fmt/format.h>
 
 #include "core/errors.hpp"
+#include "core/text.hpp"
 
 namespace firnray {
 
@@ -75,6 +76,28 @@ bool is_skipped(std::string_view line) {
     return content.empty() || content.front() == '#';
 }
 
+// Takes the first row that is not blank or a comment as the header of `table`; throws for an
+// unreadable header or empty or repeated names.
+void take_header(CsvTable& table, CsvRow& row, bool split_ok) {
+    const CsvErrorKind kind = table.error_kind;
+    if (!split_ok) raise(kind, "the header line cannot be read: " + row.problem, {table.path, row.line, ""});
+    table.header_line = row.line;
+    std::set<std::string> seen;
+    for (std::size_t c = 0; c < row.fields.size(); ++c) {
+        const std::string& name = row.fields[c];
+        if (name.empty()) raise(kind, fmt::format("column {} of the header has no name", c + 1), {table.path, row.line, ""});
+        if (!seen.insert(name).second)
+            raise(kind, fmt::format("the header names column '{}' twice", printable_excerpt(name)),
+                  {table.path, row.line, name});
+    }
+    table.columns = std::move(row.fields);
+}
+
+[[noreturn]] void raise_no_header(const CsvTable& table) {
+    raise(table.error_kind, "no header line (the first line that is not blank or a # comment must name the columns)",
+          {table.path, 0, ""});
+}
+
 }  // namespace
 
 std::optional<double> parse_number(std::string_view text) {
@@ -106,27 +129,71 @@ CsvTable parse_csv(std::string_view text, const std::string& origin, CsvErrorKin
 
         CsvRow row;
         row.line = line_number;
-        if (!split_line(line, row.fields, row.problem) && table.header_line == 0)
-            raise(kind, "the header line cannot be read: " + row.problem, {origin, line_number, ""});
+        const bool split_ok = split_line(line, row.fields, row.problem);
         if (table.header_line == 0) {
-            table.header_line = line_number;
-            std::set<std::string> seen;
-            for (std::size_t c = 0; c < row.fields.size(); ++c) {
-                const std::string& name = row.fields[c];
-                if (name.empty())
-                    raise(kind, fmt::format("column {} of the header has no name", c + 1), {origin, line_number, ""});
-                if (!seen.insert(name).second)
-                    raise(kind, fmt::format("the header names column '{}' twice", name), {origin, line_number, name});
-            }
-            table.columns = std::move(row.fields);
+            take_header(table, row, split_ok);
             continue;
         }
         table.rows.push_back(std::move(row));
     }
-    if (table.header_line == 0)
-        raise(kind, "no header line (the first line that is not blank or a # comment must name the columns)",
-              {origin, 0, ""});
+    if (table.header_line == 0) raise_no_header(table);
     return table;
+}
+
+CsvStreamReader::CsvStreamReader(const std::string& path, CsvErrorKind kind) {
+    header_.path = path;
+    header_.error_kind = kind;
+    in_.open(path, std::ios::binary);
+    if (!in_) raise(kind, "cannot open the file (is the path right?)", {path, 0, ""});
+    in_.seekg(0, std::ios::end);
+    const auto size = in_.tellg();
+    file_bytes_ = size > 0 ? static_cast<std::size_t>(size) : 0;
+    in_.seekg(0, std::ios::beg);
+    if (!in_) in_.clear();  // a pipe or a device: no size, read from where it stands
+    std::string line;
+    bool too_long = false;
+    CsvRow row;
+    if (!next_line(line, row.line, too_long)) raise_no_header(header_);
+    if (too_long) raise(kind, "the header line is longer than 1 MiB", {path, row.line, ""});
+    const bool split_ok = split_line(line, row.fields, row.problem);
+    take_header(header_, row, split_ok);
+}
+
+bool CsvStreamReader::next_line(std::string& line, int& line_number, bool& too_long) {
+    std::streambuf& source = *in_.rdbuf();
+    while (true) {
+        line.clear();
+        too_long = false;
+        int c = source.sbumpc();
+        if (c == std::char_traits<char>::eof()) return false;
+        for (; c != std::char_traits<char>::eof() && c != '\n'; c = source.sbumpc()) {
+            ++bytes_read_;
+            if (line.size() < most_line_bytes) line.push_back(static_cast<char>(c));
+            else too_long = true;
+        }
+        if (c == '\n') ++bytes_read_;
+        ++line_number_;
+        line_number = line_number_;
+        if (line_number_ == 1 && line.compare(0, 3, "\xEF\xBB\xBF") == 0) line.erase(0, 3);  // UTF-8 byte-order mark
+        if (!line.empty() && line.back() == '\r') line.pop_back();
+        if (!too_long && is_skipped(line)) continue;
+        return true;
+    }
+}
+
+bool CsvStreamReader::read_rows(std::vector<CsvRow>& rows, std::size_t max_rows) {
+    rows.clear();
+    std::string line;
+    bool too_long = false;
+    while (rows.size() < max_rows) {
+        CsvRow row;
+        if (!next_line(line, row.line, too_long)) break;
+        if (too_long) row.problem = fmt::format("the line is longer than {} bytes", most_line_bytes);
+        else split_line(line, row.fields, row.problem);
+        rows.push_back(std::move(row));
+    }
+    if (in_.bad()) raise(header_.error_kind, "reading the file failed", {header_.path, line_number_, ""});
+    return !rows.empty();
 }
 
 CsvTable read_csv(const std::string& path, CsvErrorKind kind) {
@@ -147,8 +214,9 @@ std::optional<std::size_t> CsvTable::find_column(std::string_view name) const {
 std::size_t CsvTable::column(std::string_view name) const {
     if (const auto c = find_column(name)) return *c;
     std::string available;
-    for (const auto& c : columns) available += (available.empty() ? "'" : ", '") + c + "'";
-    fail(header_line, name, fmt::format("no column named '{}' in the header (columns: {})", name, available));
+    for (const auto& c : columns) available += (available.empty() ? "'" : ", '") + printable_excerpt(c) + "'";
+    fail(header_line, name, fmt::format("no column named '{}' in the header (columns: {}){}", name, available,
+                                        did_you_mean(name, columns)));
 }
 
 void CsvTable::check_row(const CsvRow& row) const {
@@ -167,7 +235,7 @@ double CsvTable::number(const CsvRow& row, std::size_t c) const {
     const std::string& field = text(row, c);
     if (const auto value = parse_number(field)) return *value;
     if (field.empty()) fail(row, columns[c], "the field is empty; a number is needed");
-    fail(row, columns[c], fmt::format("'{}' is not a finite number", field));
+    fail(row, columns[c], fmt::format("'{}' is not a finite number", printable_excerpt(field)));
 }
 
 void CsvTable::fail(const CsvRow& row, std::string_view column_name, const std::string& reason) const {

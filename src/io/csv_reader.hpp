@@ -4,6 +4,7 @@
 #pragma once
 
 #include <cstddef>
+#include <fstream>
 #include <optional>
 #include <string>
 #include <string_view>
@@ -55,6 +56,35 @@ CsvTable read_csv(const std::string& path, CsvErrorKind kind = CsvErrorKind::dat
 
 // The same from text already in memory; `origin` names it in messages.
 CsvTable parse_csv(std::string_view text, const std::string& origin, CsvErrorKind kind = CsvErrorKind::data);
+
+// Reads a CSV file a block of rows at a time, so that memory stays bounded whatever the file
+// size: the header is read on construction (same checks and errors as read_csv), then
+// read_rows() hands out the data rows in order. A line longer than most_line_bytes becomes a row
+// with a problem (its text is not kept).
+class CsvStreamReader {
+public:
+    static constexpr std::size_t most_line_bytes = 1 << 20;
+
+    explicit CsvStreamReader(const std::string& path, CsvErrorKind kind = CsvErrorKind::data);
+
+    // The header (path, header line, columns, error kind) with no rows: use it to read the rows'
+    // fields (CsvTable::number, text, fail).
+    const CsvTable& table() const { return header_; }
+    // Replaces `rows` with up to max_rows next data rows; returns false when none were left.
+    bool read_rows(std::vector<CsvRow>& rows, std::size_t max_rows);
+    // Bytes read so far and the file size (for progress).
+    std::size_t bytes_read() const { return bytes_read_; }
+    std::size_t file_bytes() const { return file_bytes_; }
+
+private:
+    // The next line that is not blank or a comment; false at the end of the file.
+    bool next_line(std::string& line, int& line_number, bool& too_long);
+
+    CsvTable header_;
+    std::ifstream in_;
+    int line_number_ = 0;
+    std::size_t bytes_read_ = 0, file_bytes_ = 0;
+};
 
 // Parses a whole field as a finite number (surrounding spaces allowed); empty when it is not one.
 std::optional<double> parse_number(std::string_view text);

@@ -1,37 +1,90 @@
 #include "paths/pair_batch.hpp"
 
 #include <algorithm>
+#include <optional>
 
 #include "core/errors.hpp"
 #include "core/parallel.hpp"
 
 namespace firnray {
 
-std::vector<PathPair> read_path_pairs(const CsvTable& table, int threads) {
-    const std::size_t sx = table.column(PairColumns::source_x), sz = table.column(PairColumns::source_z);
-    const std::size_t rx = table.column(PairColumns::receiver_x), rz = table.column(PairColumns::receiver_z);
-    const auto sy = table.find_column(PairColumns::source_y), ry = table.find_column(PairColumns::receiver_y);
-    const auto id = table.find_column(PairColumns::id);
-    if (table.rows.empty())
-        throw DataInputError("the pairs file has a header but no pairs", {table.path, table.header_line, ""});
-    std::vector<PathPair> pairs(table.rows.size());
+namespace {
+
+// Where the columns of a pairs file are.
+struct PairColumnIndex {
+    std::size_t sx, sz, rx, rz;
+    std::optional<std::size_t> sy, ry, id;
+
+    explicit PairColumnIndex(const CsvTable& table)
+        : sx(table.column(PairColumns::source_x)), sz(table.column(PairColumns::source_z)),
+          rx(table.column(PairColumns::receiver_x)), rz(table.column(PairColumns::receiver_z)),
+          sy(table.find_column(PairColumns::source_y)), ry(table.find_column(PairColumns::receiver_y)),
+          id(table.find_column(PairColumns::name) ? table.find_column(PairColumns::name)
+                                                  : table.find_column(PairColumns::id)) {}
+};
+
+// Converts rows[i] into pairs[i] for every row, on `threads` threads.
+void convert_rows(const CsvTable& table, const std::vector<CsvRow>& rows, std::vector<PathPair>& pairs, int threads) {
+    const PairColumnIndex c(table);
+    pairs.assign(rows.size(), PathPair{});
     // Rows in contiguous blocks, so that two threads never write next to each other.
     constexpr std::size_t block_size = 256;
     parallel_for((pairs.size() + block_size - 1) / block_size, threads, {}, [&](std::size_t b) {
         for (std::size_t i = b * block_size; i < std::min(pairs.size(), (b + 1) * block_size); ++i) {
-            const CsvRow& row = table.rows[i];
+            const CsvRow& row = rows[i];
             PathPair& pair = pairs[i];
             pair.input_line = row.line;
             try {
-                if (id) pair.id = table.text(row, *id);
-                pair.source = {table.number(row, sx), sy ? table.number(row, *sy) : 0.0, table.number(row, sz)};
-                pair.receiver = {table.number(row, rx), ry ? table.number(row, *ry) : 0.0, table.number(row, rz)};
+                if (c.id) pair.id = table.text(row, *c.id);
+                pair.source = {table.number(row, c.sx), c.sy ? table.number(row, *c.sy) : 0.0, table.number(row, c.sz)};
+                pair.receiver = {table.number(row, c.rx), c.ry ? table.number(row, *c.ry) : 0.0, table.number(row, c.rz)};
             } catch (const InputError& e) {
                 pair.error = e.what();
             }
         }
     });
+}
+
+[[noreturn]] void throw_no_pairs(const CsvTable& table) {
+    throw DataInputError("the pairs file has a header but no pairs", {table.path, table.header_line, ""});
+}
+
+}  // namespace
+
+std::vector<PathPair> read_path_pairs(const CsvTable& table, int threads) {
+    (void)PairColumnIndex(table);  // a missing column is reported before an empty file
+    if (table.rows.empty()) throw_no_pairs(table);
+    std::vector<PathPair> pairs;
+    convert_rows(table, table.rows, pairs, threads);
     return pairs;
+}
+
+PathPairReader::PathPairReader(const std::string& path) : reader_(path) { (void)PairColumnIndex(reader_.table()); }
+
+bool PathPairReader::read_block(std::vector<PathPair>& pairs, std::size_t max_pairs, int threads) {
+    if (!reader_.read_rows(rows_, max_pairs)) {
+        pairs.clear();
+        return false;
+    }
+    convert_rows(reader_.table(), rows_, pairs, threads);
+    return true;
+}
+
+bool PathPairReader::uses_old_id_column() const {
+    return !reader_.table().find_column(PairColumns::name) && reader_.table().find_column(PairColumns::id);
+}
+
+std::size_t longest_pair_id(const std::string& path) {
+    CsvStreamReader reader(path);
+    const auto id = PairColumnIndex(reader.table()).id;
+    std::size_t longest = 0;
+    if (!id) return longest;
+    std::vector<CsvRow> rows;
+    while (reader.read_rows(rows, 4096))
+        for (const CsvRow& row : rows)
+            if (row.problem.empty() && *id < row.fields.size() && row.fields.size() == reader.table().columns.size())
+                longest = std::max(longest, row.fields[*id].size());
+    return longest;
 }
 
 std::vector<PathPair> read_path_pairs_file(const std::string& path, int threads) {
@@ -54,36 +107,79 @@ PairPaths connect_pair(const RaySolver& solver, const PathPair& pair, const Path
     return result;
 }
 
-BatchRun connect_batch(const RaySolver& solver, const std::vector<PathPair>& pairs, const PathOptions& options,
-                       const PairFormatter& formatter, int threads, const RunControl& control) {
-    // Pairs go in blocks of a fixed size (whatever the thread count, so the text is the same): each
-    // block is found and formatted into one string by one thread, and the blocks are joined in order.
-    constexpr std::size_t block_size = 64;
-    struct Block {
-        std::string text;
-        std::size_t paths = 0, failed = 0, shadowed = 0;
-    };
-    std::vector<Block> blocks((pairs.size() + block_size - 1) / block_size);
-    RunControl per_block = control;  // progress is reported in pairs, not blocks
-    if (control.progress)
-        per_block.progress = [&control, &pairs](std::size_t done, std::size_t) {
-            control.progress(std::min(pairs.size(), done * block_size), pairs.size());
-        };
-    parallel_for(blocks.size(), threads, per_block, [&](std::size_t b) {
-        Block& block = blocks[b];
-        for (std::size_t i = b * block_size; i < std::min(pairs.size(), (b + 1) * block_size); ++i) {
+namespace {
+
+// Pairs go in blocks of a fixed size (whatever the thread count, so the text is the same): each
+// block is found and formatted into one string by one thread.
+constexpr std::size_t pairs_per_block = 64;
+
+struct BlockText {
+    std::string text;
+    std::size_t paths = 0, failed = 0, shadowed = 0;
+};
+
+// Finds and formats pairs[0..) whose batch positions start at first_index, into blocks in order.
+void connect_blocks(const RaySolver& solver, const std::vector<PathPair>& pairs, std::size_t first_index,
+                    const PathOptions& options, const PairFormatter& formatter, int threads,
+                    const RunControl& control, std::vector<BlockText>& blocks) {
+    blocks.assign((pairs.size() + pairs_per_block - 1) / pairs_per_block, BlockText{});
+    parallel_for(blocks.size(), threads, control, [&](std::size_t b) {
+        BlockText& block = blocks[b];
+        for (std::size_t i = b * pairs_per_block; i < std::min(pairs.size(), (b + 1) * pairs_per_block); ++i) {
             const PairPaths result = connect_pair(solver, pairs[i], options);
-            formatter.append_pair(block.text, i, pairs[i], result);
+            formatter.append_pair(block.text, first_index + i, pairs[i], result);
             block.paths += result.paths.size();
             block.failed += !result.error.empty();
             block.shadowed += result.error.empty() && result.paths.empty();
         }
     });
+}
+
+}  // namespace
+
+BatchTotals connect_batch_stream(const RaySolver& solver, PathPairReader& reader, const PathOptions& options,
+                                 const PairFormatter& formatter, std::ostream& out, int threads,
+                                 const RunControl& control) {
+    // Enough pairs per read to keep every thread busy, few enough to keep memory small.
+    constexpr std::size_t pairs_per_read = pairs_per_block * 64;
+    std::vector<PathPair> pairs;
+    std::vector<BlockText> blocks;
+    BatchTotals totals;
+    RunControl quiet = control;  // progress is reported in bytes of the file, after each read
+    quiet.progress = nullptr;
+    if (!reader.read_block(pairs, pairs_per_read, threads)) throw_no_pairs(reader.table());
+    out << formatter.begin();
+    do {
+        connect_blocks(solver, pairs, totals.pairs, options, formatter, threads, quiet, blocks);
+        for (BlockText& block : blocks) {
+            out.write(block.text.data(), static_cast<std::streamsize>(block.text.size()));
+            totals.paths += block.paths;
+            totals.failed += block.failed;
+            totals.shadowed += block.shadowed;
+        }
+        totals.pairs += pairs.size();
+        if (control.progress) control.progress(reader.bytes_read(), std::max(reader.file_bytes(), reader.bytes_read()));
+        if (!out) return totals;  // the stream failed (a full disk, Ctrl-C): its owner reports why
+        control.throw_if_cancelled();
+    } while (reader.read_block(pairs, pairs_per_read, threads));
+    out << formatter.end(totals.pairs, totals.failed);
+    return totals;
+}
+
+BatchRun connect_batch(const RaySolver& solver, const std::vector<PathPair>& pairs, const PathOptions& options,
+                       const PairFormatter& formatter, int threads, const RunControl& control) {
+    RunControl per_block = control;  // progress is reported in pairs, not blocks
+    if (control.progress)
+        per_block.progress = [&control, &pairs](std::size_t done, std::size_t) {
+            control.progress(std::min(pairs.size(), done * pairs_per_block), pairs.size());
+        };
+    std::vector<BlockText> blocks;
+    connect_blocks(solver, pairs, 0, options, formatter, threads, per_block, blocks);
     BatchRun run;
     run.pairs = pairs.size();
     const std::string begin = formatter.begin();
     std::size_t size = begin.size();
-    for (const Block& block : blocks) {
+    for (const BlockText& block : blocks) {
         size += block.text.size();
         run.paths += block.paths;
         run.failed += block.failed;
@@ -92,9 +188,9 @@ BatchRun connect_batch(const RaySolver& solver, const std::vector<PathPair>& pai
     const std::string end = formatter.end(run.pairs, run.failed);
     run.text.reserve(size + end.size());
     run.text += begin;
-    for (Block& block : blocks) {
+    for (BlockText& block : blocks) {
         run.text += block.text;
-        std::string().swap(block.text);  // give the memory back as we go: batches can be large
+        std::string().swap(block.text);  // give the memory back as we go
     }
     run.text += end;
     return run;

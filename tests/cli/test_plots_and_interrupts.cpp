@@ -58,8 +58,8 @@ TEST_CASE("an interrupted long run (SIGINT) exits 130 and leaves no output file,
         const int null = ::open("/dev/null", 0);
         dup2(null, 0);
         const std::string station = source_path("demo/station.toml");
-        execl(FIRNRAY_EXE, FIRNRAY_EXE, "delays", "--station", station.c_str(), "--grid-distance", "0:2000:10",
-              "--grid-depth", "1:300:1", "--solver", "numeric", "--quiet", "--threads", "1", "-o", grid.c_str(),
+        execl(FIRNRAY_EXE, FIRNRAY_EXE, "delays", "--station", station.c_str(), "--source-distance", "0:2000:10",
+              "--source-depth", "1:300:1", "--solver", "numeric", "--quiet", "--threads", "1", "-o", grid.c_str(),
               static_cast<char*>(nullptr));
         _exit(127);
     }

@@ -103,3 +103,60 @@ TEST_CASE("parse_number accepts whole finite numbers only", "[io][csv]") {
     CHECK_FALSE(parse_number("inf").has_value());
     CHECK_FALSE(parse_number("1,5").has_value());
 }
+
+#include <fstream>
+
+TEST_CASE("CSV stream: blocks of rows give the same rows and lines as the whole-file reader", "[io][csv]") {
+    const std::string dir = test::temp_folder("csv-stream");
+    std::string text = "\xEF\xBB\xBF# comment\n\nx,y,name\r\n";
+    for (int i = 0; i < 1000; ++i) {
+        text += std::to_string(i) + "," + std::to_string(2 * i) + ",\"p, " + std::to_string(i) + "\"\n";
+        if (i % 100 == 3) text += "  # a comment inside\n\n";
+        if (i % 250 == 7) text += "1,\"open quote\n";
+    }
+    test::write_file(dir + "/t.csv", text);
+    const CsvTable whole = parse_csv(text, dir + "/t.csv");
+    CsvStreamReader stream(dir + "/t.csv");
+    CHECK(stream.table().columns == whole.columns);
+    CHECK(stream.table().header_line == whole.header_line);
+    std::vector<CsvRow> block, all;
+    while (stream.read_rows(block, 64)) {
+        CHECK(block.size() <= 64u);
+        all.insert(all.end(), block.begin(), block.end());
+    }
+    REQUIRE(all.size() == whole.rows.size());
+    for (std::size_t i = 0; i < all.size(); ++i) {
+        CHECK(all[i].line == whole.rows[i].line);
+        CHECK(all[i].fields == whole.rows[i].fields);
+        CHECK(all[i].problem == whole.rows[i].problem);
+    }
+    CHECK(stream.bytes_read() == stream.file_bytes());
+    CHECK_FALSE(stream.read_rows(block, 64));
+}
+
+TEST_CASE("CSV stream: a missing file, no header, a bad header and an over-long line", "[io][csv]") {
+    const std::string dir = test::temp_folder("csv-stream-bad");
+    CHECK_THROWS_AS(CsvStreamReader(dir + "/none.csv"), DataInputError);
+    CHECK_THROWS_AS(CsvStreamReader(test::write_file(dir + "/empty.csv", "# only a comment\n\n")), DataInputError);
+    CHECK_THROWS_AS(CsvStreamReader(test::write_file(dir + "/twice.csv", "a,a\n1,2\n"), CsvErrorKind::model),
+                    ModelInputError);
+    std::string long_line(CsvStreamReader::most_line_bytes + 10, ',');
+    CsvStreamReader reader(test::write_file(dir + "/long.csv", "a,b\n" + long_line + "\n1,2\n"));
+    std::vector<CsvRow> rows;
+    REQUIRE(reader.read_rows(rows, 10));
+    REQUIRE(rows.size() == 2u);
+    CHECK(rows[0].problem.find("longer than") != std::string::npos);
+    CHECK(rows[0].fields.empty());
+    CHECK(rows[1].line == 3);
+    CHECK(rows[1].fields == std::vector<std::string>{"1", "2"});
+}
+
+TEST_CASE("CSV: bad bytes in a field are shown as printable escapes in the message", "[io][csv]") {
+    const CsvTable t = parse_csv("x\n1\x01\xff\n", "bytes.csv");
+    try {
+        t.number(t.rows[0], 0);
+        FAIL("no error");
+    } catch (const DataInputError& e) {
+        CHECK(std::string(e.what()).find("\\x01\\xff") != std::string::npos);
+    }
+}

@@ -199,3 +199,53 @@ TEST_CASE("paths with both ends below the deepest point of a table, where n is c
         }
     }
 }
+
+#include <sstream>
+
+#include "support/run_cli.hpp"
+
+TEST_CASE("connect_batch_stream: a file streamed in blocks gives the text of the whole batch, whatever the thread count",
+          "[paths][stream]") {
+    auto model = std::make_shared<FirnModel>(*test::model_with(std::make_shared<ExponentialProfile>(1.78, 1.35, 40.0)));
+    const ClosedFormSolver solver(model);
+    const std::string dir = test::temp_folder("pairs-stream");
+    std::string text = "source_x_m,source_z_m,receiver_x_m,receiver_z_m,name\n";
+    for (int i = 0; i < 5000; ++i) {  // more than one read block (4096 pairs)
+        if (i % 997 == 3) text += "1,oops,2,-3,bad" + std::to_string(i) + "\n";
+        else
+            text += "0," + std::to_string(-1 - (i * 37) % 400) + "," + std::to_string(5 + (i * 53) % 1500) + "," +
+                    std::to_string(-1 - (i * 91) % 300) + ",pair-" + std::to_string(i) + "\n";
+    }
+    const std::string path = test::write_file(dir + "/pairs.csv", text);
+    const auto pairs = read_path_pairs_file(path);
+    for (const PathFormat format : {PathFormat::csv, PathFormat::json, PathFormat::text}) {
+        const BatchFormatter whole_formatter(format, {"test", solver.name()}, pairs);
+        const BatchRun whole = connect_batch(solver, pairs, {}, whole_formatter, 2);
+        std::vector<PathPair> width(1);
+        width[0].id.assign(longest_pair_id(path), ' ');
+        const BatchFormatter formatter(format, {"test", solver.name()}, width);
+        for (const int threads : {1, 3}) {
+            PathPairReader reader(path);
+            std::ostringstream out;
+            const BatchTotals totals = connect_batch_stream(solver, reader, {}, formatter, out, threads);
+            CHECK(out.str() == whole.text);
+            CHECK(totals.pairs == 5000u);
+            CHECK(totals.failed == whole.failed);
+            CHECK(totals.paths == whole.paths);
+        }
+    }
+    CHECK_FALSE(PathPairReader(path).uses_old_id_column());
+}
+
+TEST_CASE("connect_batch_stream: an empty batch is refused before anything is written", "[paths][stream]") {
+    auto model = std::make_shared<FirnModel>(*test::model_with(std::make_shared<ExponentialProfile>(1.78, 1.35, 40.0)));
+    const ClosedFormSolver solver(model);
+    const std::string dir = test::temp_folder("pairs-stream-empty");
+    const std::string path = test::write_file(dir + "/pairs.csv", "source_x_m,source_z_m,receiver_x_m,receiver_z_m\n");
+    PathPairReader reader(path);
+    std::ostringstream out;
+    const BatchFormatter formatter(PathFormat::json, {"test", solver.name()}, {});
+    CHECK_THROWS_AS(connect_batch_stream(solver, reader, {}, formatter, out, 1), DataInputError);
+    CHECK(out.str().empty());
+    CHECK_THROWS_AS(PathPairReader(test::write_file(dir + "/cols.csv", "source_x_m\n1\n")), DataInputError);
+}

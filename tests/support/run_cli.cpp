@@ -44,16 +44,18 @@ std::string source_path(const std::string& relative) {
     return (fs::path(FIRNRAY_SOURCE_DIR) / relative).string();
 }
 
-CliResult run_firnray(const std::vector<std::string>& args) {
+CliResult run_firnray(const std::vector<std::string>& args) { return run_firnray_with_stdout(args, ""); }
+
+CliResult run_firnray_with_stdout(const std::vector<std::string>& args, const std::string& stdout_path) {
     const std::string dir = temp_folder("cli");
-    const std::string out_path = dir + "/stdout", err_path = dir + "/stderr";
+    const std::string out_path = stdout_path.empty() ? dir + "/stdout" : stdout_path, err_path = dir + "/stderr";
     std::string command = quote(FIRNRAY_EXE);
     for (const auto& a : args) command += " " + quote(a);
     command += " </dev/null >" + quote(out_path) + " 2>" + quote(err_path);
     const int status = std::system(command.c_str());
     CliResult result;
     result.exit_code = WIFEXITED(status) ? WEXITSTATUS(status) : -1;
-    result.out = read_file(out_path);
+    if (stdout_path.empty()) result.out = read_file(out_path);
     result.err = read_file(err_path);
     std::error_code ignored;
     fs::remove_all(dir, ignored);

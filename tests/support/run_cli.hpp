@@ -15,6 +15,9 @@ struct CliResult {
 // args are passed through a shell, each one single-quoted; stdin is /dev/null.
 CliResult run_firnray(const std::vector<std::string>& args);
 
+// The same with standard output sent to `stdout_path` (e.g. /dev/full); `out` is then empty.
+CliResult run_firnray_with_stdout(const std::vector<std::string>& args, const std::string& stdout_path);
+
 // A fresh empty folder under the system temp dir, removed at the end of the test run.
 std::string temp_folder(const std::string& tag);
 

@@ -10,6 +10,7 @@
 #include "cli/common.hpp"
 #include "cli/exit_codes.hpp"
 #include "output/path_output.hpp"
+#include "cli/output_set.hpp"
 #include "paths/pair_batch.hpp"
 #include "solver/make_solver.hpp"
 
@@ -23,8 +24,6 @@ struct ConnectArguments {
     int max_bounces = PathOptions{}.max_bounces;
     RunOptions run;
 };
-
-Point to_point(const Point3& p) { return {p.x_m, p.y_m, p.z_m}; }
 
 // Per-step tolerance of the numeric solver here (its default is 1e-10): on pairs up to 3 km apart
 // times stay within 0.004 ps and angles within 4e-6 degrees of the closed form (exponential model)
@@ -41,8 +40,10 @@ int run_connect(const ConnectArguments& args) {
     if (!batch && args.source.empty()) throw UsageError("--source", "--receiver needs --source X,Z (m, z up)");
     if (!batch && args.receiver.empty()) throw UsageError("--receiver", "--source needs --receiver X,Z (m, z up)");
     // Points are checked before the model is read, so that a typo is reported as such.
-    const Point source = batch ? Point{} : to_point(parse_point(args.source, "--source"));
-    const Point receiver = batch ? Point{} : to_point(parse_point(args.receiver, "--receiver"));
+    const Point source = batch ? Point{} : parse_point(args.source, "--source");
+    const Point receiver = batch ? Point{} : parse_point(args.receiver, "--receiver");
+    OutputSet outputs;
+    outputs.declare("--output", args.output, output_format_named(args.format));
 
     const auto model = load_model_or_default(args.model_path);
     const auto solver = make_solver(model, parse_solver_choice(args.solver), numeric_tolerance);
@@ -53,15 +54,27 @@ int run_connect(const ConnectArguments& args) {
 
     if (!batch) {
         const auto paths = find_paths(*solver, source, receiver, options);
-        emit(args.output, format_paths(format, context, source, receiver, paths));
+        outputs.set_writer(args.output,
+                           [&](std::ostream& out) { out << format_paths(format, context, source, receiver, paths); });
+        outputs.write_all();
         return exit_ok;
     }
-    const auto pairs = read_path_pairs_file(args.pairs_path, args.run.thread_count());
-    const BatchFormatter formatter(format, context, pairs);
-    const BatchRun run =
-        connect_batch(*solver, pairs, options, formatter, args.run.thread_count(), make_run_control(args.run, "connect"));
+    // The batch streams from the pairs file to the output, a block of pairs at a time.
+    PathPairReader reader(args.pairs_path);
+    if (reader.uses_old_id_column())
+        fmt::print(stderr, "firnray: warning: {}: the pairs column 'id' is deprecated and will not be read in the "
+                           "next release; name it 'name'\n", args.pairs_path);
+    // Only the text table needs the longest name up front (it aligns its name column).
+    std::vector<PathPair> width_example(1);
+    if (format == PathFormat::text) width_example[0].id.assign(longest_pair_id(args.pairs_path), ' ');
+    const BatchFormatter formatter(format, context, width_example);
+    BatchTotals run;
+    outputs.set_writer(args.output, [&](std::ostream& out) {
+        run = connect_batch_stream(*solver, reader, options, formatter, out, args.run.thread_count(),
+                                   make_run_control(args.run, "connect"));
+    });
+    outputs.write_all();
     finish_progress(args.run);
-    emit(args.output, run.text);
     if (run.failed > 0) {
         fmt::print(stderr, "firnray: {} of {} pairs failed; their rows carry the error\n", run.failed, run.pairs);
         return exit_partial;
@@ -82,7 +95,7 @@ void add_connect_command(CLI::App& app, CommandSlot& slot) {
         ->type_name("X,Z");
     cmd->add_option("--pairs", args->pairs_path,
                     "CSV batch of pairs: columns source_x_m, source_z_m, receiver_x_m, receiver_z_m, optional "
-                    "source_y_m, receiver_y_m and id")
+                    "source_y_m, receiver_y_m and name; streamed, so its size is not limited by memory")
         ->type_name("FILE.csv");
     add_solver_option(cmd, args->solver);
     cmd->add_option("--max-bounces", args->max_bounces,
@@ -91,7 +104,7 @@ void add_connect_command(CLI::App& app, CommandSlot& slot) {
         ->check(CLI::Range(0, 32));
     cmd->add_option("--format", args->format, "text (a table for people), csv (one row per path) or json")
         ->capture_default_str()
-        ->check(CLI::IsMember({"text", "csv", "json"}));
+        ->check(one_of({"text", "csv", "json"}));
     cmd->add_option("--output,-o", args->output, "output file, written whole or not at all (default: stdout)")
         ->type_name("FILE");
     add_run_options(cmd, args->run);
@@ -107,7 +120,7 @@ Fresnel factors for s and p, the spreading distance L_eff (m) and the attenuatio
 In 3-D (X,Y,Z) the horizontal distance is used and the azimuth (from +x toward +y) reported.
 No path at all means the receiver is in the shadow zone: "paths": [] in JSON, exit code 0.
 
-A batch (--pairs) gives each path a row carrying the input line of its pair; a pair in the shadow
+A batch (--pairs) gives each path a row carrying the input line and name of its pair; a pair in the shadow
 zone gets one row of kind "none", a bad row one row with the error, and the rest still runs (exit
 code 7 when any row failed). --threads does not change the output. See docs/connect.md.
 

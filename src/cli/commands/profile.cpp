@@ -1,5 +1,6 @@
 // firnray profile: tabulate (and plot) the index profile of a model, or fit the exponential model
 // to measured index or density data and write it as a model file.
+#include <algorithm>
 #include <cmath>
 #include <memory>
 #include <optional>
@@ -9,6 +10,8 @@
 
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
+#include "cli/output_set.hpp"
+#include "core/text.hpp"
 #include "model/density.hpp"
 #include "model/fit_data.hpp"
 #include "output/profile_output.hpp"
@@ -20,7 +23,9 @@ namespace {
 
 struct ProfileOptions {
     std::string model_path;
+    std::string depths;  // START:STOP:STEP; overrides the three below (kept for the old spellings)
     double from_depth_m = 0.0, to_depth_m = 200.0, step_m = 1.0;
+    double memory_limit_mb = default_memory_limit_mb;
     std::string format;  // csv | json (table); text | json (fit)
     std::string output = "-";
     std::string plot_path;
@@ -32,13 +37,44 @@ struct ProfileOptions {
     std::string write_model_path, model_name;
 };
 
+// Rough sizes of one table row, for the memory check: the sample, its CSV or JSON text and its
+// share of the plot.
+constexpr double sample_bytes = sizeof(ProfileSample);
+constexpr double csv_row_bytes = 60.0, json_row_bytes = 130.0, svg_row_bytes = 40.0;
+
+// The CSV table a block of rows at a time, so that a long table never exists as one string.
+constexpr std::size_t rows_per_block = 1 << 16;
+
+void write_samples_csv(std::ostream& out, const std::vector<ProfileSample>& samples) {
+    for (std::size_t first = 0; first == 0 || first < samples.size(); first += rows_per_block) {
+        const auto begin = samples.begin() + static_cast<std::ptrdiff_t>(first);
+        const auto end = samples.begin() + static_cast<std::ptrdiff_t>(std::min(samples.size(), first + rows_per_block));
+        const std::string text = profile_samples_csv(std::vector<ProfileSample>(begin, end));
+        const std::size_t body = first == 0 ? 0 : text.find('\n') + 1;  // the header once
+        out.write(text.data() + body, static_cast<std::streamsize>(text.size() - body));
+        if (!out) return;  // a write error or Ctrl-C: the output set reports it
+    }
+}
+
 int tabulate(const ProfileOptions& o) {
+    OutputSet outputs;
+    outputs.declare("--plot", o.plot_path, OutputFormat::svg);
+    outputs.declare("--output", o.output, output_format_named(o.format));
+    const double rows = std::floor((o.to_depth_m - o.from_depth_m) / o.step_m) + 1.0;
+    const bool json = o.format == "json";
+    const double text_bytes = rows * (json ? json_row_bytes : csv_row_bytes);
+    const double held_text = json ? text_bytes : std::min(rows, static_cast<double>(rows_per_block)) * csv_row_bytes;
+    check_memory_estimate(fmt::format("a table of {} rows", number_for_message(rows)),
+                          rows * sample_bytes + held_text + (o.plot_path.empty() ? 0.0 : rows * svg_row_bytes),
+                          text_bytes, o.memory_limit_mb);
     const auto model = load_model_or_default(o.model_path);
     const auto samples = sample_profile(*model->index, o.from_depth_m, o.to_depth_m, o.step_m);
-    const std::string text = o.format == "json" ? profile_samples_json(*model, samples) : profile_samples_csv(samples);
-    const std::string svg = o.plot_path.empty() ? std::string() : profile_svg(*model, samples);
-    if (!o.plot_path.empty()) emit(o.plot_path, svg);
-    emit(o.output, text);
+    outputs.set_writer(o.output, [&](std::ostream& out) {
+        if (json) out << profile_samples_json(*model, samples);
+        else write_samples_csv(out, samples);
+    });
+    outputs.set_writer(o.plot_path, [&](std::ostream& out) { out << profile_svg(*model, samples); });
+    outputs.write_all();
     return 0;
 }
 
@@ -61,24 +97,38 @@ FitColumns fit_columns(const ProfileOptions& o) {
 }
 
 int fit_data(const ProfileOptions& o) {
+    OutputSet outputs;
+    outputs.declare("--write-model", o.write_model_path, OutputFormat::toml);
+    outputs.declare("--plot", o.plot_path, OutputFormat::svg);
+    outputs.declare("--output", o.output, output_format_named(o.format));
     const FitData data = read_fit_data(o.fit_path, fit_columns(o));
     ExponentialFitOptions options;
     options.fixed_n_deep = o.fixed_n_deep;
     const ExponentialFit fit = fit_exponential(data, options);
 
-    // Render everything before writing anything, so that a failure leaves no partial set of files.
-    const std::string report = o.format == "json" ? fit_report_json(data, fit) : fit_report_text(data, fit);
-    const std::string model_file =
-        o.write_model_path.empty() ? std::string() : fitted_model_toml(data, fit, o.model_name, o.write_model_path);
-    const std::string svg = o.plot_path.empty() ? std::string() : fit_svg(data, fit);
-    if (!o.write_model_path.empty()) emit(o.write_model_path, model_file);
-    if (!o.plot_path.empty()) emit(o.plot_path, svg);
-    emit(o.output, report);
+    outputs.set_writer(o.output, [&](std::ostream& out) {
+        out << (o.format == "json" ? fit_report_json(data, fit) : fit_report_text(data, fit));
+    });
+    outputs.set_writer(o.write_model_path, [&](std::ostream& out) {
+        out << fitted_model_toml(data, fit, o.model_name, o.write_model_path);
+    });
+    outputs.set_writer(o.plot_path, [&](std::ostream& out) { out << fit_svg(data, fit); });
+    outputs.write_all();
     return 0;
 }
 
 void require_finite(double value, const char* option) {
     if (!std::isfinite(value)) throw CLI::ValidationError(option, "must be a finite number");
+}
+
+// --depths START:STOP:STEP into the three numbers the table is made from.
+void split_depth_range(ProfileOptions& o) {
+    const auto colon = o.depths.find(':'), second = o.depths.find(':', colon == std::string::npos ? 0 : colon + 1);
+    if (colon == std::string::npos || second == std::string::npos || o.depths.find(':', second + 1) != std::string::npos)
+        throw UsageError("--depths", fmt::format("'{}' is not a range: give START:STOP:STEP", printable_excerpt(o.depths)));
+    o.from_depth_m = parse_number(o.depths.substr(0, colon), "--depths");
+    o.to_depth_m = parse_number(o.depths.substr(colon + 1, second - colon - 1), "--depths");
+    o.step_m = parse_number(o.depths.substr(second + 1), "--depths");
 }
 
 }  // namespace
@@ -94,7 +144,7 @@ void add_profile_command(CLI::App& app, CommandSlot& slot) {
         "z up, so it is negative where n grows with depth. Without --model the built-in generic polar firn is used.\n"
         "\n"
         "Examples:\n"
-        "  firnray profile --model models/demo-site.toml --to-depth 150 --step 0.5 --output halvard.csv \\\n"
+        "  firnray profile --model models/demo-site.toml --depths 0:150:0.5 --output halvard.csv \\\n"
         "      --plot halvard.svg\n"
         "      writes depth_m,z_m,n,dn_dz_per_m rows from 0 to 150 m and an SVG of n against depth.\n"
         "  firnray profile --fit models/synthetic-density.csv --density-column density_kg_m3 \\\n"
@@ -106,17 +156,28 @@ void add_profile_command(CLI::App& app, CommandSlot& slot) {
 
     add_model_option(cmd, o->model_path);
     CLI::Option* model = cmd->get_option("--model");
-    auto* from = cmd->add_option("--from-depth", o->from_depth_m, "first depth of the table (m, >= 0)")
-                     ->capture_default_str();
-    auto* to = cmd->add_option("--to-depth", o->to_depth_m, "last depth of the table (m)")
-                   ->capture_default_str();
-    auto* step = cmd->add_option("--step", o->step_m, "depth step of the table (m, > 0)")
-                     ->capture_default_str();
+    auto* depths = cmd->add_option("--depths", o->depths,
+                                   "depths of the table START:STOP:STEP (m, positive down; STOP included); default 0:200:1")
+                       ->type_name("START:STOP:STEP");
+    const auto old_number = [o](const std::string& option, double ProfileOptions::*field) {
+        return [o, option, field](const std::string& value) { o.get()->*field = parse_number(value, option); };
+    };
+    add_deprecated_option(cmd, "--from-depth", depths, old_number("--from-depth", &ProfileOptions::from_depth_m),
+                          "START:STOP:STEP");
+    add_deprecated_option(cmd, "--to-depth", depths, old_number("--to-depth", &ProfileOptions::to_depth_m),
+                          "START:STOP:STEP");
+    add_deprecated_option(cmd, "--step", depths, old_number("--step", &ProfileOptions::step_m), "START:STOP:STEP");
+    CLI::Option* from = cmd->get_option("--from-depth");
+    CLI::Option* to = cmd->get_option("--to-depth");
+    CLI::Option* step = cmd->get_option("--step");
     cmd->add_option("--format", o->format, "output format: csv or json for a table (default csv); text or json for a "
                                            "fit (default text)")
-        ->check(CLI::IsMember({"csv", "json", "text"}));
-    cmd->add_option("--output,-o", o->output, "output file ('-' = standard output)")->capture_default_str();
-    cmd->add_option("--plot", o->plot_path, "also write an SVG of n against depth (for a fit: data and fitted curve)");
+        ->check(one_of({"csv", "json", "text"}));
+    cmd->add_option("--output,-o", o->output, "output file, written whole or not at all ('-' = standard output)")
+        ->capture_default_str();
+    cmd->add_option("--plot", o->plot_path, "also write an SVG of n against depth (for a fit: data and fitted curve)")
+        ->type_name("FILE.svg");
+    add_memory_limit_option(cmd, o->memory_limit_mb);
 
     auto* fit = cmd->add_option("--fit", o->fit_path, "fit the exponential model to this CSV of measurements");
     auto* depth_column = cmd->add_option("--depth-column", o->depth_column, "CSV column with depth in m (default depth_m)");
@@ -125,11 +186,11 @@ void add_profile_command(CLI::App& app, CommandSlot& slot) {
     auto* density_column =
         cmd->add_option("--density-column", o->density_column, "CSV column with density (instead of n)");
     auto* density_unit = cmd->add_option("--density-unit", o->density_unit, "unit of the density column")
-                             ->capture_default_str()->check(CLI::IsMember({"kg/m3", "g/cm3"}));
+                             ->capture_default_str()->check(one_of({"kg/m3", "g/cm3"}));
     auto* density_rule =
         cmd->add_option("--density-rule", o->density_rule,
                         "density to index: kovacs (Kovacs, Gow & Morey 1995) or looyenga (Looyenga 1965)")
-            ->check(CLI::IsMember({"kovacs", "looyenga"}));
+            ->check(one_of({"kovacs", "looyenga"}));
     auto* fix = cmd->add_option("--fix-n-deep", o->fixed_n_deep, "hold n_deep at this value and fit the other two");
     auto* write_model = cmd->add_option("--write-model", o->write_model_path, "write the fitted model as a model file");
     auto* name = cmd->add_option("--name", o->model_name, "name of the written model (default: from the data file)");
@@ -138,7 +199,7 @@ void add_profile_command(CLI::App& app, CommandSlot& slot) {
     n_column->excludes(density_column);
     density_rule->needs(density_column);
     density_column->needs(density_rule);
-    fit->excludes(model)->excludes(from)->excludes(to)->excludes(step);
+    fit->excludes(model)->excludes(depths)->excludes(from)->excludes(to)->excludes(step);
     for (CLI::Option* fit_only : {depth_column, z_column, n_column, density_column, density_unit, density_rule, fix,
                                   write_model, name})
         fit_only->needs(fit);
@@ -150,16 +211,20 @@ void add_profile_command(CLI::App& app, CommandSlot& slot) {
             throw CLI::ValidationError("--format", "a fit is reported as text or json, not csv");
         if (!fitting && o->format == "text")
             throw CLI::ValidationError("--format", "a profile table is written as csv or json, not text");
-        require_finite(o->from_depth_m, "--from-depth");
-        require_finite(o->to_depth_m, "--to-depth");
-        require_finite(o->step_m, "--step");
-        if (o->from_depth_m < 0.0) throw CLI::ValidationError("--from-depth", "depths are >= 0 (positive down)");
-        if (o->step_m <= 0.0) throw CLI::ValidationError("--step", "must be a positive depth step in m");
+        const bool range = !o->depths.empty();
+        if (range) split_depth_range(*o);
+        const char* start = range ? "--depths" : "--from-depth";
+        const char* stop = range ? "--depths" : "--to-depth";
+        const char* step = range ? "--depths" : "--step";
+        require_finite(o->from_depth_m, start);
+        require_finite(o->to_depth_m, stop);
+        require_finite(o->step_m, step);
+        if (o->from_depth_m < 0.0) throw CLI::ValidationError(start, "depths are >= 0 (positive down)");
+        if (o->step_m <= 0.0) throw CLI::ValidationError(step, "the step must be a positive depth step in m");
         if (o->to_depth_m < o->from_depth_m)
-            throw CLI::ValidationError("--to-depth", fmt::format("{} m is above --from-depth {} m", o->to_depth_m,
-                                                                 o->from_depth_m));
-        if ((o->to_depth_m - o->from_depth_m) / o->step_m > 1e7)
-            throw CLI::ValidationError("--step", "gives more than ten million rows; use a larger step");
+            throw CLI::ValidationError(stop, fmt::format("the last depth {} m is above the first {} m",
+                                                         number_for_message(o->to_depth_m),
+                                                         number_for_message(o->from_depth_m)));
         if (o->fixed_n_deep && (!std::isfinite(*o->fixed_n_deep) || *o->fixed_n_deep < 1.0))
             throw CLI::ValidationError("--fix-n-deep", "must be a finite index >= 1");
         slot.run = [o] { return !o->fit_path.empty() ? fit_data(*o) : tabulate(*o); };

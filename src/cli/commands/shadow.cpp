@@ -1,14 +1,16 @@
 // firnray shadow: which source positions a receiver or a station sees, on a grid of horizontal
 // distance × depth, with the shadow boundary, as CSV tables and an SVG map.
+#include <algorithm>
 #include <cmath>
-#include <limits>
 #include <sstream>
 
 #include <fmt/format.h>
 
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
+#include "cli/output_set.hpp"
 #include "core/errors.hpp"
+#include "core/text.hpp"
 #include "solver/make_solver.hpp"
 #include "output/map_output.hpp"
 #include "station/visibility_map.hpp"
@@ -26,19 +28,78 @@ struct ShadowArguments {
     std::string solver = "auto";
     int ray_parameters = 1500;
     std::string grid_path = "-", boundary_path, plot_path, colour_by = "auto";
+    double memory_limit_mb = default_memory_limit_mb;
     RunOptions run;
 };
 
+// Rough sizes, for the memory check: a grid CSV row, an arrival-table entry, an SVG cell (merged
+// runs of equal cells make it smaller).
+constexpr double grid_csv_bytes_per_cell = 70.0;
+constexpr double arrival_bytes_per_ray_parameter = 200.0;
+constexpr double svg_bytes_per_cell = 60.0;
+// The grid CSV is written in blocks of rows of about this many cells, so that a large grid never
+// exists as one string.
+constexpr std::size_t cells_per_block = 1 << 16;
+
+void check_memory(const ShadowArguments& args, const MapGrid& grid, std::size_t receivers) {
+    const double cells = static_cast<double>(grid.cells());
+    const double memory = cells * sizeof(MapCell) + grid.depth_cells * sizeof(double) +
+                          static_cast<double>(receivers) * args.ray_parameters * arrival_bytes_per_ray_parameter +
+                          (args.plot_path.empty() ? 0.0 : cells * svg_bytes_per_cell) +
+                          std::min(cells, static_cast<double>(cells_per_block)) * grid_csv_bytes_per_cell;
+    check_memory_estimate(fmt::format("a shadow map of {} x {} cells", grid.distance_cells, grid.depth_cells), memory,
+                          cells * grid_csv_bytes_per_cell, args.memory_limit_mb);
+}
+
+// The grid CSV, rows of cells at a time (the rows of one block are rendered as a map of their own).
+void write_grid_csv(std::ostream& out, const VisibilityMap& map) {
+    const int rows_per_block =
+        std::max(1, static_cast<int>(cells_per_block / static_cast<std::size_t>(map.grid.distance_cells)));
+    if (rows_per_block >= map.grid.depth_cells) {
+        out << visibility_grid_csv(map);
+        return;
+    }
+    for (int first = 0; first < map.grid.depth_cells; first += rows_per_block) {
+        const int rows = std::min(rows_per_block, map.grid.depth_cells - first);
+        VisibilityMap block = map;  // copies only what is small once the cells are replaced
+        block.cells.assign(map.cells.begin() + static_cast<std::ptrdiff_t>(first) * map.grid.distance_cells,
+                           map.cells.begin() + static_cast<std::ptrdiff_t>(first + rows) * map.grid.distance_cells);
+        block.boundary_m.assign(map.boundary_m.begin() + first, map.boundary_m.begin() + first + rows);
+        block.grid.depth_min_m = map.grid.depth_min_m + first * map.grid.depth_step();
+        block.grid.depth_max_m = map.grid.depth_min_m + (first + rows) * map.grid.depth_step();
+        block.grid.depth_cells = rows;
+        const std::string text = visibility_grid_csv(block);
+        const std::size_t body = first == 0 ? 0 : text.find('\n') + 1;  // the header once
+        out.write(text.data() + body, static_cast<std::streamsize>(text.size() - body));
+        if (!out) return;  // a write error or Ctrl-C: the output set reports it
+    }
+}
+
 int run_shadow(const ShadowArguments& args) {
-    const auto model = load_model_or_default(args.model_path);
-    const auto solver = make_solver(model, parse_solver_choice(args.solver));
-    const auto receivers = select_receivers(args.station_path, args.receiver_text, args.receivers_subset, "--receiver");
+    OutputSet outputs;
+    outputs.declare("--boundary", args.boundary_path, OutputFormat::csv);
+    outputs.declare("--plot", args.plot_path, OutputFormat::svg);
+    outputs.declare("--output", args.grid_path, OutputFormat::csv);
 
     MapGrid grid;
-    std::tie(grid.distance_min_m, grid.distance_max_m) = parse_span(args.distance_range, "--distance");
-    std::tie(grid.depth_min_m, grid.depth_max_m) = parse_span(args.depth_range, "--depth");
+    std::tie(grid.distance_min_m, grid.distance_max_m) = parse_span(args.distance_range, "--source-distance");
+    std::tie(grid.depth_min_m, grid.depth_max_m) = parse_span(args.depth_range, "--source-depth");
+    if (grid.distance_min_m < 0.0)
+        throw UsageError("--source-distance", fmt::format("distances are >= 0 (m from the receiver), not {}",
+                                                          number_for_message(grid.distance_min_m)));
+    if (grid.depth_min_m < 0.0)
+        throw UsageError("--source-depth", fmt::format("depths are >= 0 (m, positive down), not {}",
+                                                       number_for_message(grid.depth_min_m)));
     grid.distance_cells = args.distance_cells;
     grid.depth_cells = args.depth_cells;
+
+    const auto receivers = select_receivers(args.station_path, args.receiver_text, args.receivers_subset, "--receiver");
+    if (static_cast<std::size_t>(args.min_receivers) > receivers.size())
+        throw UsageError("--min-receivers", fmt::format("{} is more receivers than there are ({})", args.min_receivers,
+                                                        receivers.size()));
+    check_memory(args, grid, receivers.size());
+    const auto model = load_model_or_default(args.model_path);
+    const auto solver = make_solver(model, parse_solver_choice(args.solver));
 
     VisibilityOptions options;
     options.min_receivers = args.min_receivers;
@@ -49,18 +110,15 @@ int run_shadow(const ShadowArguments& args) {
     const VisibilityMap map = compute_visibility_map(*solver, receivers, grid, options);
     finish_progress(args.run);
 
-    // Render everything before writing anything, so that a failure leaves no output at all.
-    const std::string grid_csv = visibility_grid_csv(map);
-    const std::string boundary_csv = args.boundary_path.empty() ? "" : visibility_boundary_csv(map);
-    const std::string svg = args.plot_path.empty()
-                                ? ""
-                                : visibility_map_svg(map, *model, receivers,
-                                                     parse_map_colouring(args.colour_by != "auto" ? args.colour_by
-                                                                         : receivers.size() == 1 ? "kinds"
-                                                                                                 : "receivers"));
-    if (!args.boundary_path.empty()) emit(args.boundary_path, boundary_csv);
-    if (!args.plot_path.empty()) emit(args.plot_path, svg);
-    emit(args.grid_path, grid_csv);
+    outputs.set_writer(args.grid_path, [&](std::ostream& out) { write_grid_csv(out, map); });
+    outputs.set_writer(args.boundary_path, [&](std::ostream& out) { out << visibility_boundary_csv(map); });
+    outputs.set_writer(args.plot_path, [&](std::ostream& out) {
+        const std::string colouring = args.colour_by != "auto" ? args.colour_by
+                                      : receivers.size() == 1  ? "kinds"
+                                                               : "receivers";
+        out << visibility_map_svg(map, *model, receivers, parse_map_colouring(colouring));
+    });
+    outputs.write_all();
     return 0;
 }
 
@@ -80,35 +138,43 @@ void add_shadow_command(CLI::App& app, CommandSlot& slot) {
     cmd->add_option("--min-receivers", args->min_receivers,
                     "a source position counts as visible when at least K receivers see it (default 1)")
         ->type_name("K")
-        ->check(CLI::PositiveNumber);
+        ->check(CLI::Range(1, 65535));
     cmd->add_option("--azimuth-deg", args->azimuth_deg,
-                    "direction of the map plane from the station centre, degrees from +x toward +y (default 0)");
-    cmd->add_option("--distance", args->distance_range, "horizontal distance range MIN:MAX of source positions (m)")
-        ->capture_default_str();
+                    "direction of the map plane from the station centre, degrees from +x toward +y (default 0)")
+        ->check(finite_in_range(-360.0, 360.0));
+    auto* distance = cmd->add_option("--source-distance", args->distance_range,
+                                     "source region: horizontal distance MIN:MAX (m)")
+                         ->type_name("MIN:MAX")
+                         ->capture_default_str();
     cmd->add_option("--distance-cells", args->distance_cells, "grid columns")->capture_default_str()->check(CLI::Range(1, 20000));
-    cmd->add_option("--depth", args->depth_range, "source depth range MIN:MAX (m, positive down)")->capture_default_str();
+    auto* depth = cmd->add_option("--source-depth", args->depth_range, "source region: depth MIN:MAX (m, positive down)")
+                      ->type_name("MIN:MAX")
+                      ->capture_default_str();
     cmd->add_option("--depth-cells", args->depth_cells, "grid rows")->capture_default_str()->check(CLI::Range(1, 20000));
+    add_deprecated_option(cmd, "--distance", distance, [args](const std::string& v) { args->distance_range = v; });
+    add_deprecated_option(cmd, "--depth", depth, [args](const std::string& v) { args->depth_range = v; });
     add_solver_option(cmd, args->solver);
     add_ray_parameters_option(cmd, args->ray_parameters);
-    cmd->add_option("--output,-o", args->grid_path, "grid CSV, one row per cell (default: stdout)")->type_name("FILE");
+    add_memory_limit_option(cmd, args->memory_limit_mb);
+    cmd->add_option("--output,-o", args->grid_path, "grid CSV, one row per cell (default: stdout)")->type_name("FILE.csv");
     cmd->add_option("--boundary", args->boundary_path, "shadow boundary CSV: largest visible distance per source depth")
-        ->type_name("FILE");
+        ->type_name("FILE.csv");
     cmd->add_option("--plot", args->plot_path, "SVG map")->type_name("FILE.svg");
     cmd->add_option("--colour-by", args->colour_by,
                     "what the map colours: kinds (path kinds), receivers (how many see it), time-between (ns), "
                     "first-time (ns), amplitude; auto = kinds for one receiver, receivers for a station")
         ->capture_default_str()
-        ->check(CLI::IsMember({"auto", "kinds", "receivers", "time-between", "first-time", "amplitude"}));
+        ->check(one_of({"auto", "kinds", "receivers", "time-between", "first-time", "amplitude"}));
     add_run_options(cmd, args->run);
     cmd->footer(R"(
 Grid cells are source positions; distances are measured from the receiver (or, for a station,
 from the mean receiver position along --azimuth-deg); depths are positive, down. Each cell gives
 the number and kinds of paths, the first-arrival time, the time between the first two paths and
 a received amplitude factor (|Fresnel| x attenuation / spreading distance, per metre, for a unit
-source). Cells beyond every path are the shadow zone.
+source). Cells beyond every path are the shadow zone. Outputs are written whole or not at all.
 
 Example: the shadow zone of a receiver at 60 m depth, with its boundary and a map
-  firnray shadow --receiver 0,-60 --distance 0:1500 --depth 0:300 \
+  firnray shadow --receiver 0,-60 --source-distance 0:1500 --source-depth 0:300 \
       --output grid.csv --boundary boundary.csv --plot shadow.svg
 Example: where at least 3 receivers of a station see a source
   firnray shadow --station demo/station.toml --min-receivers 3 --colour-by receivers --plot st.svg -o st.csv)");

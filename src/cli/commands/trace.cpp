@@ -10,7 +10,11 @@
 
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
+#include "cli/interrupt.hpp"
+#include "cli/output_set.hpp"
 #include "core/constants.hpp"
+#include "core/errors.hpp"
+#include "core/text.hpp"
 #include "trace/ray_tracer.hpp"
 #include "output/trace_output.hpp"
 
@@ -22,7 +26,7 @@ namespace {
 // More angles than most_zenith_angles is a mistyped step rather than a fan anyone wants.
 constexpr std::size_t most_zenith_angles = 100000;
 
-Point3 launch_point(const std::string& text) { return parse_point(text, "--from", PointForm::xz); }
+Point launch_point(const std::string& text) { return parse_point(text, "--from", PointForm::xz); }
 std::vector<double> zenith_list_deg(const std::string& text) { return parse_list(text, "--zenith-deg"); }
 std::vector<double> zenith_range_deg(const std::string& text) {
     std::vector<double> angles = parse_range(text, "--zenith-range");
@@ -38,40 +42,58 @@ struct TraceArguments {
     std::string zenith_range;
     double max_distance_m = 1000.0;
     double max_length_m = 5000.0;
-    double floor_z_m = -std::numeric_limits<double>::infinity();
-    double ceiling_z_m = std::numeric_limits<double>::quiet_NaN();
+    double floor_depth_m = std::numeric_limits<double>::infinity();
+    double ceiling_height_m = std::numeric_limits<double>::quiet_NaN();
     double relative_tolerance = IntegrationTolerances{}.relative;
     double absolute_tolerance = IntegrationTolerances{}.absolute;
     std::string sample = "spacing";
     double spacing_m = 1.0;
-    int max_interactions = 32;
+    int max_bounces = 32;
     int max_branches = 16;
     std::string format = "csv";
     std::string output = "-";
     std::string plot_path;
+    double memory_limit_mb = default_memory_limit_mb;
 };
 
+// Rough size of one written point, held and written (for the memory check of --sample spacing).
+constexpr double bytes_per_point = 120.0;
+
+void check_memory(const TraceArguments& a, std::size_t rays) {
+    if (a.sample != "spacing") return;  // steps and ends: the count is known only once traced
+    const double points = static_cast<double>(rays) * (a.max_length_m / a.spacing_m + 2.0);
+    check_memory_estimate(fmt::format("{} rays sampled every {} m over {} m", rays, number_for_message(a.spacing_m), number_for_message(a.max_length_m)),
+                          points * bytes_per_point * (a.plot_path.empty() ? 1.0 : 1.5), points * bytes_per_point / 2,
+                          a.memory_limit_mb);
+}
+
 int run_trace(const TraceArguments& a) {
-    const Point3 from = launch_point(a.from);  // both checked while parsing the command line
+    OutputSet outputs;
+    outputs.declare("--plot", a.plot_path, OutputFormat::svg);
+    outputs.declare("--output", a.output, output_format_named(a.format));
+    const Point from = launch_point(a.from);  // both checked while parsing the command line
     const std::vector<double> zenith_deg =
         a.zenith_range.empty() ? zenith_list_deg(a.zenith_list) : zenith_range_deg(a.zenith_range);
+    check_memory(a, zenith_deg.size());
     const auto model = load_model_or_default(a.model_path);
 
     TraceOptions options;
     options.max_distance_m = a.max_distance_m;
     options.max_length_m = a.max_length_m;
-    options.floor_z_m = a.floor_z_m;
-    options.ceiling_z_m = std::isnan(a.ceiling_z_m) ? std::max(50.0, from.z_m) : a.ceiling_z_m;
+    options.floor_z_m = -a.floor_depth_m;
+    options.ceiling_z_m = std::isnan(a.ceiling_height_m) ? std::max(50.0, from.z) : a.ceiling_height_m;
     options.tolerances.relative = a.relative_tolerance;
     options.tolerances.absolute = a.absolute_tolerance;
-    options.max_surface_interactions = a.max_interactions;
+    options.max_surface_interactions = a.max_bounces;
     options.max_branches = a.max_branches;
     const RayTracer tracer(model, options);
 
     std::vector<RayTrace> rays;
     rays.reserve(zenith_deg.size());
+    const std::atomic<bool>* cancel = install_interrupt_flag();
     for (const double angle : zenith_deg) {
-        const RayLaunch launch{from.x_m, from.z_m, deg_to_rad(angle)};
+        if (cancel->load()) throw Cancelled();
+        const RayLaunch launch{from.x, from.z, deg_to_rad(angle)};
         if (a.sample == "steps") {
             EveryStepRecorder recorder;
             rays.push_back(tracer.trace(launch, recorder));
@@ -84,11 +106,9 @@ int run_trace(const TraceArguments& a) {
         }
     }
 
-    // Render everything before writing anything, so that a failure leaves no partial set of files.
-    const std::string text = a.format == "json" ? trace_json(*model, rays) : trace_csv(rays);
-    const std::string svg = a.plot_path.empty() ? std::string() : ray_fan_svg(*model, rays, from.x_m, from.z_m);
-    if (!a.plot_path.empty()) emit(a.plot_path, svg);
-    emit(a.output, text);
+    outputs.set_writer(a.output, [&](std::ostream& out) { out << (a.format == "json" ? trace_json(*model, rays) : trace_csv(rays)); });
+    outputs.set_writer(a.plot_path, [&](std::ostream& out) { out << ray_fan_svg(*model, rays, from.x, from.z); });
+    outputs.write_all();
     return 0;
 }
 
@@ -112,42 +132,71 @@ void add_trace_command(CLI::App& app, CommandSlot& slot) {
     range->excludes(list);
     cmd->add_option("--max-distance", args->max_distance_m, "Horizontal distance from the launch point where rays stop (m)")
         ->capture_default_str()
-        ->check(CLI::PositiveNumber);
+        ->check(finite_positive());
     cmd->add_option("--max-length", args->max_length_m, "Arc length from the launch where rays stop (m)")
         ->capture_default_str()
-        ->check(CLI::PositiveNumber);
-    cmd->add_option("--floor-z", args->floor_z_m, "Rays in the ice stop below this z (m, <= 0); default: no floor")
-        ->check(CLI::Range(-1e7, 0.0));
-    cmd->add_option("--ceiling-z", args->ceiling_z_m,
-                    "Rays in the air stop above this z (m, >= 0); default: 50 m or the launch height if higher")
-        ->check(CLI::Range(0.0, 1e7));
+        ->check(finite_positive());
+    auto* floor = cmd->add_option("--floor-depth", args->floor_depth_m,
+                                  "Rays in the ice stop below this depth (m, positive down); default: no floor")
+                      ->type_name("DEPTH")
+                      ->check(finite_in_range(0.0, 1e7));
+    auto* ceiling = cmd->add_option("--ceiling-height", args->ceiling_height_m,
+                                    "Rays in the air stop above this height (m above the surface); default: 50 m or "
+                                    "the launch height if higher")
+                        ->type_name("HEIGHT")
+                        ->check(finite_in_range(0.0, 1e7));
+    add_deprecated_option(
+        cmd, "--floor-z", floor,
+        [args](const std::string& z) {
+            const double value = parse_number(z, "--floor-z");
+            require_in_range(value, -1e7, 0.0, "--floor-z", "the floor z (m, <= 0)");
+            args->floor_depth_m = -value;
+        },
+        "DEPTH (positive, down)");
+    add_deprecated_option(
+        cmd, "--ceiling-z", ceiling,
+        [args](const std::string& z) {
+            const double value = parse_number(z, "--ceiling-z");
+            require_in_range(value, 0.0, 1e7, "--ceiling-z", "the ceiling z (m, >= 0)");
+            args->ceiling_height_m = value;
+        },
+        "HEIGHT");
     cmd->add_option("--relative-tolerance", args->relative_tolerance, "Per-step relative error of the integrator")
         ->capture_default_str()
-        ->check(CLI::PositiveNumber);
+        ->check(finite_positive());
     cmd->add_option("--absolute-tolerance", args->absolute_tolerance, "Per-step absolute error of the integrator (m)")
         ->capture_default_str()
-        ->check(CLI::PositiveNumber);
+        ->check(finite_positive());
     cmd->add_option("--sample", args->sample,
                     "Points written per branch: spacing (every --spacing metres of path), steps (every integration "
                     "step) or ends (start, events, end)")
         ->capture_default_str()
-        ->check(CLI::IsMember({"spacing", "steps", "ends"}));
+        ->check(one_of({"spacing", "steps", "ends"}));
     cmd->add_option("--spacing", args->spacing_m, "Path length between written points with --sample spacing (m)")
         ->capture_default_str()
-        ->check(CLI::PositiveNumber);
-    cmd->add_option("--max-interactions", args->max_interactions, "Surface interactions allowed per ray")
-        ->capture_default_str()
-        ->check(CLI::Range(0, 100000));
+        ->check(finite_positive());
+    auto* bounces = cmd->add_option("--max-bounces", args->max_bounces,
+                                    "Surface and bottom interactions (reflections, transmissions) allowed per ray")
+                        ->capture_default_str()
+                        ->check(CLI::Range(0, 100000));
+    add_deprecated_option(cmd, "--max-interactions", bounces, [args](const std::string& count) {
+        const double value = parse_number(count, "--max-interactions");
+        require_in_range(value, 0.0, 100000.0, "--max-interactions", "the count");
+        args->max_bounces = static_cast<int>(value);
+    });
     cmd->add_option("--max-branches", args->max_branches, "Branches (transmitted rays) followed per ray")
         ->capture_default_str()
         ->check(CLI::Range(1, 100000));
     cmd->add_option("--format", args->format, "Output format: csv (one row per point) or json (rays, branches, events)")
         ->capture_default_str()
-        ->check(CLI::IsMember({"csv", "json"}));
-    cmd->add_option("--output,-o", args->output, "Output file; - for standard output")->capture_default_str();
-    cmd->add_option("--plot", args->plot_path, "Also draw the rays as an SVG figure into this file");
+        ->check(one_of({"csv", "json"}));
+    add_memory_limit_option(cmd, args->memory_limit_mb);
+    cmd->add_option("--output,-o", args->output, "Output file, written whole or not at all; - for standard output")
+        ->capture_default_str();
+    cmd->add_option("--plot", args->plot_path, "Also draw the rays as an SVG figure into this file")->type_name("FILE.svg");
     cmd->footer(
-        "\nConventions: z is up (m), the surface is z = 0 and the ice z < 0; zenith angles of the direction of\n"
+        "\nConventions: the launch point is X,Z in metres where z is up, the surface is z = 0 and the ice z < 0;\n"
+        "the floor and the ceiling are a depth and a height (m, positive); zenith angles of the direction of\n"
         "travel (0 = up, 90 = horizontal toward +x, 180 = down; negative angles travel toward -x); times in ns,\n"
         "times and lengths counted from the launch.\n"
         "Example: rays every 5 degrees from a transmitter 150 m deep, out to 1 km, with a plot:\n"
