@@ -6,11 +6,12 @@
 #include <limits>
 #include <optional>
 
-#include <boost/math/tools/toms748_solve.hpp>
 #include <fmt/format.h>
 
 #include "core/constants.hpp"
 #include "core/errors.hpp"
+#include "paths/amplitude.hpp"
+#include "trace/bracketed_root.hpp"
 #include "trace/fresnel.hpp"
 
 namespace firnray {
@@ -38,20 +39,13 @@ const char* to_string(PathEventKind kind) {
 
 namespace {
 
-constexpr double nan = std::numeric_limits<double>::quiet_NaN();
 constexpr double infinity = std::numeric_limits<double>::infinity();
 // An end counts as horizontal when n − ξ there is below this fraction of n. The leg that ends
 // there has ∂r/∂ξ ~ 1/cos θ, and the spreading takes the analytic limit of |∂r/∂ξ|·cos θ, which
 // is 1/|dn/dz|: its error grows like the angle from horizontal (~1e-5 at the threshold), while the
 // direct product loses accuracy like ε·n/(n − ξ) (~1e-6 at the threshold).
 constexpr double horizontal_tolerance = 1e-10;
-// L_eff below this fraction of the path length is reported as a caustic: ray theory would predict
-// a focusing gain above 1000 in field. Near a fold L_eff only vanishes like (R_max − R)^{1/4}, so
-// this marks the neighbourhood of the caustic itself.
-constexpr double caustic_fraction = 1e-3;
-
-// |cos θ| where n sin θ = ξ, without the cancellation of 1 − (ξ/n)².
-double cos_from(double n, double xi) { return std::sqrt(std::max(0.0, (n - xi) * (n + xi))) / n; }
+double cos_from(double n, double xi) { return cos_from_ray_parameter(n, xi); }
 
 // Zenith of an upward direction with n sin θ = ξ; a downward one is π minus it.
 double upward_zenith(double n, double xi) { return std::atan2(xi, std::sqrt(std::max(0.0, (n - xi) * (n + xi)))); }
@@ -208,10 +202,7 @@ FamilyValue PathFinder::evaluate(const std::vector<Term>& terms, double xi) cons
 // The root of r(ξ(v)) − R on v in [a, b], f(a) and f(b) of opposite signs.
 template <class F>
 double bracketed_root(F f, double a, double b, double fa, double fb) {
-    std::uintmax_t iterations = 200;
-    const auto [lo, hi] =
-        boost::math::tools::toms748_solve(f, a, b, fa, fb, boost::math::tools::eps_tolerance<double>(50), iterations);
-    return 0.5 * (lo + hi);
+    return toms748_root("the ray parameter of a path", f, a, b, fa, fb, 50, 200);
 }
 
 // A family whose distance grows with ξ (every leg has fixed ends): at most one root. ξ runs as
@@ -667,22 +658,15 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
         p.distance_derivative = regular_derivative;
         p.distance_per_launch_angle = regular_derivative * n_source * launch_cos;
     }
-    const double r_over_xi = xi > 0.0 ? r_ / xi : std::abs(regular_derivative);
-    const double tube = r_over_xi * derivative_cosines;
-    PathAmplitude& amplitude = p.amplitude;
-    amplitude.interface_s = interface_s;
-    amplitude.interface_p = interface_p;
-    amplitude.flux_factor = std::sqrt(n_source / n_receiver) * flux;
-    amplitude.attenuation_factor = std::exp(-p.attenuation_exponent);
-    amplitude.spreading_distance_m = n_source * std::sqrt(tube);
-    amplitude.caustic = !(amplitude.spreading_distance_m > caustic_fraction * p.length_m);
-    if (amplitude.caustic) {
-        amplitude.field_s = amplitude.field_p = {nan, nan};
-    } else {
-        const double scale = amplitude.flux_factor * amplitude.attenuation_factor / amplitude.spreading_distance_m;
-        amplitude.field_s = interface_s * scale;
-        amplitude.field_p = interface_p * scale;
-    }
+    RayTube tube;
+    tube.n_source = n_source;
+    tube.n_receiver = n_receiver;
+    tube.horizontal_distance_m = r_;
+    tube.ray_parameter = xi;
+    tube.derivative_cosines = derivative_cosines;
+    tube.distance_derivative = regular_derivative;
+    tube.length_m = p.length_m;
+    p.amplitude = path_amplitude(interface_s, interface_p, flux, p.attenuation_exponent, tube);
     paths_.push_back(std::move(p));
 }
 

@@ -7,11 +7,11 @@
 #include <utility>
 #include <vector>
 
-#include <boost/math/tools/toms748_solve.hpp>
 #include <fmt/format.h>
 
 #include "core/constants.hpp"
 #include "core/errors.hpp"
+#include "trace/bracketed_root.hpp"
 #include "trace/ray_integration.hpp"
 #include "trace/ray_system.hpp"
 
@@ -334,9 +334,7 @@ std::optional<double> NumericSolver::turning_z(double xi, double z_start) const 
         const double f_next = f(z_next);
         if (f_next <= 0.0) {
             if (f_next == 0.0) return z_next;
-            boost::uintmax_t iterations = 100;
-            const auto r = boost::math::tools::toms748_solve(f, z, z_next, fz, f_next,
-                                                             boost::math::tools::eps_tolerance<double>(52), iterations);
+            const auto r = toms748_bracket("a turning point", f, z, z_next, fz, f_next, 52, 100);
             // The end on the n >= ξ side, so that segment() sees a valid (turning) end.
             return f(r.first) >= 0.0 ? r.first : r.second;
         }

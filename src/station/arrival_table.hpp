@@ -25,8 +25,10 @@ struct MapArrival {
     ArrivalKind kind = ArrivalKind::direct;
     double time_s = 0.0;
     double ray_parameter = 0.0;
-    double amplitude_per_m = 0.0;  // |Fresnel| x attenuation / L_eff, for a unit source at 1 m
-    bool caustic = false;          // ∂X/∂θ0 ≈ 0: geometric spreading is not defined there
+    // The field for a unit source at 1 m, averaged over the polarisations (mean_field_magnitude
+    // of paths/amplitude.hpp: the same computation and caustic test as find_paths). NaN at a caustic.
+    double amplitude_per_m = 0.0;
+    bool caustic = false;          // L_eff <= caustic_fraction × the path length (paths/amplitude.hpp)
 };
 
 struct ArrivalTableOptions {
@@ -62,14 +64,15 @@ private:
         std::size_t count;  // samples with ξ below the shallower end's index, plus the end point
         std::vector<Piece> rising_pieces;
         double max_reach_m = 0.0;
-        double end_distance_m = 0.0, end_time_s = 0.0, end_attenuation = 0.0, end_ray_parameter = 0.0;
+        double end_distance_m = 0.0, end_time_s = 0.0, end_attenuation = 0.0, end_length_m = 0.0,
+               end_ray_parameter = 0.0;
         // An interior maximum of the rising family, refined on the solver: between the largest
         // sampled distance and the true maximum, arrivals are solved exactly.
         bool has_peak = false;
         double peak_ray_parameter = 0.0, peak_low = 0.0, peak_high = 0.0, sampled_peak_m = 0.0;
     };
     struct Sample {
-        double distance_m, time_s, attenuation, ray_parameter;
+        double distance_m, time_s, attenuation, ray_parameter, length_m;
     };
 
     Sample direct_sample(const Row& row, std::size_t k) const;
@@ -89,7 +92,7 @@ private:
     std::vector<double> xi_;      // ray-parameter samples, increasing
     // Cumulative legs from the top of each ray (surface or turning point) down to each level,
     // stored [level][sample]; NaN where the ray does not reach the level.
-    std::vector<double> distance_, time_, attenuation_;
+    std::vector<double> distance_, time_, attenuation_, length_;
     std::vector<Row> rows_;
     double n_surface_ = 1.0, n_air_ = 1.0;
 };

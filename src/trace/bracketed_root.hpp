@@ -25,7 +25,7 @@ auto guard_boost_math(const char* what, Solve solve) -> decltype(solve()) {
     } catch (const Error&) {
         throw;
     } catch (const std::exception& e) {
-        throw NumericalError(std::string("root finding failed while locating ") + what + ": " + e.what());
+        throw NumericalError(std::string("the numerics failed while computing ") + what + ": " + e.what());
     }
 }
 
