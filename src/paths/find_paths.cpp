@@ -47,6 +47,35 @@ constexpr double infinity = std::numeric_limits<double>::infinity();
 constexpr double horizontal_tolerance = 1e-10;
 double cos_from(double n, double xi) { return cos_from_ray_parameter(n, xi); }
 
+// The largest distance by which a path found may miss the receiver (its time is corrected for
+// it to first order; its length is not).
+double root_residual(double r) { return 1e-6 * std::max(r, 1.0); }
+
+// A path must be no shorter than the straight line between its ends (less what the root may
+// miss by) and no faster than light in the fastest medium it crosses, with finite numbers
+// everywhere and a field that is finite exactly when it is not a caustic. Anything else is a
+// numerical failure, reported instead of written out.
+void check_sane(const ConnectedPath& p, const Point& source, const Point& receiver, double n_min) {
+    const double straight = std::hypot(p.horizontal_distance_m, receiver.z - source.z);
+    auto fail = [&](const char* what) {
+        throw NumericalError(fmt::format("the {} path of ray parameter {} from z = {} m to r = {} m, z = {} m came out "
+                                         "{} (length {} m, time {} ns)",
+                                         to_string(p.kind), p.ray_parameter, source.z, p.horizontal_distance_m,
+                                         receiver.z, what, p.length_m, p.time_s * 1e9));
+    };
+    for (const double v : {p.time_s, p.length_m, p.ray_parameter, p.launch_zenith_rad, p.arrival_zenith_rad,
+                           p.attenuation_exponent, p.amplitude.flux_factor, p.amplitude.attenuation_factor})
+        if (!std::isfinite(v)) fail("with a number that is not finite");
+    if (std::isnan(p.amplitude.spreading_distance_m)) fail("with a spreading distance that is not a number");
+    const bool finite_field = std::isfinite(std::abs(p.amplitude.field_s)) && std::isfinite(std::abs(p.amplitude.field_p));
+    if (finite_field == p.amplitude.caustic) fail("with a field that is not finite outside a caustic");
+    constexpr double rounding = 1e-9;
+    if (p.length_m < straight * (1.0 - rounding) - root_residual(p.horizontal_distance_m))
+        fail("shorter than the straight line between its ends");
+    if (p.time_s * speed_of_light < straight * n_min * (1.0 - rounding))
+        fail("faster than light in the fastest medium it crosses");
+}
+
 // Zenith of an upward direction with n sin θ = ξ; a downward one is π minus it.
 double upward_zenith(double n, double xi) { return std::atan2(xi, std::sqrt(std::max(0.0, (n - xi) * (n + xi)))); }
 
@@ -100,6 +129,14 @@ private:
     void add_horizontal_path(double z);
 
     double index_at_end(const Point& p) const { return p.z > 0.0 ? model_.n_air : model_.index->index(p.z); }
+    // The smallest index on the path's way, for profiles whose index grows with depth: at its ends,
+    // at the surface and its turning point, and n_air when it reaches the air.
+    double fastest_index(const ConnectedPath& p) const {
+        double n = std::min({index_at_end(source_), index_at_end(receiver_), n_surface_});
+        if (p.turning_z_m) n = std::min(n, model_.index->index(*p.turning_z_m));
+        if (p.crosses_surface || source_.z > 0.0 || receiver_.z > 0.0) n = std::min(n, n_air_);
+        return n;
+    }
 
     const RaySolver& solver_;
     const FirnModel& model_;
@@ -134,10 +171,17 @@ std::vector<ConnectedPath> PathFinder::run() {
                 throw DataInputError(fmt::format("z = {} m lies below the bottom of the model at z = {} m", p->z, *bottom_z_));
     }
     const bool source_in_air = source_.z > 0.0, receiver_in_air = receiver_.z > 0.0;
-    if (!source_in_air && !receiver_in_air) ice_pair();
-    else if (source_in_air && receiver_in_air) air_pair();
-    else transmitted_pair();
+    try {
+        if (!source_in_air && !receiver_in_air) ice_pair();
+        else if (source_in_air && receiver_in_air) air_pair();
+        else transmitted_pair();
+    } catch (const DataInputError& e) {
+        // The inputs were checked above: a solver refusing what the path finder asked of it is
+        // a numerical failure here, not the user's.
+        throw NumericalError(fmt::format("the path finder asked the solver for something it refused: {}", e.what()));
+    }
     std::sort(paths_.begin(), paths_.end(), [](const ConnectedPath& a, const ConnectedPath& b) { return a.time_s < b.time_s; });
+    for (const ConnectedPath& p : paths_) check_sane(p, source_, receiver_, fastest_index(p));
     return std::move(paths_);
 }
 
@@ -196,6 +240,11 @@ FamilyValue PathFinder::evaluate(const std::vector<Term>& terms, double xi) cons
         v.distance += t.count * leg.distance_m;
         v.derivative += t.count * leg.derivative;
     }
+    // A NaN would reach the root finder, which turns it into a NaN ray parameter.
+    if (std::isnan(v.distance))
+        throw NumericalError(fmt::format("the horizontal distance of a ray family is not a number at ray parameter {} "
+                                         "(the solver fails on this profile at these depths)",
+                                         xi));
     return v;
 }
 
@@ -450,7 +499,13 @@ void PathFinder::solve_transmitted(const Family& family, const std::vector<Term>
     const double height = std::max(source_.z, receiver_.z);
     double theta_high = std::atan2(r_, height);
     if (n_air_ > n_surface_) theta_high = std::min(theta_high, std::asin(n_surface_ / n_air_));
-    auto f = [&](double theta) { return evaluate(terms, n_air_ * std::sin(theta)).distance - r_; };
+    // Where sin θ rounds to 1 the air leg is horizontal and its distance infinite: the largest
+    // double instead keeps TOMS748's interpolation finite (the root is then unresolvable, which
+    // add_path reports).
+    auto f = [&](double theta) {
+        const double distance = evaluate(terms, n_air_ * std::sin(theta)).distance;
+        return std::isinf(distance) ? std::numeric_limits<double>::max() : distance - r_;
+    };
     if (r_ == 0.0) {
         add_path(family, 0.0, false);
         return;
@@ -629,6 +684,12 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
         }
     }
     // The root leaves a residual in distance; along a family dT/dr = ξ/c, so correct to first order.
+    // A larger residual means that no double ξ resolves the path: a ray grazing the surface in
+    // the air, where r changes by more than that between neighbouring values of ξ.
+    if (!(std::abs(r_ - offset) <= root_residual(r_)))
+        throw NumericalError(fmt::format("the {} path of ray parameter {} cannot be resolved in double precision: "
+                                         "it reaches {} m instead of {} m (a ray grazing the surface?)",
+                                         family.crossing ? "transmitted" : "ice", xi, offset, r_));
     p.time_s += xi * (r_ - offset) / speed_of_light;
 
     if (p.bottom_bounces > 0) p.kind = PathKind::bottom;
