@@ -18,7 +18,9 @@ inline constexpr double caustic_fraction = 1e-3;
 // |cos θ| where n sin θ = ξ (the ray parameter), without the cancellation of 1 − (ξ/n)².
 double cos_from_ray_parameter(double n, double ray_parameter);
 
-// The ray-tube geometry of one path, as the spreading formula needs it.
+// The ray-tube geometry of one path, as the spreading formula needs it. A ray tube is the bundle
+// of rays launched within dθ0 of the path's; the energy flux along it is constant, so the field
+// falls as the tube widens: its width at the receiver, per dθ0, is what L_eff measures.
 struct RayTube {
     double n_source = 1.0;               // index at the source end
     double n_receiver = 1.0;             // index at the receiver end

@@ -79,24 +79,29 @@ void check_sane(const ConnectedPath& p, const Point& source, const Point& receiv
 // Zenith of an upward direction with n sin θ = ξ; a downward one is π minus it.
 double upward_zenith(double n, double xi) { return std::atan2(xi, std::sqrt(std::max(0.0, (n - xi) * (n + xi)))); }
 
-enum class NodeKind : unsigned char { ice_end, air_end, top, bottom, crossing };
+// The points a family of paths is built from, in order from the source to the receiver. An upper
+// apex is where a path, having risen, turns back down: a turning point when ξ > n_surface (the
+// refracted range) or a surface reflection when ξ <= n_surface (the reflected range); the same
+// family covers both ranges. A crossing is where a path passes through the surface.
+enum class NodeKind : unsigned char { ice_end, air_end, upper_apex, bottom_reflection, crossing };
 struct Node {
     NodeKind kind;
-    double z;  // ends, bottom, crossing (0); for a top, where it lies depends on ξ
+    double z;  // ends, bottom reflection, crossing (0); an upper apex lies where ξ puts it
 };
 
-// The horizontal distance of a family is a sum of legs of three sorts, equal legs merged.
-enum class TermKind : unsigned char { fixed, to_top, air };
+// The horizontal distance of a family is a sum of legs of three sorts, equal legs merged: between
+// two fixed depths, from a depth up to the turning point of ξ (which moves with ξ), and in the air.
+enum class TermKind : unsigned char { fixed, to_turning_point, air };
 struct Term {
     TermKind kind;
-    double z_a, z_b;  // fixed: the two depths; to_top: the depth below the turning point; air: height
+    double z_a, z_b;  // fixed: the two depths; to_turning_point: the depth below the turning point; air: height
     int count;
 };
 
 // A sequence of nodes from the source to the receiver, all rays of which share the apex pattern.
 struct Family {
     std::vector<Node> nodes;
-    int tops = 0, bottoms = 0;
+    int upper_apexes = 0, bottom_reflections = 0;
     bool crossing = false;
 };
 
@@ -118,7 +123,7 @@ private:
 
     std::vector<Term> terms(const Family& family, bool refracted) const;
     FamilyValue evaluate(const std::vector<Term>& terms, double xi) const;
-    bool top_next_to_end(const Family& family, double z) const;
+    bool upper_apex_next_to_end(const Family& family, double z) const;
 
     void solve_monotone(const Family& family, const std::vector<Term>& terms, double xi_low, double xi_high,
                         bool include_high, bool unbounded_high);
@@ -185,12 +190,12 @@ std::vector<ConnectedPath> PathFinder::run() {
     return std::move(paths_);
 }
 
-bool PathFinder::top_next_to_end(const Family& family, double z) const {
+bool PathFinder::upper_apex_next_to_end(const Family& family, double z) const {
     const auto& nodes = family.nodes;
     for (std::size_t i = 0; i + 1 < nodes.size(); ++i) {
         const Node &a = nodes[i], &b = nodes[i + 1];
-        if ((a.kind == NodeKind::top && b.kind == NodeKind::ice_end && b.z == z) ||
-            (b.kind == NodeKind::top && a.kind == NodeKind::ice_end && a.z == z))
+        if ((a.kind == NodeKind::upper_apex && b.kind == NodeKind::ice_end && b.z == z) ||
+            (b.kind == NodeKind::upper_apex && a.kind == NodeKind::ice_end && a.z == z))
             return true;
     }
     return false;
@@ -212,9 +217,9 @@ std::vector<Term> PathFinder::terms(const Family& family, bool refracted) const 
         const Node &a = nodes[i], &b = nodes[i + 1];
         if (a.kind == NodeKind::air_end || b.kind == NodeKind::air_end) {
             add(TermKind::air, a.kind == NodeKind::air_end ? a.z : b.z, 0.0);
-        } else if (a.kind == NodeKind::top || b.kind == NodeKind::top) {
-            const double other = a.kind == NodeKind::top ? b.z : a.z;
-            if (refracted) add(TermKind::to_top, other, 0.0);
+        } else if (a.kind == NodeKind::upper_apex || b.kind == NodeKind::upper_apex) {
+            const double other = a.kind == NodeKind::upper_apex ? b.z : a.z;
+            if (refracted) add(TermKind::to_turning_point, other, 0.0);
             else add(TermKind::fixed, other, 0.0);
         } else {
             add(TermKind::fixed, a.z, b.z);
@@ -229,7 +234,7 @@ FamilyValue PathFinder::evaluate(const std::vector<Term>& terms, double xi) cons
         LegDistance leg;
         switch (t.kind) {
             case TermKind::fixed: leg = solver_.leg_distance(xi, t.z_a, t.z_b); break;
-            case TermKind::to_top: leg = solver_.distance_to_turning(xi, t.z_a); break;
+            case TermKind::to_turning_point: leg = solver_.distance_to_turning(xi, t.z_a); break;
             case TermKind::air: {
                 const double q2 = (n_air_ - xi) * (n_air_ + xi);
                 const double q = std::sqrt(q2);
@@ -312,7 +317,7 @@ void PathFinder::solve_scan(const Family& family, const std::vector<Term>& terms
     // √(2ξ (n − ξ))/|dn/dz| (a circle of radius n/|dn/dz|), fixed legs ending there grow alike.
     int shrinking = 0, growing = 0;
     for (const Term& t : terms) {
-        if (t.kind == TermKind::to_top && t.z_a == z_high_) shrinking += t.count;
+        if (t.kind == TermKind::to_turning_point && t.z_a == z_high_) shrinking += t.count;
         if (t.kind == TermKind::fixed && (t.z_a == z_high_ || t.z_b == z_high_)) growing += t.count;
     }
     const double gradient = std::abs(model_.index->gradient(z_high_));
@@ -406,22 +411,22 @@ void PathFinder::ice_pair() {
     if (zs == zr && model_.index->gradient(zs) == 0.0) add_horizontal_path(zs);
 
     for (int apexes = 0; apexes <= max_apexes; ++apexes) {
-        for (const NodeKind first : {NodeKind::top, NodeKind::bottom}) {
-            if (apexes == 0 && first == NodeKind::bottom) continue;
+        for (const NodeKind first : {NodeKind::upper_apex, NodeKind::bottom_reflection}) {
+            if (apexes == 0 && first == NodeKind::bottom_reflection) continue;
             Family family;
             family.nodes.push_back({NodeKind::ice_end, zs});
             NodeKind next = first;
             bool possible = true;
             for (int k = 0; k < apexes; ++k) {
-                if (next == NodeKind::bottom) {
+                if (next == NodeKind::bottom_reflection) {
                     if (!bottom_z_) possible = false;
-                    family.nodes.push_back({NodeKind::bottom, bottom_z_.value_or(0.0)});
-                    ++family.bottoms;
-                    next = NodeKind::top;
+                    family.nodes.push_back({NodeKind::bottom_reflection, bottom_z_.value_or(0.0)});
+                    ++family.bottom_reflections;
+                    next = NodeKind::upper_apex;
                 } else {
-                    family.nodes.push_back({NodeKind::top, 0.0});
-                    ++family.tops;
-                    next = NodeKind::bottom;
+                    family.nodes.push_back({NodeKind::upper_apex, 0.0});
+                    ++family.upper_apexes;
+                    next = NodeKind::bottom_reflection;
                 }
             }
             family.nodes.push_back({NodeKind::ice_end, zr});
@@ -433,13 +438,13 @@ void PathFinder::ice_pair() {
                 const Node &a = family.nodes[i], &b = family.nodes[i + 1];
                 for (const auto& [apex, end] : {std::pair{a, b}, std::pair{b, a}}) {
                     if (end.kind != NodeKind::ice_end) continue;
-                    if (apex.kind == NodeKind::top && end.z == 0.0) degenerate = true;
-                    if (apex.kind == NodeKind::bottom && end.z == apex.z) degenerate = true;
+                    if (apex.kind == NodeKind::upper_apex && end.z == 0.0) degenerate = true;
+                    if (apex.kind == NodeKind::bottom_reflection && end.z == apex.z) degenerate = true;
                 }
             }
             if (degenerate) continue;
 
-            if (family.tops == 0) {
+            if (family.upper_apexes == 0) {
                 const bool unbounded = model_.index->gradient(z_high_) == 0.0;
                 solve_monotone(family, terms(family, false), 0.0, n_high_, true, unbounded);
                 continue;
@@ -450,7 +455,7 @@ void PathFinder::ice_pair() {
             if (n_high_ > n_surface_) {
                 // At ξ = n_high a turning point next to the shallower end coincides with it: that
                 // ray is counted in the family without that apex.
-                const bool include_high = !top_next_to_end(family, z_high_);
+                const bool include_high = !upper_apex_next_to_end(family, z_high_);
                 solve_scan(family, terms(family, true), n_surface_, n_high_, include_high);
             }
         }
@@ -469,24 +474,24 @@ void PathFinder::transmitted_pair() {
         // apex before the crossing is a bottom reflection, and apexes alternate before it.
         Family family;
         family.nodes.push_back({NodeKind::ice_end, ice.z});
-        NodeKind next = apexes % 2 == 1 ? NodeKind::bottom : NodeKind::top;
+        NodeKind next = apexes % 2 == 1 ? NodeKind::bottom_reflection : NodeKind::upper_apex;
         for (int k = 0; k < apexes; ++k) {
-            if (next == NodeKind::bottom) {
-                family.nodes.push_back({NodeKind::bottom, *bottom_z_});
-                ++family.bottoms;
-                next = NodeKind::top;
+            if (next == NodeKind::bottom_reflection) {
+                family.nodes.push_back({NodeKind::bottom_reflection, *bottom_z_});
+                ++family.bottom_reflections;
+                next = NodeKind::upper_apex;
             } else {
-                family.nodes.push_back({NodeKind::top, 0.0});
-                ++family.tops;
-                next = NodeKind::bottom;
+                family.nodes.push_back({NodeKind::upper_apex, 0.0});
+                ++family.upper_apexes;
+                next = NodeKind::bottom_reflection;
             }
         }
         family.nodes.push_back({NodeKind::crossing, 0.0});
         family.nodes.push_back({NodeKind::air_end, air.z});
         family.crossing = true;
         const Node& first_apex = family.nodes[1];
-        if (first_apex.kind == NodeKind::top && ice.z == 0.0) continue;
-        if (first_apex.kind == NodeKind::bottom && ice.z == first_apex.z) continue;
+        if (first_apex.kind == NodeKind::upper_apex && ice.z == 0.0) continue;
+        if (first_apex.kind == NodeKind::bottom_reflection && ice.z == first_apex.z) continue;
         if (source_in_air) std::reverse(family.nodes.begin(), family.nodes.end());
         solve_transmitted(family, terms(family, false));
     }
@@ -586,26 +591,26 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
     p.ray_parameter = xi;
     p.horizontal_distance_m = r_;
     p.azimuth_rad = azimuth_;
-    double top = 0.0;
-    if (refracted && family.tops > 0) {
+    double turning_z = 0.0;
+    if (refracted && family.upper_apexes > 0) {
         const auto turning = solver_.turning_z(xi, z_high_);
         if (!turning)
             throw NumericalError(fmt::format("no turning point for ray parameter {} above z = {} m", xi, z_high_));
-        top = *turning;
-        p.turning_z_m = top;
+        turning_z = *turning;
+        p.turning_z_m = turning_z;
     }
     const auto& nodes = family.nodes;
-    auto z_of = [&](const Node& node) { return node.kind == NodeKind::top ? top : node.z; };
+    auto z_of = [&](const Node& node) { return node.kind == NodeKind::upper_apex ? turning_z : node.z; };
     auto moving_up = [&](const Node& a, const Node& b) {
-        if (b.kind == NodeKind::top || a.kind == NodeKind::bottom) return true;
-        if (a.kind == NodeKind::top || b.kind == NodeKind::bottom) return false;
+        if (b.kind == NodeKind::upper_apex || a.kind == NodeKind::bottom_reflection) return true;
+        if (a.kind == NodeKind::upper_apex || b.kind == NodeKind::bottom_reflection) return false;
         return z_of(b) > z_of(a);
     };
 
     const double n_source = index_at_end(source_), n_receiver = index_at_end(receiver_);
     const double cos_source = cos_from(n_source, xi), cos_receiver = cos_from(n_receiver, xi);
     auto horizontal = [&](const Point& e, double n) { return e.z <= 0.0 && n - xi <= horizontal_tolerance * n; };
-    const bool flat_source = horizontal(source_, n_source), flat_receiver = horizontal(receiver_, n_receiver);
+    const bool horizontal_at_source = horizontal(source_, n_source), horizontal_at_receiver = horizontal(receiver_, n_receiver);
     // ∂r/∂ξ·cos θ0·cos θr, leg by leg: a leg ending at a horizontal end contributes its limit
     // ±cos θ(other end)/|dn/dz| (+ for a leg with fixed ends, − for one whose turning point moves).
     double regular_derivative = 0.0, singular_part = 0.0;
@@ -635,23 +640,23 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
             p.time_s += s.time_s;
             p.attenuation_exponent += s.attenuation_exponent;
             offset += s.distance_m;
-            const bool moving_top = refracted && (a.kind == NodeKind::top || b.kind == NodeKind::top);
-            const bool at_source = i == 0 && flat_source, at_receiver = i + 1 == last && flat_receiver;
+            const bool moving_turning_point = refracted && (a.kind == NodeKind::upper_apex || b.kind == NodeKind::upper_apex);
+            const bool at_source = i == 0 && horizontal_at_source, at_receiver = i + 1 == last && horizontal_at_receiver;
             if (at_source || at_receiver) {
-                if (at_source) singular_leg(!moving_top, true);
-                if (at_receiver) singular_leg(!moving_top, false);
-            } else if (moving_top) {
-                regular_derivative += solver_.distance_to_turning(xi, a.kind == NodeKind::top ? b.z : a.z).derivative;
+                if (at_source) singular_leg(!moving_turning_point, true);
+                if (at_receiver) singular_leg(!moving_turning_point, false);
+            } else if (moving_turning_point) {
+                regular_derivative += solver_.distance_to_turning(xi, a.kind == NodeKind::upper_apex ? b.z : a.z).derivative;
             } else {
                 regular_derivative += s.distance_derivative;
             }
         }
         if (i + 1 == last) break;  // b is the receiver
         switch (b.kind) {
-            case NodeKind::top:
+            case NodeKind::upper_apex:
                 if (refracted) {
                     ++p.turning_points;
-                    p.events.push_back({PathEventKind::turning, offset, top});
+                    p.events.push_back({PathEventKind::turning, offset, turning_z});
                 } else {
                     ++p.surface_bounces;
                     p.events.push_back({PathEventKind::surface_reflection, offset, 0.0});
@@ -660,7 +665,7 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
                     interface_p *= f.r_p;
                 }
                 break;
-            case NodeKind::bottom: {
+            case NodeKind::bottom_reflection: {
                 ++p.bottom_bounces;
                 p.events.push_back({PathEventKind::bottom_reflection, offset, b.z});
                 const double field = std::sqrt(model_.bottom->power_reflectivity);
@@ -706,14 +711,14 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
 
     // Spreading: L_eff² = n0²·(r/ξ)·|∂r/∂ξ|·|cos θ0 cos θr| (Červený 2001 with ∂ξ/∂θ0 = n0 cos θ0);
     // r/ξ → ∂r/∂ξ for a vertical path.
-    const bool flat = flat_source || flat_receiver;
+    const bool horizontal_at_an_end = horizontal_at_source || horizontal_at_receiver;
     const double launch_cos = launch_up ? cos_source : -cos_source;
     double derivative_cosines;  // |∂r/∂ξ|·|cos θ0 cos θr|
-    if (flat) {
+    if (horizontal_at_an_end) {
         derivative_cosines = std::abs(regular_derivative * cos_source * cos_receiver + singular_part);
         p.distance_derivative = infinity;
         p.distance_per_launch_angle =
-            flat_receiver && !flat_source ? infinity : (launch_up ? 1.0 : -1.0) * singular_part / cos_receiver * n_source;
+            horizontal_at_receiver && !horizontal_at_source ? infinity : (launch_up ? 1.0 : -1.0) * singular_part / cos_receiver * n_source;
     } else {
         derivative_cosines = std::abs(regular_derivative) * cos_source * cos_receiver;
         p.distance_derivative = regular_derivative;

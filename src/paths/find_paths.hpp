@@ -1,5 +1,5 @@
 // Every ray path joining a source and a receiver in a horizontally stratified site model
-// (physics notes §4–6): direct, refracted, surface-reflected, bottom-reflected, transmitted
+// (docs/physics.md §6): direct, refracted, surface-reflected, bottom-reflected, transmitted
 // through the surface, and paths with several bounces, each with its amplitude factors. Works
 // with any RaySolver (closed form or numeric). Beyond the reach of every path family a pair has
 // no path (the shadow zone): the result is then empty, which is not an error.

@@ -146,8 +146,8 @@ private:
 // (or, within a micrometre of the lowest level, that level's leg).
 class LevelsObserver {
 public:
-    LevelsObserver(std::span<const double> levels, std::span<Segment> out, std::size_t next, double xi, double z_top)
-        : levels_(levels), out_(out), next_(next), xi_(xi), z_top_(z_top) {}
+    LevelsObserver(std::span<const double> levels, std::span<Segment> out, std::size_t next, double xi, double z_upper)
+        : levels_(levels), out_(out), next_(next), xi_(xi), z_upper_(z_upper) {}
 
     // The ray goes down while p_z < 0: a turn back up is the one event.
     std::span<const LevelCrossing> crossings(const IntegratedRay<RayState>&) const { return turn_; }
@@ -169,7 +169,7 @@ public:
         if (next_ < levels_.size())
             throw NumericalError(fmt::format("the ray of parameter {} turns at z = {} m, before reaching z = {} m "
                                              "(ξ exceeds n on the way down from z = {} m)",
-                                             xi_, z_turn, levels_.back(), z_top_));
+                                             xi_, z_turn, levels_.back(), z_upper_));
         return AfterEvent{AfterEvent::Action::stop};
     }
 
@@ -197,7 +197,7 @@ private:
     std::span<const double> levels_;
     std::span<Segment> out_;
     std::size_t next_;
-    double xi_, z_top_;
+    double xi_, z_upper_;
 };
 
 // A leg from z_start (the more open end, not a turning point) to z_end, which may be a turning
@@ -269,47 +269,47 @@ Segment NumericSolver::segment(double xi, double z_a, double z_b) const {
     return integrate_leg<RayState>(*model_, tolerances_, xi, z_start, n_start, z_end, turning_end).segment;
 }
 
-void NumericSolver::segments_from(double xi, double z_top, std::span<const double> levels,
+void NumericSolver::segments_from(double xi, double z_upper, std::span<const double> levels,
                                   std::span<Segment> out) const {
     using namespace ray_state;
     if (out.size() != levels.size()) throw NumericalError("segments_from: levels and output differ in size");
-    require_in_ice(z_top, "z_top");
+    require_in_ice(z_upper, "z_upper");
     require_ray_parameter(xi);
-    double previous = z_top;
+    double previous = z_upper;
     for (double level : levels) {
-        if (!(level <= previous)) throw NumericalError("segments_from: levels must descend from z_top");
+        if (!(level <= previous)) throw NumericalError("segments_from: levels must descend from z_upper");
         previous = level;
     }
     std::size_t next = 0;  // the first level not yet filled
-    for (; next < levels.size() && levels[next] == z_top; ++next) out[next] = Segment{};
+    for (; next < levels.size() && levels[next] == z_upper; ++next) out[next] = Segment{};
     if (next == levels.size()) return;
 
     const IndexProfile& profile = *model_->index;
-    double n_top, slope_top;
-    profile.index_and_gradient(z_top, n_top, slope_top);
-    const double open = n_top - xi;
+    double n_upper, slope_upper;
+    profile.index_and_gradient(z_upper, n_upper, slope_upper);
+    const double open = n_upper - xi;
     if (open < -turning_index_tolerance)
         throw NumericalError(
-            fmt::format("ray parameter {} exceeds the index {} at z = {} m: no ray there", xi, n_top, z_top));
-    // At a turning top the ray starts horizontal. p_z = 0 rather than the tiny −√(n² − ξ²) of the
-    // computed n: that makes z_top the exact turning point of the ray integrated (its |p| then
+            fmt::format("ray parameter {} exceeds the index {} at z = {} m: no ray there", xi, n_upper, z_upper));
+    // At an upper end on the turning point the ray starts horizontal. p_z = 0 rather than the tiny −√(n² − ξ²) of the
+    // computed n: that makes z_upper the exact turning point of the ray integrated (its |p| then
     // differs from n by at most the tolerance, like a change of ξ by 1e-12, which moves the
     // distances by far less than the legs above a turning point do), whereas a downward start
-    // drops the leg between z_top and the true turning point, which grows like √(n − ξ)/|n'|:
+    // drops the leg between z_upper and the true turning point, which grows like √(n − ξ)/|n'|:
     // 19 µm for n − ξ = 1e-15 and 0.3 mm for 1e-13 on the exponential profile (measured against
     // the closed form). segment() likewise integrates up to p_z = 0.
-    const bool turning_top = open <= turning_index_tolerance;
-    if (turning_top && !(slope_top < 0.0))
+    const bool upper_end_turns = open <= turning_index_tolerance;
+    if (upper_end_turns && !(slope_upper < 0.0))
         throw NumericalError(fmt::format("the ray of parameter {} is horizontal at z = {} m and does not bend "
                                          "downward there (dn/dz = {} is not negative)",
-                                         xi, z_top, slope_top));
+                                         xi, z_upper, slope_upper));
     RayState y{};
-    y[z] = z_top;
+    y[z] = z_upper;
     y[px] = xi;
-    y[pz] = turning_top ? 0.0 : -std::sqrt(open * (n_top + xi));
+    y[pz] = upper_end_turns ? 0.0 : -std::sqrt(open * (n_upper + xi));
 
     IntegratedRay<RayState> ray(*model_, tolerances_, y, BetweenSteps::projected_and_rebased);
-    LevelsObserver observer(levels, out, next, xi, z_top);
+    LevelsObserver observer(levels, out, next, xi, z_upper);
     integrate_ray(ray, observer);
 }
 
