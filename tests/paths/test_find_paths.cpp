@@ -25,7 +25,7 @@ using namespace firnray;
 
 namespace {
 
-// Generic firn inside the published ranges of physics notes §2 (from memory), not a site.
+// Generic firn inside the published ranges of docs/physics.md §1.2 (from memory), not a site.
 std::shared_ptr<FirnModel> firn_model() {
     auto model = std::make_shared<FirnModel>();
     model->name = "test firn";

@@ -1,6 +1,6 @@
 // Tests of NumericSolver::segments_from (one ray, legs to many levels) against the default
 // RaySolver::segments_from (segment() summed level to level) and against tanh_sinh quadrature
-// of the Snell integrals (Boost.Math, the reference library of physics notes §7), for an
+// of the Snell integrals (Boost.Math, the reference library of docs/validation.md), for an
 // exponential, a layered and a tabulated profile (TableProfile: a cubic spline through samples
 // every 5 m), and against the closed form for the exponential; and an ArrivalTable built on it
 // against one built on the default.

@@ -1,5 +1,5 @@
 // The shadow boundary of arrival tables on an exponential model, against an independent
-// computation of the largest reachable distance straight from the closed form (physics notes §4):
+// computation of the largest reachable distance straight from the closed form (docs/physics.md §3):
 // a dense scan of both ray families over the ray parameter, refined by golden-section search.
 #include <catch2/catch.hpp>
 
