@@ -46,7 +46,7 @@ public:
     // as the ray's turning point: the ray starts horizontal (p_z = 0) and bends down, the σ-form
     // equations being regular there. The ray is restarted every step on a new base (height
     // origin and sums) so that the tolerances apply to what each step adds, and with p_z put
-    // back on |p| = n (numeric_solver.cpp says why). ∂distance/∂ξ is not provided:
+    // back on |p| = n (BetweenSteps in trace/ray_integration.hpp says why). ∂distance/∂ξ is not provided:
     // distance_derivative is NaN below z_upper and 0 at it. Agrees with the default (segment()
     // summed level to level) within 5e-8 m / 3e-16 s on smooth profiles and 7e-7 m / 4e-15 s on
     // a table sampled every 5 m, at the default tolerances (tests/solver/test_numeric_segments_from.cpp,

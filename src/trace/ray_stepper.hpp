@@ -1,7 +1,8 @@
 // Stepping the ray equations with an embedded Runge–Kutta pair under dense output
 // (Boost.Odeint runge_kutta_dopri5) and locating events on the dense output: the step where
 // a component crosses a level is bracketed, then the crossing is refined with TOMS748 on the
-// interpolated state. Shared by the ray tracer and the numeric solver.
+// interpolated state. The ray tracer and the numeric solver use it through the one integration
+// driver, trace/ray_integration.hpp.
 #pragma once
 
 #include <cmath>
