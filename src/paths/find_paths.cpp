@@ -6,11 +6,12 @@
 #include <limits>
 #include <optional>
 
-#include <boost/math/tools/toms748_solve.hpp>
 #include <fmt/format.h>
 
 #include "core/constants.hpp"
 #include "core/errors.hpp"
+#include "paths/amplitude.hpp"
+#include "trace/bracketed_root.hpp"
 #include "trace/fresnel.hpp"
 
 namespace firnray {
@@ -38,42 +39,69 @@ const char* to_string(PathEventKind kind) {
 
 namespace {
 
-constexpr double nan = std::numeric_limits<double>::quiet_NaN();
 constexpr double infinity = std::numeric_limits<double>::infinity();
 // An end counts as horizontal when n − ξ there is below this fraction of n. The leg that ends
 // there has ∂r/∂ξ ~ 1/cos θ, and the spreading takes the analytic limit of |∂r/∂ξ|·cos θ, which
 // is 1/|dn/dz|: its error grows like the angle from horizontal (~1e-5 at the threshold), while the
 // direct product loses accuracy like ε·n/(n − ξ) (~1e-6 at the threshold).
 constexpr double horizontal_tolerance = 1e-10;
-// L_eff below this fraction of the path length is reported as a caustic: ray theory would predict
-// a focusing gain above 1000 in field. Near a fold L_eff only vanishes like (R_max − R)^{1/4}, so
-// this marks the neighbourhood of the caustic itself.
-constexpr double caustic_fraction = 1e-3;
+double cos_from(double n, double xi) { return cos_from_ray_parameter(n, xi); }
 
-// |cos θ| where n sin θ = ξ, without the cancellation of 1 − (ξ/n)².
-double cos_from(double n, double xi) { return std::sqrt(std::max(0.0, (n - xi) * (n + xi))) / n; }
+// The largest distance by which a path found may miss the receiver (its time is corrected for
+// it to first order; its length is not).
+double root_residual(double r) { return 1e-6 * std::max(r, 1.0); }
+
+// A path must be no shorter than the straight line between its ends (less what the root may
+// miss by) and no faster than light in the fastest medium it crosses, with finite numbers
+// everywhere and a field that is finite exactly when it is not a caustic. Anything else is a
+// numerical failure, reported instead of written out.
+void check_sane(const ConnectedPath& p, const Point& source, const Point& receiver, double n_min) {
+    const double straight = std::hypot(p.horizontal_distance_m, receiver.z - source.z);
+    auto fail = [&](const char* what) {
+        throw NumericalError(fmt::format("the {} path of ray parameter {} from z = {} m to r = {} m, z = {} m came out "
+                                         "{} (length {} m, time {} ns)",
+                                         to_string(p.kind), p.ray_parameter, source.z, p.horizontal_distance_m,
+                                         receiver.z, what, p.length_m, p.time_s * 1e9));
+    };
+    for (const double v : {p.time_s, p.length_m, p.ray_parameter, p.launch_zenith_rad, p.arrival_zenith_rad,
+                           p.attenuation_exponent, p.amplitude.flux_factor, p.amplitude.attenuation_factor})
+        if (!std::isfinite(v)) fail("with a number that is not finite");
+    if (std::isnan(p.amplitude.spreading_distance_m)) fail("with a spreading distance that is not a number");
+    const bool finite_field = std::isfinite(std::abs(p.amplitude.field_s)) && std::isfinite(std::abs(p.amplitude.field_p));
+    if (finite_field == p.amplitude.caustic) fail("with a field that is not finite outside a caustic");
+    constexpr double rounding = 1e-9;
+    if (p.length_m < straight * (1.0 - rounding) - root_residual(p.horizontal_distance_m))
+        fail("shorter than the straight line between its ends");
+    if (p.time_s * speed_of_light < straight * n_min * (1.0 - rounding))
+        fail("faster than light in the fastest medium it crosses");
+}
 
 // Zenith of an upward direction with n sin θ = ξ; a downward one is π minus it.
 double upward_zenith(double n, double xi) { return std::atan2(xi, std::sqrt(std::max(0.0, (n - xi) * (n + xi)))); }
 
-enum class NodeKind : unsigned char { ice_end, air_end, top, bottom, crossing };
+// The points a family of paths is built from, in order from the source to the receiver. An upper
+// apex is where a path, having risen, turns back down: a turning point when ξ > n_surface (the
+// refracted range) or a surface reflection when ξ <= n_surface (the reflected range); the same
+// family covers both ranges. A crossing is where a path passes through the surface.
+enum class NodeKind : unsigned char { ice_end, air_end, upper_apex, bottom_reflection, crossing };
 struct Node {
     NodeKind kind;
-    double z;  // ends, bottom, crossing (0); for a top, where it lies depends on ξ
+    double z;  // ends, bottom reflection, crossing (0); an upper apex lies where ξ puts it
 };
 
-// The horizontal distance of a family is a sum of legs of three sorts, equal legs merged.
-enum class TermKind : unsigned char { fixed, to_top, air };
+// The horizontal distance of a family is a sum of legs of three sorts, equal legs merged: between
+// two fixed depths, from a depth up to the turning point of ξ (which moves with ξ), and in the air.
+enum class TermKind : unsigned char { fixed, to_turning_point, air };
 struct Term {
     TermKind kind;
-    double z_a, z_b;  // fixed: the two depths; to_top: the depth below the turning point; air: height
+    double z_a, z_b;  // fixed: the two depths; to_turning_point: the depth below the turning point; air: height
     int count;
 };
 
 // A sequence of nodes from the source to the receiver, all rays of which share the apex pattern.
 struct Family {
     std::vector<Node> nodes;
-    int tops = 0, bottoms = 0;
+    int upper_apexes = 0, bottom_reflections = 0;
     bool crossing = false;
 };
 
@@ -95,7 +123,7 @@ private:
 
     std::vector<Term> terms(const Family& family, bool refracted) const;
     FamilyValue evaluate(const std::vector<Term>& terms, double xi) const;
-    bool top_next_to_end(const Family& family, double z) const;
+    bool upper_apex_next_to_end(const Family& family, double z) const;
 
     void solve_monotone(const Family& family, const std::vector<Term>& terms, double xi_low, double xi_high,
                         bool include_high, bool unbounded_high);
@@ -106,6 +134,14 @@ private:
     void add_horizontal_path(double z);
 
     double index_at_end(const Point& p) const { return p.z > 0.0 ? model_.n_air : model_.index->index(p.z); }
+    // The smallest index on the path's way, for profiles whose index grows with depth: at its ends,
+    // at the surface and its turning point, and n_air when it reaches the air.
+    double fastest_index(const ConnectedPath& p) const {
+        double n = std::min({index_at_end(source_), index_at_end(receiver_), n_surface_});
+        if (p.turning_z_m) n = std::min(n, model_.index->index(*p.turning_z_m));
+        if (p.crosses_surface || source_.z > 0.0 || receiver_.z > 0.0) n = std::min(n, n_air_);
+        return n;
+    }
 
     const RaySolver& solver_;
     const FirnModel& model_;
@@ -140,19 +176,26 @@ std::vector<ConnectedPath> PathFinder::run() {
                 throw DataInputError(fmt::format("z = {} m lies below the bottom of the model at z = {} m", p->z, *bottom_z_));
     }
     const bool source_in_air = source_.z > 0.0, receiver_in_air = receiver_.z > 0.0;
-    if (!source_in_air && !receiver_in_air) ice_pair();
-    else if (source_in_air && receiver_in_air) air_pair();
-    else transmitted_pair();
+    try {
+        if (!source_in_air && !receiver_in_air) ice_pair();
+        else if (source_in_air && receiver_in_air) air_pair();
+        else transmitted_pair();
+    } catch (const DataInputError& e) {
+        // The inputs were checked above: a solver refusing what the path finder asked of it is
+        // a numerical failure here, not the user's.
+        throw NumericalError(fmt::format("the path finder asked the solver for something it refused: {}", e.what()));
+    }
     std::sort(paths_.begin(), paths_.end(), [](const ConnectedPath& a, const ConnectedPath& b) { return a.time_s < b.time_s; });
+    for (const ConnectedPath& p : paths_) check_sane(p, source_, receiver_, fastest_index(p));
     return std::move(paths_);
 }
 
-bool PathFinder::top_next_to_end(const Family& family, double z) const {
+bool PathFinder::upper_apex_next_to_end(const Family& family, double z) const {
     const auto& nodes = family.nodes;
     for (std::size_t i = 0; i + 1 < nodes.size(); ++i) {
         const Node &a = nodes[i], &b = nodes[i + 1];
-        if ((a.kind == NodeKind::top && b.kind == NodeKind::ice_end && b.z == z) ||
-            (b.kind == NodeKind::top && a.kind == NodeKind::ice_end && a.z == z))
+        if ((a.kind == NodeKind::upper_apex && b.kind == NodeKind::ice_end && b.z == z) ||
+            (b.kind == NodeKind::upper_apex && a.kind == NodeKind::ice_end && a.z == z))
             return true;
     }
     return false;
@@ -174,9 +217,9 @@ std::vector<Term> PathFinder::terms(const Family& family, bool refracted) const 
         const Node &a = nodes[i], &b = nodes[i + 1];
         if (a.kind == NodeKind::air_end || b.kind == NodeKind::air_end) {
             add(TermKind::air, a.kind == NodeKind::air_end ? a.z : b.z, 0.0);
-        } else if (a.kind == NodeKind::top || b.kind == NodeKind::top) {
-            const double other = a.kind == NodeKind::top ? b.z : a.z;
-            if (refracted) add(TermKind::to_top, other, 0.0);
+        } else if (a.kind == NodeKind::upper_apex || b.kind == NodeKind::upper_apex) {
+            const double other = a.kind == NodeKind::upper_apex ? b.z : a.z;
+            if (refracted) add(TermKind::to_turning_point, other, 0.0);
             else add(TermKind::fixed, other, 0.0);
         } else {
             add(TermKind::fixed, a.z, b.z);
@@ -191,7 +234,7 @@ FamilyValue PathFinder::evaluate(const std::vector<Term>& terms, double xi) cons
         LegDistance leg;
         switch (t.kind) {
             case TermKind::fixed: leg = solver_.leg_distance(xi, t.z_a, t.z_b); break;
-            case TermKind::to_top: leg = solver_.distance_to_turning(xi, t.z_a); break;
+            case TermKind::to_turning_point: leg = solver_.distance_to_turning(xi, t.z_a); break;
             case TermKind::air: {
                 const double q2 = (n_air_ - xi) * (n_air_ + xi);
                 const double q = std::sqrt(q2);
@@ -202,16 +245,18 @@ FamilyValue PathFinder::evaluate(const std::vector<Term>& terms, double xi) cons
         v.distance += t.count * leg.distance_m;
         v.derivative += t.count * leg.derivative;
     }
+    // A NaN would reach the root finder, which turns it into a NaN ray parameter.
+    if (std::isnan(v.distance))
+        throw NumericalError(fmt::format("the horizontal distance of a ray family is not a number at ray parameter {} "
+                                         "(the solver fails on this profile at these depths)",
+                                         xi));
     return v;
 }
 
 // The root of r(ξ(v)) − R on v in [a, b], f(a) and f(b) of opposite signs.
 template <class F>
 double bracketed_root(F f, double a, double b, double fa, double fb) {
-    std::uintmax_t iterations = 200;
-    const auto [lo, hi] =
-        boost::math::tools::toms748_solve(f, a, b, fa, fb, boost::math::tools::eps_tolerance<double>(50), iterations);
-    return 0.5 * (lo + hi);
+    return toms748_root("the ray parameter of a path", f, a, b, fa, fb, 50, 200);
 }
 
 // A family whose distance grows with ξ (every leg has fixed ends): at most one root. ξ runs as
@@ -272,7 +317,7 @@ void PathFinder::solve_scan(const Family& family, const std::vector<Term>& terms
     // √(2ξ (n − ξ))/|dn/dz| (a circle of radius n/|dn/dz|), fixed legs ending there grow alike.
     int shrinking = 0, growing = 0;
     for (const Term& t : terms) {
-        if (t.kind == TermKind::to_top && t.z_a == z_high_) shrinking += t.count;
+        if (t.kind == TermKind::to_turning_point && t.z_a == z_high_) shrinking += t.count;
         if (t.kind == TermKind::fixed && (t.z_a == z_high_ || t.z_b == z_high_)) growing += t.count;
     }
     const double gradient = std::abs(model_.index->gradient(z_high_));
@@ -366,22 +411,22 @@ void PathFinder::ice_pair() {
     if (zs == zr && model_.index->gradient(zs) == 0.0) add_horizontal_path(zs);
 
     for (int apexes = 0; apexes <= max_apexes; ++apexes) {
-        for (const NodeKind first : {NodeKind::top, NodeKind::bottom}) {
-            if (apexes == 0 && first == NodeKind::bottom) continue;
+        for (const NodeKind first : {NodeKind::upper_apex, NodeKind::bottom_reflection}) {
+            if (apexes == 0 && first == NodeKind::bottom_reflection) continue;
             Family family;
             family.nodes.push_back({NodeKind::ice_end, zs});
             NodeKind next = first;
             bool possible = true;
             for (int k = 0; k < apexes; ++k) {
-                if (next == NodeKind::bottom) {
+                if (next == NodeKind::bottom_reflection) {
                     if (!bottom_z_) possible = false;
-                    family.nodes.push_back({NodeKind::bottom, bottom_z_.value_or(0.0)});
-                    ++family.bottoms;
-                    next = NodeKind::top;
+                    family.nodes.push_back({NodeKind::bottom_reflection, bottom_z_.value_or(0.0)});
+                    ++family.bottom_reflections;
+                    next = NodeKind::upper_apex;
                 } else {
-                    family.nodes.push_back({NodeKind::top, 0.0});
-                    ++family.tops;
-                    next = NodeKind::bottom;
+                    family.nodes.push_back({NodeKind::upper_apex, 0.0});
+                    ++family.upper_apexes;
+                    next = NodeKind::bottom_reflection;
                 }
             }
             family.nodes.push_back({NodeKind::ice_end, zr});
@@ -393,13 +438,13 @@ void PathFinder::ice_pair() {
                 const Node &a = family.nodes[i], &b = family.nodes[i + 1];
                 for (const auto& [apex, end] : {std::pair{a, b}, std::pair{b, a}}) {
                     if (end.kind != NodeKind::ice_end) continue;
-                    if (apex.kind == NodeKind::top && end.z == 0.0) degenerate = true;
-                    if (apex.kind == NodeKind::bottom && end.z == apex.z) degenerate = true;
+                    if (apex.kind == NodeKind::upper_apex && end.z == 0.0) degenerate = true;
+                    if (apex.kind == NodeKind::bottom_reflection && end.z == apex.z) degenerate = true;
                 }
             }
             if (degenerate) continue;
 
-            if (family.tops == 0) {
+            if (family.upper_apexes == 0) {
                 const bool unbounded = model_.index->gradient(z_high_) == 0.0;
                 solve_monotone(family, terms(family, false), 0.0, n_high_, true, unbounded);
                 continue;
@@ -410,7 +455,7 @@ void PathFinder::ice_pair() {
             if (n_high_ > n_surface_) {
                 // At ξ = n_high a turning point next to the shallower end coincides with it: that
                 // ray is counted in the family without that apex.
-                const bool include_high = !top_next_to_end(family, z_high_);
+                const bool include_high = !upper_apex_next_to_end(family, z_high_);
                 solve_scan(family, terms(family, true), n_surface_, n_high_, include_high);
             }
         }
@@ -429,24 +474,24 @@ void PathFinder::transmitted_pair() {
         // apex before the crossing is a bottom reflection, and apexes alternate before it.
         Family family;
         family.nodes.push_back({NodeKind::ice_end, ice.z});
-        NodeKind next = apexes % 2 == 1 ? NodeKind::bottom : NodeKind::top;
+        NodeKind next = apexes % 2 == 1 ? NodeKind::bottom_reflection : NodeKind::upper_apex;
         for (int k = 0; k < apexes; ++k) {
-            if (next == NodeKind::bottom) {
-                family.nodes.push_back({NodeKind::bottom, *bottom_z_});
-                ++family.bottoms;
-                next = NodeKind::top;
+            if (next == NodeKind::bottom_reflection) {
+                family.nodes.push_back({NodeKind::bottom_reflection, *bottom_z_});
+                ++family.bottom_reflections;
+                next = NodeKind::upper_apex;
             } else {
-                family.nodes.push_back({NodeKind::top, 0.0});
-                ++family.tops;
-                next = NodeKind::bottom;
+                family.nodes.push_back({NodeKind::upper_apex, 0.0});
+                ++family.upper_apexes;
+                next = NodeKind::bottom_reflection;
             }
         }
         family.nodes.push_back({NodeKind::crossing, 0.0});
         family.nodes.push_back({NodeKind::air_end, air.z});
         family.crossing = true;
         const Node& first_apex = family.nodes[1];
-        if (first_apex.kind == NodeKind::top && ice.z == 0.0) continue;
-        if (first_apex.kind == NodeKind::bottom && ice.z == first_apex.z) continue;
+        if (first_apex.kind == NodeKind::upper_apex && ice.z == 0.0) continue;
+        if (first_apex.kind == NodeKind::bottom_reflection && ice.z == first_apex.z) continue;
         if (source_in_air) std::reverse(family.nodes.begin(), family.nodes.end());
         solve_transmitted(family, terms(family, false));
     }
@@ -459,7 +504,13 @@ void PathFinder::solve_transmitted(const Family& family, const std::vector<Term>
     const double height = std::max(source_.z, receiver_.z);
     double theta_high = std::atan2(r_, height);
     if (n_air_ > n_surface_) theta_high = std::min(theta_high, std::asin(n_surface_ / n_air_));
-    auto f = [&](double theta) { return evaluate(terms, n_air_ * std::sin(theta)).distance - r_; };
+    // Where sin θ rounds to 1 the air leg is horizontal and its distance infinite: the largest
+    // double instead keeps TOMS748's interpolation finite (the root is then unresolvable, which
+    // add_path reports).
+    auto f = [&](double theta) {
+        const double distance = evaluate(terms, n_air_ * std::sin(theta)).distance;
+        return std::isinf(distance) ? std::numeric_limits<double>::max() : distance - r_;
+    };
     if (r_ == 0.0) {
         add_path(family, 0.0, false);
         return;
@@ -540,26 +591,26 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
     p.ray_parameter = xi;
     p.horizontal_distance_m = r_;
     p.azimuth_rad = azimuth_;
-    double top = 0.0;
-    if (refracted && family.tops > 0) {
+    double turning_z = 0.0;
+    if (refracted && family.upper_apexes > 0) {
         const auto turning = solver_.turning_z(xi, z_high_);
         if (!turning)
             throw NumericalError(fmt::format("no turning point for ray parameter {} above z = {} m", xi, z_high_));
-        top = *turning;
-        p.turning_z_m = top;
+        turning_z = *turning;
+        p.turning_z_m = turning_z;
     }
     const auto& nodes = family.nodes;
-    auto z_of = [&](const Node& node) { return node.kind == NodeKind::top ? top : node.z; };
+    auto z_of = [&](const Node& node) { return node.kind == NodeKind::upper_apex ? turning_z : node.z; };
     auto moving_up = [&](const Node& a, const Node& b) {
-        if (b.kind == NodeKind::top || a.kind == NodeKind::bottom) return true;
-        if (a.kind == NodeKind::top || b.kind == NodeKind::bottom) return false;
+        if (b.kind == NodeKind::upper_apex || a.kind == NodeKind::bottom_reflection) return true;
+        if (a.kind == NodeKind::upper_apex || b.kind == NodeKind::bottom_reflection) return false;
         return z_of(b) > z_of(a);
     };
 
     const double n_source = index_at_end(source_), n_receiver = index_at_end(receiver_);
     const double cos_source = cos_from(n_source, xi), cos_receiver = cos_from(n_receiver, xi);
     auto horizontal = [&](const Point& e, double n) { return e.z <= 0.0 && n - xi <= horizontal_tolerance * n; };
-    const bool flat_source = horizontal(source_, n_source), flat_receiver = horizontal(receiver_, n_receiver);
+    const bool horizontal_at_source = horizontal(source_, n_source), horizontal_at_receiver = horizontal(receiver_, n_receiver);
     // ∂r/∂ξ·cos θ0·cos θr, leg by leg: a leg ending at a horizontal end contributes its limit
     // ±cos θ(other end)/|dn/dz| (+ for a leg with fixed ends, − for one whose turning point moves).
     double regular_derivative = 0.0, singular_part = 0.0;
@@ -589,23 +640,23 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
             p.time_s += s.time_s;
             p.attenuation_exponent += s.attenuation_exponent;
             offset += s.distance_m;
-            const bool moving_top = refracted && (a.kind == NodeKind::top || b.kind == NodeKind::top);
-            const bool at_source = i == 0 && flat_source, at_receiver = i + 1 == last && flat_receiver;
+            const bool moving_turning_point = refracted && (a.kind == NodeKind::upper_apex || b.kind == NodeKind::upper_apex);
+            const bool at_source = i == 0 && horizontal_at_source, at_receiver = i + 1 == last && horizontal_at_receiver;
             if (at_source || at_receiver) {
-                if (at_source) singular_leg(!moving_top, true);
-                if (at_receiver) singular_leg(!moving_top, false);
-            } else if (moving_top) {
-                regular_derivative += solver_.distance_to_turning(xi, a.kind == NodeKind::top ? b.z : a.z).derivative;
+                if (at_source) singular_leg(!moving_turning_point, true);
+                if (at_receiver) singular_leg(!moving_turning_point, false);
+            } else if (moving_turning_point) {
+                regular_derivative += solver_.distance_to_turning(xi, a.kind == NodeKind::upper_apex ? b.z : a.z).derivative;
             } else {
                 regular_derivative += s.distance_derivative;
             }
         }
         if (i + 1 == last) break;  // b is the receiver
         switch (b.kind) {
-            case NodeKind::top:
+            case NodeKind::upper_apex:
                 if (refracted) {
                     ++p.turning_points;
-                    p.events.push_back({PathEventKind::turning, offset, top});
+                    p.events.push_back({PathEventKind::turning, offset, turning_z});
                 } else {
                     ++p.surface_bounces;
                     p.events.push_back({PathEventKind::surface_reflection, offset, 0.0});
@@ -614,7 +665,7 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
                     interface_p *= f.r_p;
                 }
                 break;
-            case NodeKind::bottom: {
+            case NodeKind::bottom_reflection: {
                 ++p.bottom_bounces;
                 p.events.push_back({PathEventKind::bottom_reflection, offset, b.z});
                 const double field = std::sqrt(model_.bottom->power_reflectivity);
@@ -638,6 +689,12 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
         }
     }
     // The root leaves a residual in distance; along a family dT/dr = ξ/c, so correct to first order.
+    // A larger residual means that no double ξ resolves the path: a ray grazing the surface in
+    // the air, where r changes by more than that between neighbouring values of ξ.
+    if (!(std::abs(r_ - offset) <= root_residual(r_)))
+        throw NumericalError(fmt::format("the {} path of ray parameter {} cannot be resolved in double precision: "
+                                         "it reaches {} m instead of {} m (a ray grazing the surface?)",
+                                         family.crossing ? "transmitted" : "ice", xi, offset, r_));
     p.time_s += xi * (r_ - offset) / speed_of_light;
 
     if (p.bottom_bounces > 0) p.kind = PathKind::bottom;
@@ -654,35 +711,28 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
 
     // Spreading: L_eff² = n0²·(r/ξ)·|∂r/∂ξ|·|cos θ0 cos θr| (Červený 2001 with ∂ξ/∂θ0 = n0 cos θ0);
     // r/ξ → ∂r/∂ξ for a vertical path.
-    const bool flat = flat_source || flat_receiver;
+    const bool horizontal_at_an_end = horizontal_at_source || horizontal_at_receiver;
     const double launch_cos = launch_up ? cos_source : -cos_source;
     double derivative_cosines;  // |∂r/∂ξ|·|cos θ0 cos θr|
-    if (flat) {
+    if (horizontal_at_an_end) {
         derivative_cosines = std::abs(regular_derivative * cos_source * cos_receiver + singular_part);
         p.distance_derivative = infinity;
         p.distance_per_launch_angle =
-            flat_receiver && !flat_source ? infinity : (launch_up ? 1.0 : -1.0) * singular_part / cos_receiver * n_source;
+            horizontal_at_receiver && !horizontal_at_source ? infinity : (launch_up ? 1.0 : -1.0) * singular_part / cos_receiver * n_source;
     } else {
         derivative_cosines = std::abs(regular_derivative) * cos_source * cos_receiver;
         p.distance_derivative = regular_derivative;
         p.distance_per_launch_angle = regular_derivative * n_source * launch_cos;
     }
-    const double r_over_xi = xi > 0.0 ? r_ / xi : std::abs(regular_derivative);
-    const double tube = r_over_xi * derivative_cosines;
-    PathAmplitude& amplitude = p.amplitude;
-    amplitude.interface_s = interface_s;
-    amplitude.interface_p = interface_p;
-    amplitude.flux_factor = std::sqrt(n_source / n_receiver) * flux;
-    amplitude.attenuation_factor = std::exp(-p.attenuation_exponent);
-    amplitude.spreading_distance_m = n_source * std::sqrt(tube);
-    amplitude.caustic = !(amplitude.spreading_distance_m > caustic_fraction * p.length_m);
-    if (amplitude.caustic) {
-        amplitude.field_s = amplitude.field_p = {nan, nan};
-    } else {
-        const double scale = amplitude.flux_factor * amplitude.attenuation_factor / amplitude.spreading_distance_m;
-        amplitude.field_s = interface_s * scale;
-        amplitude.field_p = interface_p * scale;
-    }
+    RayTube tube;
+    tube.n_source = n_source;
+    tube.n_receiver = n_receiver;
+    tube.horizontal_distance_m = r_;
+    tube.ray_parameter = xi;
+    tube.derivative_cosines = derivative_cosines;
+    tube.distance_derivative = regular_derivative;
+    tube.length_m = p.length_m;
+    p.amplitude = path_amplitude(interface_s, interface_p, flux, p.attenuation_exponent, tube);
     paths_.push_back(std::move(p));
 }
 

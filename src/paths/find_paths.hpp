@@ -1,5 +1,5 @@
 // Every ray path joining a source and a receiver in a horizontally stratified site model
-// (physics notes §4–6): direct, refracted, surface-reflected, bottom-reflected, transmitted
+// (docs/physics.md §6): direct, refracted, surface-reflected, bottom-reflected, transmitted
 // through the surface, and paths with several bounces, each with its amplitude factors. Works
 // with any RaySolver (closed form or numeric). Beyond the reach of every path family a pair has
 // no path (the shadow zone): the result is then empty, which is not an error.
@@ -7,16 +7,11 @@
 
 #include <vector>
 
+#include "core/point.hpp"
 #include "paths/connected_path.hpp"
 #include "solver/ray_solver.hpp"
 
 namespace firnray {
-
-// A position: x, y horizontal, z up (surface z = 0, ice z < 0, air z > 0), metres. For x,z
-// points leave y = 0. Only the horizontal distance hypot(Δx, Δy) and the azimuth matter.
-struct Point {
-    double x = 0.0, y = 0.0, z = 0.0;
-};
 
 struct PathOptions {
     // The most times a path may turn back vertically: at the surface (reflection), at a turning

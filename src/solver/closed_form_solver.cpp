@@ -9,6 +9,7 @@
 
 #include "core/constants.hpp"
 #include "core/errors.hpp"
+#include "trace/bracketed_root.hpp"
 
 namespace firnray {
 
@@ -230,7 +231,9 @@ double ClosedFormSolver::attenuation_exponent(const Leg& g, double length_m) con
         return 2.0 * height * tau * n / (q * profile.length_m(z));
     };
     double error = 0.0;
-    const double value = boost::math::quadrature::gauss_kronrod<double, 15>::integrate(integrand, 0.0, 1.0, 15, 1e-11, &error);
+    const double value = guard_boost_math("the attenuation integral of a leg", [&] {
+        return boost::math::quadrature::gauss_kronrod<double, 15>::integrate(integrand, 0.0, 1.0, 15, 1e-11, &error);
+    });
     if (!std::isfinite(value)) throw NumericalError("attenuation quadrature failed (attenuation length not positive?)");
     return value;
 }

@@ -1,5 +1,5 @@
-// Ray legs in the exponential firn profile n(z) = A − B e^{z/z0} in closed form (physics notes §4;
-// the formulas as implemented and the cancellation-free forms are in docs/physics.md §3).
+// Ray legs in the exponential firn profile n(z) = A − B e^{z/z0} in closed form (the formulas as
+// implemented and the cancellation-free forms are in docs/physics.md §3).
 // Distance, time, length and ∂distance/∂ξ cost a few elementary functions, no quadrature.
 //
 // Accuracy, measured against Boost.Math tanh_sinh quadrature of the Snell integrals in quadruple
@@ -12,7 +12,7 @@
 //   ∂distance/∂ξ: agrees with 50-digit finite differences to 2e-15, with double-precision central
 //   differences to 1e-9 (fixed ends) and 1e-7 (turning end), which is the limit of the differences.
 //   attenuation exponent: s / L exactly for a constant length; for a depth-dependent one, adaptive
-//   Gauss–Kronrod (15 points) after z = z_top − Δ·τ², which removes the 1/√ singularity of a
+//   Gauss–Kronrod (15 points) after z = z_upper − Δ·τ², which removes the 1/√ singularity of a
 //   turning end: 1e-10 relative.
 // Speed (bench/bench_closed_form.cpp, docs/performance.md): one distance-and-time
 // evaluation takes about 55 ns.
@@ -73,7 +73,7 @@ private:
     struct EndValues {
         double u, n, d;  // e^{Cz}, n(z), n(z) − ξ
     };
-    EndValues end_values(double z, double xi, double a_minus_xi) const;
+    EndValues end_values(double z, double ray_parameter, double a_minus_ray_parameter) const;
     bool prepare(double ray_parameter, double z_a, double z_b, Leg& leg) const;
     double attenuation_exponent(const Leg& leg, double length_m) const;
 

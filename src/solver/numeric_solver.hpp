@@ -1,4 +1,4 @@
-// The RaySolver of any index profile: integrates the ray equations of physics notes §3 between
+// The RaySolver of any index profile: integrates the ray equations of docs/physics.md §2.1 between
 // two depths (trace/ray_stepper.hpp) and finds turning points by bracketing and TOMS748.
 // Accuracy follows the integration tolerances; docs/physics.md §2.2 gives measured figures.
 #pragma once
@@ -39,20 +39,20 @@ public:
     // where it drifted (tables, layered profiles). Requires ξ >= 0 and z_a, z_b <= 0.
     Segment segment(double ray_parameter, double z_a, double z_b) const override;
 
-    // One ray integrated from z_top downward, each level's leg read off the dense output where z
+    // One ray integrated from z_upper downward, each level's leg read off the dense output where z
     // crosses it (Newton on z within the step, 2–3 evaluations per level), so the cost is one ray
-    // plus that per level instead of one integration per level. Levels equal to z_top (or to the
-    // level before) are copied. When n(z_top) = ξ within turning_index_tolerance, z_top is taken
+    // plus that per level instead of one integration per level. Levels equal to z_upper (or to the
+    // level before) are copied. When n(z_upper) = ξ within turning_index_tolerance, z_upper is taken
     // as the ray's turning point: the ray starts horizontal (p_z = 0) and bends down, the σ-form
     // equations being regular there. The ray is restarted every step on a new base (height
     // origin and sums) so that the tolerances apply to what each step adds, and with p_z put
-    // back on |p| = n (numeric_solver.cpp says why). ∂distance/∂ξ is not provided:
-    // distance_derivative is NaN below z_top and 0 at it. Agrees with the default (segment()
+    // back on |p| = n (BetweenSteps in trace/ray_integration.hpp says why). ∂distance/∂ξ is not provided:
+    // distance_derivative is NaN below z_upper and 0 at it. Agrees with the default (segment()
     // summed level to level) within 5e-8 m / 3e-16 s on smooth profiles and 7e-7 m / 4e-15 s on
     // a table sampled every 5 m, at the default tolerances (tests/solver/test_numeric_segments_from.cpp,
     // docs/physics.md §2.7). Throws NumericalError for levels that do not descend
-    // from z_top, and if the ray turns back up above the lowest level (ξ exceeds n on the way).
-    void segments_from(double ray_parameter, double z_top, std::span<const double> levels,
+    // from z_upper, and if the ray turns back up above the lowest level (ξ exceeds n on the way).
+    void segments_from(double ray_parameter, double z_upper, std::span<const double> levels,
                        std::span<Segment> out) const override;
 
     // Scans upward from z_start in steps no longer than 4 m (shorter where n − ξ is small against

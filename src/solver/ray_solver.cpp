@@ -12,13 +12,13 @@
 
 namespace firnray {
 
-void RaySolver::segments_from(double ray_parameter, double z_top, std::span<const double> levels,
+void RaySolver::segments_from(double ray_parameter, double z_upper, std::span<const double> levels,
                               std::span<Segment> out) const {
     if (out.size() != levels.size()) throw NumericalError("segments_from: levels and output differ in size");
     Segment total;
-    double previous = z_top;
+    double previous = z_upper;
     for (std::size_t i = 0; i < levels.size(); ++i) {
-        if (levels[i] > previous) throw NumericalError("segments_from: levels must descend from z_top");
+        if (levels[i] > previous) throw NumericalError("segments_from: levels must descend from z_upper");
         if (levels[i] < previous) {
             const Segment leg = segment(ray_parameter, previous, levels[i]);
             total.distance_m += leg.distance_m;

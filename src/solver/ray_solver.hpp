@@ -1,7 +1,7 @@
 // The question every path finder asks, answered by either solver: for a ray of parameter
 // ξ = n sin θ, what horizontal distance, time and length does it cover between two depths in
-// the ice, and where does it turn? ClosedFormSolver (exponential profiles, physics notes §4)
-// and NumericSolver (any profile, ODE of notes §3) implement the same interface so that callers
+// the ice, and where does it turn? ClosedFormSolver (exponential profiles, docs/physics.md §3)
+// and NumericSolver (any profile, the equations of §2.1) implement the same interface so that callers
 // can use either and tests can compare them.
 #pragma once
 
@@ -48,11 +48,11 @@ public:
     // Empty when the ray reaches the surface without turning (ξ < n just below the surface).
     virtual std::optional<double> turning_z(double ray_parameter, double z_start) const = 0;
 
-    // Legs from z_top down to each of `levels` (sorted from the highest to the lowest, all at or
-    // below z_top, with ξ below n on the whole way): out[i] = segment(ξ, z_top, levels[i]).
+    // Legs from z_upper down to each of `levels` (sorted from the highest to the lowest, all at or
+    // below z_upper, with ξ below n on the whole way): out[i] = segment(ξ, z_upper, levels[i]).
     // Map-scale tables ask for thousands of these per ray parameter; solvers that integrate
     // override it to do them in one pass. The default sums segment() between consecutive levels.
-    virtual void segments_from(double ray_parameter, double z_top, std::span<const double> levels,
+    virtual void segments_from(double ray_parameter, double z_upper, std::span<const double> levels,
                                std::span<Segment> out) const;
 
     // Distance and ∂distance/∂ξ at fixed end depths of the leg between z_a and z_b (the same

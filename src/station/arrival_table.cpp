@@ -3,14 +3,16 @@
 #include <algorithm>
 #include <array>
 #include <cmath>
+#include <complex>
 #include <limits>
 
-#include <boost/math/tools/minima.hpp>
 #include <fmt/format.h>
 
 #include "core/constants.hpp"
 #include "core/errors.hpp"
 #include "core/parallel.hpp"
+#include "paths/amplitude.hpp"
+#include "trace/bracketed_root.hpp"
 #include "trace/fresnel.hpp"
 
 namespace firnray {
@@ -54,39 +56,41 @@ ArrivalTable::ArrivalTable(const RaySolver& solver, double receiver_z, std::vect
     double n_high = 0.0;
     for (double z : levels_) n_high = std::max(n_high, model.index->index(z));
     const std::size_t samples = static_cast<std::size_t>(options.ray_parameters);
-    xi_.resize(samples);
+    ray_parameters_.resize(samples);
     // sin spacing: dense where rays are nearly horizontal, which is where distances change fastest.
     for (std::size_t k = 0; k < samples; ++k)
-        xi_[k] = n_high * std::sin(0.5 * pi * static_cast<double>(k) / static_cast<double>(samples));
+        ray_parameters_[k] = n_high * std::sin(0.5 * pi * static_cast<double>(k) / static_cast<double>(samples));
 
     const std::size_t levels = levels_.size();
     distance_.assign(levels * samples, nan);
     time_.assign(levels * samples, nan);
     attenuation_.assign(levels * samples, nan);
+    length_.assign(levels * samples, nan);
     parallel_for(samples, options.threads, options.control, [&](std::size_t k) {
-        const double xi = xi_[k];
-        double top = 0.0;
+        const double xi = ray_parameters_[k];
+        double highest_z = 0.0;
         if (xi >= n_surface_) {
             const auto turning = solver_->turning_z(xi, levels_.back());
             if (!turning) return;  // cannot happen for a profile that grows with depth
-            top = *turning;
+            highest_z = *turning;
         }
-        // The levels this ray reaches: at or below its top, where n exceeds ξ.
+        // The levels this ray reaches: at or below its highest point, where n exceeds ξ.
         std::vector<double> reached;
         std::vector<std::size_t> index;
         for (std::size_t l = 0; l < levels; ++l) {
             const double z = levels_[l];
-            if (z > top || model.index->index(z) <= xi) continue;
+            if (z > highest_z || model.index->index(z) <= xi) continue;
             reached.push_back(z);
             index.push_back(l);
         }
         std::vector<Segment> legs(reached.size());
-        solver_->segments_from(xi, top, reached, legs);
+        solver_->segments_from(xi, highest_z, reached, legs);
         for (std::size_t i = 0; i < reached.size(); ++i) {
             const std::size_t at = index[i] * samples + k;
             distance_[at] = legs[i].distance_m;
             time_[at] = legs[i].time_s;
             attenuation_[at] = legs[i].attenuation_exponent;
+            length_[at] = legs[i].length_m;
         }
     });
 
@@ -96,16 +100,19 @@ ArrivalTable::ArrivalTable(const RaySolver& solver, double receiver_z, std::vect
 }
 
 ArrivalTable::Sample ArrivalTable::direct_sample(const Row& row, std::size_t k) const {
-    if (k == row.count) return {row.end_distance_m, row.end_time_s, row.end_attenuation, row.end_ray_parameter};
-    const std::size_t n = xi_.size(), s = row.source_level * n + k, r = receiver_level_ * n + k;
+    if (k == row.count)
+        return {row.end_distance_m, row.end_time_s, row.end_attenuation, row.end_ray_parameter, row.end_length_m};
+    const std::size_t n = ray_parameters_.size(), s = row.source_level * n + k, r = receiver_level_ * n + k;
     return {std::abs(distance_[s] - distance_[r]), std::abs(time_[s] - time_[r]),
-            std::abs(attenuation_[s] - attenuation_[r]), xi_[k]};
+            std::abs(attenuation_[s] - attenuation_[r]), ray_parameters_[k], std::abs(length_[s] - length_[r])};
 }
 
 ArrivalTable::Sample ArrivalTable::rising_sample(const Row& row, std::size_t k) const {
-    if (k == row.count) return {row.end_distance_m, row.end_time_s, row.end_attenuation, row.end_ray_parameter};
-    const std::size_t n = xi_.size(), s = row.source_level * n + k, r = receiver_level_ * n + k;
-    return {distance_[s] + distance_[r], time_[s] + time_[r], attenuation_[s] + attenuation_[r], xi_[k]};
+    if (k == row.count)
+        return {row.end_distance_m, row.end_time_s, row.end_attenuation, row.end_ray_parameter, row.end_length_m};
+    const std::size_t n = ray_parameters_.size(), s = row.source_level * n + k, r = receiver_level_ * n + k;
+    return {distance_[s] + distance_[r], time_[s] + time_[r], attenuation_[s] + attenuation_[r], ray_parameters_[k],
+            length_[s] + length_[r]};
 }
 
 void ArrivalTable::build_row(std::size_t index) {
@@ -115,7 +122,7 @@ void ArrivalTable::build_row(std::size_t index) {
     const double z_source = source_z_[index];
     const double z_shallow = std::max(z_source, receiver_z_), z_deep = std::min(z_source, receiver_z_);
     const double n_shallow = model.index->index(z_shallow);
-    row.count = static_cast<std::size_t>(std::lower_bound(xi_.begin(), xi_.end(), n_shallow) - xi_.begin());
+    row.count = static_cast<std::size_t>(std::lower_bound(ray_parameters_.begin(), ray_parameters_.end(), n_shallow) - ray_parameters_.begin());
     // The end point: the ray is horizontal at the shallower end, where both families meet.
     // Where the index does not change at that end (a homogeneous layer) the horizontal ray never
     // comes back: the families reach every distance, and lookups past the last sample are solved
@@ -124,32 +131,35 @@ void ArrivalTable::build_row(std::size_t index) {
         row.end_distance_m = std::numeric_limits<double>::infinity();
         row.end_time_s = row.end_distance_m;
         row.end_attenuation = 0.0;
+        row.end_length_m = row.end_distance_m;
     } else if (z_shallow == z_deep) {
         row.end_distance_m = 0.0;
         row.end_time_s = row.end_distance_m;
         row.end_attenuation = 0.0;
+        row.end_length_m = 0.0;
     } else {
         const Segment end = solver_->segment(n_shallow, z_shallow, z_deep);
         row.end_distance_m = end.distance_m;
         row.end_time_s = end.time_s;
         row.end_attenuation = end.attenuation_exponent;
+        row.end_length_m = end.length_m;
     }
     row.end_ray_parameter = n_shallow;
 
-    // Monotone pieces of the rising family (the direct family is monotone for profiles that grow
+    // Monotone runs of the rising family (the direct family is monotone for profiles that grow
     // with depth, but tabulated data may not be; it is split the same way at lookup time).
-    row.rising_pieces.clear();
+    row.rising_runs.clear();
     std::size_t first = 0;
     for (std::size_t k = 1; k <= row.count; ++k) {
         const double x0 = rising_sample(row, k - 1).distance_m, x1 = rising_sample(row, k).distance_m;
         const bool increasing = x1 >= x0;
         if (k == first + 1) {
-            row.rising_pieces.push_back({first, k, increasing});
-        } else if (increasing == row.rising_pieces.back().increasing) {
-            row.rising_pieces.back().last = k;
+            row.rising_runs.push_back({first, k, increasing});
+        } else if (increasing == row.rising_runs.back().increasing) {
+            row.rising_runs.back().last = k;
         } else {
             first = k - 1;
-            row.rising_pieces.push_back({first, k, increasing});
+            row.rising_runs.push_back({first, k, increasing});
         }
     }
 
@@ -166,8 +176,8 @@ void ArrivalTable::build_row(std::size_t index) {
         // Interior maximum of the rising family: refine it on the solver itself, and remember
         // it, since the samples around it can miss the last metres of reach (see arrivals()).
         auto minus_rising = [&](double xi) { return -exact_at(row, ArrivalKind::refracted, xi).distance_m; };
-        const double lo = xi_[best - 1], hi = std::min(xi_[best + 1], n_shallow);
-        const auto [xi_best, minus_x] = boost::math::tools::brent_find_minima(minus_rising, lo, hi, 52);
+        const double lo = ray_parameters_[best - 1], hi = std::min(ray_parameters_[best + 1], n_shallow);
+        const auto [xi_best, minus_x] = brent_minimum("the largest reach of a ray family", minus_rising, lo, hi, 52);
         if (-minus_x > reach) {
             row.has_peak = true;
             row.peak_ray_parameter = xi_best;
@@ -184,18 +194,18 @@ ArrivalTable::Sample ArrivalTable::exact_at(const Row& row, ArrivalKind family, 
     const double z_source = source_z_[row.index];
     if (family == ArrivalKind::direct) {
         const Segment leg = solver_->segment(xi, z_source, receiver_z_);
-        return Sample{leg.distance_m, leg.time_s, leg.attenuation_exponent, xi};
+        return Sample{leg.distance_m, leg.time_s, leg.attenuation_exponent, xi, leg.length_m};
     }
     const double z_deep = std::min(z_source, receiver_z_);
-    double top = 0.0;
-    if (xi >= n_surface_) top = solver_->turning_z(xi, z_deep).value_or(0.0);
+    double highest_z = 0.0;
+    if (xi >= n_surface_) highest_z = solver_->turning_z(xi, z_deep).value_or(0.0);
     // Both legs from one ray down through the two ends (a single integration on solvers that
-    // override segments_from). The shallower end may sit a rounding error above a turning top.
-    const std::array<double, 2> ends{std::min(std::max(z_source, receiver_z_), top), z_deep};
+    // override segments_from). The shallower end may sit a rounding error above the turning point.
+    const std::array<double, 2> ends{std::min(std::max(z_source, receiver_z_), highest_z), z_deep};
     std::array<Segment, 2> legs;
-    solver_->segments_from(xi, top, ends, legs);
+    solver_->segments_from(xi, highest_z, ends, legs);
     return Sample{legs[0].distance_m + legs[1].distance_m, legs[0].time_s + legs[1].time_s,
-                  legs[0].attenuation_exponent + legs[1].attenuation_exponent, xi};
+                  legs[0].attenuation_exponent + legs[1].attenuation_exponent, xi, legs[0].length_m + legs[1].length_m};
 }
 
 ArrivalTable::Sample ArrivalTable::exact_sample(const Row& row, ArrivalKind family, double xi_low,
@@ -243,38 +253,36 @@ void ArrivalTable::add_arrival(const Row& row, ArrivalKind family, const Sample&
     const double xi = xi0 + w * (xi1 - xi0);
     const double attenuation = a.attenuation + w * (b.attenuation - a.attenuation);
 
+    const double length = a.length_m + w * (b.length_m - a.length_m);
+
     MapArrival arrival;
     arrival.time_s = time;
     arrival.ray_parameter = xi;
-    double fresnel_magnitude = 1.0;
+    std::complex<double> interface_s{1.0, 0.0}, interface_p{1.0, 0.0};
     if (family == ArrivalKind::direct) {
         arrival.kind = ArrivalKind::direct;
     } else if (xi < n_surface_) {
         arrival.kind = ArrivalKind::reflected;
-        const double sin_i = xi / n_surface_;
-        const auto f = fresnel(n_surface_, n_air_, std::sqrt(std::max(0.0, 1.0 - sin_i * sin_i)));
-        fresnel_magnitude = std::sqrt(0.5 * (std::norm(f.r_s) + std::norm(f.r_p)));
+        const auto f = fresnel(n_surface_, n_air_, cos_from_ray_parameter(n_surface_, xi));
+        interface_s = f.r_s;
+        interface_p = f.r_p;
     } else {
         arrival.kind = ArrivalKind::refracted;
     }
-    // Geometric spreading (Červený 2001): L² = (R / sin θ0) · |∂R/∂θ0| · |cos θr|,
-    // ∂R/∂θ0 = ∂R/∂ξ · n0 cos θ0, and R / sin θ0 = n0 R / ξ (→ n0 ∂R/∂ξ as ξ → 0).
-    const double n0 = model.index->index(source_z_[row.index]);
-    const double nr = model.index->index(receiver_z_);
+    // The tube of paths/amplitude.hpp, with ∂R/∂ξ from the two samples that bracket the arrival.
+    RayTube tube;
+    tube.n_source = model.index->index(source_z_[row.index]);
+    tube.n_receiver = model.index->index(receiver_z_);
+    tube.horizontal_distance_m = distance_m;
+    tube.ray_parameter = xi;
     const double dxi = xi1 - xi0;
-    const double dR_dxi = dxi != 0.0 ? dx / dxi : std::numeric_limits<double>::infinity();
-    const double cos0 = std::sqrt(std::max(0.0, 1.0 - (xi / n0) * (xi / n0)));
-    const double cosr = std::sqrt(std::max(0.0, 1.0 - (xi / nr) * (xi / nr)));
-    const double r_over_xi = xi > 1e-9 ? distance_m / xi : std::abs(dR_dxi);
-    const double spreading2 = n0 * r_over_xi * std::abs(dR_dxi) * n0 * cos0 * cosr;
-    if (!(spreading2 > 1e-12) || !std::isfinite(spreading2)) {
-        arrival.caustic = true;
-        arrival.amplitude_per_m = nan;
-    } else {
-        // √(n0/nr): energy-flux factor of the ray tube, as in find_paths (amplitude reciprocity).
-        arrival.amplitude_per_m =
-            fresnel_magnitude * std::sqrt(n0 / nr) * std::exp(-attenuation) / std::sqrt(spreading2);
-    }
+    tube.distance_derivative = dxi != 0.0 ? dx / dxi : std::numeric_limits<double>::infinity();
+    tube.derivative_cosines = std::abs(tube.distance_derivative) * cos_from_ray_parameter(tube.n_source, xi) *
+                              cos_from_ray_parameter(tube.n_receiver, xi);
+    tube.length_m = length;
+    const PathAmplitude amplitude = path_amplitude(interface_s, interface_p, 1.0, attenuation, tube);
+    arrival.caustic = amplitude.caustic;
+    arrival.amplitude_per_m = mean_field_magnitude(amplitude);
     out.push_back(arrival);
 }
 
@@ -307,7 +315,7 @@ void ArrivalTable::arrivals(std::size_t index, double distance_m, std::vector<Ma
     auto rising = [&](std::size_t k) { return rising_sample(row, k); };
     // At equal depths no path is monotone in z: every path belongs to the rising family.
     if (source_z_[index] != receiver_z_) search(ArrivalKind::direct, direct, 0, row.count, true);
-    for (const Piece& piece : row.rising_pieces) search(ArrivalKind::refracted, rising, piece.first, piece.last, piece.increasing);
+    for (const MonotoneRun& run : row.rising_runs) search(ArrivalKind::refracted, rising, run.first, run.last, run.increasing);
     if (row.has_peak && distance_m > row.sampled_peak_m) add_exact_peak_arrivals(row, distance_m, out);
     std::sort(out.begin(), out.end(), [](const MapArrival& a, const MapArrival& b) { return a.time_s < b.time_s; });
 }

@@ -1,7 +1,8 @@
 // Stepping the ray equations with an embedded Runge–Kutta pair under dense output
 // (Boost.Odeint runge_kutta_dopri5) and locating events on the dense output: the step where
 // a component crosses a level is bracketed, then the crossing is refined with TOMS748 on the
-// interpolated state. Shared by the ray tracer and the numeric solver.
+// interpolated state. The ray tracer and the numeric solver use it through the one integration
+// driver, trace/ray_integration.hpp.
 #pragma once
 
 #include <cmath>
@@ -11,12 +12,12 @@
 #include <stdexcept>
 #include <utility>
 
-#include <boost/math/tools/toms748_solve.hpp>
 #include <boost/numeric/odeint/stepper/generation.hpp>
 #include <boost/numeric/odeint/stepper/runge_kutta_dopri5.hpp>
 #include <fmt/format.h>
 
 #include "core/errors.hpp"
+#include "trace/bracketed_root.hpp"
 #include "trace/ray_system.hpp"
 
 namespace firnray {
@@ -84,11 +85,22 @@ public:
             throw NumericalError(fmt::format("the ray integration took more than {} steps (tolerances too tight, "
                                              "or a ray trapped without end?)",
                                              tolerances_.max_steps));
+        std::pair<double, double> span;
         try {
-            return dense_.do_step(equations_);
-        } catch (const std::runtime_error& e) {  // odeint's step_adjustment_error
+            span = dense_.do_step(equations_);
+        } catch (const Error&) {
+            throw;
+        } catch (const std::exception& e) {  // odeint's step_adjustment_error, or anything below it
             throw NumericalError(std::string("the ray integrator could not control its step: ") + e.what());
         }
+        // A NaN in the state defeats the error control (every comparison with it is false, so
+        // the step is accepted): stop at the first one instead of stepping on to max_steps.
+        for (const double v : dense_.current_state())
+            if (!std::isfinite(v))
+                throw NumericalError(fmt::format("the ray integration produced a non-finite state at σ = {} m "
+                                                 "(the index profile is not finite or not smooth there?)",
+                                                 span.second));
+        return span;
     }
 
     // Goes on from y in place of the end state of the last step (e.g. that state projected back
@@ -156,11 +168,7 @@ public:
         if (gb == 0.0) return b;
         if (ga == 0.0) return a;
         auto f = [&](double sigma) { return at(sigma)[k] - level; };
-        boost::uintmax_t iterations = 100;
-        const auto bracket = boost::math::tools::toms748_solve(f, a, b, ga, gb,
-                                                               boost::math::tools::eps_tolerance<double>(50),
-                                                               iterations);
-        return 0.5 * (bracket.first + bracket.second);
+        return toms748_root("an event on the dense output of a ray step", f, a, b, ga, gb, 50, 100);
     }
 
     // σ in [a, b] where component k equals level, with the dense state there, for a step on

@@ -1,6 +1,10 @@
-// The ray equations of physics notes §3 as a Boost.Odeint system functor, in the parameter σ
+// The ray equations of docs/physics.md §2.1 as a Boost.Odeint system functor, in the parameter σ
 // with ds = n dσ: dr/dσ = p, dp/dσ = n ∇n, d(cT)/dσ = n², ds/dσ = n, for n = n(z) in 2-D (x, z).
 // Optionally carries the attenuation exponent ∫ ds / L_α and the variation of the ray with ξ.
+// Words used here and by the solvers: a piecewise-smooth profile (a table, a layered profile) has
+// joins, the heights where a derivative of n jumps (IndexProfile::joins_z); a piece is the part
+// of the profile between two joins, which has a formula of its own that can be continued beyond
+// them (IndexProfile::piece_index).
 #pragma once
 
 #include <array>

@@ -8,7 +8,9 @@
 
 #include "core/constants.hpp"
 #include "core/errors.hpp"
+#include "trace/bracketed_root.hpp"
 #include "trace/fresnel.hpp"
+#include "trace/ray_integration.hpp"
 
 namespace firnray {
 
@@ -91,10 +93,7 @@ void FixedSpacingRecorder::step(const StepView& view, std::vector<RayPoint>& poi
         if (fa == 0.0) {
             sigma = a;
         } else if (fb != 0.0) {
-            boost::uintmax_t iterations = 60;
-            const auto r = boost::math::tools::toms748_solve(f, a, b, fa, fb,
-                                                             boost::math::tools::eps_tolerance<double>(40), iterations);
-            sigma = 0.5 * (r.first + r.second);
+            sigma = toms748_root("a point at a fixed spacing along the ray", f, a, b, fa, fb, 40, 60);
         }
         push_unique(points, view.at(sigma));
     }
@@ -138,6 +137,8 @@ using namespace ray_state;
 RayPoint point_of(const RayState& y) {
     return RayPoint{y[x], y[z], y[optical_path] / speed_of_light, y[length]};
 }
+
+double zenith_of(const RayState& y) { return std::atan2(y[px], y[pz]); }
 
 class IceStepView final : public StepView {
 public:
@@ -233,7 +234,6 @@ private:
 
     void trace_ice(std::size_t index) {
         const IndexProfile& profile = *model_.index;
-        RayEquations equations(profile, model_.attenuation.get());
         const RayBranch start_branch = branch(index);  // copy: the vector may grow
         const double n_start = profile.index(start_branch.start.z_m);
         RayState y{};
@@ -255,121 +255,116 @@ private:
         const bool has_distance = std::isfinite(options_.max_distance_m);
 
         // The limits may already be met at the start (a transmitted branch at the end of its budget).
-        auto zenith_of = [](const RayState& s) { return std::atan2(s[px], s[pz]); };
         if (y[length] >= options_.max_length_m)
             return finish(index, point_of(y), zenith_of(y), EndReason::max_length);
         if (has_distance && heading * (y[x] - x0_) >= options_.max_distance_m)
             return finish(index, point_of(y), zenith_of(y), EndReason::max_distance);
         if (has_floor && y[z] <= options_.floor_z_m) return finish(index, point_of(y), zenith_of(y), EndReason::floor);
 
-        std::array<LevelCrossing, 6> all{};
-        std::array<Crossing, 6> kinds{};
-        std::size_t count = 0;
-        auto add = [&](Crossing kind, LevelCrossing c) {
-            kinds[count] = kind;
-            all[count++] = c;
-        };
-        add(cross_surface, {z, 0.0, +1});
-        add(cross_turning, {pz, 0.0, -1});
-        if (has_distance && xi0 != 0.0)
-            add(cross_distance, {x, x0_ + heading * options_.max_distance_m, xi0 > 0.0 ? +1 : -1});
-        add(cross_length, {length, options_.max_length_m, +1});
-        if (has_bottom) add(cross_bottom, {z, bottom_z, -1});
-        if (has_floor) add(cross_floor, {z, options_.floor_z_m, -1});
-        const std::span<const LevelCrossing> crossings(all.data(), count);
-
-        auto note_drift = [&](const RayState& s) {
-            if (s[z] > 0.0) return;
-            const double n = profile.index(s[z]);
-            const double p = std::hypot(s[px], s[pz]);
-            InvariantDrift& d = branch(index).drift;
-            d.index_mismatch = std::max(d.index_mismatch, std::abs(p - n));
-            d.ray_parameter_change = std::max(d.ray_parameter_change, std::abs(n * s[px] / p - xi0));
-        };
-
-        RayStepper<RayState> stepper(equations, options_.tolerances);
-        stepper.start(y, 0.0, options_.tolerances.initial_step_m);
-        double from = 0.0;
-        RayState y_from = y;
-        std::size_t steps = 0;
-        for (;;) {
-            stepper.step();
-            ++steps;
-            branch(index).steps = steps;
-            for (;;) {
-                const auto found = stepper.first_crossing(crossings, from, y_from);
-                if (!found) {
-                    recorder_.step(IceStepView(stepper, from, stepper.end_sigma()), branch(index).points);
-                    from = stepper.end_sigma();
-                    y_from = stepper.end_state();
-                    note_drift(y_from);
-                    break;
-                }
-                const double sigma = found->sigma;
-                const LevelCrossing& c = crossings[found->which];
-                RayState ye = stepper.on_level(sigma, c.component, c.level);
-                const RayPoint where = point_of(ye);
-                recorder_.step(IceStepView(stepper, from, sigma, where), branch(index).points);
-                note_drift(ye);
-                branch(index).attenuation_exponent = ye[attenuation];
-
-                switch (kinds[found->which]) {
-                    case cross_turning: {
-                        RayEvent e{EventType::turning_point, where, zenith_of(ye), zenith_of(ye)};
-                        branch(index).events.push_back(e);
-                        recorder_.event(where, branch(index).points);
-                        from = sigma;
-                        y_from = ye;
-                        continue;  // not a discontinuity: look for more events on this step
-                    }
-                    case cross_surface: {
-                        if (!interaction_allowed())
-                            return finish(index, where, zenith_of(ye), EndReason::interaction_limit);
-                        const double p = std::hypot(ye[px], ye[pz]);
-                        const double n1 = profile.index(0.0), n2 = model_.n_air;
-                        const FresnelCoefficients f = fresnel(n1, n2, ye[pz] / p);
-                        RayEvent e{EventType::surface_reflection_in_ice, where, zenith_of(ye), 0.0, f.r_s, f.r_p};
-                        const auto before_s = branch(index).amplitude_s, before_p = branch(index).amplitude_p;
-                        if (!f.total_reflection) {
-                            const double sin_t = (ye[px] / p) * n1 / n2;
-                            const double zenith_t = std::atan2(sin_t, f.transmitted_zenith_cos);
-                            e.child_branch = spawn(index, BranchKind::air_transmitted, where, zenith_t, n2 * sin_t,
-                                                   before_s * f.t_s, before_p * f.t_p, ye[attenuation]);
-                        }
-                        ye[pz] = -ye[pz];
-                        e.zenith_after_rad = zenith_of(ye);
-                        branch(index).amplitude_s = before_s * f.r_s;
-                        branch(index).amplitude_p = before_p * f.r_p;
-                        branch(index).events.push_back(e);
-                        recorder_.event(where, branch(index).points);
-                        break;
-                    }
-                    case cross_bottom: {
-                        const double factor = std::sqrt(std::clamp(model_.bottom->power_reflectivity, 0.0, 1.0));
-                        RayEvent e{EventType::bottom_reflection, where, zenith_of(ye), 0.0, factor, factor};
-                        ye[pz] = -ye[pz];
-                        e.zenith_after_rad = zenith_of(ye);
-                        branch(index).amplitude_s *= factor;
-                        branch(index).amplitude_p *= factor;
-                        branch(index).events.push_back(e);
-                        recorder_.event(where, branch(index).points);
-                        break;
-                    }
-                    case cross_distance:
-                        return finish(index, where, zenith_of(ye), EndReason::max_distance);
-                    case cross_length:
-                        return finish(index, where, zenith_of(ye), EndReason::max_length);
-                    case cross_floor:
-                        return finish(index, where, zenith_of(ye), EndReason::floor);
-                }
-                // A reflection: restart the integration from the reflected state.
-                stepper.start(ye, sigma, std::max(stepper.last_step(), 1e-6));
-                from = sigma;
-                y_from = ye;
-                break;
-            }
-        }
+        IceBranchObserver observer(*this, index, heading, has_distance, has_bottom, has_floor);
+        IntegratedRay<RayState> ray(model_, options_.tolerances, y, BetweenSteps::monitored);
+        integrate_ray(ray, observer);
+        branch(index).steps = ray.steps();
+        branch(index).drift = ray.drift();
     }
+
+    // What a branch in the ice records and does at its events, for the driver (ray_integration.hpp).
+    class IceBranchObserver {
+    public:
+        IceBranchObserver(BranchTracer& tracer, std::size_t index, double heading, bool has_distance,
+                          bool has_bottom, bool has_floor)
+            : tracer_(tracer), index_(index) {
+            const TraceOptions& options = tracer.options_;
+            const double xi0 = tracer.branch(index).ray_parameter;
+            add(cross_surface, {z, 0.0, +1});
+            add(cross_turning, {pz, 0.0, -1});
+            if (has_distance && xi0 != 0.0)
+                add(cross_distance, {x, tracer.x0_ + heading * options.max_distance_m, xi0 > 0.0 ? +1 : -1});
+            add(cross_length, {length, options.max_length_m, +1});
+            if (has_bottom) add(cross_bottom, {z, tracer.model_.bottom->z_m, -1});
+            if (has_floor) add(cross_floor, {z, options.floor_z_m, -1});
+        }
+
+        std::span<const LevelCrossing> crossings(const IntegratedRay<RayState>&) const {
+            return {all_.data(), count_};
+        }
+
+        bool on_step(IntegratedRay<RayState>& ray, double from, const RayState&) {
+            const RayStepper<RayState>& stepper = ray.stepper();
+            tracer_.recorder_.step(IceStepView(stepper, from, stepper.end_sigma()), tracer_.branch(index_).points);
+            return true;
+        }
+
+        AfterEvent on_event(IntegratedRay<RayState>& ray, std::size_t which, double from, double sigma, RayState& ye) {
+            using Action = AfterEvent::Action;
+            const RayPoint where = point_of(ye);
+            tracer_.recorder_.step(IceStepView(ray.stepper(), from, sigma, where), tracer_.branch(index_).points);
+            RayBranch& branch = tracer_.branch(index_);
+            branch.attenuation_exponent = ye[attenuation];
+            auto end = [&](EndReason reason) {
+                tracer_.finish(index_, where, zenith_of(ye), reason);
+                return AfterEvent{Action::stop};
+            };
+            switch (kinds_[which]) {
+                case cross_turning: {
+                    RayEvent e{EventType::turning_point, where, zenith_of(ye), zenith_of(ye)};
+                    branch.events.push_back(e);
+                    tracer_.recorder_.event(where, branch.points);
+                    return AfterEvent{Action::look_further};
+                }
+                case cross_surface: {
+                    if (!tracer_.interaction_allowed()) return end(EndReason::interaction_limit);
+                    const FirnModel& model = tracer_.model_;
+                    const double p = std::hypot(ye[px], ye[pz]);
+                    const double n1 = model.index->index(0.0), n2 = model.n_air;
+                    const FresnelCoefficients f = fresnel(n1, n2, ye[pz] / p);
+                    RayEvent e{EventType::surface_reflection_in_ice, where, zenith_of(ye), 0.0, f.r_s, f.r_p};
+                    const auto before_s = branch.amplitude_s, before_p = branch.amplitude_p;
+                    if (!f.total_reflection) {
+                        const double sin_t = (ye[px] / p) * n1 / n2;
+                        const double zenith_t = std::atan2(sin_t, f.transmitted_zenith_cos);
+                        e.child_branch = tracer_.spawn(index_, BranchKind::air_transmitted, where, zenith_t, n2 * sin_t,
+                                                       before_s * f.t_s, before_p * f.t_p, ye[attenuation]);
+                    }
+                    RayBranch& reflected = tracer_.branch(index_);  // spawn may have grown the vector
+                    ye[pz] = -ye[pz];
+                    e.zenith_after_rad = zenith_of(ye);
+                    reflected.amplitude_s = before_s * f.r_s;
+                    reflected.amplitude_p = before_p * f.r_p;
+                    reflected.events.push_back(e);
+                    tracer_.recorder_.event(where, reflected.points);
+                    return AfterEvent{Action::reflect};
+                }
+                case cross_bottom: {
+                    const double factor = std::sqrt(std::clamp(tracer_.model_.bottom->power_reflectivity, 0.0, 1.0));
+                    RayEvent e{EventType::bottom_reflection, where, zenith_of(ye), 0.0, factor, factor};
+                    ye[pz] = -ye[pz];
+                    e.zenith_after_rad = zenith_of(ye);
+                    branch.amplitude_s *= factor;
+                    branch.amplitude_p *= factor;
+                    branch.events.push_back(e);
+                    tracer_.recorder_.event(where, branch.points);
+                    return AfterEvent{Action::reflect};
+                }
+                case cross_distance: return end(EndReason::max_distance);
+                case cross_length: return end(EndReason::max_length);
+                case cross_floor: return end(EndReason::floor);
+            }
+            return end(EndReason::max_length);
+        }
+
+    private:
+        void add(Crossing kind, LevelCrossing c) {
+            kinds_[count_] = kind;
+            all_[count_++] = c;
+        }
+
+        BranchTracer& tracer_;
+        std::size_t index_;
+        std::array<LevelCrossing, 6> all_{};
+        std::array<Crossing, 6> kinds_{};
+        std::size_t count_ = 0;
+    };
 
     void trace_air(std::size_t index) {
         const double n_air = model_.n_air;

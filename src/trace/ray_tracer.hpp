@@ -13,6 +13,7 @@
 #include <vector>
 
 #include "model/firn_model.hpp"
+#include "trace/ray_integration.hpp"
 #include "trace/ray_stepper.hpp"
 
 namespace firnray {
@@ -68,12 +69,6 @@ struct RayEvent {
     // Field factor of this interaction for s and p (reflection coefficient; 1 at a turning point).
     std::complex<double> factor_s{1.0, 0.0}, factor_p{1.0, 0.0};
     int child_branch = -1;  // the transmitted branch started here, or -1
-};
-
-// Accuracy monitor along a numeric branch (zero for straight air branches).
-struct InvariantDrift {
-    double index_mismatch = 0.0;      // max | |p| − n(z) |
-    double ray_parameter_change = 0.0;  // max | n(z) sin θ − ξ0 |, θ from the integrated direction
 };
 
 struct RayBranch {

@@ -1,5 +1,5 @@
 // The closed-form solver of the exponential profile against outside references: Boost.Math
-// tanh_sinh quadrature of the Snell integrals (physics notes §7), straight lines in a homogeneous
+// tanh_sinh quadrature of the Snell integrals (docs/validation.md), straight lines in a homogeneous
 // medium (definition), the turning condition n(z_t) = ξ (definition) and central differences.
 #include <catch2/catch.hpp>
 
@@ -22,7 +22,7 @@ namespace {
 struct Firn {
     double n_deep, n_surface, scale_depth;
 };
-// Generic values inside the published ranges of physics notes §2 (from memory), not sites.
+// Generic values inside the published ranges of docs/physics.md §1.2 (from memory), not sites.
 const Firn firns[] = {{1.78, 1.35, 40.0}, {1.775, 1.30, 20.0}, {1.80, 1.45, 80.0}};
 
 std::shared_ptr<FirnModel> exponential_model(const Firn& f) {

@@ -1,6 +1,6 @@
 // Tests of NumericSolver::segments_from (one ray, legs to many levels) against the default
 // RaySolver::segments_from (segment() summed level to level) and against tanh_sinh quadrature
-// of the Snell integrals (Boost.Math, the reference library of physics notes §7), for an
+// of the Snell integrals (Boost.Math, the reference library of docs/validation.md), for an
 // exponential, a layered and a tabulated profile (TableProfile: a cubic spline through samples
 // every 5 m), and against the closed form for the exponential; and an ArrivalTable built on it
 // against one built on the default.
@@ -62,11 +62,11 @@ std::function<double(double, double)> gap_below_turning(const IndexProfile& prof
     };
 }
 
-// The levels a map table asks for: the top itself (twice), a level a hair below it, repeats,
+// The levels a map table asks for: the upper end itself (twice), a level a hair below it, repeats,
 // a 1 m grid and some odd depths, down to z_bottom.
-std::vector<double> levels_below(double z_top, double z_bottom) {
-    std::vector<double> levels{z_top, z_top, z_top - 1e-9, z_top - 0.37};
-    for (double z = std::floor(z_top) - 1.0; z > z_bottom; z -= 7.0) {
+std::vector<double> levels_below(double z_upper, double z_bottom) {
+    std::vector<double> levels{z_upper, z_upper, z_upper - 1e-9, z_upper - 0.37};
+    for (double z = std::floor(z_upper) - 1.0; z > z_bottom; z -= 7.0) {
         levels.push_back(z);
         if (static_cast<int>(z) % 3 == 0) levels.push_back(z);  // repeated level
     }
@@ -75,7 +75,7 @@ std::vector<double> levels_below(double z_top, double z_bottom) {
 }
 
 // The ray parameters tried: surface tops (ξ below n(0), including 0 and almost n(0)) and
-// turning tops at several depths.
+// upper ends on the turning point at several depths.
 std::vector<double> ray_parameters(const IndexProfile& profile) {
     const double n0 = profile.index(0.0);
     return {0.0, 0.7, 1.2, n0 - 1e-3, n0 + 1e-3, 1.45, 1.6, 1.72};
@@ -204,7 +204,7 @@ TEST_CASE("numeric segments_from: bad levels, a ray parameter above n at the top
     // A homogeneous medium: the horizontal ray never comes down.
     const NumericSolver flat(model_with(std::make_shared<ConstantProfile>(1.5)));
     CHECK_THROWS_AS(flat.segments_from(1.5, -10.0, good, out), NumericalError);
-    // Only levels at the top: nothing to integrate.
+    // Only levels at the upper end: nothing to integrate.
     const std::vector<double> at_top{-7.0, -7.0};
     solver.segments_from(1.6, -7.0, at_top, out);
     CHECK(out[1].distance_m == 0.0);

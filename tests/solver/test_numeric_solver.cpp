@@ -1,6 +1,6 @@
 // Tests of NumericSolver (src/solver/numeric_solver.*) against tanh_sinh quadrature of the Snell
-// integrals (Boost.Math, the reference library of physics notes §7), the exponential turning depth
-// of notes §4 and the homogeneous-medium definitions.
+// integrals (Boost.Math, the reference library of docs/validation.md), the exponential turning depth
+// of docs/physics.md §3 and the homogeneous-medium definitions.
 #include <catch2/catch.hpp>
 
 #include <cmath>

@@ -1,4 +1,4 @@
-// Numeric rays (the ODE of physics notes §3, Boost.Odeint at the default tolerances) against the
+// Numeric rays (the ray equations of docs/physics.md §2.1, Boost.Odeint at the default tolerances) against the
 // closed form of the exponential profile (§4, antiderivatives from Gradshteyn & Ryzhik §2.26):
 // the foundation's accuracy claim, < 1 mm and < 1 ps over 2 km paths.
 #include <catch2/catch.hpp>

@@ -1,5 +1,5 @@
 // The shadow boundary of arrival tables on an exponential model, against an independent
-// computation of the largest reachable distance straight from the closed form (physics notes §4):
+// computation of the largest reachable distance straight from the closed form (docs/physics.md §3):
 // a dense scan of both ray families over the ray parameter, refined by golden-section search.
 #include <catch2/catch.hpp>
 
@@ -106,48 +106,6 @@ TEST_CASE("arrival table times agree with exact root finding on the closed form 
         }
     }
 }
-
-#include "station/visibility_map.hpp"
-
-TEST_CASE("visibility map: --min-receivers on a small station whose answer is known by hand", "[station][visibility]") {
-    // Three receivers at one depth on the x axis, at x = 0, 150 and 300 m. A source at distance r
-    // along +x from the centre (x = 150 m) and depth d is seen by receiver k exactly when its
-    // horizontal distance |150 + r − x_k| is within the single-receiver reach B(d). So by hand:
-    // with r in the grid, the count is #{k : |150 + r − x_k| <= B(d)}, and K = 2 keeps the cells
-    // with a count of 2 or 3.
-    ClosedFormSolver solver(firn(1.78, 1.35, 37.0));
-    std::vector<Receiver> receivers(3);
-    for (int k = 0; k < 3; ++k) {
-        receivers[k].name = "R" + std::to_string(k);
-        receivers[k].x_m = 150.0 * k;
-        receivers[k].z_m = -50.0;
-    }
-    MapGrid grid;
-    grid.distance_max_m = 1200.0;
-    grid.distance_cells = 120;
-    grid.depth_max_m = 200.0;
-    grid.depth_cells = 20;
-    VisibilityOptions options;
-    options.min_receivers = 2;
-    const VisibilityMap map = compute_visibility_map(solver, receivers, grid, options);
-    std::vector<double> depths_z;
-    for (int j = 0; j < grid.depth_cells; ++j) depths_z.push_back(-grid.depth_at(j));
-    const ArrivalTable single(solver, -50.0, depths_z);
-    int checked = 0;
-    for (int j = 0; j < grid.depth_cells; ++j)
-        for (int i = 0; i < grid.distance_cells; ++i) {
-            const double x = 150.0 + grid.distance_at(i);
-            int by_hand = 0;
-            for (int k = 0; k < 3; ++k) by_hand += std::abs(x - 150.0 * k) <= single.max_reach_m(j);
-            const MapCell& cell = map.at(j, i);
-            INFO("depth " << grid.depth_at(j) << " r " << grid.distance_at(i));
-            CHECK(cell.receivers_seeing == by_hand);
-            CHECK(map.visible(cell) == (by_hand >= 2));
-            ++checked;
-        }
-    CHECK(checked == 2400);
-}
-
 TEST_CASE("arrival tables obey reciprocity: swapping source and receiver depths gives the same arrivals (reciprocity theorem)",
           "[station][arrival-table]") {
     ClosedFormSolver solver(firn(1.78, 1.35, 37.0));
@@ -172,53 +130,4 @@ TEST_CASE("arrival tables obey reciprocity: swapping source and receiver depths 
             }
         }
     }
-}
-
-#include "paths/find_paths.hpp"
-
-TEST_CASE("visibility map cells agree with find_paths: same path count, kinds and times (two independent path finders)",
-          "[station][visibility]") {
-    ClosedFormSolver solver(firn(1.78, 1.35, 37.0));
-    Receiver receiver;
-    receiver.name = "R";
-    receiver.z_m = -70.0;
-    MapGrid grid;
-    grid.distance_max_m = 1200.0;
-    grid.distance_cells = 48;
-    grid.depth_max_m = 300.0;
-    grid.depth_cells = 24;
-    const VisibilityMap map = compute_visibility_map(solver, std::span<const Receiver>(&receiver, 1), grid, {});
-    int compared = 0, disagreements = 0;
-    for (int j = 0; j < grid.depth_cells; ++j)
-        for (int i = 0; i < grid.distance_cells; ++i) {
-            const double r = grid.distance_at(i), z = -grid.depth_at(j);
-            const auto paths = find_paths(solver, Point{r, 0.0, z}, Point{0.0, 0.0, receiver.z_m});
-            const MapCell& cell = map.at(j, i);
-            std::uint8_t kinds = 0;
-            for (const auto& p : paths)
-                kinds |= p.kind == PathKind::direct ? kind_direct : p.kind == PathKind::refracted ? kind_refracted : kind_reflected;
-            INFO("r " << r << " depth " << -z);
-            // Reflected and refracted meet at ξ = n_surface (a grazing reflection): right there the
-            // two finders may label the same path differently; nowhere else.
-            bool grazing = false;
-            for (const auto& p : paths) grazing = grazing || std::abs(p.ray_parameter - 1.35) < 1e-3;
-            const auto second_family = static_cast<std::uint8_t>(kind_refracted | kind_reflected);
-            const bool same_kinds = kinds == cell.kinds || (grazing && (kinds & ~second_family) == (cell.kinds & ~second_family));
-            if (paths.size() != cell.paths || !same_kinds) {
-                ++disagreements;
-                WARN("disagree at r " << r << " depth " << -z << ": find_paths " << paths.size() << " kinds "
-                     << int(kinds) << ", map " << int(cell.paths) << " kinds " << int(cell.kinds));
-                continue;
-            }
-            ++compared;
-            // Cells store times as float (about 0.3 ps at 3 µs); 5 ps also covers the kink of the
-            // rising family at grazing incidence, where the table's interpolation is least accurate.
-            if (!paths.empty()) {
-                CHECK(std::abs(paths[0].time_s * 1e9 - cell.first_time_ns) < 5e-3);
-                if (paths.size() >= 2)
-                    CHECK(std::abs((paths[1].time_s - paths[0].time_s) * 1e9 - cell.time_between_ns) < 5e-3);
-            }
-        }
-    CHECK(disagreements == 0);
-    CHECK(compared == grid.distance_cells * grid.depth_cells);
 }

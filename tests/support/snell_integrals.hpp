@@ -1,5 +1,5 @@
 // Reference values for ray legs from the Snell integrals of a stratified medium, evaluated with
-// Boost.Math tanh_sinh quadrature (the general-purpose reference library of physics notes §7):
+// Boost.Math tanh_sinh quadrature (the general-purpose reference library of docs/validation.md):
 //   x = ∫ ξ/Q dz,  c·T = ∫ n²/Q dz,  s = ∫ n/Q dz,  ∂x/∂ξ = ∫ n²/Q³ dz,  Q = √(n² − ξ²).
 // tanh_sinh copes with the 1/√ singularity of a turning end when n − ξ is given accurately
 // near it (the `gap` callback receives the distance to the upper end for that).

@@ -13,7 +13,7 @@
 namespace firnray::test {
 
 // Two exponential stages joined continuously in n at z_join (dn/dz jumps there): the layered
-// picture of physics notes §2 (fast densification above, slow below).
+// picture of docs/physics.md §1.3 (fast densification above, slow below).
 class TwoStageProfile final : public IndexProfile {
 public:
     TwoStageProfile(double n_deep, double n_surface, double upper_scale_m, double z_join, double lower_scale_m)
