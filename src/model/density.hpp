@@ -1,5 +1,5 @@
 // Converting firn density to radio-frequency refractive index with published relations
-// (physics notes §2). Densities here are in g/cm³; convert kg/m³ with density_kg_m3_to_g_cm3.
+// (docs/physics.md §1). Densities here are in g/cm³; convert kg/m³ with density_kg_m3_to_g_cm3.
 #pragma once
 
 #include <cmath>

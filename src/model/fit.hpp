@@ -1,6 +1,6 @@
 // Least-squares fit of the exponential firn model n(d) = n_deep - (n_deep - n_surface) exp(-d / z0)
 // to measured (depth, n) points, or to densities converted with a published relation
-// (physics notes §2). Levenberg-Marquardt on Eigen, with 1σ uncertainties from the covariance.
+// (docs/physics.md §1). Levenberg-Marquardt on Eigen, with 1σ uncertainties from the covariance.
 #pragma once
 
 #include <optional>

@@ -54,7 +54,7 @@ private:
     double n_;
 };
 
-// n(z) = n_deep - (n_deep - n_surface) * exp(z / scale_depth), z <= 0 (physics notes §2).
+// n(z) = n_deep - (n_deep - n_surface) * exp(z / scale_depth), z <= 0 (docs/physics.md §1).
 class ExponentialProfile final : public IndexProfile {
 public:
     // throws ModelInputError on n < 1, n_surface > n_deep, scale_depth <= 0, or non-finite values

@@ -1,7 +1,7 @@
 // End-to-end: firnray connect run as a user or a script would, its JSON read with a strict
 // RFC 8259 reader (tests/support/json_reader.hpp), its CSV with the library's CSV reader. Values
 // are checked against outside references: the definition of a homogeneous medium, the
-// reciprocity theorem, and the closed form of physics notes §4 against the ODE of §3.
+// reciprocity theorem, and the closed form of docs/physics.md §3 against the ODE of §2.
 #include <catch2/catch.hpp>
 
 #include <algorithm>
@@ -394,7 +394,7 @@ TEST_CASE("firnray connect --pairs: swapping source and receiver gives the same 
     }
 }
 
-TEST_CASE("firnray connect: closed form (physics notes §4) vs --solver numeric (the ODE of §3) on the default "
+TEST_CASE("firnray connect: closed form (docs/physics.md §3) vs --solver numeric (the ODE of §3) on the default "
           "model, a grid of depths and distances up to 3 km: the same kinds, times within 1 ps, angles within "
           "1e-4 degrees",
           "[cli][connect][numeric]") {
@@ -439,7 +439,7 @@ TEST_CASE("firnray connect: closed form (physics notes §4) vs --solver numeric 
 }
 
 TEST_CASE("firnray connect: a vertical pair (ξ = 0, azimuth 0), equal depths (rays that rise and come back) and a "
-          "receiver in the air (one transmitted path) come out whole (definition, physics notes §4, Snell)",
+          "receiver in the air (one transmitted path) come out whole (definition, docs/physics.md §3, Snell)",
           "[cli][connect]") {
     const JsonValue vertical = run_json({"--source", "5,-150", "--receiver", "5,-30"});
     CHECK(vertical["horizontal_distance_m"].num() == 0.0);

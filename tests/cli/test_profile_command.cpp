@@ -18,7 +18,7 @@ using firnray::test::source_path;
 using firnray::test::temp_folder;
 using firnray::test::write_file;
 
-TEST_CASE("profile: the CSV table of the built-in model parses and matches physics notes §2", "[cli][profile]") {
+TEST_CASE("profile: the CSV table of the built-in model parses and matches docs/physics.md §1", "[cli][profile]") {
     const auto r = run_firnray({"profile", "--to-depth", "100", "--step", "2.5"});
     REQUIRE(r.exit_code == 0);
     const CsvTable t = parse_csv(r.out, "stdout");

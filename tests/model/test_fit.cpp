@@ -15,7 +15,7 @@ struct Synthetic {
     std::vector<double> depth, n;
 };
 
-// Samples of n_deep - (n_deep - n_surface) exp(-d / z0) (physics notes §2) with Gaussian noise.
+// Samples of n_deep - (n_deep - n_surface) exp(-d / z0) (docs/physics.md §1) with Gaussian noise.
 Synthetic synthetic(double n_deep, double n_surface, double z0, int points, double max_depth, double noise,
                     unsigned seed) {
     std::mt19937_64 rng(seed);

@@ -20,7 +20,7 @@ TEST_CASE("constant profile: one index, zero gradient", "[model][profile]") {
     CHECK_THROWS_AS(ConstantProfile(NAN), ModelInputError);
 }
 
-TEST_CASE("exponential profile: the formula of physics notes §2, smooth, surface value above z = 0",
+TEST_CASE("exponential profile: the formula of docs/physics.md §1, smooth, surface value above z = 0",
           "[model][profile]") {
     ExponentialProfile p(1.78, 1.35, 37.0);
     for (double z = 0.0; z >= -400.0; z -= 9.5) {

@@ -11,7 +11,7 @@ using firnray::test::check_smooth_at;
 
 namespace {
 
-// The exponential formula of physics notes §2 for one stage, in depth d below its top d0.
+// The exponential formula of docs/physics.md §1 for one stage, in depth d below its top d0.
 double stage(double n_deep, double n_top, double scale, double d0, double d) {
     return n_deep - (n_deep - n_top) * std::exp(-(d - d0) / scale);
 }
@@ -20,7 +20,7 @@ std::string key_of(const ModelInputError& e) { return e.where().key; }
 
 }  // namespace
 
-TEST_CASE("a one-layer profile is the exponential profile of physics notes §2", "[model][layered]") {
+TEST_CASE("a one-layer profile is the exponential profile of docs/physics.md §1", "[model][layered]") {
     LayeredProfile layered(1.35, {ExponentialLayer{INFINITY, 1.78, 37.0}});
     ExponentialProfile exponential(1.78, 1.35, 37.0);
     for (double z = 0.0; z >= -500.0; z -= 3.7) {

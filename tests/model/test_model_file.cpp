@@ -76,7 +76,7 @@ TEST_CASE("model file: the built-in model is models/default.toml, values in publ
     CHECK(m.origin == "built-in");
     CHECK(m.name.find("not a real site") != std::string::npos);
     const auto& p = dynamic_cast<const ExponentialProfile&>(*m.index);
-    // Published polar-firn ranges (physics notes §2, from memory).
+    // Published polar-firn ranges (docs/physics.md §1, from memory).
     CHECK(p.n_deep() == 1.78);
     CHECK(p.n_surface() == 1.35);
     CHECK(p.scale_depth_m() == 37.0);

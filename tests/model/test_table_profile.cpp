@@ -36,7 +36,7 @@ std::string error_key(const std::vector<double>& depth, const std::vector<double
 
 }  // namespace
 
-TEST_CASE("a spline through samples of the exponential profile reproduces it (physics notes §2)", "[model][table]") {
+TEST_CASE("a spline through samples of the exponential profile reproduces it (docs/physics.md §1)", "[model][table]") {
     const TableProfile table = sampled_exponential(0.0, 2.0, 300.0);
     ExponentialProfile reference(1.78, 1.35, 37.0);
     // Cubic-spline error is O(h^4 n'''') ~ 2^4 * 0.43/37^4 / 384: far below 1e-6, except near the

@@ -185,7 +185,7 @@ TEST_CASE("paths: a vertical pair has ξ = 0 paths with c·T = ∫ n dz = A Δz 
 }
 
 TEST_CASE("paths: at equal depths in graded firn only rays that rise and come back down join the two ends "
-          "(physics notes §4), in a homogeneous layer the horizontal ray does, with T = n·r/c (definition)",
+          "(docs/physics.md §3), in a homogeneous layer the horizontal ray does, with T = n·r/c (definition)",
           "[paths]") {
     const ClosedFormSolver solver(firn_model());
     for (const double r : {1.0, 30.0, 100.0}) {
@@ -287,7 +287,7 @@ double largest_reach(const ClosedFormSolver& solver, double z1, double z2) {
 }  // namespace
 
 TEST_CASE("paths: beyond the largest distance the families reach there is no path, the shadow zone "
-          "(physics notes §4, reach from a dense scan of the closed form)",
+          "(docs/physics.md §3, reach from a dense scan of the closed form)",
           "[paths]") {
     const ClosedFormSolver solver(firn_model());
     for (const auto& [z1, z2] : {std::pair{-100.0, -20.0}, std::pair{-60.0, -3.0}, std::pair{-250.0, -120.0},
@@ -599,7 +599,7 @@ TEST_CASE("paths: no root is missed, the paths of each family match the sign cha
     }
 }
 
-TEST_CASE("paths: on the numeric solver (ODE of notes §3) the paths agree with those of the closed form (§4), and "
+TEST_CASE("paths: on the numeric solver (ODE of docs/physics.md §2) the paths agree with those of the closed form (§3), and "
           "on a two-stage profile only it can handle they obey reciprocity",
           "[paths][numeric]") {
     auto model = firn_model();

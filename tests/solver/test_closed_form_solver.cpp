@@ -73,7 +73,7 @@ double relative_error(double value, double reference) {
 }  // namespace
 
 TEST_CASE("closed form: distance, time and length agree with tanh_sinh quadrature of the Snell integrals "
-          "(Boost.Math, physics notes §7)",
+          "(Boost.Math, docs/validation.md)",
           "[solver][closed-form]") {
     struct Leg {
         double z1, z2;
@@ -100,7 +100,7 @@ TEST_CASE("closed form: distance, time and length agree with tanh_sinh quadratur
     }
 }
 
-TEST_CASE("closed form: legs ending at the turning point agree with tanh_sinh quadrature (Boost.Math, physics notes §7)",
+TEST_CASE("closed form: legs ending at the turning point agree with tanh_sinh quadrature (Boost.Math, docs/validation.md)",
           "[solver][closed-form]") {
     for (const Firn& f : firns) {
         auto model = exponential_model(f);

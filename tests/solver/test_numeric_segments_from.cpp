@@ -147,7 +147,7 @@ TEST_CASE("numeric segments_from agrees with tanh_sinh quadrature of the Snell i
     }
 }
 
-TEST_CASE("numeric segments_from agrees with the closed form of the exponential profile (physics notes §4, "
+TEST_CASE("numeric segments_from agrees with the closed form of the exponential profile (docs/physics.md §3, "
           "Gradshteyn & Ryzhik §2.26) over 1 m levels down to 1000 m",
           "[solver][segments-from]") {
     auto model = model_with(std::make_shared<ExponentialProfile>(1.78, 1.35, 40.0));

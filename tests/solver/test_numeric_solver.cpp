@@ -54,7 +54,7 @@ TEST_CASE("numeric segment(): distance, time, length and ∂distance/∂ξ agree
 
 TEST_CASE("numeric segment(): an end at the turning point agrees with tanh_sinh quadrature of the singular "
           "Snell integrals, and turning_z matches z_t = z0 ln((n_deep − ξ)/(n_deep − n_surface)) "
-          "(notes §4, Boost.Math)",
+          "(docs/physics.md §3, Boost.Math)",
           "[solver]") {
     const double n_deep = 1.78, n_surface = 1.35, z0 = 40.0, b = n_deep - n_surface;
     auto profile = std::make_shared<ExponentialProfile>(n_deep, n_surface, z0);
@@ -135,7 +135,7 @@ TEST_CASE("numeric segment(): a ray parameter above n on the leg is a NumericalE
 }
 
 TEST_CASE("numeric distance_to_turning: one integration with the variational equations gives the distance and the "
-          "total d distance/dξ of the closed form (physics notes §4), and matches the generic central differences "
+          "total d distance/dξ of the closed form (docs/physics.md §3), and matches the generic central differences "
           "on a profile without one",
           "[solver]") {
     auto model = model_with(std::make_shared<ExponentialProfile>(1.78, 1.35, 40.0));

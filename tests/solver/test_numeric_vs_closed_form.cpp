@@ -14,7 +14,7 @@
 
 using namespace firnray;
 
-TEST_CASE("numeric rays agree with the closed form to < 1 mm and < 1 ps over 2 km paths (physics notes §3 vs §4)",
+TEST_CASE("numeric rays agree with the closed form to < 1 mm and < 1 ps over 2 km paths (docs/physics.md §2 vs §3)",
           "[solver][numeric-vs-closed]") {
     const auto model = std::make_shared<const FirnModel>(default_model());
     const ClosedFormSolver closed(model);
@@ -40,7 +40,7 @@ TEST_CASE("numeric rays agree with the closed form to < 1 mm and < 1 ps over 2 k
     CHECK(rays == 15);
 }
 
-TEST_CASE("numeric segments agree with the closed form to < 1 mm and < 1 ps, turning legs included (physics notes §3 vs §4)",
+TEST_CASE("numeric segments agree with the closed form to < 1 mm and < 1 ps, turning legs included (docs/physics.md §2 vs §3)",
           "[solver][numeric-vs-closed]") {
     const auto model = std::make_shared<const FirnModel>(default_model());
     const ClosedFormSolver closed(model);

@@ -57,7 +57,7 @@ double largest_reach(const ClosedFormSolver& solver, double z_s, double z_r) {
 
 }  // namespace
 
-TEST_CASE("shadow boundary matches the largest reachable distance computed independently from the closed form (physics notes §4)",
+TEST_CASE("shadow boundary matches the largest reachable distance computed independently from the closed form (docs/physics.md §3)",
           "[station][shadow-boundary]") {
     ClosedFormSolver solver(firn(1.78, 1.35, 37.0));
     for (double zr : {-40.0, -100.0, -200.0}) {
@@ -77,7 +77,7 @@ TEST_CASE("shadow boundary matches the largest reachable distance computed indep
     }
 }
 
-TEST_CASE("arrival table times agree with exact root finding on the closed form (physics notes §4, TOMS748-free bisection)",
+TEST_CASE("arrival table times agree with exact root finding on the closed form (docs/physics.md §3, TOMS748-free bisection)",
           "[station][arrival-table]") {
     ClosedFormSolver solver(firn(1.78, 1.35, 37.0));
     const double zr = -60.0;
