@@ -16,7 +16,7 @@ esac
 packages="cmake g++ make ninja-build ccache libboost-dev libeigen3-dev libfmt-dev libcli11-dev catch2 libtomlplusplus-dev librsvg2-bin"
 # The sanitizer and fuzz builds: clang with its sanitizer and libFuzzer runtimes, llvm-symbolizer
 # for readable stack traces.
-[ "$what" = test ] && packages="$packages clang libclang-rt-14-dev llvm-14"
+if [ "$what" = test ]; then packages="$packages clang libclang-rt-14-dev llvm-14"; fi
 missing=""
 for p in $packages; do
   dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed" || missing="$missing $p"
