@@ -55,6 +55,10 @@ int main(int argc, char** argv) {
     std::vector<std::string> skipped;
     for (int a = 1; a < argc; ++a) {
         const fs::path argument(argv[a]);
+        if (!fs::exists(argument)) {
+            std::printf("%s does not exist: nothing kept there yet\n", argument.string().c_str());
+            continue;
+        }
         if (!fs::is_directory(argument)) {
             replay(argument);
             ++replayed;
