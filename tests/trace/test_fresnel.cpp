@@ -9,7 +9,7 @@
 using namespace firnray;
 
 TEST_CASE("Fresnel: R + T = 1 for s and p below the critical angle (Hecht, Optics)", "[fresnel]") {
-    for (const auto [n1, n2] : {std::pair{1.78, 1.0}, std::pair{1.0, 1.35}, std::pair{1.35, 1.78}}) {
+    for (const auto& [n1, n2] : {std::pair{1.78, 1.0}, std::pair{1.0, 1.35}, std::pair{1.35, 1.78}}) {
         for (double deg = 0.0; deg < 90.0; deg += 2.5) {
             const double cos_i = std::cos(deg_to_rad(deg));
             const auto f = fresnel(n1, n2, cos_i);
@@ -21,7 +21,7 @@ TEST_CASE("Fresnel: R + T = 1 for s and p below the critical angle (Hecht, Optic
 }
 
 TEST_CASE("Fresnel: r_p vanishes at Brewster's angle tan θB = n2/n1 (Hecht, Optics)", "[fresnel]") {
-    for (const auto [n1, n2] : {std::pair{1.78, 1.0}, std::pair{1.0, 1.78}}) {
+    for (const auto& [n1, n2] : {std::pair{1.78, 1.0}, std::pair{1.0, 1.78}}) {
         const double theta_b = brewster_angle(n1, n2);
         const auto f = fresnel(n1, n2, std::cos(theta_b));
         CHECK(std::abs(f.r_p) < 1e-12);
