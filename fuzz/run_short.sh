@@ -1,6 +1,10 @@
 #!/bin/sh
 # A short run of every libFuzzer harness of a fuzz build (FIRNRAY_BUILD_FUZZ=ON), as CI does it:
-#   fuzz/run_short.sh BUILD_DIR [SECONDS_PER_HARNESS]     (default 8 s each, about 60 s in all)
+#   fuzz/run_short.sh BUILD_DIR [SECONDS_PER_HARNESS] [RUNS_PER_HARNESS]
+#       (defaults 8 s and 20000 runs each, about 60 s in all)
+# The runs use a fixed seed (FUZZ_SEED, default 1) and a fixed number of inputs, so a CI run on the
+# same code explores the same inputs: CI cannot turn red by luck. Fuzz longer and with other seeds
+# by hand (DEVELOPERS.md) and keep what is found in tests/fuzz_regressions/.
 # Each harness starts from BUILD_DIR/fuzz-corpus/NAME (target fuzz_seed_corpus) and adds what it
 # finds there. A crash, a leak, a time-out (20 s for one input) or running out of memory stops
 # that harness; its input is saved as BUILD_DIR/fuzz-artifacts/NAME-crash-... and the script
@@ -8,6 +12,8 @@
 set -eu
 build="$1"
 seconds="${2:-8}"
+runs="${3:-20000}"
+seed="${FUZZ_SEED:-1}"
 corpus="$build/fuzz-corpus"
 artifacts="$build/fuzz-artifacts"
 mkdir -p "$artifacts"
@@ -18,9 +24,9 @@ for harness in "$build"/fuzz_*; do
   name=$(basename "$harness")
   mkdir -p "$corpus/$name"
   log="$artifacts/$name.log"
-  if "$harness" -max_total_time="$seconds" -timeout=20 -rss_limit_mb=2560 -max_len=4096 \
+  if "$harness" -seed="$seed" -runs="$runs" -max_total_time="$seconds" -timeout=20 -rss_limit_mb=2560 -max_len=4096 \
        -artifact_prefix="$artifacts/$name-" "$corpus/$name" >"$log" 2>&1; then
-    echo "fuzz $name: no finding in ${seconds} s ($(grep -c . "$log") log lines, corpus $(ls "$corpus/$name" | wc -l) inputs)"
+    echo "fuzz $name: no finding (seed $seed, at most $runs inputs or ${seconds} s) ($(grep -c . "$log") log lines, corpus $(ls "$corpus/$name" | wc -l) inputs)"
     passed=$((passed + 1))
   else
     echo "fuzz $name: FOUND A PROBLEM; the end of $log:"

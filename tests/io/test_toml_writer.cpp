@@ -34,7 +34,7 @@ TEST_CASE("TOML writer: strings are quoted and escaped, and read back unchanged"
     CHECK(toml_string("a\nb\tc\rd") == "\"a\\nb\\tc\\rd\"");
     CHECK(toml_string(std::string("\x01\x1f\x7f", 3)) == "\"\\u0001\\u001f\\u007f\"");
     CHECK(toml_string("Halvard Dome (fictional) — ü") == "\"Halvard Dome (fictional) — ü\"");  // UTF-8 kept
-    for (const std::string text : {std::string("quote \" and backslash \\ and tab\t"), std::string("nul\0inside", 10),
+    for (const std::string& text : {std::string("quote \" and backslash \\ and tab\t"), std::string("nul\0inside", 10),
                                    std::string("\x01\x02 bell \x07 del \x7f"), std::string("ü ö — ∞")}) {
         const std::string file = "s = " + toml_string(text) + "\n";
         CHECK(TomlDocument::parse(file, "s.toml").root().text("s", "s") == text);

@@ -200,7 +200,7 @@ TEST_CASE("model files: bad bytes are echoed as printable excerpts", "[model][mo
             if (static_cast<unsigned char>(ch) < 0x20 || static_cast<unsigned char>(ch) >= 0x7f) return false;
         return true;
     };
-    for (const std::string text : {std::string("\x7f" "ELF\x02\x01\x01\0\0\xff\xfe", 11),
+    for (const std::string& text : {std::string("\x7f" "ELF\x02\x01\x01\0\0\xff\xfe", 11),
                                    std::string("[index]\nkind = \"exp\\u0007\\u001b[2J\"\n"),
                                    std::string("[index]\nkind = \"constant\"\nn = 1.5\n\"\\u0001\\u00ff\" = 2\n")}) {
         try {
