@@ -106,8 +106,13 @@ void write_layered(const IndexProfile& profile, TomlWriter& out) {
 
 // ---- table -----------------------------------------------------------------------------------
 
-const std::vector<ValueAlternative> index_values{
-    {"n", "n_column", "the index n"}, {"density", "density_column", "density, with density_unit and density_rule"}};
+// A function-local static, so that a model read while another file's globals are being built
+// (a static initialiser) never sees this list before it exists.
+const std::vector<ValueAlternative>& index_values() {
+    static const std::vector<ValueAlternative> values{
+        {"n", "n_column", "the index n"}, {"density", "density_column", "density, with density_unit and density_rule"}};
+    return values;
+}
 
 // n at each point: the values themselves, or the densities converted by the file's rule.
 std::vector<double> index_values_of(const TomlTable& t, const PointTable& table) {
@@ -144,7 +149,7 @@ std::vector<double> index_values_of(const TomlTable& t, const PointTable& table)
 }
 
 std::shared_ptr<const IndexProfile> read_index_table(const TomlTable& t, ModelFileContext& context) {
-    PointTable table = read_point_table(t, context, index_values);
+    PointTable table = read_point_table(t, context, index_values());
     const bool density = table.value_kind == 1;
     for (std::string_view key : {"density_unit", "density_rule"})
         if (!density && t.has(key)) t.fail(key, fmt::format("'{}' only goes with density values", key));
@@ -243,7 +248,7 @@ const std::vector<IndexKind>& index_kinds() {
         {"layered", {"kind", "n_surface", "transition_m", "layer"}, read_layered, write_layered},
         {"table",
          [] {
-             auto keys = with_kind(point_table_keys(index_values));
+             auto keys = with_kind(point_table_keys(index_values()));
              keys.insert(keys.end(), {"density_unit", "density_rule", "interpolation"});
              return keys;
          }(),

@@ -24,8 +24,6 @@ constexpr NumberRange height{-10000.0, 10000.0, "m", "z",
                              "the thickest ice on Earth is under 5 km; a receiver in the air stays within 10 km"};
 constexpr NumberRange depth{-infinity, 10000.0, "m", "a depth", "the thickest ice on Earth is under 5 km"};
 
-const std::vector<std::string> standalone_keys{"name", "x_m", "y_m", "z_m", "depth_m", "in_air"};
-const std::vector<std::string> string_receiver_keys{"name", "z_m", "depth_m", "in_air"};
 
 std::string name_of(const TomlTable& t) {
     const std::string name = t.text("name", "a name (every receiver and string needs one)");
@@ -45,6 +43,9 @@ double vertical(const TomlTable& t) {
 
 Receiver read_receiver(const TomlTable& t, const std::string& string_name, double string_x, double string_y) {
     const bool standalone = string_name.empty();
+    // Local statics: safe even when a station is read by another file's static initialiser.
+    static const std::vector<std::string> standalone_keys{"name", "x_m", "y_m", "z_m", "depth_m", "in_air"};
+    static const std::vector<std::string> string_receiver_keys{"name", "z_m", "depth_m", "in_air"};
     t.allow_only(standalone ? standalone_keys : string_receiver_keys,
                  standalone ? "in a [[receiver]] table" : "in a [[string.receiver]] table (x_m and y_m are the string's)",
                  {"x_m", "y_m"});
