@@ -64,7 +64,7 @@ void DelayTableWriter::begin(const FirnModel* model) {
         return;
     }
     output::TextSink out(out_);
-    out.put("source,input_line,receiver,path,kind,time_ns,minus_reference_same_kind_ns,first_minus_reference_first_ns,"
+    out.put("name,input_line,receiver,path,kind,time_ns,minus_reference_same_kind_ns,first_minus_reference_first_ns,"
             "second_minus_first_ns,launch_zenith_deg,arrival_zenith_deg");
     if (derivatives_) out.put(",dt_dx_ns_per_m,dt_dy_ns_per_m,dt_dz_ns_per_m");
     out.put(",error");

@@ -40,7 +40,7 @@ private:
     JsonWriter json_;
 };
 
-// Columns source, input_line, receiver, path, kind, time_ns, minus_reference_same_kind_ns,
+// Columns name, input_line, receiver, path, kind, time_ns, minus_reference_same_kind_ns,
 // first_minus_reference_first_ns, second_minus_first_ns, launch_zenith_deg, arrival_zenith_deg,
 // (with derivatives) dt_dx_ns_per_m, dt_dy_ns_per_m, dt_dz_ns_per_m, and error.
 void write_delay_table_csv(std::ostream& out, const std::vector<DelaySource>& sources,

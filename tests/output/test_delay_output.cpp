@@ -68,7 +68,7 @@ TEST_CASE("delay CSV: a failed channel gets an error row naming its receiver, th
         const CsvTable table = parse_csv(text, "delays.csv");
         const std::size_t columns = derivatives ? 15 : 12;
         REQUIRE(table.columns.size() == columns);
-        const std::size_t source = table.column("source"), receiver = table.column("receiver"),
+        const std::size_t source = table.column("name"), receiver = table.column("receiver"),
                           kind = table.column("kind"), time = table.column("time_ns"), error = table.column("error");
         // at A: an error row for A, then B's paths; far: both receivers' paths; broken: one error row.
         const CsvRow& failed = table.rows.front();

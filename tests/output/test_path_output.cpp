@@ -10,11 +10,18 @@
 
 #include "core/errors.hpp"
 #include "io/csv_reader.hpp"
+#include "model/model_file.hpp"
 #include "output/path_output.hpp"
 
 using namespace firnray;
 
 namespace {
+
+std::shared_ptr<const FirnModel> test_model() {
+    auto model = std::make_shared<FirnModel>(default_model());
+    model->name = "test model";
+    return model;
+}
 
 ConnectedPath direct_path() {
     ConnectedPath p;
@@ -41,7 +48,7 @@ ConnectedPath caustic_path() {
 }
 
 const Point source{0.0, 0.0, -50.0}, receiver{100.0, 0.0, -60.0};
-const PathOutputContext context{"test model", "closed"};
+const PathOutputContext context{test_model(), "closed"};
 
 }  // namespace
 
@@ -87,11 +94,11 @@ TEST_CASE("path batches: ids and errors with commas, quotes and line breaks are 
           "[output][paths]") {
     std::vector<PathPair> pairs(2);
     pairs[0].input_line = 2;
-    pairs[0].id = "a,\"b\"";
+    pairs[0].name = "a,\"b\"";
     pairs[0].source = source;
     pairs[0].receiver = receiver;
     pairs[1].input_line = 3;
-    pairs[1].id = "c";
+    pairs[1].name = "c";
     pairs[1].error = "line 3: bad\rvalue";
     const BatchFormatter csv(PathFormat::csv, context, pairs);
     std::string text = csv.begin();
