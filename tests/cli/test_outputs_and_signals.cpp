@@ -242,3 +242,23 @@ TEST_CASE("limits: a batch of 250 000 bad rows streams in bounded memory", "[cli
     // kB: streamed it needs about 9 MB; held whole (rows, pairs and the output text) about 150 MB.
     CHECK(usage.ru_maxrss < 40 * 1024);
 }
+
+TEST_CASE("limits: a delays --sources file of 250 000 bad rows streams in bounded memory", "[cli][limits][delays]") {
+    const std::string dir = temp_folder("delays-stream-memory");
+    {
+        std::ofstream out(dir + "/sources.csv");
+        out << "x_m,z_m\n";
+        std::string block;
+        for (int i = 0; i < 4096; ++i) block += ",\n";
+        for (int i = 0; i < 61; ++i) out << block;  // 249 856 rows, 0.5 MB
+    }
+    const pid_t child = start_firnray({"delays", "--station", source_path("demo/station.toml"), "--sources",
+                                       dir + "/sources.csv", "--threads", "2", "--quiet", "-o", "/dev/null"});
+    int status = 0;
+    rusage usage{};
+    ::wait4(child, &status, 0, &usage);
+    REQUIRE(WIFEXITED(status));
+    CHECK(WEXITSTATUS(status) == 7);  // every row failed
+    // kB: streamed it needs about 10 MB; held whole (rows, sources and their error texts) far more.
+    CHECK(usage.ru_maxrss < 40 * 1024);
+}
