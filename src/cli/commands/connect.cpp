@@ -128,7 +128,7 @@ Examples:
   firnray connect --source 250,-20 --receiver 0,-100     # refracted and reflected
   firnray connect --source 300,-20 --receiver 0,-100     # the shadow zone: no path
   firnray connect --source 0,0,-150 --receiver 120,80,-30 --format json
-  firnray connect --pairs pairs.csv --format csv -o paths.csv)");
+  firnray connect --pairs demo/pairs.csv --format csv -o paths.csv)");
     cmd->callback([args, &slot] { slot.run = [args] { return run_connect(*args); }; });
 }
 
