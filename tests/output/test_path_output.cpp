@@ -10,16 +10,20 @@
 
 #include "core/errors.hpp"
 #include "io/csv_reader.hpp"
-#include "model/model_file.hpp"
+#include "model/index_profile.hpp"
 #include "output/path_output.hpp"
 
 using namespace firnray;
 
 namespace {
 
+// Built by hand rather than loaded: `context` below is made before main(), when the model file
+// reader's own tables may not exist yet.
 std::shared_ptr<const FirnModel> test_model() {
-    auto model = std::make_shared<FirnModel>(default_model());
+    auto model = std::make_shared<FirnModel>();
     model->name = "test model";
+    model->origin = "test";
+    model->index = std::make_shared<ExponentialProfile>(1.78, 1.35, 37.0);
     return model;
 }
 
