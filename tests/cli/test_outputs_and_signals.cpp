@@ -214,8 +214,9 @@ TEST_CASE("limits: a 20000 x 20000 shadow grid is refused at once with its memor
     CHECK(r.err.find("GB of memory") != std::string::npos);
     CHECK(r.err.find("write about") != std::string::npos);
     CHECK(run_firnray({"profile", "--depths", "0:4000:0.00001"}).exit_code == 2);  // the same limit for rows
+    // A delays grid streams a block of sources at a time, so only a limit below one block refuses it.
     CHECK(run_firnray({"delays", "--station", source_path("demo/station.toml"), "--source-distance", "0:100000:0.1",
-                       "--source-depth", "0:1000:1"})
+                       "--source-depth", "0:1000:1", "--memory-limit-mb", "1"})
               .exit_code == 2);
     CHECK(run_firnray({"depths", "--distance-cells", "20000", "--depth-cells", "20000"}).exit_code == 2);
     // Raising the limit lets a refused run through (checked on a small one refused by a tiny limit).
