@@ -62,7 +62,7 @@ Timing time_batch(const RaySolver& solver, const std::string& csv, PathFormat fo
     for (int pass = 0; pass < passes; ++pass) {
         const auto start = std::chrono::steady_clock::now();
         const auto pairs = read_path_pairs(parse_csv(csv, "bench"), threads);
-        const BatchFormatter formatter(format, {"benchmark firn", solver.name()}, pairs);
+        const BatchFormatter formatter(format, {std::make_shared<FirnModel>(solver.model()), solver.name()}, pairs);
         run = connect_batch(solver, pairs, PathOptions{}, formatter, threads);
         rates.push_back(static_cast<double>(pairs.size()) / seconds_since(start));
     }

@@ -1,12 +1,14 @@
 #include "output/delay_output.hpp"
 
 #include <optional>
+#include <stdexcept>
 
 #include <fmt/format.h>
 
 #include "core/constants.hpp"
 #include "io/csv_writer.hpp"
 #include "io/json_writer.hpp"
+#include "output/model_json.hpp"
 #include "output/text_sink.hpp"
 
 namespace firnray {
@@ -47,15 +49,47 @@ void put_commas(output::TextSink& out, std::size_t count) {
 
 }  // namespace
 
-void write_delay_table_csv(std::ostream& stream, const std::vector<DelaySource>& sources,
-                           const std::vector<SourceDelays>& delays, const std::vector<Receiver>& receivers,
-                           const DelayOptions& options, bool derivatives) {
-    output::TextSink out(stream);
-    out.put("source,source_line,receiver,path,kind,time_ns,minus_reference_same_kind_ns,first_minus_reference_first_ns,"
+DelayTableWriter::DelayTableWriter(std::ostream& out, DelayTableFormat format, const std::vector<Receiver>& receivers,
+                                   const DelayOptions& options, bool derivatives)
+    : out_(out), format_(format), receivers_(receivers), options_(options), derivatives_(derivatives), json_(out) {}
+
+void DelayTableWriter::begin(const FirnModel* model) {
+    if (format_ == DelayTableFormat::json) {
+        if (model == nullptr) throw std::logic_error("DelayTableWriter: the JSON table needs its model");
+        json_.begin_object();
+        json_.key("model");
+        write_model_json(json_, *model);
+        json_.field("reference_receiver", receivers_[options_.reference].name);
+        json_.key("sources").begin_array();
+        return;
+    }
+    output::TextSink out(out_);
+    out.put("name,input_line,receiver,path,kind,time_ns,minus_reference_same_kind_ns,first_minus_reference_first_ns,"
             "second_minus_first_ns,launch_zenith_deg,arrival_zenith_deg");
-    if (derivatives) out.put(",dt_dx_ns_per_m,dt_dy_ns_per_m,dt_dz_ns_per_m");
+    if (derivatives_) out.put(",dt_dx_ns_per_m,dt_dy_ns_per_m,dt_dz_ns_per_m");
     out.put(",error");
     out.end_row();
+    out.finish();
+}
+
+void DelayTableWriter::finish() {
+    if (format_ == DelayTableFormat::json) {
+        json_.end_array();
+        json_.end_object();
+        json_.flush();
+        out_ << '\n';
+    }
+}
+
+void DelayTableWriter::add(const std::vector<DelaySource>& sources, const std::vector<SourceDelays>& delays) {
+    if (format_ == DelayTableFormat::json) {
+        add_json(sources, delays);
+        return;
+    }
+    const std::vector<Receiver>& receivers = receivers_;
+    const DelayOptions& options = options_;
+    const bool derivatives = derivatives_;
+    output::TextSink out(out_);
     const std::size_t extra = derivatives ? 3 : 0;
     for (std::size_t i = 0; i < sources.size(); ++i) {
         const auto head = [&] {
@@ -121,20 +155,12 @@ void write_delay_table_csv(std::ostream& stream, const std::vector<DelaySource>&
     out.finish();
 }
 
-std::string delay_table_csv(const std::vector<DelaySource>& sources, const std::vector<SourceDelays>& delays,
-                            const std::vector<Receiver>& receivers, const DelayOptions& options, bool derivatives) {
-    return render_to_string(
-        [&](std::ostream& out) { write_delay_table_csv(out, sources, delays, receivers, options, derivatives); });
-}
 
-void write_delay_table_json(std::ostream& out, const std::vector<DelaySource>& sources,
-                            const std::vector<SourceDelays>& delays, const std::vector<Receiver>& receivers,
-                            const DelayOptions& options, bool derivatives, const std::string& model_name) {
-    JsonWriter json(out);
-    json.begin_object();
-    json.field("model", model_name);
-    json.field("reference_receiver", receivers[options.reference].name);
-    json.key("sources").begin_array();
+void DelayTableWriter::add_json(const std::vector<DelaySource>& sources, const std::vector<SourceDelays>& delays) {
+    const std::vector<Receiver>& receivers = receivers_;
+    const DelayOptions& options = options_;
+    const bool derivatives = derivatives_;
+    JsonWriter& json = json_;
     for (std::size_t i = 0; i < sources.size(); ++i) {
         json.begin_object();
         json.field("name", sources[i].name);
@@ -186,17 +212,38 @@ void write_delay_table_json(std::ostream& out, const std::vector<DelaySource>& s
         json.end_array();
         json.end_object();
     }
-    json.end_array();
-    json.end_object();
     json.flush();
-    out << '\n';
+}
+
+void write_delay_table_csv(std::ostream& out, const std::vector<DelaySource>& sources,
+                           const std::vector<SourceDelays>& delays, const std::vector<Receiver>& receivers,
+                           const DelayOptions& options, bool derivatives) {
+    DelayTableWriter writer(out, DelayTableFormat::csv, receivers, options, derivatives);
+    writer.begin(nullptr);
+    writer.add(sources, delays);
+    writer.finish();
+}
+
+std::string delay_table_csv(const std::vector<DelaySource>& sources, const std::vector<SourceDelays>& delays,
+                            const std::vector<Receiver>& receivers, const DelayOptions& options, bool derivatives) {
+    return render_to_string(
+        [&](std::ostream& out) { write_delay_table_csv(out, sources, delays, receivers, options, derivatives); });
+}
+
+void write_delay_table_json(std::ostream& out, const std::vector<DelaySource>& sources,
+                            const std::vector<SourceDelays>& delays, const std::vector<Receiver>& receivers,
+                            const DelayOptions& options, bool derivatives, const FirnModel& model) {
+    DelayTableWriter writer(out, DelayTableFormat::json, receivers, options, derivatives);
+    writer.begin(&model);
+    writer.add(sources, delays);
+    writer.finish();
 }
 
 std::string delay_table_json(const std::vector<DelaySource>& sources, const std::vector<SourceDelays>& delays,
                              const std::vector<Receiver>& receivers, const DelayOptions& options, bool derivatives,
-                             const std::string& model_name) {
+                             const FirnModel& model) {
     return render_to_string([&](std::ostream& out) {
-        write_delay_table_json(out, sources, delays, receivers, options, derivatives, model_name);
+        write_delay_table_json(out, sources, delays, receivers, options, derivatives, model);
     });
 }
 

@@ -8,12 +8,39 @@
 #include <string>
 #include <vector>
 
+#include "io/json_writer.hpp"
+#include "model/firn_model.hpp"
 #include "station/delay_table.hpp"
 #include "station/station.hpp"
 
 namespace firnray {
 
-// Columns source, source_line, receiver, path, kind, time_ns, minus_reference_same_kind_ns,
+enum class DelayTableFormat { csv, json };
+
+// Writes a delay table a block of sources at a time, so that a long list of sources streams: the
+// header (begin), the rows of each block in order (add), the closing text (finish). The output is
+// the same however the sources are cut into blocks.
+class DelayTableWriter {
+public:
+    // Receivers and options must outlive the writer.
+    DelayTableWriter(std::ostream& out, DelayTableFormat format, const std::vector<Receiver>& receivers,
+                     const DelayOptions& options, bool derivatives);
+    // The JSON describes `model` (read only here); the CSV does not name it (it may be null then).
+    void begin(const FirnModel* model);
+    void add(const std::vector<DelaySource>& sources, const std::vector<SourceDelays>& delays);
+    void finish();
+
+private:
+    void add_json(const std::vector<DelaySource>& sources, const std::vector<SourceDelays>& delays);
+    std::ostream& out_;
+    DelayTableFormat format_;
+    const std::vector<Receiver>& receivers_;
+    const DelayOptions& options_;
+    bool derivatives_;
+    JsonWriter json_;
+};
+
+// Columns name, input_line, receiver, path, kind, time_ns, minus_reference_same_kind_ns,
 // first_minus_reference_first_ns, second_minus_first_ns, launch_zenith_deg, arrival_zenith_deg,
 // (with derivatives) dt_dx_ns_per_m, dt_dy_ns_per_m, dt_dz_ns_per_m, and error.
 void write_delay_table_csv(std::ostream& out, const std::vector<DelaySource>& sources,
@@ -22,13 +49,13 @@ void write_delay_table_csv(std::ostream& out, const std::vector<DelaySource>& so
 std::string delay_table_csv(const std::vector<DelaySource>& sources, const std::vector<SourceDelays>& delays,
                             const std::vector<Receiver>& receivers, const DelayOptions& options, bool derivatives);
 
-// {model, reference_receiver, sources: [{name, input_line, position_m, receivers: [...]}]}; a bad
+// {model: {name, origin, index, n_air} (output/model_json.hpp), reference_receiver, sources: [{name, input_line, position_m, receivers: [...]}]}; a bad
 // source has `error` instead of position and receivers, a failed channel `error` instead of paths.
 void write_delay_table_json(std::ostream& out, const std::vector<DelaySource>& sources,
                             const std::vector<SourceDelays>& delays, const std::vector<Receiver>& receivers,
-                            const DelayOptions& options, bool derivatives, const std::string& model_name);
+                            const DelayOptions& options, bool derivatives, const FirnModel& model);
 std::string delay_table_json(const std::vector<DelaySource>& sources, const std::vector<SourceDelays>& delays,
                              const std::vector<Receiver>& receivers, const DelayOptions& options, bool derivatives,
-                             const std::string& model_name);
+                             const FirnModel& model);
 
 }  // namespace firnray

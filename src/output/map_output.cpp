@@ -10,6 +10,7 @@
 #include "core/errors.hpp"
 #include "io/csv_writer.hpp"
 #include "io/json_writer.hpp"
+#include "output/model_json.hpp"
 #include "output/text_sink.hpp"
 #include "plot/figure.hpp"
 
@@ -255,7 +256,8 @@ std::string depth_scan_csv(const DepthScan& scan) {
 void write_depth_scan_json(std::ostream& out, const DepthScan& scan, const FirnModel& model, const MapGrid& region) {
     JsonWriter json(out);
     json.begin_object();
-    json.field("model", model.name);
+    json.key("model");
+    write_model_json(json, model);
     json.key("region").begin_object();
     json.field("max_distance_m", region.distance_max_m);
     json.field("min_depth_m", region.depth_min_m);

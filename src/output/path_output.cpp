@@ -13,6 +13,7 @@
 #include "core/errors.hpp"
 #include "io/csv_writer.hpp"
 #include "io/json_writer.hpp"
+#include "output/model_json.hpp"
 #include "output/text_sink.hpp"
 
 namespace firnray {
@@ -25,6 +26,11 @@ PathFormat parse_path_format(const std::string& text) {
 }
 
 namespace {
+
+// The model as the text outputs name it: its name, or its profile when it has none.
+std::string model_label(const PathOutputContext& context) {
+    return context.model->name.empty() ? context.model->index->describe() : context.model->name;
+}
 
 constexpr const char* conventions =
     "z up (m), surface z = 0, ice z < 0, air z > 0; zenith angles of the direction of travel (0 up, 90 horizontal, "
@@ -216,13 +222,19 @@ void json_pair_members(JsonWriter& json, const Point& source, const Point& recei
     json.end_array();
 }
 
+// The model and solver members that open every JSON document of paths.
+void json_context_members(JsonWriter& json, const PathOutputContext& context) {
+    json.key("model");
+    write_model_json(json, *context.model);
+    json.field("solver", context.solver_name);
+    json.field("conventions", conventions);
+}
+
 std::string single_json(const PathOutputContext& context, const Point& source, const Point& receiver,
                         const std::vector<ConnectedPath>& paths) {
     JsonWriter json;
     json.begin_object();
-    json.field("model", context.model_name);
-    json.field("solver", context.solver_name);
-    json.field("conventions", conventions);
+    json_context_members(json, context);
     json_pair_members(json, source, receiver, paths);
     json.end_object();
     return json.str() + "\n";
@@ -327,7 +339,7 @@ std::string single_text(const PathOutputContext& context, const Point& source, c
         require_finite(value, name);
     Buffer out;
     const Geometry g = geometry(source, receiver);
-    fmt::format_to(fmt::appender(out), "model:    {}\nsolver:   {}\n", context.model_name,
+    fmt::format_to(fmt::appender(out), "model:    {}\nsolver:   {}\n", model_label(context),
                    describe_solver(context.solver_name));
     fmt::format_to(fmt::appender(out), "source:   x = {} m, y = {} m, z = {} m\nreceiver: x = {} m, y = {} m, z = {} m\n",
                    source.x, source.y, source.z, receiver.x, receiver.y, receiver.z);
@@ -370,27 +382,34 @@ std::string format_paths(PathFormat format, const PathOutputContext& context, co
 
 BatchFormatter::BatchFormatter(PathFormat format, PathOutputContext context, const std::vector<PathPair>& pairs)
     : format_(format), context_(std::move(context)) {
-    for (const PathPair& p : pairs) id_width_ = std::max(id_width_, p.id.size());
-    id_width_ = std::min<std::size_t>(id_width_, 40);  // longer ids push their row out rather than every row
+    for (const PathPair& p : pairs) name_width_ = std::max(name_width_, p.name.size());
+    name_width_ = std::min<std::size_t>(name_width_, 40);  // longer names push their row out rather than every row
 }
 
 std::string BatchFormatter::begin() const {
     Buffer out;
     switch (format_) {
         case PathFormat::text:
-            fmt::format_to(fmt::appender(out), "model:  {}\nsolver: {}\n\n{:>6}  {:<{}}  ", context_.model_name,
-                           describe_solver(context_.solver_name), "line", "id", id_width_);
+            fmt::format_to(fmt::appender(out), "model:  {}\nsolver: {}\n\n{:>6}  {:<{}}  ", model_label(context_),
+                           describe_solver(context_.solver_name), "line", "name", name_width_);
             text_heading(out);
             put(out, '\n');
             break;
         case PathFormat::csv:
-            put(out, "input_line,id,");
+            put(out, "input_line,name,");
             put(out, csv_path_columns);
             put(out, ",error\n");
             break;
         case PathFormat::json:
-            fmt::format_to(fmt::appender(out), "{{\n  \"model\": {},\n  \"solver\": {},\n  \"conventions\": {},\n  \"pairs\": [",
-                           json_escape(context_.model_name), json_escape(context_.solver_name), json_escape(conventions));
+        {
+            // The head of the document, left open at the array of pairs that the pieces fill.
+            JsonWriter json;
+            json.begin_object();
+            json_context_members(json, context_);
+            json.key("pairs");
+            put(out, json.str());
+            put(out, '[');
+        }
             break;
     }
     return fmt::to_string(out);
@@ -404,8 +423,8 @@ void BatchFormatter::append_pair(std::string& text, std::size_t index, const Pat
         case PathFormat::text: {
             const auto head = [&] {
                 fmt::format_to(fmt::appender(out), FMT_COMPILE("{:>6}  "), pair.input_line);
-                put(out, pair.id);
-                put_repeated(out, pair.id.size() < id_width_ ? id_width_ - pair.id.size() : 0, ' ');
+                put(out, pair.name);
+                put_repeated(out, pair.name.size() < name_width_ ? name_width_ - pair.name.size() : 0, ' ');
                 put(out, "  ");
             };
             if (!error.empty()) {
@@ -428,7 +447,7 @@ void BatchFormatter::append_pair(std::string& text, std::size_t index, const Pat
             const auto head = [&] {
                 integer(out, pair.input_line);
                 put(out, ',');
-                csv_text(out, pair.id);
+                csv_text(out, pair.name);
                 put(out, ',');
             };
             const Geometry g = geometry(pair.source, pair.receiver);
@@ -454,7 +473,7 @@ void BatchFormatter::append_pair(std::string& text, std::size_t index, const Pat
             JsonWriter json(false);
             json.begin_object();
             json.field("input_line", pair.input_line);
-            json.field("id", pair.id);
+            json.field("name", pair.name);
             if (!error.empty()) json.field("error", error);
             else json_pair_members(json, pair.source, pair.receiver, result.paths);
             json.end_object();

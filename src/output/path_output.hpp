@@ -7,10 +7,12 @@
 #pragma once
 
 #include <cstddef>
+#include <memory>
 #include <ostream>
 #include <string>
 #include <vector>
 
+#include "model/firn_model.hpp"
 #include "paths/connected_path.hpp"
 #include "paths/find_paths.hpp"
 #include "paths/pair_formatter.hpp"
@@ -22,10 +24,11 @@ enum class PathFormat { text, csv, json };
 // "text", "csv" or "json"; throws DataInputError otherwise.
 PathFormat parse_path_format(const std::string& text);
 
-// What every output names: the model and the solver that made the paths.
+// What every output names: the model and the solver that made the paths. The text names the
+// model; the JSON describes it as every JSON output does (output/model_json.hpp).
 struct PathOutputContext {
-    std::string model_name;
-    std::string solver_name;  // "closed" or "numeric"
+    std::shared_ptr<const FirnModel> model;  // never null
+    std::string solver_name;                 // "closed" or "numeric"
 };
 
 // One pair given on its own (the command line).
@@ -44,15 +47,15 @@ std::string format_paths(PathFormat format, const PathOutputContext& context, co
                          const Point& receiver, const std::vector<ConnectedPath>& paths);
 
 // A batch is written as begin + one piece per pair, in input order + end.
-//   text: an aligned table whose rows start with the input line and id; a pair in the shadow zone
+//   text: an aligned table whose rows start with the input line and name; a pair in the shadow zone
 //         has one row of kind "none", a failed pair one row "error" with the reason.
-//   csv:  columns input_line, id, then the single-pair columns, then error; shadow-zone pairs
-//         have one row of kind "none", failed pairs one row with only input_line, id and error.
+//   csv:  columns input_line, name, then the single-pair columns, then error; shadow-zone pairs
+//         have one row of kind "none", failed pairs one row with only input_line, name and error.
 //   json: {model, solver, conventions, pairs: [...], pairs_failed}; each pair on one line, shaped
-//         like the single-pair object (input_line and id added, `error` instead of the paths).
+//         like the single-pair object (input_line and name added, `error` instead of the paths).
 class BatchFormatter : public PairFormatter {
 public:
-    // The pairs are needed up front only to size the id column of the text table.
+    // The pairs are needed up front only to size the name column of the text table.
     BatchFormatter(PathFormat format, PathOutputContext context, const std::vector<PathPair>& pairs);
 
     std::string begin() const override;
@@ -65,7 +68,7 @@ public:
 private:
     PathFormat format_;
     PathOutputContext context_;
-    std::size_t id_width_ = 2;
+    std::size_t name_width_ = 4;  // at least the heading "name"
 };
 
 }  // namespace firnray

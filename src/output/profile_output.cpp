@@ -134,7 +134,7 @@ void write_fit_report_json(std::ostream& out, const FitData& data, const Exponen
         json.value(fmt::format("density converted with the {} rule", density_rule_name(*data.density_rule)));
     else
         json.value("index n");
-    json.field("model", "n(z) = n_deep - (n_deep - n_surface) * exp(z / scale_depth_m), z <= 0 (z up)");
+    json.field("formula", "n(z) = n_deep - (n_deep - n_surface) * exp(z / scale_depth_m), z <= 0 (z up)");
     auto parameter = [&](const char* name, double value, double sigma, bool fixed) {
         json.key(name).begin_object();
         json.field("value", value).field("sigma", sigma).field("fixed", fixed);

@@ -13,13 +13,13 @@ namespace {
 // Where the columns of a pairs file are.
 struct PairColumnIndex {
     std::size_t sx, sz, rx, rz;
-    std::optional<std::size_t> sy, ry, id;
+    std::optional<std::size_t> sy, ry, name;
 
     explicit PairColumnIndex(const CsvTable& table)
         : sx(table.column(PairColumns::source_x)), sz(table.column(PairColumns::source_z)),
           rx(table.column(PairColumns::receiver_x)), rz(table.column(PairColumns::receiver_z)),
           sy(table.find_column(PairColumns::source_y)), ry(table.find_column(PairColumns::receiver_y)),
-          id(table.find_column(PairColumns::name) ? table.find_column(PairColumns::name)
+          name(table.find_column(PairColumns::name) ? table.find_column(PairColumns::name)
                                                   : table.find_column(PairColumns::id)) {}
 };
 
@@ -35,7 +35,7 @@ void convert_rows(const CsvTable& table, const std::vector<CsvRow>& rows, std::v
             PathPair& pair = pairs[i];
             pair.input_line = row.line;
             try {
-                if (c.id) pair.id = table.text(row, *c.id);
+                if (c.name) pair.name = table.text(row, *c.name);
                 pair.source = {table.number(row, c.sx), c.sy ? table.number(row, *c.sy) : 0.0, table.number(row, c.sz)};
                 pair.receiver = {table.number(row, c.rx), c.ry ? table.number(row, *c.ry) : 0.0, table.number(row, c.rz)};
             } catch (const InputError& e) {
@@ -74,16 +74,16 @@ bool PathPairReader::uses_old_id_column() const {
     return !reader_.table().find_column(PairColumns::name) && reader_.table().find_column(PairColumns::id);
 }
 
-std::size_t longest_pair_id(const std::string& path) {
+std::size_t longest_pair_name(const std::string& path) {
     CsvStreamReader reader(path);
-    const auto id = PairColumnIndex(reader.table()).id;
+    const auto name = PairColumnIndex(reader.table()).name;
     std::size_t longest = 0;
-    if (!id) return longest;
+    if (!name) return longest;
     std::vector<CsvRow> rows;
     while (reader.read_rows(rows, 4096))
         for (const CsvRow& row : rows)
-            if (row.problem.empty() && *id < row.fields.size() && row.fields.size() == reader.table().columns.size())
-                longest = std::max(longest, row.fields[*id].size());
+            if (row.problem.empty() && *name < row.fields.size() && row.fields.size() == reader.table().columns.size())
+                longest = std::max(longest, row.fields[*name].size());
     return longest;
 }
 

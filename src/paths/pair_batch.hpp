@@ -58,9 +58,9 @@ private:
     std::vector<CsvRow> rows_;
 };
 
-// The longest id (the name column) of a pairs file, read in one pass with bounded memory; the
-// text format sizes its id column with it before the batch streams.
-std::size_t longest_pair_id(const std::string& path);
+// The longest name (the name column) of a pairs file, read in one pass with bounded memory; the
+// text format sizes its name column with it before the batch streams.
+std::size_t longest_pair_name(const std::string& path);
 
 struct BatchTotals {
     std::size_t pairs = 0;

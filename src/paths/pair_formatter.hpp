@@ -16,7 +16,7 @@ namespace firnray {
 // input row could not be read carries the reason in `error` and no usable points.
 struct PathPair {
     int input_line = 0;  // line of the input file (1-based; the header is a line too)
-    std::string id;      // from the optional id column; may be empty
+    std::string name;    // from the optional name column (or its old spelling id); may be empty
     Point source, receiver;
     std::string error;
 };

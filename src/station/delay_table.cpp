@@ -8,7 +8,6 @@
 #include "core/constants.hpp"
 #include "core/errors.hpp"
 #include "core/parallel.hpp"
-#include "io/csv_reader.hpp"
 
 namespace firnray {
 
@@ -60,27 +59,42 @@ std::size_t SourceDelays::failed_channels() const {
     return failed;
 }
 
-std::vector<DelaySource> read_delay_sources(const std::string& path) {
-    const CsvTable table = read_csv(path);
-    const std::size_t x = table.column("x_m"), z = table.column("z_m");
-    const auto y = table.find_column("y_m");
-    const auto name = table.find_column("name");
-    std::vector<DelaySource> sources;
-    for (const CsvRow& row : table.rows) {
+DelaySourceReader::DelaySourceReader(const std::string& path)
+    : reader_(path),
+      x_(reader_.table().column("x_m")),
+      z_(reader_.table().column("z_m")),
+      y_(reader_.table().find_column("y_m")),
+      name_(reader_.table().find_column("name")) {}
+
+bool DelaySourceReader::read_block(std::vector<DelaySource>& sources, std::size_t max_sources) {
+    sources.clear();
+    const CsvTable& table = reader_.table();
+    if (!reader_.read_rows(rows_, max_sources)) {
+        if (!any_) throw DataInputError("the source file has a header but no sources", {table.path, table.header_line, ""});
+        return false;
+    }
+    any_ = true;
+    for (const CsvRow& row : rows_) {
         DelaySource source;
         source.input_line = row.line;
         try {
-            source.name = name ? table.text(row, *name) : fmt::format("line {}", row.line);
-            source.position.x = table.number(row, x);
-            source.position.z = table.number(row, z);
-            if (y) source.position.y = table.number(row, *y);
+            source.name = name_ ? table.text(row, *name_) : fmt::format("line {}", row.line);
+            source.position.x = table.number(row, x_);
+            source.position.z = table.number(row, z_);
+            if (y_) source.position.y = table.number(row, *y_);
         } catch (const InputError& e) {
             source.error = e.what();
             if (source.name.empty()) source.name = fmt::format("line {}", row.line);
         }
         sources.push_back(std::move(source));
     }
-    if (sources.empty()) throw DataInputError("the source file has a header but no sources", {path, table.header_line, ""});
+    return true;
+}
+
+std::vector<DelaySource> read_delay_sources(const std::string& path) {
+    DelaySourceReader reader(path);
+    std::vector<DelaySource> sources, block;
+    while (reader.read_block(block, 4096)) std::move(block.begin(), block.end(), std::back_inserter(sources));
     return sources;
 }
 

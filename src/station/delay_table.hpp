@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "core/cancel.hpp"
+#include "io/csv_reader.hpp"
 #include "paths/find_paths.hpp"
 #include "station/station.hpp"
 
@@ -54,7 +55,28 @@ std::vector<SourceDelays> compute_delays(const RaySolver& solver, const std::vec
                                          const std::vector<DelaySource>& sources, const DelayOptions& options);
 
 // Sources from a CSV file with columns x_m, z_m and optionally y_m and name (one source per row;
-// a bad row becomes a DelaySource with its error set).
+// a bad row becomes a DelaySource with its error set). Throws DataInputError when the file cannot
+// be read, a column is missing or it has a header but no sources.
 std::vector<DelaySource> read_delay_sources(const std::string& path);
+
+// Reads the sources of a file a block at a time (io/csv_reader.hpp, CsvStreamReader), so that a
+// long list streams with bounded memory. Throws DataInputError when the file cannot be read or a
+// required column is missing (on construction), or when it has a header but no sources (on the
+// first read_block).
+class DelaySourceReader {
+public:
+    explicit DelaySourceReader(const std::string& path);
+    // Replaces `sources` with up to max_sources next sources; false when none were left.
+    bool read_block(std::vector<DelaySource>& sources, std::size_t max_sources);
+    std::size_t bytes_read() const { return reader_.bytes_read(); }
+    std::size_t file_bytes() const { return reader_.file_bytes(); }
+
+private:
+    CsvStreamReader reader_;
+    std::size_t x_, z_;
+    std::optional<std::size_t> y_, name_;
+    std::vector<CsvRow> rows_;
+    bool any_ = false;  // a source was read
+};
 
 }  // namespace firnray

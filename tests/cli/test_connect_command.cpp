@@ -43,7 +43,7 @@ std::vector<std::string> lines_of(const std::string& text) {
     return lines;
 }
 
-std::string pairs_header() { return "id,source_x_m,source_z_m,receiver_x_m,receiver_z_m\n"; }
+std::string pairs_header() { return "name,source_x_m,source_z_m,receiver_x_m,receiver_z_m\n"; }
 
 // Every documented member of a path object, with its type.
 void check_path_members(const JsonValue& p) {
@@ -79,7 +79,7 @@ TEST_CASE("firnray connect --format json: one object with the documented members
           "[cli][connect]") {
     // 120 m apart, 150 m and 30 m deep: a direct path and a surface reflection.
     const JsonValue two = run_json({"--source", "0,-150", "--receiver", "120,-30"});
-    CHECK(two["model"].str() == "generic polar firn (built-in; not a real site)");
+    CHECK(two["model"]["name"].str() == "generic polar firn (built-in; not a real site)");
     CHECK(two["solver"].str() == "closed");
     CHECK(two["source"]["z_m"].num() == -150.0);
     CHECK(two["receiver"]["x_m"].num() == 120.0);
@@ -224,7 +224,7 @@ TEST_CASE("firnray connect --pairs: bad rows get error rows, the others are inta
     for (std::size_t i = 0; i < good.size(); ++i)
         for (const std::string& column : alone.columns)
             CHECK(out.text(*good[i], out.column(column)) == alone.text(alone.rows[i], alone.column(column)));
-    CHECK(out.text(*good[0], out.column("id")) == "good");
+    CHECK(out.text(*good[0], out.column("name")) == "good");
     // Unparseable number, missing field, coincident ends: error rows naming the problem.
     const auto word = rows_of(4), short_row = rows_of(5), same = rows_of(7);
     REQUIRE(word.size() == 1u);
@@ -273,7 +273,7 @@ TEST_CASE("firnray connect --pairs: bad rows get error rows, the others are inta
 
 TEST_CASE("firnray connect --pairs: the output is byte-identical with 1 and 2 threads", "[cli][connect]") {
     const std::string dir = temp_folder("connect-threads");
-    std::string text = "id,source_x_m,source_y_m,source_z_m,receiver_x_m,receiver_y_m,receiver_z_m\n";
+    std::string text = "name,source_x_m,source_y_m,source_z_m,receiver_x_m,receiver_y_m,receiver_z_m\n";
     for (int i = 0; i < 300; ++i)
         text += "p" + std::to_string(i) + "," + std::to_string(i % 7) + "," + std::to_string(i % 5) + "," +
                 std::to_string(-1 - (i * 37) % 300) + "," + std::to_string(10 + (i * 53) % 900) + ",3," +
@@ -418,7 +418,7 @@ TEST_CASE("firnray connect: closed form (docs/physics.md §3) vs --solver numeri
     for (int i = 0; i < count; ++i) {
         const JsonValue& a = closed["pairs"][static_cast<std::size_t>(i)]["paths"];
         const JsonValue& b = numeric["pairs"][static_cast<std::size_t>(i)]["paths"];
-        INFO("pair " << closed["pairs"][static_cast<std::size_t>(i)]["id"].str());
+        INFO("pair " << closed["pairs"][static_cast<std::size_t>(i)]["name"].str());
         REQUIRE(a.size() == b.size());
         shadowed += a.size() == 0;
         far += a.size() > 0 && closed["pairs"][static_cast<std::size_t>(i)]["horizontal_distance_m"].num() == 3000.0;

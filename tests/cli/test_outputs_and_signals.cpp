@@ -214,8 +214,9 @@ TEST_CASE("limits: a 20000 x 20000 shadow grid is refused at once with its memor
     CHECK(r.err.find("GB of memory") != std::string::npos);
     CHECK(r.err.find("write about") != std::string::npos);
     CHECK(run_firnray({"profile", "--depths", "0:4000:0.00001"}).exit_code == 2);  // the same limit for rows
+    // A delays grid streams a block of sources at a time, so only a limit below one block refuses it.
     CHECK(run_firnray({"delays", "--station", source_path("demo/station.toml"), "--source-distance", "0:100000:0.1",
-                       "--source-depth", "0:1000:1"})
+                       "--source-depth", "0:1000:1", "--memory-limit-mb", "1"})
               .exit_code == 2);
     CHECK(run_firnray({"depths", "--distance-cells", "20000", "--depth-cells", "20000"}).exit_code == 2);
     // Raising the limit lets a refused run through (checked on a small one refused by a tiny limit).
@@ -240,5 +241,25 @@ TEST_CASE("limits: a batch of 250 000 bad rows streams in bounded memory", "[cli
     REQUIRE(WIFEXITED(status));
     CHECK(WEXITSTATUS(status) == 7);  // every row failed
     // kB: streamed it needs about 9 MB; held whole (rows, pairs and the output text) about 150 MB.
+    CHECK(usage.ru_maxrss < 40 * 1024);
+}
+
+TEST_CASE("limits: a delays --sources file of 250 000 bad rows streams in bounded memory", "[cli][limits][delays]") {
+    const std::string dir = temp_folder("delays-stream-memory");
+    {
+        std::ofstream out(dir + "/sources.csv");
+        out << "x_m,z_m\n";
+        std::string block;
+        for (int i = 0; i < 4096; ++i) block += ",\n";
+        for (int i = 0; i < 61; ++i) out << block;  // 249 856 rows, 0.5 MB
+    }
+    const pid_t child = start_firnray({"delays", "--station", source_path("demo/station.toml"), "--sources",
+                                       dir + "/sources.csv", "--threads", "2", "--quiet", "-o", "/dev/null"});
+    int status = 0;
+    rusage usage{};
+    ::wait4(child, &status, 0, &usage);
+    REQUIRE(WIFEXITED(status));
+    CHECK(WEXITSTATUS(status) == 7);  // every row failed
+    // kB: streamed it needs about 10 MB; held whole (rows, sources and their error texts) far more.
     CHECK(usage.ru_maxrss < 40 * 1024);
 }

@@ -11,6 +11,7 @@
 #include "core/constants.hpp"
 #include "core/errors.hpp"
 #include "io/csv_reader.hpp"
+#include "model/model_file.hpp"
 #include "output/delay_output.hpp"
 #include "solver/closed_form_solver.hpp"
 #include "support/straight_line_solver.hpp"
@@ -67,7 +68,7 @@ TEST_CASE("delay CSV: a failed channel gets an error row naming its receiver, th
         const CsvTable table = parse_csv(text, "delays.csv");
         const std::size_t columns = derivatives ? 15 : 12;
         REQUIRE(table.columns.size() == columns);
-        const std::size_t source = table.column("source"), receiver = table.column("receiver"),
+        const std::size_t source = table.column("name"), receiver = table.column("receiver"),
                           kind = table.column("kind"), time = table.column("time_ns"), error = table.column("error");
         // at A: an error row for A, then B's paths; far: both receivers' paths; broken: one error row.
         const CsvRow& failed = table.rows.front();
@@ -116,13 +117,13 @@ TEST_CASE("delay JSON: a failed channel has an error instead of paths", "[output
     c.delays[2].error = c.sources[2].error = "sources.csv:4: key 'x_m': not a number\r\nsecond line";
     DelayOptions options;
     options.reference = 1;
-    const std::string json = delay_table_json(c.sources, c.delays, c.receivers, options, true, "test model");
+    const std::string json = delay_table_json(c.sources, c.delays, c.receivers, options, true, default_model());
     CHECK(json.find("\"receiver\": \"A, the first\",\n          \"error\": \"receiver 'A, the first'") != std::string::npos);
     CHECK(json.find("\"error\": \"sources.csv:4: key 'x_m': not a number\\r\\nsecond line\"") != std::string::npos);
     CHECK(json.find("nan") == std::string::npos);
     // Streaming and in-memory forms agree.
     std::ostringstream streamed;
-    write_delay_table_json(streamed, c.sources, c.delays, c.receivers, options, true, "test model");
+    write_delay_table_json(streamed, c.sources, c.delays, c.receivers, options, true, default_model());
     CHECK(streamed.str() == json);
 }
 
@@ -132,6 +133,6 @@ TEST_CASE("delay outputs refuse a NaN time with a NumericalError naming the fiel
     DelayOptions options;
     options.reference = 1;
     CHECK_THROWS_WITH(delay_table_csv(c.sources, c.delays, c.receivers, options, false), Catch::Contains("'time_ns' is NaN"));
-    CHECK_THROWS_WITH(delay_table_json(c.sources, c.delays, c.receivers, options, false, "m"),
+    CHECK_THROWS_WITH(delay_table_json(c.sources, c.delays, c.receivers, options, false, default_model()),
                       Catch::Contains("sources[1].receivers[0].first_minus_reference_first_ns"));
 }

@@ -10,11 +10,22 @@
 
 #include "core/errors.hpp"
 #include "io/csv_reader.hpp"
+#include "model/index_profile.hpp"
 #include "output/path_output.hpp"
 
 using namespace firnray;
 
 namespace {
+
+// Built by hand rather than loaded: `context` below is made before main(), when the model file
+// reader's own tables may not exist yet.
+std::shared_ptr<const FirnModel> test_model() {
+    auto model = std::make_shared<FirnModel>();
+    model->name = "test model";
+    model->origin = "test";
+    model->index = std::make_shared<ExponentialProfile>(1.78, 1.35, 37.0);
+    return model;
+}
 
 ConnectedPath direct_path() {
     ConnectedPath p;
@@ -41,7 +52,7 @@ ConnectedPath caustic_path() {
 }
 
 const Point source{0.0, 0.0, -50.0}, receiver{100.0, 0.0, -60.0};
-const PathOutputContext context{"test model", "closed"};
+const PathOutputContext context{test_model(), "closed"};
 
 }  // namespace
 
@@ -87,11 +98,11 @@ TEST_CASE("path batches: ids and errors with commas, quotes and line breaks are 
           "[output][paths]") {
     std::vector<PathPair> pairs(2);
     pairs[0].input_line = 2;
-    pairs[0].id = "a,\"b\"";
+    pairs[0].name = "a,\"b\"";
     pairs[0].source = source;
     pairs[0].receiver = receiver;
     pairs[1].input_line = 3;
-    pairs[1].id = "c";
+    pairs[1].name = "c";
     pairs[1].error = "line 3: bad\rvalue";
     const BatchFormatter csv(PathFormat::csv, context, pairs);
     std::string text = csv.begin();

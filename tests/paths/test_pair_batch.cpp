@@ -82,7 +82,7 @@ TEST_CASE("pairs files: named columns, optional y and id, a bad row carries its 
     const auto pairs = read_path_pairs(table);
     REQUIRE(pairs.size() == 4u);
     CHECK(pairs[0].input_line == 3);
-    CHECK(pairs[0].id == "first");
+    CHECK(pairs[0].name == "first");
     CHECK(pairs[0].error.empty());
     CHECK(pairs[0].source.x == 0.0);
     CHECK(pairs[0].source.y == 5.0);
@@ -111,7 +111,7 @@ TEST_CASE("connect_batch: the same text whatever the thread count, errors per pa
     for (int i = 0; i < 500; ++i) {
         PathPair p;
         p.input_line = i + 2;
-        p.id = "p" + std::to_string(i);
+        p.name = "p" + std::to_string(i);
         p.source = {0.0, 0.0, -1.0 - (i * 37) % 400};
         p.receiver = {5.0 + (i * 53) % 1500, (i % 3) * 10.0, -1.0 - (i * 91) % 300};
         if (i % 97 == 5) p.receiver.z = -900.0;  // below the bottom: a computed error
@@ -119,7 +119,7 @@ TEST_CASE("connect_batch: the same text whatever the thread count, errors per pa
         pairs.push_back(p);
     }
     for (const PathFormat format : {PathFormat::csv, PathFormat::json, PathFormat::text}) {
-        const BatchFormatter formatter(format, {"test", solver.name()}, pairs);
+        const BatchFormatter formatter(format, {std::make_shared<FirnModel>(solver.model()), solver.name()}, pairs);
         const BatchRun one = connect_batch(solver, pairs, {}, formatter, 1);
         for (const int threads : {2, 3, 8}) {
             const BatchRun many = connect_batch(solver, pairs, {}, formatter, threads);
@@ -152,14 +152,14 @@ TEST_CASE("connect_batch: the same text whatever the thread count, errors per pa
         last_done = std::max(last_done, done);
         last_total = total;
     };
-    connect_batch(solver, pairs, {}, BatchFormatter(PathFormat::csv, {"test", solver.name()}, pairs), 2, watched);
+    connect_batch(solver, pairs, {}, BatchFormatter(PathFormat::csv, {std::make_shared<FirnModel>(solver.model()), solver.name()}, pairs), 2, watched);
     CHECK(last_done == pairs.size());
     CHECK(last_total == pairs.size());
 
     std::atomic<bool> stop{true};
     RunControl control;
     control.cancel = &stop;
-    const BatchFormatter formatter(PathFormat::csv, {"test", solver.name()}, pairs);
+    const BatchFormatter formatter(PathFormat::csv, {std::make_shared<FirnModel>(solver.model()), solver.name()}, pairs);
     CHECK_THROWS_AS(connect_batch(solver, pairs, {}, formatter, 2, control), Cancelled);
 }
 
@@ -219,11 +219,11 @@ TEST_CASE("connect_batch_stream: a file streamed in blocks gives the text of the
     const std::string path = test::write_file(dir + "/pairs.csv", text);
     const auto pairs = read_path_pairs_file(path);
     for (const PathFormat format : {PathFormat::csv, PathFormat::json, PathFormat::text}) {
-        const BatchFormatter whole_formatter(format, {"test", solver.name()}, pairs);
+        const BatchFormatter whole_formatter(format, {std::make_shared<FirnModel>(solver.model()), solver.name()}, pairs);
         const BatchRun whole = connect_batch(solver, pairs, {}, whole_formatter, 2);
         std::vector<PathPair> width(1);
-        width[0].id.assign(longest_pair_id(path), ' ');
-        const BatchFormatter formatter(format, {"test", solver.name()}, width);
+        width[0].name.assign(longest_pair_name(path), ' ');
+        const BatchFormatter formatter(format, {std::make_shared<FirnModel>(solver.model()), solver.name()}, width);
         for (const int threads : {1, 3}) {
             PathPairReader reader(path);
             std::ostringstream out;
@@ -244,7 +244,7 @@ TEST_CASE("connect_batch_stream: an empty batch is refused before anything is wr
     const std::string path = test::write_file(dir + "/pairs.csv", "source_x_m,source_z_m,receiver_x_m,receiver_z_m\n");
     PathPairReader reader(path);
     std::ostringstream out;
-    const BatchFormatter formatter(PathFormat::json, {"test", solver.name()}, {});
+    const BatchFormatter formatter(PathFormat::json, {std::make_shared<FirnModel>(solver.model()), solver.name()}, {});
     CHECK_THROWS_AS(connect_batch_stream(solver, reader, {}, formatter, out, 1), DataInputError);
     CHECK(out.str().empty());
     CHECK_THROWS_AS(PathPairReader(test::write_file(dir + "/cols.csv", "source_x_m\n1\n")), DataInputError);

@@ -136,3 +136,102 @@ TEST_CASE("delays: a source exactly at one receiver fails only that channel, the
     const double d = std::sqrt(30.0 * 30.0 + 20.0 * 20.0 + 50.0 * 50.0);
     CHECK(at_b.paths.front().time_s == Approx(n * d / speed_of_light).epsilon(1e-12));
 }
+
+TEST_CASE("firnray delays: a source at one receiver's position fails that channel alone, exit code 7 with a count",
+          "[cli][delays]") {
+    const std::string dir = test::temp_folder("delays-channel");
+    // A1 of the demo station is at x 0, y 0, 40 m deep.
+    const std::string sources =
+        test::write_file(dir + "/sources.csv", "name,x_m,y_m,z_m\nat-A1,0,0,-40\nnear,100,0,-50\n");
+    const auto r = test::run_firnray({"delays", "--station", test::source_path("demo/station.toml"), "--sources", sources,
+                                      "--quiet", "-o", dir + "/delays.csv"});
+    CHECK(r.exit_code == 7);
+    CHECK(r.err.find("1 of 24 channels failed") != std::string::npos);
+    CHECK(r.err.find("sources failed") == std::string::npos);  // no source failed as a whole
+    const std::string text = test::read_file(dir + "/delays.csv");
+    CHECK(text.find("at-A1,2,A1,,,,,,,,,receiver 'A1': ") != std::string::npos);
+    CHECK(text.find("at-A1,2,A2,1,") != std::string::npos);  // the other channels are computed
+    CHECK(text.find("near,3,A1,1,") != std::string::npos);
+    // JSON: the same count and exit code, the failed channel with its error.
+    const auto json = test::run_firnray({"delays", "--station", test::source_path("demo/station.toml"), "--sources",
+                                         sources, "--format", "json", "--quiet"});
+    CHECK(json.exit_code == 7);
+    CHECK(json.err.find("1 of 24 channels failed") != std::string::npos);
+    CHECK(json.out.find("\"error\": \"receiver 'A1': ") != std::string::npos);
+}
+
+TEST_CASE("delay sources are read a block at a time with the same result as the whole file", "[station][delays]") {
+    const std::string dir = test::temp_folder("delay-sources");
+    std::string text = "# sources\nname,x_m,z_m,y_m\n";
+    for (int i = 0; i < 10; ++i) text += "s" + std::to_string(i) + "," + std::to_string(10 * i) + ",-50,0\n";
+    text += "bad,abc,-50,0\n";
+    const std::string path = test::write_file(dir + "/sources.csv", text);
+    const auto whole = read_delay_sources(path);
+    REQUIRE(whole.size() == 11);
+    CHECK(whole[0].input_line == 3);
+    CHECK(whole[10].error.find("sources.csv:13") != std::string::npos);
+    DelaySourceReader reader(path);
+    std::vector<DelaySource> block, joined;
+    std::size_t blocks = 0;
+    while (reader.read_block(block, 3)) {
+        CHECK(block.size() <= 3);
+        ++blocks;
+        joined.insert(joined.end(), block.begin(), block.end());
+    }
+    CHECK(blocks == 4);
+    REQUIRE(joined.size() == whole.size());
+    for (std::size_t i = 0; i < whole.size(); ++i) {
+        CHECK(joined[i].name == whole[i].name);
+        CHECK(joined[i].input_line == whole[i].input_line);
+        CHECK(joined[i].position.x == whole[i].position.x);
+        CHECK(joined[i].error == whole[i].error);
+    }
+    // A header without sources is refused on the first read; a missing column at once.
+    DelaySourceReader empty(test::write_file(dir + "/empty.csv", "x_m,z_m\n"));
+    CHECK_THROWS_WITH(empty.read_block(block, 3), Catch::Contains("header but no sources"));
+    CHECK_THROWS_WITH(DelaySourceReader(test::write_file(dir + "/nox.csv", "z_m\n-5\n")), Catch::Contains("x_m"));
+}
+
+TEST_CASE("firnray delays: the output is the same for 1 and 3 threads and across blocks of sources", "[cli][delays]") {
+    const std::string dir = test::temp_folder("delays-threads");
+    const std::string station = test::write_file(dir + "/station.toml", R"(name = "two"
+[[string]]
+name = "S"
+x_m = 0.0
+y_m = 0.0
+[[string.receiver]]
+name = "R1"
+depth_m = 60.0
+[[string.receiver]]
+name = "R2"
+depth_m = 120.0
+)");
+    // 1100 sources: more than one block (1024), with a bad row and one at R1 in the second block.
+    std::string text = "name,x_m,z_m\n";
+    for (int i = 0; i < 1100; ++i) {
+        if (i == 1050) text += "bad,x,-10\n";
+        else if (i == 1060) text += "at-R1,0,-60\n";
+        else text += "s" + std::to_string(i) + "," + std::to_string(5 + (i % 97) * 7) + ",-" + std::to_string(10 + (i % 31) * 9) + "\n";
+    }
+    const std::string sources = test::write_file(dir + "/sources.csv", text);
+    const auto run = [&](const std::string& file, const std::string& threads, const std::string& format) {
+        return test::run_firnray({"delays", "--station", station, "--sources", file, "--threads", threads, "--format",
+                                  format, "--quiet"});
+    };
+    const auto one = run(sources, "1", "csv"), three = run(sources, "3", "csv");
+    CHECK(one.exit_code == 7);
+    CHECK(one.err.find("1 of 1100 sources failed, 1 of 2198 channels failed") != std::string::npos);
+    CHECK(three.exit_code == 7);
+    CHECK(one.out == three.out);
+    CHECK(one.out.find("\nat-R1,1062,R1,,") != std::string::npos);
+    CHECK(run(sources, "1", "json").out == run(sources, "3", "json").out);
+    // The first ten sources alone give the first rows of the whole run: blocks do not change rows.
+    std::string first_ten = "name,x_m,z_m\n";
+    std::size_t at = text.find('\n') + 1;
+    for (int i = 0; i < 10; ++i) at = text.find('\n', at) + 1;
+    first_ten += text.substr(text.find('\n') + 1, at - text.find('\n') - 1);
+    const auto small = run(test::write_file(dir + "/ten.csv", first_ten), "2", "csv");
+    CHECK(small.exit_code == 0);
+    REQUIRE(small.out.size() < one.out.size());
+    CHECK(one.out.compare(0, small.out.size(), small.out) == 0);
+}

@@ -50,12 +50,12 @@ int run_connect(const ConnectArguments& args) {
     PathOptions options;
     options.max_bounces = args.max_bounces;
     const PathFormat format = parse_path_format(args.format);
-    const PathOutputContext context{model->name.empty() ? model->index->describe() : model->name, solver->name()};
+    const PathOutputContext context{model, solver->name()};
 
     if (!batch) {
         const auto paths = find_paths(*solver, source, receiver, options);
         outputs.set_writer(args.output,
-                           [&](std::ostream& out) { out << format_paths(format, context, source, receiver, paths); });
+                           [&](std::ostream& out) { write_paths(out, format, context, source, receiver, paths); });
         outputs.write_all();
         return exit_ok;
     }
@@ -66,7 +66,7 @@ int run_connect(const ConnectArguments& args) {
                            "next release; name it 'name'\n", args.pairs_path);
     // Only the text table needs the longest name up front (it aligns its name column).
     std::vector<PathPair> width_example(1);
-    if (format == PathFormat::text) width_example[0].id.assign(longest_pair_id(args.pairs_path), ' ');
+    if (format == PathFormat::text) width_example[0].name.assign(longest_pair_name(args.pairs_path), ' ');
     const BatchFormatter formatter(format, context, width_example);
     BatchTotals run;
     outputs.set_writer(args.output, [&](std::ostream& out) {
@@ -128,7 +128,7 @@ Examples:
   firnray connect --source 250,-20 --receiver 0,-100     # refracted and reflected
   firnray connect --source 300,-20 --receiver 0,-100     # the shadow zone: no path
   firnray connect --source 0,0,-150 --receiver 120,80,-30 --format json
-  firnray connect --pairs pairs.csv --format csv -o paths.csv)");
+  firnray connect --pairs demo/pairs.csv --format csv -o paths.csv)");
     cmd->callback([args, &slot] { slot.run = [args] { return run_connect(*args); }; });
 }
 

@@ -2,8 +2,11 @@
 // path at each receiver, differences to a reference channel and between the first two paths,
 // and optionally the derivatives of each time with respect to the source position.
 #include <cmath>
+#include <memory>
+#include <utility>
 
 #include <fmt/format.h>
+#include <fmt/ranges.h>
 
 #include "cli/commands.hpp"
 #include "cli/common.hpp"
@@ -29,71 +32,121 @@ struct DelaysArguments {
     RunOptions run;
 };
 
-// Sources computed and written per block, so that the arrivals of a large grid are never all held.
+// Sources read, computed and written per block, so that neither the sources nor their arrivals
+// are ever all held, whatever the length of the file or the size of the grid.
 constexpr std::size_t sources_per_block = 1024;
-// Rough sizes, for the memory check: a source, one path of one receiver, one CSV row.
+// Rough sizes, for the memory check: a source, one path of one receiver, one CSV row (the JSON
+// text of a path is about twice that).
 constexpr double source_bytes = 200.0;
 constexpr double path_bytes = sizeof(ConnectedPath) + sizeof(ReceiverArrivals::Gradient) + 64.0;
 constexpr double csv_row_bytes = 260.0;
 constexpr double paths_per_receiver = 2.0;
 
-void check_memory(const DelaysArguments& args, std::size_t sources, std::size_t receivers) {
+// What is held is one block of sources with their arrivals and the writer's buffer, whatever the
+// number of sources; the output grows with it. `sources` is the grid's size, or one block for a
+// file (whose length is not known before it is read).
+void check_memory(const DelaysArguments& args, std::size_t sources, std::size_t receivers, bool whole) {
     const double rows = static_cast<double>(sources) * receivers * paths_per_receiver;
-    const double output = rows * csv_row_bytes;
-    const double held_sources = static_cast<double>(std::min(sources, sources_per_block * 2));
-    double memory = static_cast<double>(sources) * source_bytes +
-                    held_sources * receivers * (paths_per_receiver * path_bytes + sizeof(ReceiverArrivals));
-    if (args.format == "json") memory += output + static_cast<double>(sources) * receivers * (paths_per_receiver * path_bytes);
-    check_memory_estimate(fmt::format("a delay table of {} sources x {} receivers", sources, receivers), memory, output,
-                          args.memory_limit_mb);
+    const double output = rows * csv_row_bytes * (args.format == "json" ? 2.0 : 1.0);
+    const double held_sources = static_cast<double>(std::min(sources, sources_per_block));
+    const double memory =
+        held_sources * (source_bytes + receivers * (paths_per_receiver * path_bytes + sizeof(ReceiverArrivals))) +
+        static_cast<double>(1 << 16);  // the writer's buffer
+    check_memory_estimate(fmt::format("{} of {} sources x {} receivers", whole ? "a delay table" : "each block", sources,
+                                      receivers),
+                          memory, output, args.memory_limit_mb);
 }
 
-std::vector<DelaySource> grid_sources(const DelaysArguments& args, const std::vector<Receiver>& receivers) {
-    const auto distances = parse_list_or_range(args.grid_distance, "--source-distance");
-    const auto depths = parse_list_or_range(args.grid_depth, "--source-depth");
-    for (double depth : depths)
-        if (depth < 0.0)
-            throw UsageError("--source-depth", fmt::format("{} is not a depth: depths are positive, down (m)",
-                                                           number_for_message(depth)));
-    check_memory(args, distances.size() * depths.size(), receivers.size());  // before the grid is built
-    double cx = 0.0, cy = 0.0;
-    for (const Receiver& r : receivers) {
-        cx += r.x_m / static_cast<double>(receivers.size());
-        cy += r.y_m / static_cast<double>(receivers.size());
+// The sources of one run, handed out a block at a time: from the --sources file or a grid.
+class SourceBlocks {
+public:
+    SourceBlocks(const DelaysArguments& args, const std::vector<Receiver>& receivers) {
+        if (!args.sources_path.empty()) {
+            file_ = std::make_unique<DelaySourceReader>(args.sources_path);
+            check_memory(args, sources_per_block, receivers.size(), false);
+            return;
+        }
+        distances_ = parse_list_or_range(args.grid_distance, "--source-distance");
+        depths_ = parse_list_or_range(args.grid_depth, "--source-depth");
+        for (double depth : depths_)
+            if (depth < 0.0)
+                throw UsageError("--source-depth", fmt::format("{} is not a depth: depths are positive, down (m)",
+                                                               number_for_message(depth)));
+        total_ = distances_.size() * depths_.size();
+        check_memory(args, total_, receivers.size(), true);
+        for (const Receiver& r : receivers) {
+            centre_x_ += r.x_m / static_cast<double>(receivers.size());
+            centre_y_ += r.y_m / static_cast<double>(receivers.size());
+        }
+        azimuth_rad_ = deg_to_rad(args.azimuth_deg);
     }
-    const double az = deg_to_rad(args.azimuth_deg);
-    std::vector<DelaySource> sources;
-    for (double depth : depths)
-        for (double r : distances) {
+
+    // Replaces `sources` with the next block; false when none were left. The first call on a
+    // file with no sources throws DataInputError.
+    bool next(std::vector<DelaySource>& sources) {
+        if (file_) return file_->read_block(sources, sources_per_block);
+        sources.clear();
+        for (; next_ < total_ && sources.size() < sources_per_block; ++next_) {
+            const double depth = depths_[next_ / distances_.size()], r = distances_[next_ % distances_.size()];
             DelaySource s;
             s.name = fmt::format("r{:g}_d{:g}", r, depth);
-            s.position = {cx + r * std::cos(az), cy + r * std::sin(az), -depth};
-            sources.push_back(s);
+            s.position = {centre_x_ + r * std::cos(azimuth_rad_), centre_y_ + r * std::sin(azimuth_rad_), -depth};
+            sources.push_back(std::move(s));
         }
-    return sources;
-}
-
-// Computes the delays of `sources` a block at a time and writes each block's CSV rows.
-std::size_t write_delays_csv(std::ostream& out, const RaySolver& solver, const std::vector<Receiver>& receivers,
-                             const std::vector<DelaySource>& sources, const DelayOptions& options, bool derivatives) {
-    std::size_t failed = 0;
-    DelayOptions block_options = options;
-    for (std::size_t first = 0; first < sources.size(); first += sources_per_block) {
-        const std::size_t count = std::min(sources_per_block, sources.size() - first);
-        const std::vector<DelaySource> block(sources.begin() + static_cast<std::ptrdiff_t>(first),
-                                             sources.begin() + static_cast<std::ptrdiff_t>(first + count));
-        if (options.control.progress)
-            block_options.control.progress = [&options, first, &sources](std::size_t done, std::size_t) {
-                options.control.progress(first + done, sources.size());
-            };
-        const auto delays = compute_delays(solver, receivers, block, block_options);
-        for (const auto& d : delays) failed += !d.error.empty();
-        const std::string text = delay_table_csv(block, delays, receivers, options, derivatives);
-        const std::size_t body = first == 0 ? 0 : text.find('\n') + 1;  // the header once
-        out.write(text.data() + body, static_cast<std::streamsize>(text.size() - body));
-        if (!out) break;  // a write error or Ctrl-C: the output set reports it
+        return !sources.empty();
     }
-    return failed;
+
+    // (done, total) for progress: bytes of the file, or sources of the grid.
+    std::pair<std::size_t, std::size_t> progress(std::size_t sources_done) const {
+        if (file_) return {file_->bytes_read(), std::max(file_->bytes_read(), file_->file_bytes())};
+        return {sources_done, total_};
+    }
+
+private:
+    std::unique_ptr<DelaySourceReader> file_;
+    std::vector<double> distances_, depths_;
+    std::size_t total_ = 0, next_ = 0;
+    double centre_x_ = 0.0, centre_y_ = 0.0, azimuth_rad_ = 0.0;
+};
+
+struct DelayTotals {
+    std::size_t sources = 0, failed_sources = 0;
+    std::size_t channels = 0, failed_channels = 0;  // of the sources that were computed
+};
+
+// Reads, computes and writes the sources a block at a time: the output is the same for any
+// block size and any number of threads (each block is computed in parallel, written in order).
+DelayTotals stream_delays(std::ostream& out, SourceBlocks& blocks, const RaySolver& solver, const FirnModel& model,
+                          const std::vector<Receiver>& receivers, const DelayOptions& options, DelayTableFormat format,
+                          bool derivatives) {
+    DelayTotals totals;
+    std::vector<DelaySource> sources;
+    if (!blocks.next(sources)) return totals;  // (a grid always has a source; an empty file threw)
+    DelayTableWriter writer(out, format, receivers, options, derivatives);
+    writer.begin(&model);
+    DelayOptions block_options = options;
+    block_options.control.progress = nullptr;  // reported after each block
+    do {
+        const auto delays = compute_delays(solver, receivers, sources, block_options);
+        for (const SourceDelays& d : delays) {
+            if (!d.error.empty()) {
+                ++totals.failed_sources;
+                continue;
+            }
+            totals.channels += d.receivers.size();
+            totals.failed_channels += d.failed_channels();
+        }
+        totals.sources += sources.size();
+        writer.add(sources, delays);
+        if (options.control.progress) {
+            const auto [done, total] = blocks.progress(totals.sources);
+            options.control.progress(done, total);
+        }
+        if (!out) return totals;  // a write error or Ctrl-C: the output set reports it
+        options.control.throw_if_cancelled();
+    } while (blocks.next(sources));
+    writer.finish();
+    return totals;
 }
 
 int run_delays(const DelaysArguments& args) {
@@ -108,30 +161,25 @@ int run_delays(const DelaysArguments& args) {
     options.reference = args.reference.empty() ? 0 : station.index_of(receiver_named(station, args.reference, "--reference").name);
     options.paths.max_bounces = args.max_bounces;
     options.threads = args.run.thread_count();
-    const std::vector<DelaySource> sources =
-        args.sources_path.empty() ? grid_sources(args, station.receivers) : read_delay_sources(args.sources_path);
-    check_memory(args, sources.size(), station.receivers.size());
+    SourceBlocks blocks(args, station.receivers);  // checks the columns of a file, or the grid
     const auto model = load_model_or_default(args.model_path);
     const auto solver = make_solver(model, parse_solver_choice(args.solver));
     options.control = make_run_control(args.run, "delays");
 
-    std::size_t failed = 0;
-    std::vector<SourceDelays> delays;  // JSON only: the CSV is computed and written a block at a time
-    if (args.format == "json") {
-        delays = compute_delays(*solver, station.receivers, sources, options);
-        for (const auto& d : delays) failed += !d.error.empty();
-        outputs.set_writer(args.output, [&](std::ostream& out) {
-            out << delay_table_json(sources, delays, station.receivers, options, args.derivatives, model->name);
-        });
-    } else {
-        outputs.set_writer(args.output, [&](std::ostream& out) {
-            failed = write_delays_csv(out, *solver, station.receivers, sources, options, args.derivatives);
-        });
-    }
+    DelayTotals totals;
+    const DelayTableFormat format = args.format == "json" ? DelayTableFormat::json : DelayTableFormat::csv;
+    outputs.set_writer(args.output, [&](std::ostream& out) {
+        totals = stream_delays(out, blocks, *solver, *model, station.receivers, options, format, args.derivatives);
+    });
     outputs.write_all();
     finish_progress(args.run);
-    if (failed > 0) {
-        fmt::print(stderr, "firnray: {} of {} sources failed; their rows carry the error\n", failed, sources.size());
+    std::vector<std::string> failures;
+    if (totals.failed_sources > 0)
+        failures.push_back(fmt::format("{} of {} sources failed", totals.failed_sources, totals.sources));
+    if (totals.failed_channels > 0)
+        failures.push_back(fmt::format("{} of {} channels failed", totals.failed_channels, totals.channels));
+    if (!failures.empty()) {
+        fmt::print(stderr, "firnray: {}; their rows carry the error\n", fmt::join(failures, ", "));
         return exit_partial;
     }
     return exit_ok;
@@ -172,7 +220,9 @@ Times are in ns. minus_reference_same_kind_ns is this path's time minus the time
 the same kind (and rank) at the reference receiver; first_minus_reference_first_ns compares the
 first arrivals; second_minus_first_ns is the time between the first two paths at this receiver.
 A receiver that no path reaches (shadow zone) gets one row of kind "none". A bad source row gets
-an error row and the rest still runs; the exit code is then 7. A grid of sources is
+an error row, a channel that fails (a source at a receiver's own position) an error row naming
+the receiver, and the rest still runs; the exit code is then 7. --sources files stream: their
+length is not limited by memory, and --threads does not change the output. A grid of sources is
 --source-distance x --source-depth, along --azimuth-deg from the mean receiver position.
 
 Example: the demo calibration pulsers at every channel, relative to channel A1

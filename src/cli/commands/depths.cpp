@@ -67,9 +67,10 @@ int run_depths(const DepthsArguments& args) {
     finish_progress(args.run);
 
     outputs.set_writer(args.output, [&](std::ostream& out) {
-        out << (args.format == "json" ? depth_scan_json(scan, *model, options.region) : depth_scan_csv(scan));
+        if (args.format == "json") write_depth_scan_json(out, scan, *model, options.region);
+        else write_depth_scan_csv(out, scan);
     });
-    outputs.set_writer(args.plot_path, [&](std::ostream& out) { out << depth_scan_svg(scan, *model, options.region); });
+    outputs.set_writer(args.plot_path, [&](std::ostream& out) { write_depth_scan_svg(out, scan, *model, options.region); });
     outputs.write_all();
     return 0;
 }

@@ -42,19 +42,9 @@ struct ProfileOptions {
 constexpr double sample_bytes = sizeof(ProfileSample);
 constexpr double csv_row_bytes = 60.0, json_row_bytes = 130.0, svg_row_bytes = 40.0;
 
-// The CSV table a block of rows at a time, so that a long table never exists as one string.
-constexpr std::size_t rows_per_block = 1 << 16;
-
-void write_samples_csv(std::ostream& out, const std::vector<ProfileSample>& samples) {
-    for (std::size_t first = 0; first == 0 || first < samples.size(); first += rows_per_block) {
-        const auto begin = samples.begin() + static_cast<std::ptrdiff_t>(first);
-        const auto end = samples.begin() + static_cast<std::ptrdiff_t>(std::min(samples.size(), first + rows_per_block));
-        const std::string text = profile_samples_csv(std::vector<ProfileSample>(begin, end));
-        const std::size_t body = first == 0 ? 0 : text.find('\n') + 1;  // the header once
-        out.write(text.data() + body, static_cast<std::streamsize>(text.size() - body));
-        if (!out) return;  // a write error or Ctrl-C: the output set reports it
-    }
-}
+// The CSV and JSON tables go out through the output layer's buffer of this size
+// (output/text_sink.hpp, io/json_writer.hpp), so that a long table never exists as text.
+constexpr double text_buffer_bytes = 1 << 16;
 
 int tabulate(const ProfileOptions& o) {
     OutputSet outputs;
@@ -63,17 +53,16 @@ int tabulate(const ProfileOptions& o) {
     const double rows = std::floor((o.to_depth_m - o.from_depth_m) / o.step_m) + 1.0;
     const bool json = o.format == "json";
     const double text_bytes = rows * (json ? json_row_bytes : csv_row_bytes);
-    const double held_text = json ? text_bytes : std::min(rows, static_cast<double>(rows_per_block)) * csv_row_bytes;
     check_memory_estimate(fmt::format("a table of {} rows", number_for_message(rows)),
-                          rows * sample_bytes + held_text + (o.plot_path.empty() ? 0.0 : rows * svg_row_bytes),
+                          rows * sample_bytes + text_buffer_bytes + (o.plot_path.empty() ? 0.0 : rows * svg_row_bytes),
                           text_bytes, o.memory_limit_mb);
     const auto model = load_model_or_default(o.model_path);
     const auto samples = sample_profile(*model->index, o.from_depth_m, o.to_depth_m, o.step_m);
     outputs.set_writer(o.output, [&](std::ostream& out) {
-        if (json) out << profile_samples_json(*model, samples);
-        else write_samples_csv(out, samples);
+        if (json) write_profile_samples_json(out, *model, samples);
+        else write_profile_samples_csv(out, samples);
     });
-    outputs.set_writer(o.plot_path, [&](std::ostream& out) { out << profile_svg(*model, samples); });
+    outputs.set_writer(o.plot_path, [&](std::ostream& out) { write_profile_svg(out, *model, samples); });
     outputs.write_all();
     return 0;
 }
@@ -107,12 +96,13 @@ int fit_data(const ProfileOptions& o) {
     const ExponentialFit fit = fit_exponential(data, options);
 
     outputs.set_writer(o.output, [&](std::ostream& out) {
-        out << (o.format == "json" ? fit_report_json(data, fit) : fit_report_text(data, fit));
+        if (o.format == "json") write_fit_report_json(out, data, fit);
+        else write_fit_report_text(out, data, fit);
     });
     outputs.set_writer(o.write_model_path, [&](std::ostream& out) {
-        out << fitted_model_toml(data, fit, o.model_name, o.write_model_path);
+        write_fitted_model_toml(out, data, fit, o.model_name, o.write_model_path);
     });
-    outputs.set_writer(o.plot_path, [&](std::ostream& out) { out << fit_svg(data, fit); });
+    outputs.set_writer(o.plot_path, [&](std::ostream& out) { write_fit_svg(out, data, fit); });
     outputs.write_all();
     return 0;
 }

@@ -37,42 +37,18 @@ struct ShadowArguments {
 constexpr double grid_csv_bytes_per_cell = 70.0;
 constexpr double arrival_bytes_per_ray_parameter = 200.0;
 constexpr double svg_bytes_per_cell = 60.0;
-// The grid CSV is written in blocks of rows of about this many cells, so that a large grid never
-// exists as one string.
-constexpr std::size_t cells_per_block = 1 << 16;
+// The grid CSV goes out through the output layer's buffer of this size (output/text_sink.hpp),
+// so that a large grid is never held as text.
+constexpr double csv_buffer_bytes = 1 << 16;
 
 void check_memory(const ShadowArguments& args, const MapGrid& grid, std::size_t receivers) {
     const double cells = static_cast<double>(grid.cells());
     const double memory = cells * sizeof(MapCell) + grid.depth_cells * sizeof(double) +
                           static_cast<double>(receivers) * args.ray_parameters * arrival_bytes_per_ray_parameter +
                           (args.plot_path.empty() ? 0.0 : cells * svg_bytes_per_cell) +
-                          std::min(cells, static_cast<double>(cells_per_block)) * grid_csv_bytes_per_cell;
+                          csv_buffer_bytes;
     check_memory_estimate(fmt::format("a shadow map of {} x {} cells", grid.distance_cells, grid.depth_cells), memory,
                           cells * grid_csv_bytes_per_cell, args.memory_limit_mb);
-}
-
-// The grid CSV, rows of cells at a time (the rows of one block are rendered as a map of their own).
-void write_grid_csv(std::ostream& out, const VisibilityMap& map) {
-    const int rows_per_block =
-        std::max(1, static_cast<int>(cells_per_block / static_cast<std::size_t>(map.grid.distance_cells)));
-    if (rows_per_block >= map.grid.depth_cells) {
-        out << visibility_grid_csv(map);
-        return;
-    }
-    for (int first = 0; first < map.grid.depth_cells; first += rows_per_block) {
-        const int rows = std::min(rows_per_block, map.grid.depth_cells - first);
-        VisibilityMap block = map;  // copies only what is small once the cells are replaced
-        block.cells.assign(map.cells.begin() + static_cast<std::ptrdiff_t>(first) * map.grid.distance_cells,
-                           map.cells.begin() + static_cast<std::ptrdiff_t>(first + rows) * map.grid.distance_cells);
-        block.boundary_m.assign(map.boundary_m.begin() + first, map.boundary_m.begin() + first + rows);
-        block.grid.depth_min_m = map.grid.depth_min_m + first * map.grid.depth_step();
-        block.grid.depth_max_m = map.grid.depth_min_m + (first + rows) * map.grid.depth_step();
-        block.grid.depth_cells = rows;
-        const std::string text = visibility_grid_csv(block);
-        const std::size_t body = first == 0 ? 0 : text.find('\n') + 1;  // the header once
-        out.write(text.data() + body, static_cast<std::streamsize>(text.size() - body));
-        if (!out) return;  // a write error or Ctrl-C: the output set reports it
-    }
 }
 
 int run_shadow(const ShadowArguments& args) {
@@ -110,13 +86,13 @@ int run_shadow(const ShadowArguments& args) {
     const VisibilityMap map = compute_visibility_map(*solver, receivers, grid, options);
     finish_progress(args.run);
 
-    outputs.set_writer(args.grid_path, [&](std::ostream& out) { write_grid_csv(out, map); });
-    outputs.set_writer(args.boundary_path, [&](std::ostream& out) { out << visibility_boundary_csv(map); });
+    outputs.set_writer(args.grid_path, [&](std::ostream& out) { write_visibility_grid_csv(out, map); });
+    outputs.set_writer(args.boundary_path, [&](std::ostream& out) { write_visibility_boundary_csv(out, map); });
     outputs.set_writer(args.plot_path, [&](std::ostream& out) {
         const std::string colouring = args.colour_by != "auto" ? args.colour_by
                                       : receivers.size() == 1  ? "kinds"
                                                                : "receivers";
-        out << visibility_map_svg(map, *model, receivers, parse_map_colouring(colouring));
+        write_visibility_map_svg(out, map, *model, receivers, parse_map_colouring(colouring));
     });
     outputs.write_all();
     return 0;

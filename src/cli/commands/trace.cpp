@@ -56,15 +56,22 @@ struct TraceArguments {
     double memory_limit_mb = default_memory_limit_mb;
 };
 
-// Rough size of one written point, held and written (for the memory check of --sample spacing).
-constexpr double bytes_per_point = 120.0;
+// Rough sizes, for the memory check of --sample spacing: a point as held (RayPoint, with the
+// growth of its vector), its text as written, and its share of the plot. The CSV and JSON go out
+// through a buffer of their own size (output/text_sink.hpp, io/json_writer.hpp), so the text is
+// not held; the SVG figure is.
+constexpr double held_bytes_per_point = sizeof(RayPoint) * 1.5;
+constexpr double text_bytes_per_point = 60.0;
+constexpr double svg_bytes_per_point = 60.0;
+constexpr double text_buffer_bytes = 1 << 16;
 
 void check_memory(const TraceArguments& a, std::size_t rays) {
     if (a.sample != "spacing") return;  // steps and ends: the count is known only once traced
     const double points = static_cast<double>(rays) * (a.max_length_m / a.spacing_m + 2.0);
     check_memory_estimate(fmt::format("{} rays sampled every {} m over {} m", rays, number_for_message(a.spacing_m), number_for_message(a.max_length_m)),
-                          points * bytes_per_point * (a.plot_path.empty() ? 1.0 : 1.5), points * bytes_per_point / 2,
-                          a.memory_limit_mb);
+                          points * (held_bytes_per_point + (a.plot_path.empty() ? 0.0 : svg_bytes_per_point)) +
+                              text_buffer_bytes,
+                          points * text_bytes_per_point, a.memory_limit_mb);
 }
 
 int run_trace(const TraceArguments& a) {
@@ -106,8 +113,11 @@ int run_trace(const TraceArguments& a) {
         }
     }
 
-    outputs.set_writer(a.output, [&](std::ostream& out) { out << (a.format == "json" ? trace_json(*model, rays) : trace_csv(rays)); });
-    outputs.set_writer(a.plot_path, [&](std::ostream& out) { out << ray_fan_svg(*model, rays, from.x, from.z); });
+    outputs.set_writer(a.output, [&](std::ostream& out) {
+        if (a.format == "json") write_trace_json(out, *model, rays);
+        else write_trace_csv(out, rays);
+    });
+    outputs.set_writer(a.plot_path, [&](std::ostream& out) { write_ray_fan_svg(out, *model, rays, from.x, from.z); });
     outputs.write_all();
     return 0;
 }
