@@ -241,7 +241,12 @@ TEST_CASE("limits: a batch of 250 000 bad rows streams in bounded memory", "[cli
     REQUIRE(WIFEXITED(status));
     CHECK(WEXITSTATUS(status) == 7);  // every row failed
     // kB: streamed it needs about 9 MB; held whole (rows, pairs and the output text) about 150 MB.
-    CHECK(usage.ru_maxrss < 40 * 1024);
+    // Under AddressSanitizer the shadow memory and the quarantine of freed blocks set the peak, not
+    // the program: the bound is asserted in the ordinary build only.
+    if (built_with_address_sanitizer())
+        WARN("peak memory not asserted under AddressSanitizer: " << usage.ru_maxrss << " kB");
+    else
+        CHECK(usage.ru_maxrss < 40 * 1024);
 }
 
 TEST_CASE("limits: a delays --sources file of 250 000 bad rows streams in bounded memory", "[cli][limits][delays]") {
@@ -261,5 +266,10 @@ TEST_CASE("limits: a delays --sources file of 250 000 bad rows streams in bounde
     REQUIRE(WIFEXITED(status));
     CHECK(WEXITSTATUS(status) == 7);  // every row failed
     // kB: streamed it needs about 10 MB; held whole (rows, sources and their error texts) far more.
-    CHECK(usage.ru_maxrss < 40 * 1024);
+    // Under AddressSanitizer the shadow memory and the quarantine of freed blocks set the peak, not
+    // the program: the bound is asserted in the ordinary build only.
+    if (built_with_address_sanitizer())
+        WARN("peak memory not asserted under AddressSanitizer: " << usage.ru_maxrss << " kB");
+    else
+        CHECK(usage.ru_maxrss < 40 * 1024);
 }

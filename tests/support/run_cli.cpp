@@ -4,6 +4,7 @@
 #include <cstdlib>
 #include <filesystem>
 #include <fstream>
+#include <mutex>
 #include <random>
 #include <sstream>
 #include <sys/wait.h>
@@ -33,10 +34,40 @@ std::string write_file(const std::string& path, const std::string& text) {
     return path;
 }
 
+namespace {
+
+// Every folder made by temp_folder, removed (with what the test left in it) when the program ends.
+class TempFolders {
+public:
+    ~TempFolders() {
+        for (const auto& dir : folders_) {
+            std::error_code ignored;
+            fs::permissions(dir, fs::perms::owner_all, fs::perm_options::add, ignored);  // a read-only test folder
+            fs::remove_all(dir, ignored);
+        }
+    }
+    void add(const fs::path& dir) {
+        std::lock_guard<std::mutex> lock(mutex_);
+        folders_.push_back(dir);
+    }
+
+private:
+    std::mutex mutex_;
+    std::vector<fs::path> folders_;
+};
+
+TempFolders& temp_folders() {
+    static TempFolders folders;
+    return folders;
+}
+
+}  // namespace
+
 std::string temp_folder(const std::string& tag) {
     static std::mt19937_64 rng{std::random_device{}()};
     fs::path dir = fs::temp_directory_path() / ("firnray-test-" + tag + "-" + std::to_string(rng()));
     fs::create_directories(dir);
+    temp_folders().add(dir);
     return dir.string();
 }
 
