@@ -120,11 +120,16 @@ private:
         const Sample& next = at_zero ? samples[1] : samples[samples.size() - 2];
         // Only where X diverges, or where the family exists next to an end that is itself degenerate.
         if (std::isfinite(end.f) || (std::isnan(end.f) && !std::isfinite(next.f))) return;
-        const double spacing = 1.0 / samples_;
+        // No closer to the end than a few rounding errors of ξ: rays whose ξ lies within that of a
+        // double root (a local minimum of n) are not resolved by a double ξ anyway.
+        const double spacing = 1.0 / samples_, span = range_.high - range_.low;
+        const double closest = 4.0 * std::numeric_limits<double>::epsilon() * range_.high;
         for (int j = 1; j <= 200; ++j) {
             const double step = spacing * std::ldexp(1.0, -j);
             const double v = at_zero ? step : 1.0 - step;
             if (v <= 0.0 || v >= 1.0) break;
+            const double offset_from_end = at_zero ? span * v * v : span * (1.0 - v * v);
+            if (offset_from_end < closest) break;
             const Sample s = evaluate(v);
             samples.push_back(s);
             const bool growing_toward_end = at_zero ? s.slope < 0.0 : s.slope > 0.0;
@@ -168,18 +173,29 @@ private:
     int samples_;
 };
 
-// The ranges of ξ in [0, min n between the ends): cut at every value where an end of the
-// interval can change kind or jump: the local minima of n, n at the surface and at the bottom.
+// The ranges of ξ in [0, min n between the ends): cut where an end of the pair's interval can
+// change kind or jump, i.e. at each new lowest n met going outward from the ends (a local minimum
+// of n lower than everything between it and the ends), and at n of the surface and of the bottom
+// when they are such record lows.
 std::vector<RayParameterRange> ray_parameter_ranges(const StratifiedProfile& profile, double z_low, double z_high) {
     const auto [top, top_z] = profile.minimum_index(z_low, z_high);
     std::vector<std::pair<double, double>> cuts{{top, top_z}};  // (ξ, anchor z)
+    const auto& minima = profile.local_minima_z();  // from the surface down
+    double lowest = top;
     auto consider = [&](double z) {
         const double n = profile.index(z);
-        if (n < top && n > 0.0) cuts.emplace_back(n, z);
+        if (n < lowest && n > 0.0) {
+            cuts.emplace_back(n, z);
+            lowest = n;
+        }
     };
-    for (double z : profile.local_minima_z()) consider(z);
+    for (auto it = minima.rbegin(); it != minima.rend(); ++it)
+        if (*it > z_high) consider(*it);
     consider(0.0);
-    if (profile.bottom_z()) consider(*profile.bottom_z());
+    lowest = top;
+    for (double z : minima)
+        if (z < z_low) consider(z);
+    consider(profile.bottom_z() ? *profile.bottom_z() : profile.floor_z());
     std::sort(cuts.begin(), cuts.end(), [](const auto& a, const auto& b) { return a.first > b.first; });
     std::vector<RayParameterRange> ranges;
     for (std::size_t i = 0; i < cuts.size(); ++i) {

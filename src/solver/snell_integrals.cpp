@@ -4,6 +4,7 @@
 #include <array>
 #include <cmath>
 #include <limits>
+#include <optional>
 #include <vector>
 
 #include <fmt/format.h>
@@ -79,17 +80,23 @@ public:
 
     // Panels of [low, high] inside one cell, none of which ends at a zero of Q.
     void regular(std::size_t cell, double low, double high, int depth = 0) {
-        if (!(high > low)) return;
+        if (!(high > low) || failed_) return;
         const double centre = 0.5 * (low + high), half = 0.5 * (high - low);
         double n, dn, d2n;
         profile_.evaluate(cell, centre, n, dn, d2n);
         const double g = profile_.gap_in_cell(level_, cell, centre, n);
+        if (!(g > 0.0) || ++panels_ > max_panels) {
+            fail();
+            return;
+        }
         const double radius = zero_free_radius(g * (n + xi_), 2.0 * n * dn, 2.0 * (dn * dn + n * d2n));
         const double ratio = radius / half;
+        // Gauss–Legendre with m points errs like ρ^(−2m), ρ = t + √(t² − 1), t = radius/half: these
+        // thresholds keep that below 1e-13 with a margin for the quadratic model's own error.
         int points = 0;
-        if (ratio >= 40.0) points = 4;
-        else if (ratio >= 12.0) points = 6;
-        else if (ratio >= 4.0 || depth >= 60) points = 10;
+        if (ratio >= 20.0) points = 4;
+        else if (ratio >= 7.0) points = 6;
+        else if (ratio >= 3.0 || depth >= 60) points = 10;
         if (points == 0) {
             regular(cell, low, centre, depth + 1);
             regular(cell, centre, high, depth + 1);
@@ -102,9 +109,7 @@ public:
             profile_.evaluate(cell, z, nz, dnz, d2nz);
             const double gz = profile_.gap_in_cell(level_, cell, z, nz);
             if (!(gz > 0.0)) {
-                // ξ reaches n inside the leg: not a leg of one interval (or a double root met head on).
-                sums_.x = sums_.optical = sums_.length = infinity;
-                sums_.derivative = std::numeric_limits<double>::quiet_NaN();
+                fail();
                 return;
             }
             const double q2 = gz * (nz + xi_), inverse_q = 1.0 / std::sqrt(q2);
@@ -167,12 +172,23 @@ public:
     // ∫ over the end piece in u. The end is at z_end, the root (n = ξ, real or extrapolated) at
     // distance e = g0/slope_in beyond it; u runs from √e to √(e + length).
     void end_piece(double z_end, LegEnd kind, int inward, std::size_t cell, double g0, double slope_in, double length) {
+        if (failed_) return;
         const double e = kind == LegEnd::turning ? 0.0 : g0 / slope_in;
         const double u0 = std::sqrt(e), u1 = std::sqrt(e + length);
-        const double centre = 0.5 * (u0 + u1), half = 0.5 * (u1 - u0);
-        const GaussRule& r = rule(16);
+        // One panel from a turning point; from a root beyond a fixed end, panels doubling in u,
+        // because ∂x/∂ξ there goes like 1/u² (the other integrands are smooth in u either way).
+        std::vector<std::pair<double, double>> panels;
+        if (u0 == 0.0 || u1 <= 2.0 * u0) {
+            panels.emplace_back(u0, u1);
+        } else {
+            for (double a = u0; a < u1; a *= 2.0) panels.emplace_back(a, std::min(u1, 2.0 * a));
+        }
+        const GaussRule& r = rule(panels.size() == 1 ? 16 : 10);
         double by_parts_q = 0.0, by_parts_inverse = 0.0;  // ∫ Q h′ |dz| and ∫ h′/Q |dz|, h = 1/(n n′)
-        for (std::size_t i = 0; i < r.nodes.size(); ++i) {
+        for (std::size_t node = 0; node < r.nodes.size() * panels.size(); ++node) {
+            const std::size_t i = node % r.nodes.size();
+            const auto [pa, pb] = panels[node / r.nodes.size()];
+            const double centre = 0.5 * (pa + pb), half = 0.5 * (pb - pa);
             const double u = centre + half * r.nodes[i], w = half * r.weights[i];
             const double rise = (u - u0) * (u + u0);  // u² − e: distance from the end, exactly
             const double z = z_end + inward * rise;
@@ -217,12 +233,60 @@ public:
     Sums& sums() { return sums_; }
 
 private:
+    // ξ reaches n inside the leg (not a leg of one interval, or ξ within rounding of a local
+    // minimum of n passed over), or the panels needed exceed any reasonable count: the leg is
+    // taken as infinitely long, the limit it approaches.
+    void fail() {
+        failed_ = true;
+        sums_.x = sums_.optical = sums_.length = infinity;
+        sums_.derivative = std::numeric_limits<double>::quiet_NaN();
+    }
+    static constexpr int max_panels = 4000;
+    bool failed_ = false;
+    int panels_ = 0;
+
     const StratifiedProfile& profile_;
     const RayLevel& level_;
     double xi_;
     bool with_time_, with_derivative_;
     Sums sums_;
 };
+
+// Legs too short in z to be resolved from their ends' depths (a ray all but horizontal: turning
+// within a few rounding errors of z, as near n_deep, or a duct of vanishing width), in the limit
+// of a linear n − ξ (one turning end) or a parabolic one (two): from n − ξ at the fixed end, which
+// RayLevel keeps accurate, and dn/dz (or d²n/dz²) there. The relative error is of the order of the
+// height over the length on which n′ changes, below 1e-10 where this is used.
+std::optional<LegIntegrals> horizontal_limit(const StratifiedProfile& profile, const RayLevel& level, LegEndpoint a,
+                                             LegEndpoint b) {
+    const int turning_ends = (a.kind == LegEnd::turning) + (b.kind == LegEnd::turning);
+    if (turning_ends == 0) return std::nullopt;
+    const double height = b.z - a.z;
+    const LegEndpoint& fixed_end = a.kind == LegEnd::fixed ? a : b;
+    const std::size_t cell = profile.cell_at(fixed_end.z, a.kind == LegEnd::fixed ? 1 : -1);
+    double n, dn, d2n;
+    profile.evaluate(cell, fixed_end.z, n, dn, d2n);
+    const double xi = level.ray_parameter;
+    const double curvature_length = d2n == 0.0 ? infinity : std::abs(dn / d2n);
+    const double resolution = 256.0 * std::numeric_limits<double>::epsilon() * std::max(1.0, std::abs(fixed_end.z));
+    if (height > std::max(resolution, 1e-10 * curvature_length)) return std::nullopt;
+    LegIntegrals out;
+    if (turning_ends == 1) {
+        const double g0 = std::max(0.0, profile.gap(level, fixed_end.z));
+        if (dn == 0.0) return std::nullopt;
+        // n − ξ = |n′| w at a distance w from the turning point: x = ξ √(2 g0 / n) / |n′|.
+        out.distance_m = xi * std::sqrt(2.0 * g0 / n) / std::abs(dn);
+        out.distance_derivative = g0 > 0.0 ? -out.distance_m / (2.0 * g0) : -infinity;
+    } else {
+        // n − ξ = A − |n″| w²/2 about the axis: half an oscillation of a harmonic ray, x = π ξ/√(n |n″|).
+        if (d2n == 0.0) return std::nullopt;
+        out.distance_m = pi * xi / std::sqrt(n * std::abs(d2n));
+        out.distance_derivative = 0.0;
+    }
+    out.optical_path_m = n * n * out.distance_m / std::max(xi, std::numeric_limits<double>::min());
+    out.length_m = n * out.distance_m / std::max(xi, std::numeric_limits<double>::min());
+    return out;
+}
 
 void check_end(const StratifiedProfile& profile, double z) {
     if (!std::isfinite(z) || z > 0.0 || z < profile.floor_z())
@@ -239,6 +303,7 @@ LegIntegrals leg_integrals(const StratifiedProfile& profile, const RayLevel& lev
     if (a.z > b.z) std::swap(a, b);
     LegIntegrals out;
     const double height = b.z - a.z;
+    if (auto limit = horizontal_limit(profile, level, a, b)) return *limit;
     if (height == 0.0) return out;
     LegQuadrature quadrature(profile, level, with_time_and_length, with_derivative);
     // Each end may take at most half of the leg.
