@@ -260,7 +260,8 @@ StratifiedPath make_path(const StratifiedProfile& profile, const RayLevel& level
 
 bool same_path(const StratifiedPath& a, const StratifiedPath& b) {
     return std::abs(a.ray_parameter - b.ray_parameter) <= 1e-12 * std::max(1.0, a.ray_parameter) &&
-           std::abs(a.time_s - b.time_s) <= 1e-15;
+           std::abs(a.time_s - b.time_s) <= 1e-15 && std::abs(a.launch_zenith_rad - b.launch_zenith_rad) <= 1e-9 &&
+           std::abs(a.arrival_zenith_rad - b.arrival_zenith_rad) <= 1e-9;
 }
 
 }  // namespace

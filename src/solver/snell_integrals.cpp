@@ -59,17 +59,20 @@ struct Sums {
     double x = 0.0, optical = 0.0, length = 0.0, derivative = 0.0;
 };
 
-// Radius of the disc around a point free of zeros of Q² = n² − ξ², from its quadratic model
-// q + q′δ + q″δ²/2. It fixes how far a panel centred there may reach for a given rule.
-double zero_free_radius(double q, double q1, double q2) {
-    if (q <= 0.0) return 0.0;
-    if (q2 == 0.0) return q1 == 0.0 ? infinity : std::abs(q / q1);
-    const double disc = q1 * q1 - 2.0 * q * q2;
-    if (disc < 0.0) return std::sqrt(2.0 * q / std::abs(q2));
-    const double root_disc = std::sqrt(disc);
-    const double big = -(q1 + std::copysign(root_disc, q1));  // q″δ₁ (no cancellation)
-    const double r1 = big / q2, r2 = big == 0.0 ? infinity : 2.0 * q / big;
-    return std::min(std::abs(r1), std::abs(r2));
+// A radius around a point inside which Q² = n² − ξ² has no zero, from its Taylor coefficients
+// there with n taken as the cubic n + n′δ + n″δ²/2 + n‴δ³/6 (exact for a table's cells): by
+// Fujiwara's bound every zero of a polynomial a0 + a1 δ + … + a6 δ⁶ has
+// |δ| >= 1 / (2 max_k |a_k/a0|^(1/k)). It sets how far a panel centred there may reach.
+double zero_free_radius(double gap, double n, double xi, double n1, double n2, double n3) {
+    const double a0 = gap * (n + xi);
+    if (!(a0 > 0.0)) return 0.0;
+    const double m2 = 0.5 * n2, m3 = n3 / 6.0;
+    const double a[6] = {2.0 * n * n1,           n1 * n1 + 2.0 * n * m2, 2.0 * n * m3 + 2.0 * n1 * m2,
+                         m2 * m2 + 2.0 * n1 * m3, 2.0 * m2 * m3,          m3 * m3};
+    double largest = 0.0;
+    for (int k = 0; k < 6; ++k)
+        if (a[k] != 0.0) largest = std::max(largest, std::pow(std::abs(a[k]) / a0, 1.0 / (k + 1)));
+    return largest == 0.0 ? infinity : 0.5 / largest;
 }
 
 class LegQuadrature {
@@ -89,14 +92,14 @@ public:
             fail();
             return;
         }
-        const double radius = zero_free_radius(g * (n + xi_), 2.0 * n * dn, 2.0 * (dn * dn + n * d2n));
+        const double radius = zero_free_radius(g, n, xi_, dn, d2n, profile_.third_derivative(cell, centre));
         const double ratio = radius / half;
         // Gauss–Legendre with m points errs like ρ^(−2m), ρ = t + √(t² − 1), t = radius/half: these
-        // thresholds keep that below 1e-13 with a margin for the quadratic model's own error.
+        // thresholds keep that near 1e-13 (the radius is a lower bound, often by a factor ~2).
         int points = 0;
-        if (ratio >= 20.0) points = 4;
-        else if (ratio >= 7.0) points = 6;
-        else if (ratio >= 3.0 || depth >= 60) points = 10;
+        if (ratio >= 16.0) points = 4;
+        else if (ratio >= 5.0) points = 6;
+        else if (ratio >= 2.1 || depth >= 60) points = 10;
         if (points == 0) {
             regular(cell, low, centre, depth + 1);
             regular(cell, centre, high, depth + 1);

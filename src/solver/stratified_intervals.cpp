@@ -125,8 +125,9 @@ void StratifiedProfile::add_piece_cells(std::size_t piece, double z_top, double 
         }
         return;
     }
-    // A table's piece is a cubic: rebuild it from n, n′, n″ at the top and n″ at the bottom, and
-    // keep it only if it reproduces the profile at three more points.
+    // A table's piece is a cubic: rebuild it from n and n′ at both ends (the Hermite form, as the
+    // table builds its pieces, so that it agrees to rounding), and keep it only if it reproduces
+    // the profile at three more points.
     double n0, g0, k0, n1, g1, k1;
     profile_->piece_index(piece, z_top, n0, g0, k0);
     profile_->piece_index(piece, z_bottom, n1, g1, k1);
@@ -136,10 +137,11 @@ void StratifiedProfile::add_piece_cells(std::size_t piece, double z_top, double 
     cubic.z_bottom = z_bottom;
     cubic.form = Form::cubic;
     cubic.piece = piece;
+    const double secant = (n1 - n0) / h;
     cubic.c[0] = n0;
     cubic.c[1] = g0;
-    cubic.c[2] = 0.5 * k0;
-    cubic.c[3] = (k1 - k0) / (6.0 * h);
+    cubic.c[2] = (3.0 * secant - 2.0 * g0 - g1) / h;
+    cubic.c[3] = (g0 + g1 - 2.0 * secant) / (h * h);
     bool is_cubic = std::isfinite(cubic.c[3]);
     for (double fraction : {1.0, 0.5, 0.25, 0.8}) {
         if (!is_cubic) break;
@@ -198,6 +200,16 @@ void StratifiedProfile::evaluate(std::size_t cell, double z, double& n, double& 
         }
         case Form::generic: profile_->piece_index(c.piece, z, n, dn_dz, d2n_dz2); return;
     }
+}
+
+double StratifiedProfile::third_derivative(std::size_t cell, double z) const {
+    const Cell& c = cells_[cell];
+    switch (c.form) {
+        case Form::cubic: return 6.0 * c.c[3];
+        case Form::exponential: return -exp_c_ * exp_c_ * exp_c_ * exp_b_ * std::exp(exp_c_ * z);
+        case Form::generic: return 0.0;
+    }
+    return 0.0;
 }
 
 double StratifiedProfile::index(double z) const {

@@ -100,6 +100,9 @@ public:
     double cell_bottom(std::size_t cell) const { return cells_[cell].z_bottom; }
     // n, dn/dz and d²n/dz² of one cell's formula at z (continued beyond the cell if z is outside).
     void evaluate(std::size_t cell, double z, double& n, double& dn_dz, double& d2n_dz2) const;
+    // d³n/dz³ of a cell's formula at z: exact for cubic and exponential cells, 0 for the others
+    // (their cells are short, see above). Used to bound the distance to the zeros of n² − ξ².
+    double third_derivative(std::size_t cell, double z) const;
     double index(double z) const;
     // (n(z) − n(z_ref)) / (z − z_ref) for two points of one cell, without cancellation; dn/dz at
     // z_ref when z = z_ref.
