@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cmath>
 #include <limits>
+#include <unordered_map>
 
 #include <boost/math/tools/roots.hpp>
 #include <fmt/format.h>
@@ -59,24 +60,83 @@ struct Sample {
     double slope = not_a_number;  // dX/dv
 };
 
-class FamilySearch {
+// Every leg any family of one range of ξ needs, for one ξ (distance and derivative only): the
+// families are sums of these, so a scan over ξ computes them once for all families.
+struct LegSet {
+    bool valid = false;
+    bool has_lower = false;
+    LegIntegrals source_receiver, source_upper, upper_receiver, source_lower, lower_receiver, traversal;
+};
+
+class RangeLegs {
 public:
-    FamilySearch(const StratifiedProfile& profile, const RayParameterRange& range, const PathFamily& family,
-                 double z_source, double z_receiver, double distance, int samples)
-        : profile_(profile), range_(range), family_(family), z_source_(z_source), z_receiver_(z_receiver),
-          distance_(distance), samples_(samples) {}
+    RangeLegs(const StratifiedProfile& profile, const RayParameterRange& range, double z_source, double z_receiver)
+        : profile_(profile), range_(range), z_source_(z_source), z_receiver_(z_receiver) {}
 
     RayLevel level(double v) const {
         return RayLevel::anchored_at(profile_, range_.anchor_z, (range_.high - range_.low) * v * v);
     }
+    double dxi_dv(double v) const { return -2.0 * (range_.high - range_.low) * v; }
+
+    const LegSet& at(double v) {
+        auto found = cache_.find(v);
+        if (found != cache_.end()) return found->second;
+        LegSet set;
+        const RayLevel lv = level(v);
+        const auto interval = profile_.interval_around(lv, z_source_);
+        if (interval && interval->contains(z_receiver_)) {
+            set.valid = true;
+            const LegEndpoint source{z_source_}, receiver{z_receiver_}, upper = upper_endpoint(*interval);
+            set.source_receiver = leg_integrals(profile_, lv, source, receiver, false);
+            set.source_upper = leg_integrals(profile_, lv, source, upper, false);
+            set.upper_receiver = leg_integrals(profile_, lv, upper, receiver, false);
+            if (interval->lower_kind != LowerEndKind::unbounded) {
+                set.has_lower = true;
+                const LegEndpoint lower = lower_endpoint(*interval);
+                set.source_lower = leg_integrals(profile_, lv, source, lower, false);
+                set.lower_receiver = leg_integrals(profile_, lv, lower, receiver, false);
+                set.traversal = leg_integrals(profile_, lv, upper, lower, false);
+            }
+        }
+        return cache_.emplace(v, set).first->second;
+    }
+
+private:
+    const StratifiedProfile& profile_;
+    RayParameterRange range_;
+    double z_source_, z_receiver_;
+    std::unordered_map<double, LegSet> cache_;
+};
+
+// X and dX/dξ of a family from the legs of its range; empty when it does not exist there.
+std::optional<std::pair<double, double>> family_distance(const LegSet& set, const PathFamily& family) {
+    if (!set.valid) return std::nullopt;
+    if (family.ends == 0) return std::pair{set.source_receiver.distance_m, set.source_receiver.distance_derivative};
+    const bool meets_lower = family.ends >= 2 || !family.starts_upward;
+    if (meets_lower && !set.has_lower) return std::nullopt;
+    const LegIntegrals& first = family.starts_upward ? set.source_upper : set.source_lower;
+    const LegIntegrals& last = is_upper_end(family, family.ends - 1) ? set.upper_receiver : set.lower_receiver;
+    double x = first.distance_m + last.distance_m, dx = first.distance_derivative + last.distance_derivative;
+    if (family.ends >= 2) {
+        x += (family.ends - 1) * set.traversal.distance_m;
+        dx += (family.ends - 1) * set.traversal.distance_derivative;
+    }
+    return std::pair{x, dx};
+}
+
+class FamilySearch {
+public:
+    FamilySearch(RangeLegs& legs, const RayParameterRange& range, const PathFamily& family, double distance,
+                 int samples)
+        : legs_(legs), range_(range), family_(family), distance_(distance), samples_(samples) {}
 
     Sample evaluate(double v) const {
         Sample s;
         s.v = v;
-        const auto legs = family_legs(profile_, level(v), family_, z_source_, z_receiver_, false);
-        if (!legs) return s;
-        s.f = legs->total.distance_m - distance_;
-        s.slope = legs->total.distance_derivative * (-2.0 * (range_.high - range_.low) * v);
+        const auto x = family_distance(legs_.at(v), family_);
+        if (!x) return s;
+        s.f = x->first - distance_;
+        s.slope = x->second * legs_.dxi_dv(v);
         return s;
     }
 
@@ -166,10 +226,10 @@ private:
         return evaluate(0.5 * (bracket.first + bracket.second));
     }
 
-    const StratifiedProfile& profile_;
+    RangeLegs& legs_;
     RayParameterRange range_;
     PathFamily family_;
-    double z_source_, z_receiver_, distance_;
+    double distance_;
     int samples_;
 };
 
@@ -372,11 +432,12 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
         if (z_source != z_receiver) families.push_back({z_receiver > z_source, 0});
         for (int ends = 1; ends <= options.max_bounces; ++ends)
             for (bool upward : {true, false}) families.push_back({upward, ends});
+        RangeLegs range_legs(profile, range, z_source, z_receiver);
         for (const PathFamily& family : families) {
             if (family_is_degenerate(family, *interval, z_source, z_receiver, options.bottom_paths)) continue;
-            FamilySearch search(profile, range, family, z_source, z_receiver, distance, options.scan_samples);
+            FamilySearch search(range_legs, range, family, distance, options.scan_samples);
             for (double v : search.roots()) {
-                const RayLevel level = search.level(v);
+                const RayLevel level = range_legs.level(v);
                 const auto legs = family_legs(profile, level, family, z_source, z_receiver, true);
                 if (!legs || !std::isfinite(legs->total.optical_path_m)) continue;
                 // The family's kinds of ends must be those of the range (a root on its edge may see the next).

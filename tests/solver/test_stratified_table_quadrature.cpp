@@ -11,7 +11,7 @@
 
 #include "core/constants.hpp"
 #include "model/table_profile.hpp"
-#include "solver/snell_integrals.hpp"
+#include "solver/path_families.hpp"
 #include "support/snell_integrals.hpp"
 
 using namespace firnray;
@@ -120,5 +120,29 @@ TEST_CASE("stratified ∂x/∂ξ to a turning point on a table with an inversion
         const auto ours = leg_integrals(profile, RayLevel::plain(xi), {-60.0}, {interval->upper_z, LegEnd::turning});
         INFO("ξ " << xi);
         CHECK(ours.distance_derivative == Approx(central).epsilon(1e-5));
+    }
+}
+
+TEST_CASE("stratified paths on a table with a density inversion are the same both ways, same times and "
+          "mirrored angles (reciprocity theorem)",
+          "[solver][stratified]") {
+    const StratifiedProfile profile(log_with_inversion());
+    StratifiedPathOptions options;
+    options.max_bounces = 3;
+    struct Pair {
+        double zs, zr, distance;
+    };
+    for (const Pair& pair : {Pair{-31.0, -60.0, 150.0}, Pair{-36.0, -38.0, 80.0}, Pair{-5.0, -100.0, 90.0}}) {
+        const auto forward = find_stratified_paths(profile, pair.zs, pair.zr, pair.distance, options);
+        const auto backward = find_stratified_paths(profile, pair.zr, pair.zs, pair.distance, options);
+        INFO("pair " << pair.zs << " and " << pair.zr << " at " << pair.distance << " m");
+        REQUIRE_FALSE(forward.empty());
+        REQUIRE(forward.size() == backward.size());
+        for (std::size_t i = 0; i < forward.size(); ++i) {
+            CHECK(std::abs(forward[i].time_s - backward[i].time_s) < 1e-15);
+            CHECK(forward[i].ray_parameter == Approx(backward[i].ray_parameter).epsilon(1e-10));
+            CHECK(std::abs(forward[i].launch_zenith_rad - (pi - backward[i].arrival_zenith_rad)) < deg_to_rad(1e-6));
+            CHECK(forward[i].turns.size() == backward[i].turns.size());
+        }
     }
 }
