@@ -59,21 +59,35 @@ struct Sums {
     double x = 0.0, optical = 0.0, length = 0.0, derivative = 0.0;
 };
 
-// A radius around a point inside which Q² = n² − ξ² has no zero, from its Taylor coefficients
-// there with n taken as the cubic n + n′δ + n″δ²/2 + n‴δ³/6 (exact for a table's cells): by
-// Fujiwara's bound every zero of a polynomial a0 + a1 δ + … + a6 δ⁶ has
-// |δ| >= 1 / (2 max_k |a_k/a0|^(1/k)). It sets how far a panel centred there may reach.
-double zero_free_radius(double gap, double n, double xi, double n1, double n2, double n3) {
-    const double a0 = gap * (n + xi);
-    if (!(a0 > 0.0)) return 0.0;
-    const double m2 = 0.5 * n2, m3 = n3 / 6.0;
-    const double a[6] = {2.0 * n * n1,           n1 * n1 + 2.0 * n * m2, 2.0 * n * m3 + 2.0 * n1 * m2,
-                         m2 * m2 + 2.0 * n1 * m3, 2.0 * m2 * m3,          m3 * m3};
-    double largest = 0.0;
-    for (int k = 0; k < 6; ++k)
-        if (a[k] != 0.0) largest = std::max(largest, std::pow(std::abs(a[k]) / a0, 1.0 / (k + 1)));
-    return largest == 0.0 ? infinity : 0.5 / largest;
-}
+// Taylor coefficients a0 … a6 of Q² = n² − ξ² about a point, with n taken as the cubic
+// n + n′δ + n″δ²/2 + n‴δ³/6 there (exact for a table's cells). By Fujiwara's bound every zero of
+// a0 + a1 δ + … + a6 δ⁶ has |δ| >= 1 / (2 max_k |a_k/a0|^(1/k)), so a panel of half-width h
+// centred there has no zero of Q² within t·h when |a_k| <= a0 (1/(2 t h))^k for every k.
+struct SquareTaylor {
+    double a0 = 0.0;
+    double a[6] = {0.0, 0.0, 0.0, 0.0, 0.0, 0.0};
+
+    SquareTaylor(double gap, double n, double xi, double n1, double n2, double n3) {
+        a0 = gap * (n + xi);
+        const double m2 = 0.5 * n2, m3 = n3 / 6.0;
+        a[0] = 2.0 * n * n1;
+        a[1] = n1 * n1 + 2.0 * n * m2;
+        a[2] = 2.0 * n * m3 + 2.0 * n1 * m2;
+        a[3] = m2 * m2 + 2.0 * n1 * m3;
+        a[4] = 2.0 * m2 * m3;
+        a[5] = m3 * m3;
+    }
+    bool zero_free_within(double radius) const {
+        if (!(a0 > 0.0)) return false;
+        const double s = 0.5 / radius;
+        double power = s;
+        for (double ak : a) {
+            if (std::abs(ak) > a0 * power) return false;
+            power *= s;
+        }
+        return true;
+    }
+};
 
 class LegQuadrature {
 public:
@@ -92,14 +106,14 @@ public:
             fail();
             return;
         }
-        const double radius = zero_free_radius(g, n, xi_, dn, d2n, profile_.third_derivative(cell, centre));
-        const double ratio = radius / half;
-        // Gauss–Legendre with m points errs like ρ^(−2m), ρ = t + √(t² − 1), t = radius/half: these
-        // thresholds keep that near 1e-13 (the radius is a lower bound, often by a factor ~2).
+        const SquareTaylor taylor(g, n, xi_, dn, d2n, profile_.third_derivative(cell, centre));
+        // Gauss–Legendre with m points errs like ρ^(−2m), ρ = t + √(t² − 1), with t·half the
+        // distance to the nearest zero of Q²: these thresholds keep that near 1e-13 (Fujiwara's
+        // bound is a lower bound, often by a factor ~2).
         int points = 0;
-        if (ratio >= 16.0) points = 4;
-        else if (ratio >= 5.0) points = 6;
-        else if (ratio >= 2.1 || depth >= 60) points = 10;
+        if (taylor.zero_free_within(16.0 * half)) points = 4;
+        else if (taylor.zero_free_within(5.0 * half)) points = 6;
+        else if (taylor.zero_free_within(2.1 * half) || depth >= 60) points = 10;
         if (points == 0) {
             regular(cell, low, centre, depth + 1);
             regular(cell, centre, high, depth + 1);

@@ -112,7 +112,8 @@ void StratifiedProfile::build_cells(double analysis_depth_m) {
 
 void StratifiedProfile::add_piece_cells(std::size_t piece, double z_top, double z_bottom) {
     if (exponential_) {
-        // One formula everywhere; cells of two scale depths keep each quadrature panel smooth.
+        // One formula everywhere; cells of half a scale depth keep the cubic model of n behind the
+        // panel sizes (snell_integrals.cpp) close to the exponential.
         const double step = std::min(0.5 / exp_c_, 250.0);
         for (double top = z_top; top > z_bottom;) {
             Cell cell;

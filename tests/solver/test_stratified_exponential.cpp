@@ -120,6 +120,7 @@ TEST_CASE("stratified paths between deep ends (1.5 to 3 km), where n equals n_de
     };
     const Pair pairs[] = {{-1500.0, -3000.0, 1000.0}, {-2000.0, -2500.0, 300.0}, {-2000.0, -2000.0, 1000.0},
                           {-1800.0, -1800.0, 5.0}, {-2500.0, -2500.001, 0.5}, {-1600.0, -2900.0, 0.0}};
+    double worst_time = 0.0, worst_angle = 0.0;
     for (const Pair& pair : pairs) {
         const auto paths = find_stratified_paths(stratified, pair.zs, pair.zr, pair.distance);
         INFO("pair " << pair.zs << " to " << pair.zr << " at " << pair.distance << " m");
@@ -131,9 +132,13 @@ TEST_CASE("stratified paths between deep ends (1.5 to 3 km), where n equals n_de
         CHECK(std::abs(first.launch_zenith_rad - zenith) < deg_to_rad(0.01));
         CHECK(std::abs(first.arrival_zenith_rad - zenith) < deg_to_rad(0.01));
         CHECK(first.length_m == Approx(d).epsilon(1e-9));
+        worst_time = std::max(worst_time, std::abs(first.time_s - n_deep * d / speed_of_light));
+        worst_angle = std::max({worst_angle, std::abs(first.launch_zenith_rad - zenith), std::abs(first.arrival_zenith_rad - zenith)});
         for (const auto& path : paths) {
             CHECK(path.time_s >= first.time_s);
             CHECK(path.length_m < 1e7);  // never an absurd length
         }
     }
+    WARN("deep pairs: largest difference from straight lines " << worst_time * 1e9 << " ns, " << rad_to_deg(worst_angle)
+                                                                << " deg");
 }
