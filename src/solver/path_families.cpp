@@ -60,12 +60,18 @@ struct Sample {
     double slope = not_a_number;  // dX/dv
 };
 
-// Every leg any family of one range of ξ needs, for one ξ (distance and derivative only): the
-// families are sums of these, so a scan over ξ computes them once for all families.
+// The legs any family of one range of ξ is made of, for one ξ (distance and derivative only),
+// each computed when first asked for: families are sums of these, so a scan over ξ computes them
+// once for all families.
+enum LegName : int { source_receiver, source_upper, upper_receiver, source_lower, lower_receiver, traversal, leg_names };
+
 struct LegSet {
     bool valid = false;
     bool has_lower = false;
-    LegIntegrals source_receiver, source_upper, upper_receiver, source_lower, lower_receiver, traversal;
+    AccessibleInterval interval;
+    RayLevel level;
+    bool computed[leg_names] = {false, false, false, false, false, false};
+    LegIntegrals legs[leg_names];
 };
 
 class RangeLegs {
@@ -78,27 +84,30 @@ public:
     }
     double dxi_dv(double v) const { return -2.0 * (range_.high - range_.low) * v; }
 
-    const LegSet& at(double v) {
+    LegSet& at(double v) {
         auto found = cache_.find(v);
         if (found != cache_.end()) return found->second;
         LegSet set;
-        const RayLevel lv = level(v);
-        const auto interval = profile_.interval_around(lv, z_source_);
+        set.level = level(v);
+        const auto interval = profile_.interval_around(set.level, z_source_);
         if (interval && interval->contains(z_receiver_)) {
             set.valid = true;
-            const LegEndpoint source{z_source_}, receiver{z_receiver_}, upper = upper_endpoint(*interval);
-            set.source_receiver = leg_integrals(profile_, lv, source, receiver, false);
-            set.source_upper = leg_integrals(profile_, lv, source, upper, false);
-            set.upper_receiver = leg_integrals(profile_, lv, upper, receiver, false);
-            if (interval->lower_kind != LowerEndKind::unbounded) {
-                set.has_lower = true;
-                const LegEndpoint lower = lower_endpoint(*interval);
-                set.source_lower = leg_integrals(profile_, lv, source, lower, false);
-                set.lower_receiver = leg_integrals(profile_, lv, lower, receiver, false);
-                set.traversal = leg_integrals(profile_, lv, upper, lower, false);
-            }
+            set.interval = *interval;
+            set.has_lower = interval->lower_kind != LowerEndKind::unbounded;
         }
         return cache_.emplace(v, set).first->second;
+    }
+
+    const LegIntegrals& leg(LegSet& set, LegName name) const {
+        if (!set.computed[name]) {
+            const LegEndpoint source{z_source_}, receiver{z_receiver_};
+            const LegEndpoint upper = upper_endpoint(set.interval), lower = lower_endpoint(set.interval);
+            const LegEndpoint ends[leg_names][2] = {{source, receiver}, {source, upper}, {upper, receiver},
+                                                    {source, lower},    {lower, receiver}, {upper, lower}};
+            set.legs[name] = leg_integrals(profile_, set.level, ends[name][0], ends[name][1], false);
+            set.computed[name] = true;
+        }
+        return set.legs[name];
     }
 
 private:
@@ -109,17 +118,21 @@ private:
 };
 
 // X and dX/dξ of a family from the legs of its range; empty when it does not exist there.
-std::optional<std::pair<double, double>> family_distance(const LegSet& set, const PathFamily& family) {
+std::optional<std::pair<double, double>> family_distance(RangeLegs& legs, LegSet& set, const PathFamily& family) {
     if (!set.valid) return std::nullopt;
-    if (family.ends == 0) return std::pair{set.source_receiver.distance_m, set.source_receiver.distance_derivative};
+    if (family.ends == 0) {
+        const LegIntegrals& direct = legs.leg(set, source_receiver);
+        return std::pair{direct.distance_m, direct.distance_derivative};
+    }
     const bool meets_lower = family.ends >= 2 || !family.starts_upward;
     if (meets_lower && !set.has_lower) return std::nullopt;
-    const LegIntegrals& first = family.starts_upward ? set.source_upper : set.source_lower;
-    const LegIntegrals& last = is_upper_end(family, family.ends - 1) ? set.upper_receiver : set.lower_receiver;
+    const LegIntegrals& first = legs.leg(set, family.starts_upward ? source_upper : source_lower);
+    const LegIntegrals& last = legs.leg(set, is_upper_end(family, family.ends - 1) ? upper_receiver : lower_receiver);
     double x = first.distance_m + last.distance_m, dx = first.distance_derivative + last.distance_derivative;
     if (family.ends >= 2) {
-        x += (family.ends - 1) * set.traversal.distance_m;
-        dx += (family.ends - 1) * set.traversal.distance_derivative;
+        const LegIntegrals& full = legs.leg(set, traversal);
+        x += (family.ends - 1) * full.distance_m;
+        dx += (family.ends - 1) * full.distance_derivative;
     }
     return std::pair{x, dx};
 }
@@ -133,7 +146,7 @@ public:
     Sample evaluate(double v) const {
         Sample s;
         s.v = v;
-        const auto x = family_distance(legs_.at(v), family_);
+        const auto x = family_distance(legs_, legs_.at(v), family_);
         if (!x) return s;
         s.f = x->first - distance_;
         s.slope = x->second * legs_.dxi_dv(v);
