@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "core/constants.hpp"
+#include "model/layered_profile.hpp"
 #include "model/table_profile.hpp"
 #include "solver/path_families.hpp"
 #include "support/snell_integrals.hpp"
@@ -144,5 +145,28 @@ TEST_CASE("stratified paths on a table with a density inversion are the same bot
             CHECK(std::abs(forward[i].launch_zenith_rad - (pi - backward[i].arrival_zenith_rad)) < deg_to_rad(1e-6));
             CHECK(forward[i].turns.size() == backward[i].turns.size());
         }
+    }
+}
+
+TEST_CASE("stratified legs on a layered profile (smooth transitions, no joins, generic cells) agree with "
+          "tanh_sinh quadrature of the Snell integrals (Boost.Math)",
+          "[solver][stratified]") {
+    auto layered = std::make_shared<LayeredProfile>(
+        1.35, std::vector<ExponentialLayer>{ExponentialLayer{15.0, 1.82, 22.0}, ExponentialLayer{INFINITY, 1.78, 40.0}},
+        2.0);
+    const StratifiedProfile profile(layered);
+    CHECK(profile.inversions().empty());
+    const std::vector<double> breaks{-16.0, -14.0};  // the transition zone
+    struct Leg {
+        double xi, z_a, z_b;
+    };
+    for (const Leg& leg : {Leg{0.0, -300.0, -2.0}, Leg{1.2, -200.0, 0.0}, Leg{1.5, -80.0, -10.0}, Leg{1.7, -500.0, -60.0}}) {
+        const double low = std::min(leg.z_a, leg.z_b), high = std::max(leg.z_a, leg.z_b);
+        const auto ours = leg_integrals(profile, RayLevel::plain(leg.xi), {leg.z_a}, {leg.z_b});
+        const auto ref = test::snell_integrals(*layered, leg.xi, low, high, test::plain_gap(*layered, leg.xi), breaks);
+        INFO("ξ " << leg.xi << " from " << leg.z_a << " to " << leg.z_b);
+        CHECK(ours.distance_m == Approx(ref.distance_m).epsilon(1e-10).margin(1e-13));
+        CHECK(ours.optical_path_m == Approx(ref.optical_path_m).epsilon(1e-10));
+        CHECK(ours.length_m == Approx(ref.length_m).epsilon(1e-10));
     }
 }
