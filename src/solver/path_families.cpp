@@ -60,9 +60,10 @@ struct Sample {
     double slope = not_a_number;  // dX/dv
 };
 
-// The legs any family of one range of ξ is made of, for one ξ (distance and derivative only),
-// each computed when first asked for: families are sums of these, so a scan over ξ computes them
-// once for all families.
+// The legs any family of one range of ξ is made of, for one ξ (distance and derivative only).
+// They are sums of the pieces between the interval's ends and the two end points, taken from the
+// top down (upper end, source and receiver in depth order, lower end): each piece is integrated
+// once, when first needed, and serves every family of the range.
 enum LegName : int { source_receiver, source_upper, upper_receiver, source_lower, lower_receiver, traversal, leg_names };
 
 struct LegSet {
@@ -70,8 +71,10 @@ struct LegSet {
     bool has_lower = false;
     AccessibleInterval interval;
     RayLevel level;
-    bool computed[leg_names] = {false, false, false, false, false, false};
-    LegIntegrals legs[leg_names];
+    std::vector<LegEndpoint> points;  // from the top down
+    std::size_t source_index = 0, receiver_index = 0;
+    std::vector<char> computed;
+    std::vector<LegIntegrals> pieces;  // pieces[i]: between points[i] and points[i + 1]
 };
 
 class RangeLegs {
@@ -94,23 +97,46 @@ public:
             set.valid = true;
             set.interval = *interval;
             set.has_lower = interval->lower_kind != LowerEndKind::unbounded;
+            set.points.push_back(upper_endpoint(*interval));
+            const double high = std::max(z_source_, z_receiver_), low = std::min(z_source_, z_receiver_);
+            set.points.push_back({high});
+            if (low != high) set.points.push_back({low});
+            set.source_index = z_source_ == high ? 1 : set.points.size() - 1;
+            set.receiver_index = z_receiver_ == high ? 1 : set.points.size() - 1;
+            if (set.has_lower) set.points.push_back(lower_endpoint(*interval));
+            set.pieces.resize(set.points.size() - 1);
+            set.computed.assign(set.points.size() - 1, 0);
         }
-        return cache_.emplace(v, set).first->second;
+        return cache_.emplace(v, std::move(set)).first->second;
     }
 
-    const LegIntegrals& leg(LegSet& set, LegName name) const {
-        if (!set.computed[name]) {
-            const LegEndpoint source{z_source_}, receiver{z_receiver_};
-            const LegEndpoint upper = upper_endpoint(set.interval), lower = lower_endpoint(set.interval);
-            const LegEndpoint ends[leg_names][2] = {{source, receiver}, {source, upper}, {upper, receiver},
-                                                    {source, lower},    {lower, receiver}, {upper, lower}};
-            set.legs[name] = leg_integrals(profile_, set.level, ends[name][0], ends[name][1], false);
-            set.computed[name] = true;
+    LegIntegrals leg(LegSet& set, LegName name) const {
+        const std::size_t lower = set.points.size() - 1;
+        std::size_t a = 0, b = 0;
+        switch (name) {
+            case source_receiver: a = set.source_index, b = set.receiver_index; break;
+            case source_upper: a = 0, b = set.source_index; break;
+            case upper_receiver: a = 0, b = set.receiver_index; break;
+            case source_lower: a = set.source_index, b = lower; break;
+            case lower_receiver: a = set.receiver_index, b = lower; break;
+            case traversal: a = 0, b = lower; break;
+            case leg_names: break;
         }
-        return set.legs[name];
+        if (a > b) std::swap(a, b);
+        LegIntegrals sum;
+        for (std::size_t i = a; i < b; ++i) add(sum, piece(set, i));
+        return sum;
     }
 
 private:
+    const LegIntegrals& piece(LegSet& set, std::size_t i) const {
+        if (!set.computed[i]) {
+            set.pieces[i] = leg_integrals(profile_, set.level, set.points[i + 1], set.points[i], false);
+            set.computed[i] = 1;
+        }
+        return set.pieces[i];
+    }
+
     const StratifiedProfile& profile_;
     RayParameterRange range_;
     double z_source_, z_receiver_;
@@ -121,16 +147,16 @@ private:
 std::optional<std::pair<double, double>> family_distance(RangeLegs& legs, LegSet& set, const PathFamily& family) {
     if (!set.valid) return std::nullopt;
     if (family.ends == 0) {
-        const LegIntegrals& direct = legs.leg(set, source_receiver);
+        const LegIntegrals direct = legs.leg(set, source_receiver);
         return std::pair{direct.distance_m, direct.distance_derivative};
     }
     const bool meets_lower = family.ends >= 2 || !family.starts_upward;
     if (meets_lower && !set.has_lower) return std::nullopt;
-    const LegIntegrals& first = legs.leg(set, family.starts_upward ? source_upper : source_lower);
-    const LegIntegrals& last = legs.leg(set, is_upper_end(family, family.ends - 1) ? upper_receiver : lower_receiver);
+    const LegIntegrals first = legs.leg(set, family.starts_upward ? source_upper : source_lower);
+    const LegIntegrals last = legs.leg(set, is_upper_end(family, family.ends - 1) ? upper_receiver : lower_receiver);
     double x = first.distance_m + last.distance_m, dx = first.distance_derivative + last.distance_derivative;
     if (family.ends >= 2) {
-        const LegIntegrals& full = legs.leg(set, traversal);
+        const LegIntegrals full = legs.leg(set, traversal);
         x += (family.ends - 1) * full.distance_m;
         dx += (family.ends - 1) * full.distance_derivative;
     }
