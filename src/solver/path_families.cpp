@@ -11,6 +11,7 @@
 #include "core/constants.hpp"
 #include "core/errors.hpp"
 #include "core/text.hpp"
+#include "model/firn_model.hpp"
 
 namespace firnray {
 
@@ -33,6 +34,7 @@ void add(LegIntegrals& total, const LegIntegrals& leg, double times = 1.0) {
     total.optical_path_m += times * leg.optical_path_m;
     total.length_m += times * leg.length_m;
     total.distance_derivative += times * leg.distance_derivative;
+    total.attenuation_exponent += times * leg.attenuation_exponent;
 }
 
 StratifiedPathKind kind_of(const PathFamily& family, const AccessibleInterval& interval) {
@@ -330,6 +332,7 @@ StratifiedPath make_path(const StratifiedProfile& profile, const RayLevel& level
     path.time_s = (legs.total.optical_path_m + xi * (distance - legs.total.distance_m)) / speed_of_light;
     path.length_m = legs.total.length_m;
     path.distance_derivative = legs.total.distance_derivative;
+    path.attenuation_exponent = legs.total.attenuation_exponent;
     auto zenith_up = [&](double z) {
         const double n = profile.index(z), g = std::max(0.0, profile.gap(level, z));
         return std::atan2(xi, std::sqrt(g * (n + xi)));
@@ -394,14 +397,15 @@ std::string PathFamily::label() const {
 }
 
 std::optional<FamilyLegs> family_legs(const StratifiedProfile& profile, const RayLevel& level, const PathFamily& family,
-                                      double z_source, double z_receiver, bool with_time_and_length) {
+                                      double z_source, double z_receiver, bool with_time_and_length,
+                                      const AttenuationProfile* attenuation) {
     const auto interval = profile.interval_around(level, z_source);
     if (!interval || !interval->contains(z_receiver)) return std::nullopt;
     FamilyLegs out;
     out.interval = *interval;
     const LegEndpoint source{z_source, LegEnd::fixed}, receiver{z_receiver, LegEnd::fixed};
     if (family.ends == 0) {
-        out.total = leg_integrals(profile, level, source, receiver, with_time_and_length);
+        out.total = leg_integrals(profile, level, source, receiver, with_time_and_length, true, attenuation);
         return out;
     }
     const bool meets_lower = family.ends >= 2 || !family.starts_upward;
@@ -410,13 +414,13 @@ std::optional<FamilyLegs> family_legs(const StratifiedProfile& profile, const Ra
     const LegEndpoint lower = meets_lower ? lower_endpoint(*interval) : LegEndpoint{};
     const LegEndpoint first = family.starts_upward ? upper : lower;
     const LegEndpoint last = is_upper_end(family, family.ends - 1) ? upper : lower;
-    const LegIntegrals first_leg = leg_integrals(profile, level, source, first, with_time_and_length);
-    const LegIntegrals last_leg = leg_integrals(profile, level, last, receiver, with_time_and_length);
+    const LegIntegrals first_leg = leg_integrals(profile, level, source, first, with_time_and_length, true, attenuation);
+    const LegIntegrals last_leg = leg_integrals(profile, level, last, receiver, with_time_and_length, true, attenuation);
     add(out.total, first_leg);
     add(out.total, last_leg);
     out.first_leg_m = first_leg.distance_m;
     if (family.ends >= 2) {
-        const LegIntegrals traversal = leg_integrals(profile, level, upper, lower, with_time_and_length);
+        const LegIntegrals traversal = leg_integrals(profile, level, upper, lower, with_time_and_length, true, attenuation);
         add(out.total, traversal, family.ends - 1);
         out.traversal_m = traversal.distance_m;
     }
@@ -457,6 +461,7 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
             path.length_m = distance;
             path.launch_zenith_rad = path.arrival_zenith_rad = pi / 2.0;
             path.distance_derivative = infinity;
+            if (options.attenuation) path.attenuation_exponent = distance / options.attenuation->length_m(z_source);
             paths.push_back(path);
         }
     }
@@ -477,7 +482,8 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
             FamilySearch search(range_legs, range, family, distance, options.scan_samples);
             for (double v : search.roots()) {
                 const RayLevel level = range_legs.level(v);
-                const auto legs = family_legs(profile, level, family, z_source, z_receiver, true);
+                const auto legs =
+                    family_legs(profile, level, family, z_source, z_receiver, true, options.attenuation.get());
                 if (!legs || !std::isfinite(legs->total.optical_path_m)) continue;
                 // The family's kinds of ends must be those of the range (a root on its edge may see the next).
                 if (family_is_degenerate(family, legs->interval, z_source, z_receiver, options.bottom_paths)) continue;

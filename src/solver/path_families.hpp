@@ -6,6 +6,7 @@
 // interval bounded on both sides; k half-oscillations count k times one.
 #pragma once
 
+#include <memory>
 #include <optional>
 #include <string>
 #include <vector>
@@ -55,7 +56,8 @@ struct FamilyLegs {
 // Empty when the family does not exist for this level: the receiver is not in the source's
 // interval, a lower end is needed but the interval is unbounded below, or it has no ends at all.
 std::optional<FamilyLegs> family_legs(const StratifiedProfile& profile, const RayLevel& level, const PathFamily& family,
-                                      double z_source, double z_receiver, bool with_time_and_length = true);
+                                      double z_source, double z_receiver, bool with_time_and_length = true,
+                                      const AttenuationProfile* attenuation = nullptr);
 
 struct StratifiedPath {
     StratifiedPathKind kind = StratifiedPathKind::direct;
@@ -66,6 +68,7 @@ struct StratifiedPath {
     double launch_zenith_rad = 0.0;   // direction of travel at the source: 0 up, π/2 horizontal, π down
     double arrival_zenith_rad = 0.0;  // at the receiver
     double distance_derivative = 0.0; // ∂X/∂ξ along the family; infinite where the path is horizontal at an end
+    double attenuation_exponent = 0.0; // Σ ∫ ds/L_α (0 without an attenuation profile)
     std::vector<PathTurn> turns;
 };
 
@@ -76,6 +79,8 @@ struct StratifiedPathOptions {
     bool bottom_paths = true;
     // Samples of ξ per family and range of ξ, with dX/dξ at each, to bracket every root. 4..10000.
     int scan_samples = 16;
+    // The field attenuation to integrate along each path (null: none).
+    std::shared_ptr<const AttenuationProfile> attenuation;
 };
 
 // Every path from z_source to z_receiver (both in the ice, z <= 0, not below the floor) whose ends

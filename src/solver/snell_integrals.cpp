@@ -12,6 +12,7 @@
 #include "core/constants.hpp"
 #include "core/errors.hpp"
 #include "core/text.hpp"
+#include "model/firn_model.hpp"
 
 namespace firnray {
 
@@ -56,7 +57,7 @@ const GaussRule& rule(int points) {
 }
 
 struct Sums {
-    double x = 0.0, optical = 0.0, length = 0.0, derivative = 0.0;
+    double x = 0.0, optical = 0.0, length = 0.0, derivative = 0.0, attenuation = 0.0;
 };
 
 // Taylor coefficients a0 … a6 of Q² = n² − ξ² about a point, with n taken as the cubic
@@ -91,9 +92,11 @@ struct SquareTaylor {
 
 class LegQuadrature {
 public:
-    LegQuadrature(const StratifiedProfile& profile, const RayLevel& level, bool with_time, bool with_derivative)
+    // attenuation: a depth-dependent attenuation length to integrate ∫ ds/L along (or null).
+    LegQuadrature(const StratifiedProfile& profile, const RayLevel& level, bool with_time, bool with_derivative,
+                  const AttenuationProfile* attenuation)
         : profile_(profile), level_(level), xi_(level.ray_parameter), with_time_(with_time),
-          with_derivative_(with_derivative) {}
+          with_derivative_(with_derivative), attenuation_(attenuation) {}
 
     // Panels of [low, high] inside one cell, none of which ends at a zero of Q.
     void regular(std::size_t cell, double low, double high, int depth = 0) {
@@ -134,6 +137,7 @@ public:
             if (with_time_) {
                 sums_.optical += w * nz * nz * inverse_q;
                 sums_.length += w * nz * inverse_q;
+                if (attenuation_) sums_.attenuation += w * nz * inverse_q / attenuation_->length_m(z);
             }
             if (with_derivative_) sums_.derivative += w * nz * nz * inverse_q / q2;
         }
@@ -218,6 +222,7 @@ public:
             if (with_time_) {
                 sums_.optical += w * 2.0 * n * n / k;
                 sums_.length += w * 2.0 * n / k;
+                if (attenuation_) sums_.attenuation += w * 2.0 * n / (k * attenuation_->length_m(z));
             }
             if (with_derivative_) {
                 if (kind == LegEnd::turning) {
@@ -255,7 +260,7 @@ private:
     // taken as infinitely long, the limit it approaches.
     void fail() {
         failed_ = true;
-        sums_.x = sums_.optical = sums_.length = infinity;
+        sums_.x = sums_.optical = sums_.length = sums_.attenuation = infinity;
         sums_.derivative = std::numeric_limits<double>::quiet_NaN();
     }
     static constexpr int max_panels = 4000;
@@ -266,6 +271,7 @@ private:
     const RayLevel& level_;
     double xi_;
     bool with_time_, with_derivative_;
+    const AttenuationProfile* attenuation_;
     Sums sums_;
 };
 
@@ -314,15 +320,21 @@ void check_end(const StratifiedProfile& profile, double z) {
 }  // namespace
 
 LegIntegrals leg_integrals(const StratifiedProfile& profile, const RayLevel& level, LegEndpoint a, LegEndpoint b,
-                           bool with_time_and_length, bool with_derivative) {
+                           bool with_time_and_length, bool with_derivative, const AttenuationProfile* attenuation) {
+    // A uniform length needs no quadrature: the exponent is s/L.
+    const std::optional<double> uniform = attenuation ? attenuation->constant_length_m() : std::nullopt;
+    const AttenuationProfile* varying = uniform ? nullptr : attenuation;
     check_end(profile, a.z);
     check_end(profile, b.z);
     if (a.z > b.z) std::swap(a, b);
     LegIntegrals out;
     const double height = b.z - a.z;
-    if (auto limit = horizontal_limit(profile, level, a, b)) return *limit;
+    if (auto limit = horizontal_limit(profile, level, a, b)) {
+        if (attenuation) limit->attenuation_exponent = limit->length_m / attenuation->length_m(b.z);
+        return *limit;
+    }
     if (height == 0.0) return out;
-    LegQuadrature quadrature(profile, level, with_time_and_length, with_derivative);
+    LegQuadrature quadrature(profile, level, with_time_and_length, with_derivative, with_time_and_length ? varying : nullptr);
     // Each end may take at most half of the leg.
     std::size_t cell_low, cell_high;
     double g_low, g_high, slope_low, slope_high;
@@ -343,6 +355,7 @@ LegIntegrals leg_integrals(const StratifiedProfile& profile, const RayLevel& lev
     out.distance_m = s.x;
     out.optical_path_m = s.optical;
     out.length_m = s.length;
+    if (with_time_and_length && attenuation) out.attenuation_exponent = uniform ? s.length / *uniform : s.attenuation;
     out.distance_derivative = with_derivative ? s.derivative : std::numeric_limits<double>::quiet_NaN();
     return out;
 }

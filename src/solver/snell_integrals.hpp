@@ -11,6 +11,8 @@
 
 namespace firnray {
 
+class AttenuationProfile;
+
 enum class LegEnd : unsigned char {
     fixed,    // a given depth (source, receiver, surface or bottom reflection)
     turning,  // a turning point of the ray: n = ξ there, and the end moves with ξ
@@ -25,6 +27,7 @@ struct LegIntegrals {
     double distance_m = 0.0;      // x >= 0
     double optical_path_m = 0.0;  // c·T
     double length_m = 0.0;        // s
+    double attenuation_exponent = 0.0;  // ∫ ds/L_α, when an attenuation profile is given
     // ∂x/∂ξ (m per unit ξ): at fixed ends ∫ n²/Q³ dz; with a turning end, the total derivative as
     // that end moves with ξ (finite, possibly negative). Infinite at a fixed end where n = ξ.
     double distance_derivative = 0.0;
@@ -35,8 +38,10 @@ struct LegIntegrals {
 // StratifiedProfile::interval_around). A turning end where dn/dz = 0 too (a double root: the ray
 // is trapped horizontally there) gives infinite distance, time and length and a NaN derivative:
 // a limit, which path finders treat as such. Throws DataInputError for ends above the surface or
-// below the profile's floor.
+// below the profile's floor. With an attenuation profile (and with_time_and_length) the field
+// attenuation exponent ∫ ds/L_α is added: s/L for a uniform length, the same quadrature otherwise.
 LegIntegrals leg_integrals(const StratifiedProfile& profile, const RayLevel& level, LegEndpoint a, LegEndpoint b,
-                           bool with_time_and_length = true, bool with_derivative = true);
+                           bool with_time_and_length = true, bool with_derivative = true,
+                           const AttenuationProfile* attenuation = nullptr);
 
 }  // namespace firnray

@@ -9,6 +9,8 @@
 #include <vector>
 
 #include "core/constants.hpp"
+#include <boost/math/quadrature/tanh_sinh.hpp>
+
 #include "paths/find_paths.hpp"
 #include "solver/closed_form_solver.hpp"
 #include "solver/path_families.hpp"
@@ -141,4 +143,40 @@ TEST_CASE("stratified paths between deep ends (1.5 to 3 km), where n equals n_de
     }
     WARN("deep pairs: largest difference from straight lines " << worst_time * 1e9 << " ns, " << rad_to_deg(worst_angle)
                                                                 << " deg");
+}
+
+namespace {
+// L(z) = 900 m + 0.5·z (shorter deeper, as in warmer ice): made up for the test.
+class SlopedAttenuation final : public AttenuationProfile {
+public:
+    double length_m(double z) const override { return 900.0 + 0.5 * z; }
+    std::string describe() const override { return "test: sloped"; }
+};
+}  // namespace
+
+TEST_CASE("stratified attenuation exponent: s/L for a uniform length, and ∫ n/(Q L) dz against tanh_sinh "
+          "quadrature (Boost.Math) for a depth-dependent one",
+          "[solver][stratified]") {
+    const auto profile = firn();
+    const StratifiedProfile stratified(profile);
+    const test::ConstantAttenuation uniform(700.0);
+    const SlopedAttenuation sloped;
+    boost::math::quadrature::tanh_sinh<double> quadrature;
+    for (double xi : {0.3, 1.2, 1.55}) {
+        const auto leg = leg_integrals(stratified, RayLevel::plain(xi), {-400.0}, {-30.0}, true, true, &uniform);
+        CHECK(leg.attenuation_exponent == Approx(leg.length_m / 700.0).epsilon(1e-14));
+        const auto ours = leg_integrals(stratified, RayLevel::plain(xi), {-400.0}, {-30.0}, true, true, &sloped);
+        const double ref = quadrature.integrate(
+            [&](double z) {
+                const double n = profile->index(z);
+                return n / (std::sqrt((n - xi) * (n + xi)) * sloped.length_m(z));
+            },
+            -400.0, -30.0, 1e-14);
+        INFO("ξ " << xi);
+        CHECK(ours.attenuation_exponent == Approx(ref).epsilon(1e-11));
+    }
+    StratifiedPathOptions options;
+    options.attenuation = std::make_shared<test::ConstantAttenuation>(700.0);
+    for (const auto& path : find_stratified_paths(stratified, -20.0, -150.0, 200.0, options))
+        CHECK(path.attenuation_exponent == Approx(path.length_m / 700.0).epsilon(1e-12));
 }
