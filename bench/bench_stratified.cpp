@@ -3,7 +3,9 @@
 // layering of ±15 kg/m³ (±0.013 in n) and an ice lens at 60 m, interpolated by the monotone cubic
 // of TableProfile, so n falls with depth in many places. Prints the cost of one leg (fixed ends, a
 // turning end, a whole duct), and the median cost of finding every path of a pair (max_bounces 1
-// and 4) over a grid of pairs, and the same for the exponential profile.
+// and 4) over a grid of pairs, and the same for the exponential profile. Last, today's find_paths
+// on a smooth 200-point log (the trend alone, n growing with depth) with NumericSolver and with
+// StratifiedSolver, the drop-in RaySolver on the same quadrature.
 //
 // Times are CPU time of the calling thread (the machine is often shared, and wall-clock figures
 // then mostly measure the other processes).
@@ -18,11 +20,23 @@
 #include <vector>
 
 #include "model/table_profile.hpp"
+#include "paths/find_paths.hpp"
+#include "solver/numeric_solver.hpp"
 #include "solver/path_families.hpp"
+#include "solver/stratified_solver.hpp"
 
 using namespace firnray;
 
 namespace {
+
+std::shared_ptr<const IndexProfile> smooth_log() {
+    std::vector<double> depth, n;
+    for (int i = 0; i < 200; ++i) {
+        depth.push_back(i);
+        n.push_back(1.78 - 0.43 * std::exp(-i / 37.0));
+    }
+    return std::make_shared<TableProfile>(depth, n);
+}
 
 std::shared_ptr<const IndexProfile> synthetic_log() {
     std::vector<double> depth, n;
@@ -99,6 +113,28 @@ int main(int argc, char** argv) {
     bench_pairs("log", log, per_depth, 1);
     bench_pairs("log", log, per_depth, 4);
     bench_pairs("exponential", exponential, per_depth, 1);
+
+    auto model = std::make_shared<FirnModel>();
+    model->name = "smooth log";
+    model->origin = "bench";
+    model->index = smooth_log();
+    const NumericSolver numeric(model);
+    const StratifiedSolver stratified(model);
+    for (const RaySolver* solver : {static_cast<const RaySolver*>(&numeric), static_cast<const RaySolver*>(&stratified)}) {
+        std::vector<double> costs;
+        std::size_t paths = 0;
+        for (int i = 0; i < per_depth; ++i)
+            for (int j = 0; j < per_depth; ++j) {
+                const Point source{0.0, 0.0, -5.0 - 190.0 * i / per_depth};
+                const Point receiver{20.0 + 480.0 * ((i * 7 + j * 3) % per_depth) / per_depth, 0.0, -3.0 - 180.0 * j / per_depth};
+                const double start = cpu_microseconds();
+                paths += find_paths(*solver, source, receiver).size();
+                costs.push_back(cpu_microseconds() - start);
+            }
+        std::sort(costs.begin(), costs.end());
+        std::printf("find_paths, smooth log, %-10s: %zu pairs, %zu paths, CPU per pair: median %.0f us, 90%% %.0f us\n",
+                    solver->name().c_str(), costs.size(), paths, costs[costs.size() / 2], costs[costs.size() * 9 / 10]);
+    }
     (void)sink;
     return 0;
 }

@@ -166,6 +166,11 @@ public:
     EndPiece plan_end(double z_end, LegEnd kind, int inward, double available, std::size_t& cell, double& g0,
                       double& slope_in, bool& double_root) {
         cell = profile_.cell_at(z_end, inward);
+        // An end within rounding of the cell's far boundary (a turning point found just beside a
+        // knot) takes the next cell's formula, continued over that sliver.
+        const double room = inward > 0 ? profile_.cell_top(cell) - z_end : z_end - profile_.cell_bottom(cell);
+        const std::size_t next = inward > 0 ? cell - 1 : cell + 1;
+        if (room <= 1e-9 * std::max(1.0, std::abs(z_end)) && next < profile_.cell_count()) cell = next;
         double n, dn, d2n;
         profile_.evaluate(cell, z_end, n, dn, d2n);
         slope_in = dn * inward;
@@ -183,7 +188,7 @@ public:
         }
         const double q1 = 2.0 * n * dn, q2 = 2.0 * (dn * dn + n * d2n);
         const double curvature_length = q2 == 0.0 ? infinity : std::abs(q1 / q2);
-        const double cell_room = inward > 0 ? profile_.cell_top(cell) - z_end : z_end - profile_.cell_bottom(cell);
+        const double cell_room = std::max(0.0, inward > 0 ? profile_.cell_top(cell) - z_end : z_end - profile_.cell_bottom(cell));
         piece.length = std::min({available, 0.125 * curvature_length, cell_room});
         const double virtual_root_distance = g0 / slope_in;
         piece.used = piece.length > 0.0 && (kind == LegEnd::turning || virtual_root_distance < piece.length);
