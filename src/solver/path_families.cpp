@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdint>
 #include <limits>
 #include <unordered_map>
 
@@ -485,6 +486,8 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
                 const auto legs =
                     family_legs(profile, level, family, z_source, z_receiver, true, options.attenuation.get());
                 if (!legs || !std::isfinite(legs->total.optical_path_m)) continue;
+                // A jump of X across R (ξ not resolved by a double there), not a root.
+                if (std::abs(legs->total.distance_m - distance) > 1e-6 * (1.0 + distance)) continue;
                 // The family's kinds of ends must be those of the range (a root on its edge may see the next).
                 if (family_is_degenerate(family, legs->interval, z_source, z_receiver, options.bottom_paths)) continue;
                 paths.push_back(make_path(profile, level, family, *legs, z_source, z_receiver, distance));
