@@ -170,3 +170,29 @@ TEST_CASE("stratified legs on a layered profile (smooth transitions, no joins, g
         CHECK(ours.length_m == Approx(ref.length_m).epsilon(1e-10));
     }
 }
+
+TEST_CASE("every stratified path on a table with a density inversion joins its ends: X(ξ) of its family equals R, "
+          "and no path is faster than the straight line at the lowest n of the profile (definition, Fermat)",
+          "[solver][stratified]") {
+    const auto table = log_with_inversion();
+    const StratifiedProfile profile(table);
+    StratifiedPathOptions options;
+    options.max_bounces = 4;
+    const double n_lowest = profile.minimum_index(profile.floor_z(), 0.0).first;
+    for (auto [zs, zr, r] : {std::tuple{-31.0, -33.0, 60.0}, std::tuple{-36.0, -100.0, 250.0},
+                             std::tuple{-50.0, -10.0, 400.0}, std::tuple{-37.0, -37.0, 90.0}}) {
+        const auto paths = find_stratified_paths(profile, zs, zr, r, options);
+        INFO("pair " << zs << " to " << zr << " at " << r << " m");
+        for (const auto& path : paths) {
+            INFO(path.family << " ξ " << path.ray_parameter);
+            const PathFamily family{path.family == "direct" ? zr > zs : path.family[0] == 'U',
+                                    path.family == "direct" ? 0 : static_cast<int>(path.family.size())};
+            const auto legs = family_legs(profile, RayLevel::plain(path.ray_parameter), family, zs, zr, false);
+            REQUIRE(legs);
+            const double tolerance = 1e-6 + 4e-16 * path.ray_parameter * std::abs(path.distance_derivative);
+            CHECK(std::abs(legs->total.distance_m - r) <= tolerance);
+            CHECK(path.time_s >= n_lowest * std::hypot(r, zr - zs) / speed_of_light);
+            CHECK(static_cast<int>(path.turns.size()) == family.ends);
+        }
+    }
+}
