@@ -1,0 +1,509 @@
+#include "solver/path_families.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdint>
+#include <limits>
+#include <unordered_map>
+
+#include <boost/math/tools/roots.hpp>
+#include <fmt/format.h>
+
+#include "core/constants.hpp"
+#include "core/errors.hpp"
+#include "core/text.hpp"
+#include "model/firn_model.hpp"
+
+namespace firnray {
+
+namespace {
+
+constexpr double infinity = std::numeric_limits<double>::infinity();
+constexpr double not_a_number = std::numeric_limits<double>::quiet_NaN();
+
+bool is_upper_end(const PathFamily& family, int j) { return family.starts_upward == (j % 2 == 0); }
+
+LegEndpoint upper_endpoint(const AccessibleInterval& interval) {
+    return {interval.upper_z, interval.upper_kind == UpperEndKind::turning ? LegEnd::turning : LegEnd::fixed};
+}
+LegEndpoint lower_endpoint(const AccessibleInterval& interval) {
+    return {interval.lower_z, interval.lower_kind == LowerEndKind::turning ? LegEnd::turning : LegEnd::fixed};
+}
+
+void add(LegIntegrals& total, const LegIntegrals& leg, double times = 1.0) {
+    total.distance_m += times * leg.distance_m;
+    total.optical_path_m += times * leg.optical_path_m;
+    total.length_m += times * leg.length_m;
+    total.distance_derivative += times * leg.distance_derivative;
+    total.attenuation_exponent += times * leg.attenuation_exponent;
+}
+
+StratifiedPathKind kind_of(const PathFamily& family, const AccessibleInterval& interval) {
+    if (family.ends == 0) return StratifiedPathKind::direct;
+    const bool meets_lower = family.ends >= 2 || !family.starts_upward;
+    if (meets_lower && interval.lower_kind == LowerEndKind::bottom) return StratifiedPathKind::bottom;
+    if (family.ends >= 2) return StratifiedPathKind::ducted;
+    if (!family.starts_upward) return StratifiedPathKind::refracted_below;
+    return interval.upper_kind == UpperEndKind::turning ? StratifiedPathKind::refracted : StratifiedPathKind::reflected;
+}
+
+void require(bool ok, const std::string& message, const char* key) {
+    if (!ok) throw DataInputError(message, {"", 0, key});
+}
+
+// One range of ξ in which the interval's ends keep their kinds: ξ = n(anchor) − span·v², v ∈ [0, 1].
+struct RayParameterRange {
+    double high = 0.0, low = 0.0;
+    double anchor_z = 0.0;
+};
+
+struct Sample {
+    double v = 0.0;
+    double f = not_a_number;      // X − R (+∞ where X diverges)
+    double slope = not_a_number;  // dX/dv
+};
+
+// The legs any family of one range of ξ is made of, for one ξ (distance and derivative only).
+// They are sums of the pieces between the interval's ends and the two end points, taken from the
+// top down (upper end, source and receiver in depth order, lower end): each piece is integrated
+// once, when first needed, and serves every family of the range.
+enum LegName : int { source_receiver, source_upper, upper_receiver, source_lower, lower_receiver, traversal, leg_names };
+
+struct LegSet {
+    bool valid = false;
+    bool has_lower = false;
+    AccessibleInterval interval;
+    RayLevel level;
+    std::vector<LegEndpoint> points;  // from the top down
+    std::size_t source_index = 0, receiver_index = 0;
+    std::vector<char> computed;
+    std::vector<LegIntegrals> pieces;  // pieces[i]: between points[i] and points[i + 1]
+};
+
+class RangeLegs {
+public:
+    RangeLegs(const StratifiedProfile& profile, const RayParameterRange& range, double z_source, double z_receiver)
+        : profile_(profile), range_(range), z_source_(z_source), z_receiver_(z_receiver) {}
+
+    RayLevel level(double v) const {
+        return RayLevel::anchored_at(profile_, range_.anchor_z, (range_.high - range_.low) * v * v);
+    }
+    double dxi_dv(double v) const { return -2.0 * (range_.high - range_.low) * v; }
+
+    LegSet& at(double v) {
+        auto found = cache_.find(v);
+        if (found != cache_.end()) return found->second;
+        LegSet set;
+        set.level = level(v);
+        const auto interval = profile_.interval_around(set.level, z_source_);
+        if (interval && interval->contains(z_receiver_)) {
+            set.valid = true;
+            set.interval = *interval;
+            set.has_lower = interval->lower_kind != LowerEndKind::unbounded;
+            set.points.push_back(upper_endpoint(*interval));
+            const double high = std::max(z_source_, z_receiver_), low = std::min(z_source_, z_receiver_);
+            set.points.push_back({high});
+            if (low != high) set.points.push_back({low});
+            set.source_index = z_source_ == high ? 1 : set.points.size() - 1;
+            set.receiver_index = z_receiver_ == high ? 1 : set.points.size() - 1;
+            if (set.has_lower) set.points.push_back(lower_endpoint(*interval));
+            set.pieces.resize(set.points.size() - 1);
+            set.computed.assign(set.points.size() - 1, 0);
+        }
+        return cache_.emplace(v, std::move(set)).first->second;
+    }
+
+    LegIntegrals leg(LegSet& set, LegName name) const {
+        const std::size_t lower = set.points.size() - 1;
+        std::size_t a = 0, b = 0;
+        switch (name) {
+            case source_receiver: a = set.source_index, b = set.receiver_index; break;
+            case source_upper: a = 0, b = set.source_index; break;
+            case upper_receiver: a = 0, b = set.receiver_index; break;
+            case source_lower: a = set.source_index, b = lower; break;
+            case lower_receiver: a = set.receiver_index, b = lower; break;
+            case traversal: a = 0, b = lower; break;
+            case leg_names: break;
+        }
+        if (a > b) std::swap(a, b);
+        LegIntegrals sum;
+        for (std::size_t i = a; i < b; ++i) add(sum, piece(set, i));
+        return sum;
+    }
+
+private:
+    const LegIntegrals& piece(LegSet& set, std::size_t i) const {
+        if (!set.computed[i]) {
+            set.pieces[i] = leg_integrals(profile_, set.level, set.points[i + 1], set.points[i], false);
+            set.computed[i] = 1;
+        }
+        return set.pieces[i];
+    }
+
+    const StratifiedProfile& profile_;
+    RayParameterRange range_;
+    double z_source_, z_receiver_;
+    std::unordered_map<double, LegSet> cache_;
+};
+
+// X and dX/dξ of a family from the legs of its range; empty when it does not exist there.
+std::optional<std::pair<double, double>> family_distance(RangeLegs& legs, LegSet& set, const PathFamily& family) {
+    if (!set.valid) return std::nullopt;
+    if (family.ends == 0) {
+        const LegIntegrals direct = legs.leg(set, source_receiver);
+        return std::pair{direct.distance_m, direct.distance_derivative};
+    }
+    const bool meets_lower = family.ends >= 2 || !family.starts_upward;
+    if (meets_lower && !set.has_lower) return std::nullopt;
+    const LegIntegrals first = legs.leg(set, family.starts_upward ? source_upper : source_lower);
+    const LegIntegrals last = legs.leg(set, is_upper_end(family, family.ends - 1) ? upper_receiver : lower_receiver);
+    double x = first.distance_m + last.distance_m, dx = first.distance_derivative + last.distance_derivative;
+    if (family.ends >= 2) {
+        const LegIntegrals full = legs.leg(set, traversal);
+        x += (family.ends - 1) * full.distance_m;
+        dx += (family.ends - 1) * full.distance_derivative;
+    }
+    return std::pair{x, dx};
+}
+
+class FamilySearch {
+public:
+    FamilySearch(RangeLegs& legs, const RayParameterRange& range, const PathFamily& family, double distance,
+                 int samples)
+        : legs_(legs), range_(range), family_(family), distance_(distance), samples_(samples) {}
+
+    Sample evaluate(double v) const {
+        Sample s;
+        s.v = v;
+        const auto x = family_distance(legs_, legs_.at(v), family_);
+        if (!x) return s;
+        s.f = x->first - distance_;
+        s.slope = x->second * legs_.dxi_dv(v);
+        return s;
+    }
+
+    // Every v in [0, 1] with X(v) = R.
+    std::vector<double> roots() {
+        std::vector<Sample> samples;
+        for (int i = 0; i <= samples_; ++i) samples.push_back(evaluate(static_cast<double>(i) / samples_));
+        approach_end(samples, true);
+        approach_end(samples, false);
+        std::sort(samples.begin(), samples.end(), [](const Sample& a, const Sample& b) { return a.v < b.v; });
+        std::vector<double> found;
+        for (std::size_t i = 0; i < samples.size(); ++i) {
+            const Sample& a = samples[i];
+            if (a.f == 0.0) found.push_back(a.v);
+            if (i + 1 == samples.size()) break;
+            const Sample& b = samples[i + 1];
+            if (!std::isfinite(a.f) && !std::isfinite(b.f)) continue;
+            if (a.f * b.f < 0.0 || (std::isinf(a.f) && b.f < 0.0) || (std::isinf(b.f) && a.f < 0.0)) {
+                found.push_back(root_between(a, b));
+            } else if (std::isfinite(a.f) && std::isfinite(b.f) && b.f != 0.0 && std::isfinite(a.slope) &&
+                       std::isfinite(b.slope) && a.slope * b.slope < 0.0) {
+                // An extremum inside: two roots if it reaches across R.
+                const Sample e = extremum_between(a, b);
+                if (e.f == 0.0) found.push_back(e.v);
+                else if (std::isfinite(e.f) && e.f * a.f < 0.0) {
+                    found.push_back(root_between(a, e));
+                    found.push_back(root_between(e, b));
+                }
+            }
+        }
+        std::sort(found.begin(), found.end());
+        found.erase(std::unique(found.begin(), found.end()), found.end());
+        return found;
+    }
+
+private:
+    // Where X diverges (or the family ends) at v = 0 or 1, step geometrically toward it until X
+    // exceeds R with X growing toward the end, so that the roots near a double root are bracketed.
+    void approach_end(std::vector<Sample>& samples, bool at_zero) {
+        const Sample& end = at_zero ? samples.front() : samples.back();
+        const Sample& next = at_zero ? samples[1] : samples[samples.size() - 2];
+        // Only where X diverges, or where the family exists next to an end that is itself degenerate.
+        if (std::isfinite(end.f) || (std::isnan(end.f) && !std::isfinite(next.f))) return;
+        // No closer to the end than a few rounding errors of ξ: rays whose ξ lies within that of a
+        // double root (a local minimum of n) are not resolved by a double ξ anyway.
+        const double spacing = 1.0 / samples_, span = range_.high - range_.low;
+        const double closest = 4.0 * std::numeric_limits<double>::epsilon() * range_.high;
+        for (int j = 1; j <= 200; ++j) {
+            const double step = spacing * std::ldexp(1.0, -j);
+            const double v = at_zero ? step : 1.0 - step;
+            if (v <= 0.0 || v >= 1.0) break;
+            const double offset_from_end = at_zero ? span * v * v : span * (1.0 - v * v);
+            if (offset_from_end < closest) break;
+            const Sample s = evaluate(v);
+            samples.push_back(s);
+            const bool growing_toward_end = at_zero ? s.slope < 0.0 : s.slope > 0.0;
+            if (std::isfinite(s.f) && s.f > 0.0 && growing_toward_end) break;
+        }
+    }
+
+    double root_between(const Sample& a, const Sample& b) const {
+        auto f = [&](double v) {
+            const Sample s = evaluate(v);
+            return std::isfinite(s.f) ? s.f : distance_ + 1.0;
+        };
+        double fa = std::isfinite(a.f) ? a.f : distance_ + 1.0, fb = std::isfinite(b.f) ? b.f : distance_ + 1.0;
+        if (fa == 0.0) return a.v;
+        if (fb == 0.0) return b.v;
+        std::uintmax_t iterations = 100;
+        auto tolerance = [](double lo, double hi) {
+            return std::abs(hi - lo) <= 2.0 * std::numeric_limits<double>::epsilon() * std::max(std::abs(lo), std::abs(hi));
+        };
+        const auto bracket = boost::math::tools::toms748_solve(f, a.v, b.v, fa, fb, tolerance, iterations);
+        return std::abs(f(bracket.first)) <= std::abs(f(bracket.second)) ? bracket.first : bracket.second;
+    }
+
+    Sample extremum_between(const Sample& a, const Sample& b) const {
+        auto slope = [&](double v) {
+            const Sample s = evaluate(v);
+            return std::isfinite(s.slope) ? s.slope : 0.0;
+        };
+        std::uintmax_t iterations = 100;
+        auto tolerance = [](double lo, double hi) {
+            return std::abs(hi - lo) <= 1e-14 * std::max(std::abs(lo), std::abs(hi));
+        };
+        const auto bracket = boost::math::tools::toms748_solve(slope, a.v, b.v, a.slope, b.slope, tolerance, iterations);
+        return evaluate(0.5 * (bracket.first + bracket.second));
+    }
+
+    RangeLegs& legs_;
+    RayParameterRange range_;
+    PathFamily family_;
+    double distance_;
+    int samples_;
+};
+
+// The ranges of ξ in [0, min n between the ends): cut where an end of the pair's interval can
+// change kind or jump, i.e. at each new lowest n met going outward from the ends (a local minimum
+// of n lower than everything between it and the ends), and at n of the surface and of the bottom
+// when they are such record lows.
+std::vector<RayParameterRange> ray_parameter_ranges(const StratifiedProfile& profile, double z_low, double z_high) {
+    const auto [top, top_z] = profile.minimum_index(z_low, z_high);
+    std::vector<std::pair<double, double>> cuts{{top, top_z}};  // (ξ, anchor z)
+    const auto& minima = profile.local_minima_z();  // from the surface down
+    double lowest = top;
+    auto consider = [&](double z) {
+        const double n = profile.index(z);
+        if (n < lowest && n > 0.0) {
+            cuts.emplace_back(n, z);
+            lowest = n;
+        }
+    };
+    for (auto it = minima.rbegin(); it != minima.rend(); ++it)
+        if (*it > z_high) consider(*it);
+    consider(0.0);
+    lowest = top;
+    for (double z : minima)
+        if (z < z_low) consider(z);
+    consider(profile.bottom_z() ? *profile.bottom_z() : profile.floor_z());
+    std::sort(cuts.begin(), cuts.end(), [](const auto& a, const auto& b) { return a.first > b.first; });
+    std::vector<RayParameterRange> ranges;
+    for (std::size_t i = 0; i < cuts.size(); ++i) {
+        const double low = i + 1 < cuts.size() ? cuts[i + 1].first : 0.0;
+        if (cuts[i].first > low) ranges.push_back({cuts[i].first, low, cuts[i].second});
+    }
+    return ranges;
+}
+
+bool family_is_degenerate(const PathFamily& family, const AccessibleInterval& interval, double z_source,
+                          double z_receiver, bool bottom_paths) {
+    if (family.ends == 0) return false;
+    const bool meets_lower = family.ends >= 2 || !family.starts_upward;
+    if (meets_lower && interval.lower_kind == LowerEndKind::unbounded) return true;
+    if (meets_lower && interval.lower_kind == LowerEndKind::bottom && !bottom_paths) return true;
+    // A reflection at the point where the path starts or ends is no reflection.
+    const bool first_upper = family.starts_upward, last_upper = is_upper_end(family, family.ends - 1);
+    auto at_fixed_end = [&](bool upper, double z) {
+        return upper ? interval.upper_kind == UpperEndKind::surface && z == interval.upper_z
+                     : interval.lower_kind == LowerEndKind::bottom && z == interval.lower_z;
+    };
+    return at_fixed_end(first_upper, z_source) || at_fixed_end(last_upper, z_receiver);
+}
+
+StratifiedPath make_path(const StratifiedProfile& profile, const RayLevel& level, const PathFamily& family,
+                         const FamilyLegs& legs, double z_source, double z_receiver, double distance) {
+    StratifiedPath path;
+    path.kind = kind_of(family, legs.interval);
+    path.family = family.label();
+    const double xi = level.ray_parameter;
+    path.ray_parameter = xi;
+    // First-order correction for the root's residual: dT/dR = ξ/c along a family.
+    path.time_s = (legs.total.optical_path_m + xi * (distance - legs.total.distance_m)) / speed_of_light;
+    path.length_m = legs.total.length_m;
+    path.distance_derivative = legs.total.distance_derivative;
+    path.attenuation_exponent = legs.total.attenuation_exponent;
+    auto zenith_up = [&](double z) {
+        const double n = profile.index(z), g = std::max(0.0, profile.gap(level, z));
+        return std::atan2(xi, std::sqrt(g * (n + xi)));
+    };
+    const bool launch_up = family.ends == 0 ? z_receiver > z_source : family.starts_upward;
+    const bool arrive_up = family.ends == 0 ? launch_up : !is_upper_end(family, family.ends - 1);
+    path.launch_zenith_rad = launch_up ? zenith_up(z_source) : pi - zenith_up(z_source);
+    path.arrival_zenith_rad = arrive_up ? zenith_up(z_receiver) : pi - zenith_up(z_receiver);
+    double offset = legs.first_leg_m;
+    for (int j = 0; j < family.ends; ++j) {
+        PathTurn turn;
+        if (is_upper_end(family, j)) {
+            turn.z_m = legs.interval.upper_z;
+            turn.kind = legs.interval.upper_kind == UpperEndKind::turning ? PathTurnKind::turning
+                                                                          : PathTurnKind::surface_reflection;
+        } else {
+            turn.z_m = legs.interval.lower_z;
+            turn.kind = legs.interval.lower_kind == LowerEndKind::turning ? PathTurnKind::turning
+                                                                          : PathTurnKind::bottom_reflection;
+        }
+        turn.offset_m = offset;
+        path.turns.push_back(turn);
+        offset += legs.traversal_m;
+    }
+    return path;
+}
+
+bool same_path(const StratifiedPath& a, const StratifiedPath& b) {
+    return std::abs(a.ray_parameter - b.ray_parameter) <= 1e-12 * std::max(1.0, a.ray_parameter) &&
+           std::abs(a.time_s - b.time_s) <= 1e-15 && std::abs(a.launch_zenith_rad - b.launch_zenith_rad) <= 1e-9 &&
+           std::abs(a.arrival_zenith_rad - b.arrival_zenith_rad) <= 1e-9;
+}
+
+}  // namespace
+
+const char* to_string(StratifiedPathKind kind) {
+    switch (kind) {
+        case StratifiedPathKind::direct: return "direct";
+        case StratifiedPathKind::refracted: return "refracted";
+        case StratifiedPathKind::reflected: return "reflected";
+        case StratifiedPathKind::bottom: return "bottom";
+        case StratifiedPathKind::refracted_below: return "refracted-below";
+        case StratifiedPathKind::ducted: return "ducted";
+    }
+    return "direct";
+}
+
+const char* to_string(PathTurnKind kind) {
+    switch (kind) {
+        case PathTurnKind::turning: return "turning";
+        case PathTurnKind::surface_reflection: return "surface-reflection";
+        case PathTurnKind::bottom_reflection: return "bottom-reflection";
+    }
+    return "turning";
+}
+
+std::string PathFamily::label() const {
+    if (ends == 0) return "direct";
+    std::string out;
+    for (int j = 0; j < ends; ++j) out += is_upper_end(*this, j) ? 'U' : 'L';
+    return out;
+}
+
+std::optional<FamilyLegs> family_legs(const StratifiedProfile& profile, const RayLevel& level, const PathFamily& family,
+                                      double z_source, double z_receiver, bool with_time_and_length,
+                                      const AttenuationProfile* attenuation) {
+    const auto interval = profile.interval_around(level, z_source);
+    if (!interval || !interval->contains(z_receiver)) return std::nullopt;
+    FamilyLegs out;
+    out.interval = *interval;
+    const LegEndpoint source{z_source, LegEnd::fixed}, receiver{z_receiver, LegEnd::fixed};
+    if (family.ends == 0) {
+        out.total = leg_integrals(profile, level, source, receiver, with_time_and_length, true, attenuation);
+        return out;
+    }
+    const bool meets_lower = family.ends >= 2 || !family.starts_upward;
+    if (meets_lower && interval->lower_kind == LowerEndKind::unbounded) return std::nullopt;
+    const LegEndpoint upper = upper_endpoint(*interval);
+    const LegEndpoint lower = meets_lower ? lower_endpoint(*interval) : LegEndpoint{};
+    const LegEndpoint first = family.starts_upward ? upper : lower;
+    const LegEndpoint last = is_upper_end(family, family.ends - 1) ? upper : lower;
+    const LegIntegrals first_leg = leg_integrals(profile, level, source, first, with_time_and_length, true, attenuation);
+    const LegIntegrals last_leg = leg_integrals(profile, level, last, receiver, with_time_and_length, true, attenuation);
+    add(out.total, first_leg);
+    add(out.total, last_leg);
+    out.first_leg_m = first_leg.distance_m;
+    if (family.ends >= 2) {
+        const LegIntegrals traversal = leg_integrals(profile, level, upper, lower, with_time_and_length, true, attenuation);
+        add(out.total, traversal, family.ends - 1);
+        out.traversal_m = traversal.distance_m;
+    }
+    return out;
+}
+
+std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profile, double z_source, double z_receiver,
+                                                  double horizontal_distance_m, const StratifiedPathOptions& options) {
+    const double floor = profile.floor_z();
+    for (auto [z, key] : {std::pair{z_source, "source z"}, std::pair{z_receiver, "receiver z"}})
+        require(std::isfinite(z) && z <= 0.0 && z >= floor,
+                fmt::format("the {} = {} m must be in the ice, between {} m and the surface", key,
+                            number_for_message(z), number_for_message(floor)),
+                key);
+    require(std::isfinite(horizontal_distance_m) && horizontal_distance_m >= 0.0,
+            fmt::format("the horizontal distance must be a finite number of metres >= 0 (got {})",
+                        number_for_message(horizontal_distance_m)),
+            "horizontal distance");
+    require(z_source != z_receiver || horizontal_distance_m > 0.0, "the source and the receiver coincide", "receiver z");
+    require(options.max_bounces >= 0 && options.max_bounces <= 64,
+            fmt::format("max_bounces must be between 0 and 64 (got {})", options.max_bounces), "max_bounces");
+    require(options.scan_samples >= 4 && options.scan_samples <= 10000,
+            fmt::format("scan_samples must be between 4 and 10000 (got {})", options.scan_samples), "scan_samples");
+
+    const double distance = horizontal_distance_m;
+    std::vector<StratifiedPath> paths;
+    // Equal depths where n is exactly constant around them: the horizontal straight line.
+    if (z_source == z_receiver) {
+        const std::size_t cell = profile.cell_at(z_source);
+        double n, dn, d2n;
+        profile.evaluate(cell, z_source, n, dn, d2n);
+        if (dn == 0.0 && d2n == 0.0 && profile.index_difference(z_source + 1e-3, z_source) == 0.0 &&
+            profile.index_difference(std::max(z_source - 1e-3, floor), z_source) == 0.0) {
+            StratifiedPath path;
+            path.family = "direct";
+            path.ray_parameter = n;
+            path.time_s = n * distance / speed_of_light;
+            path.length_m = distance;
+            path.launch_zenith_rad = path.arrival_zenith_rad = pi / 2.0;
+            path.distance_derivative = infinity;
+            if (options.attenuation) path.attenuation_exponent = distance / options.attenuation->length_m(z_source);
+            paths.push_back(path);
+        }
+    }
+
+    const double z_low = std::min(z_source, z_receiver), z_high = std::max(z_source, z_receiver);
+    for (const RayParameterRange& range : ray_parameter_ranges(profile, z_low, z_high)) {
+        // The kinds of the ends in this range, from its middle.
+        const RayLevel middle = RayLevel::anchored_at(profile, range.anchor_z, 0.25 * (range.high - range.low));
+        const auto interval = profile.interval_around(middle, z_source);
+        if (!interval || !interval->contains(z_receiver)) continue;
+        std::vector<PathFamily> families;
+        if (z_source != z_receiver) families.push_back({z_receiver > z_source, 0});
+        for (int ends = 1; ends <= options.max_bounces; ++ends)
+            for (bool upward : {true, false}) families.push_back({upward, ends});
+        RangeLegs range_legs(profile, range, z_source, z_receiver);
+        for (const PathFamily& family : families) {
+            if (family_is_degenerate(family, *interval, z_source, z_receiver, options.bottom_paths)) continue;
+            FamilySearch search(range_legs, range, family, distance, options.scan_samples);
+            for (double v : search.roots()) {
+                const RayLevel level = range_legs.level(v);
+                const auto legs =
+                    family_legs(profile, level, family, z_source, z_receiver, true, options.attenuation.get());
+                if (!legs || !std::isfinite(legs->total.optical_path_m)) continue;
+                // A jump of X across R (ξ not resolved by a double there), not a root.
+                if (std::abs(legs->total.distance_m - distance) > 1e-6 * (1.0 + distance)) continue;
+                // The family's kinds of ends must be those of the range (a root on its edge may see the next).
+                if (family_is_degenerate(family, legs->interval, z_source, z_receiver, options.bottom_paths)) continue;
+                paths.push_back(make_path(profile, level, family, *legs, z_source, z_receiver, distance));
+            }
+        }
+    }
+    // The same ray found twice (the meeting point of two families, or the edge of two ranges):
+    // keep the one with fewer ends.
+    std::vector<StratifiedPath> kept;
+    for (const StratifiedPath& path : paths) {
+        auto twin = std::find_if(kept.begin(), kept.end(), [&](const StratifiedPath& k) { return same_path(k, path); });
+        if (twin == kept.end()) kept.push_back(path);
+        else if (path.turns.size() < twin->turns.size()) *twin = path;
+    }
+    std::sort(kept.begin(), kept.end(), [](const StratifiedPath& a, const StratifiedPath& b) { return a.time_s < b.time_s; });
+    return kept;
+}
+
+}  // namespace firnray

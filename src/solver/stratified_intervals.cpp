@@ -1,0 +1,508 @@
+#include "solver/stratified_intervals.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <cstdint>
+#include <limits>
+
+#include <boost/math/tools/roots.hpp>
+#include <fmt/format.h>
+
+#include "core/errors.hpp"
+#include "core/text.hpp"
+
+namespace firnray {
+
+namespace {
+
+constexpr double infinity = std::numeric_limits<double>::infinity();
+
+// Cells of a smooth profile without joins: short near the surface, where firn changes fast, and
+// at most 5 m deeper down; the monotone runs are found by sampling dn/dz in each cell.
+double generic_cell_length(double z) { return std::clamp(0.01 * std::abs(z), 0.25, 5.0); }
+
+int sign_of(double v) { return (v > 0.0) - (v < 0.0); }
+
+// TOMS748 to a few ulps of z.
+template <class F>
+double refine_root(F f, double a, double b, double fa, double fb) {
+    if (fa == 0.0) return a;
+    if (fb == 0.0) return b;
+    if (a > b) {
+        std::swap(a, b);
+        std::swap(fa, fb);
+    }
+    std::uintmax_t iterations = 200;
+    auto tolerance = [](double lo, double hi) {
+        return std::abs(hi - lo) <= 4.0 * std::numeric_limits<double>::epsilon() * std::max(std::abs(lo), std::abs(hi));
+    };
+    const auto bracket = boost::math::tools::toms748_solve(f, a, b, fa, fb, tolerance, iterations);
+    const double ga = f(bracket.first), gb = f(bracket.second);
+    return std::abs(ga) <= std::abs(gb) ? bracket.first : bracket.second;
+}
+
+}  // namespace
+
+RayLevel RayLevel::plain(double ray_parameter) {
+    RayLevel level;
+    level.ray_parameter = ray_parameter;
+    return level;
+}
+
+RayLevel RayLevel::anchored_at(const StratifiedProfile& profile, double anchor_z, double offset) {
+    RayLevel level;
+    level.anchored = true;
+    level.anchor_z = anchor_z;
+    level.offset = offset;
+    level.anchor_cell = profile.cell_at(anchor_z);
+    double n, dn, d2n;
+    profile.evaluate(level.anchor_cell, anchor_z, n, dn, d2n);
+    level.anchor_index = n;
+    level.ray_parameter = n - offset;
+    return level;
+}
+
+const char* to_string(UpperEndKind kind) { return kind == UpperEndKind::surface ? "surface" : "turning"; }
+
+const char* to_string(LowerEndKind kind) {
+    switch (kind) {
+        case LowerEndKind::turning: return "turning";
+        case LowerEndKind::bottom: return "bottom";
+        case LowerEndKind::unbounded: return "unbounded";
+    }
+    return "unbounded";
+}
+
+StratifiedProfile::StratifiedProfile(std::shared_ptr<const IndexProfile> profile, std::optional<double> bottom_z,
+                                     double analysis_depth_m)
+    : profile_(std::move(profile)), bottom_z_(bottom_z) {
+    if (!profile_) throw ModelInputError("the index profile is missing", {"", 0, "index"});
+    if (bottom_z_ && (!std::isfinite(*bottom_z_) || *bottom_z_ >= 0.0))
+        throw ModelInputError(fmt::format("the bottom must lie below the surface (got z = {} m)",
+                                          number_for_message(*bottom_z_)),
+                              {"", 0, "bottom"});
+    if (!std::isfinite(analysis_depth_m) || analysis_depth_m <= 0.0)
+        throw ModelInputError(fmt::format("the analysis depth must be a positive number of metres (got {})",
+                                          number_for_message(analysis_depth_m)));
+    build_cells(analysis_depth_m);
+    build_runs();
+}
+
+void StratifiedProfile::build_cells(double analysis_depth_m) {
+    const auto joins = profile_->joins_z();
+    if (bottom_z_) {
+        floor_z_ = *bottom_z_;
+    } else {
+        floor_z_ = -analysis_depth_m;
+        if (!joins.empty()) floor_z_ = std::min(floor_z_, joins.back() - 100.0);
+    }
+    if (const auto* exponential = dynamic_cast<const ExponentialProfile*>(profile_.get())) {
+        exponential_ = true;
+        exp_a_ = exponential->n_deep();
+        exp_b_ = exponential->n_deep() - exponential->n_surface();
+        exp_c_ = 1.0 / exponential->scale_depth_m();
+    }
+    const std::size_t pieces = joins.size() + 1;
+    for (std::size_t p = 0; p < pieces; ++p) {
+        const double top = std::min(0.0, p == 0 ? 0.0 : joins[p - 1]);
+        const double bottom = std::max(floor_z_, p == joins.size() ? floor_z_ : joins[p]);
+        if (top > bottom) add_piece_cells(p, top, bottom);
+    }
+    if (cells_.empty()) throw ModelInputError("the index profile has no depth range to analyse", {"", 0, "index"});
+}
+
+void StratifiedProfile::add_piece_cells(std::size_t piece, double z_top, double z_bottom) {
+    if (exponential_) {
+        // One formula everywhere; cells of half a scale depth keep the cubic model of n behind the
+        // panel sizes (snell_integrals.cpp) close to the exponential.
+        const double step = std::min(0.5 / exp_c_, 250.0);
+        for (double top = z_top; top > z_bottom;) {
+            Cell cell;
+            cell.z_top = top;
+            cell.z_bottom = std::max(z_bottom, top - step);
+            cell.form = Form::exponential;
+            cell.piece = piece;
+            cells_.push_back(cell);
+            top = cell.z_bottom;
+        }
+        return;
+    }
+    // A table's piece is a cubic: rebuild it from n and n′ at both ends (the Hermite form, as the
+    // table builds its pieces, so that it agrees to rounding), and keep it only if it reproduces
+    // the profile at three more points.
+    double n0, g0, k0, n1, g1, k1;
+    profile_->piece_index(piece, z_top, n0, g0, k0);
+    profile_->piece_index(piece, z_bottom, n1, g1, k1);
+    const double h = z_bottom - z_top;
+    Cell cubic;
+    cubic.z_top = z_top;
+    cubic.z_bottom = z_bottom;
+    cubic.form = Form::cubic;
+    cubic.piece = piece;
+    const double secant = (n1 - n0) / h;
+    cubic.c[0] = n0;
+    cubic.c[1] = g0;
+    cubic.c[2] = (3.0 * secant - 2.0 * g0 - g1) / h;
+    cubic.c[3] = (g0 + g1 - 2.0 * secant) / (h * h);
+    bool is_cubic = std::isfinite(cubic.c[3]);
+    for (double fraction : {1.0, 0.5, 0.25, 0.8}) {
+        if (!is_cubic) break;
+        const double z = z_top + fraction * h, t = z - z_top;
+        double n, g, k;
+        profile_->piece_index(piece, z, n, g, k);
+        const double nc = cubic.c[0] + t * (cubic.c[1] + t * (cubic.c[2] + t * cubic.c[3]));
+        const double gc = cubic.c[1] + t * (2.0 * cubic.c[2] + 3.0 * t * cubic.c[3]);
+        const double scale = 1e-13 * (1.0 + std::abs(n));
+        if (std::abs(nc - n) > scale || std::abs(gc - g) > scale * (1.0 + 1.0 / std::max(1.0, std::abs(h))))
+            is_cubic = false;
+    }
+    if (is_cubic) {
+        cells_.push_back(cubic);
+        return;
+    }
+    for (double top = z_top; top > z_bottom;) {
+        Cell cell;
+        cell.z_top = top;
+        cell.z_bottom = std::max(z_bottom, top - generic_cell_length(top));
+        cell.form = Form::generic;
+        cell.piece = piece;
+        cells_.push_back(cell);
+        top = cell.z_bottom;
+    }
+}
+
+std::size_t StratifiedProfile::cell_at(double z, int toward) const {
+    if (z >= 0.0) return 0;
+    if (z <= floor_z_) return cells_.size() - 1;
+    // First cell whose bottom lies below z (toward < 0), or at or below z (toward > 0).
+    auto it = std::partition_point(cells_.begin(), cells_.end(), [&](const Cell& c) {
+        return toward > 0 ? c.z_bottom > z : c.z_bottom >= z;
+    });
+    if (it == cells_.end()) return cells_.size() - 1;
+    return static_cast<std::size_t>(it - cells_.begin());
+}
+
+void StratifiedProfile::evaluate(std::size_t cell, double z, double& n, double& dn_dz, double& d2n_dz2) const {
+    const Cell& c = cells_[cell];
+    n = dn_dz = d2n_dz2 = 0.0;
+    switch (c.form) {
+        case Form::cubic: {
+            const double t = z - c.z_top;
+            n = c.c[0] + t * (c.c[1] + t * (c.c[2] + t * c.c[3]));
+            dn_dz = c.c[1] + t * (2.0 * c.c[2] + 3.0 * t * c.c[3]);
+            d2n_dz2 = 2.0 * c.c[2] + 6.0 * t * c.c[3];
+            return;
+        }
+        case Form::exponential: {
+            const double e = exp_b_ * std::exp(exp_c_ * z);
+            n = exp_a_ - e;
+            dn_dz = -exp_c_ * e;
+            d2n_dz2 = -exp_c_ * exp_c_ * e;
+            return;
+        }
+        case Form::generic: profile_->piece_index(c.piece, z, n, dn_dz, d2n_dz2); return;
+    }
+}
+
+double StratifiedProfile::third_derivative(std::size_t cell, double z) const {
+    const Cell& c = cells_[cell];
+    switch (c.form) {
+        case Form::cubic: return 6.0 * c.c[3];
+        case Form::exponential: return -exp_c_ * exp_c_ * exp_c_ * exp_b_ * std::exp(exp_c_ * z);
+        case Form::generic: return 0.0;
+    }
+    return 0.0;
+}
+
+double StratifiedProfile::index(double z) const {
+    double n, g, k;
+    evaluate(cell_at(std::min(z, 0.0)), std::min(z, 0.0), n, g, k);
+    return n;
+}
+
+double StratifiedProfile::divided_difference(std::size_t cell, double z, double z_ref) const {
+    const Cell& c = cells_[cell];
+    const double delta = z - z_ref;
+    switch (c.form) {
+        case Form::cubic: {
+            const double t = z - c.z_top, s = z_ref - c.z_top;
+            return c.c[1] + c.c[2] * (t + s) + c.c[3] * (t * t + t * s + s * s);
+        }
+        case Form::exponential: {
+            const double e = exp_b_ * std::exp(exp_c_ * z_ref);
+            return delta == 0.0 ? -exp_c_ * e : -e * std::expm1(exp_c_ * delta) / delta;
+        }
+        case Form::generic: {
+            double n, g, k;
+            profile_->piece_index(c.piece, z_ref, n, g, k);
+            if (std::abs(delta) < 1e-4) return g + 0.5 * k * delta;  // Taylor: the error k′δ²/6 is below rounding
+            double nz, gz, kz;
+            profile_->piece_index(c.piece, z, nz, gz, kz);
+            return (nz - n) / delta;
+        }
+    }
+    return 0.0;
+}
+
+double StratifiedProfile::index_difference(double z, double z_ref) const {
+    if (z == z_ref) return 0.0;
+    if (exponential_) return -exp_b_ * std::exp(exp_c_ * z_ref) * std::expm1(exp_c_ * (z - z_ref));
+    const int toward = z_ref > z ? 1 : -1;
+    const std::size_t cz = cell_at(z, toward), cr = cell_at(z_ref, -toward);
+    if (cz == cr) return divided_difference(cz, z, z_ref) * (z - z_ref);
+    if (cz + 1 == cr || cr + 1 == cz) {
+        // Through the shared boundary, each part inside its own cell's formula.
+        const double boundary = cz < cr ? cells_[cz].z_bottom : cells_[cz].z_top;
+        return divided_difference(cz, z, boundary) * (z - boundary) +
+               divided_difference(cr, boundary, z_ref) * (boundary - z_ref);
+    }
+    return index(z) - index(z_ref);
+}
+
+double StratifiedProfile::gap(const RayLevel& level, double z) const {
+    if (level.anchored) return index_difference(z, level.anchor_z) + level.offset;
+    if (exponential_) return (exp_a_ - level.ray_parameter) - exp_b_ * std::exp(exp_c_ * std::min(z, 0.0));
+    return index(z) - level.ray_parameter;
+}
+
+double StratifiedProfile::gap_in_cell(const RayLevel& level, std::size_t cell, double z, double n_z) const {
+    if (!level.anchored) {
+        if (exponential_) return (exp_a_ - level.ray_parameter) - exp_b_ * std::exp(exp_c_ * std::min(z, 0.0));
+        return n_z - level.ray_parameter;
+    }
+    const double za = level.anchor_z;
+    if (exponential_) return -exp_b_ * std::exp(exp_c_ * za) * std::expm1(exp_c_ * (z - za)) + level.offset;
+    const std::size_t ca = level.anchor_cell;
+    if (cell == ca) return divided_difference(cell, z, za) * (z - za) + level.offset;
+    if (cell + 1 == ca || ca + 1 == cell) {
+        const double boundary = cell < ca ? cells_[cell].z_bottom : cells_[cell].z_top;
+        return divided_difference(cell, z, boundary) * (z - boundary) +
+               divided_difference(ca, boundary, za) * (boundary - za) + level.offset;
+    }
+    return (n_z - level.anchor_index) + level.offset;
+}
+
+void StratifiedProfile::build_runs() {
+    struct Monotone {
+        double z_top, z_bottom;
+        int direction;
+    };
+    std::vector<Monotone> parts;
+    auto add_parts = [&](std::size_t cell, std::vector<double> cuts) {
+        const Cell& c = cells_[cell];
+        cuts.push_back(c.z_top);
+        cuts.push_back(c.z_bottom);
+        std::sort(cuts.begin(), cuts.end(), std::greater<>());
+        cuts.erase(std::unique(cuts.begin(), cuts.end()), cuts.end());
+        for (std::size_t i = 0; i + 1 < cuts.size(); ++i) {
+            double nt, nb, g, k;
+            evaluate(cell, cuts[i], nt, g, k);
+            evaluate(cell, cuts[i + 1], nb, g, k);
+            parts.push_back({cuts[i], cuts[i + 1], sign_of(nb - nt)});
+        }
+    };
+    for (std::size_t i = 0; i < cells_.size(); ++i) {
+        const Cell& c = cells_[i];
+        std::vector<double> extrema;
+        if (c.form == Form::cubic) {
+            // n′(t) = c1 + 2 c2 t + 3 c3 t²: its simple roots inside the cell are the extrema.
+            const double qa = 3.0 * c.c[3], qb = 2.0 * c.c[2], qc = c.c[1];
+            const double h = c.z_bottom - c.z_top;
+            auto consider = [&](double t) {
+                if (t < 0.0 && t > h) extrema.push_back(c.z_top + t);
+            };
+            if (qa == 0.0) {
+                if (qb != 0.0) consider(-qc / qb);
+            } else {
+                const double disc = qb * qb - 4.0 * qa * qc;
+                if (disc > 0.0) {
+                    const double q = -0.5 * (qb + std::copysign(std::sqrt(disc), qb));
+                    consider(q / qa);
+                    if (q != 0.0) consider(qc / q);
+                }
+            }
+        } else if (c.form == Form::generic) {
+            constexpr int samples = 8;
+            double previous_z = c.z_top, previous_g, n, k;
+            evaluate(i, previous_z, n, previous_g, k);
+            for (int s = 1; s <= samples; ++s) {
+                const double z = c.z_top + (c.z_bottom - c.z_top) * s / samples;
+                double g;
+                evaluate(i, z, n, g, k);
+                if (sign_of(g) * sign_of(previous_g) < 0) {
+                    auto slope = [&](double zz) {
+                        double nn = 0.0, gg = 0.0, kk = 0.0;
+                        evaluate(i, zz, nn, gg, kk);
+                        return gg;
+                    };
+                    extrema.push_back(refine_root(slope, previous_z, z, previous_g, g));
+                }
+                previous_z = z;
+                previous_g = g;
+            }
+        }
+        add_parts(i, std::move(extrema));
+    }
+    for (const Monotone& part : parts) {
+        double nt, nb, g, k;
+        evaluate(cell_at(part.z_top, -1), part.z_top, nt, g, k);
+        evaluate(cell_at(part.z_bottom, 1), part.z_bottom, nb, g, k);
+        if (!runs_.empty() && (part.direction == 0 || runs_.back().direction == 0 || part.direction == runs_.back().direction)) {
+            Run& run = runs_.back();
+            if (run.direction == 0) run.direction = part.direction;
+            run.z_bottom = part.z_bottom;
+            run.index_bottom = nb;
+            continue;
+        }
+        runs_.push_back({part.z_top, part.z_bottom, nt, nb, part.direction});
+    }
+    for (std::size_t i = 0; i + 1 < runs_.size(); ++i)
+        if (runs_[i].direction < 0 && runs_[i + 1].direction > 0) minima_z_.push_back(runs_[i].z_bottom);
+}
+
+std::pair<double, double> StratifiedProfile::minimum_index(double z_low, double z_high) const {
+    double best = index(z_low), best_z = z_low;
+    const double n_high = index(z_high);
+    if (n_high < best) best = n_high, best_z = z_high;
+    for (double z : minima_z_)
+        if (z > z_low && z < z_high) {
+            const double n = index(z);
+            if (n < best) best = n, best_z = z;
+        }
+    return {best, best_z};
+}
+
+bool StratifiedProfile::is_local_minimum(double z) const {
+    return std::find(minima_z_.begin(), minima_z_.end(), z) != minima_z_.end();
+}
+
+double StratifiedProfile::solve_turning(const RayLevel& level, double z_inside, double z_outside) const {
+    auto f = [&](double z) { return gap(level, z); };
+    return refine_root(f, z_inside, z_outside, f(z_inside), f(z_outside));
+}
+
+std::optional<AccessibleInterval> StratifiedProfile::interval_around(const RayLevel& level, double z) const {
+    if (!std::isfinite(z) || z > 0.0 || z < floor_z_)
+        throw DataInputError(fmt::format("depth z = {} m is outside the profile's range ({} m to 0)",
+                                         number_for_message(z), number_for_message(floor_z_)));
+    const double g = gap(level, z);
+    if (g < 0.0) return std::nullopt;
+    bool start_is_upper_turn = false, start_is_lower_turn = false;
+    if (g == 0.0) {
+        double n, dn, d2n;
+        evaluate(cell_at(z), z, n, dn, d2n);
+        if (dn < 0.0) start_is_upper_turn = true;
+        else if (dn > 0.0) start_is_lower_turn = true;
+        else return std::nullopt;
+    }
+    // The run holding z.
+    std::size_t r = 0;
+    while (r + 1 < runs_.size() && runs_[r].z_bottom > z) ++r;
+
+    AccessibleInterval out;
+    if (start_is_upper_turn) {
+        out.upper_kind = UpperEndKind::turning;
+        out.upper_z = z;
+    } else {
+        out.upper_kind = UpperEndKind::surface;
+        out.upper_z = 0.0;
+        for (std::size_t j = r + 1; j-- > 0;) {
+            const double top = runs_[j].z_top;
+            if (top <= z) continue;
+            if (gap(level, top) <= 0.0) {
+                const double inside = j == r ? z : runs_[j].z_bottom;
+                out.upper_kind = UpperEndKind::turning;
+                out.upper_z = solve_turning(level, inside, top);
+                out.upper_double_root = out.upper_z == top && is_local_minimum(top);
+                break;
+            }
+        }
+    }
+    if (start_is_lower_turn) {
+        out.lower_kind = LowerEndKind::turning;
+        out.lower_z = z;
+    } else {
+        out.lower_kind = bottom_z_ ? LowerEndKind::bottom : LowerEndKind::unbounded;
+        out.lower_z = bottom_z_ ? *bottom_z_ : -infinity;
+        for (std::size_t j = r; j < runs_.size(); ++j) {
+            const double bottom = runs_[j].z_bottom;
+            if (bottom >= z) continue;
+            if (gap(level, bottom) <= 0.0) {
+                const double inside = j == r ? z : runs_[j].z_top;
+                out.lower_kind = LowerEndKind::turning;
+                out.lower_z = solve_turning(level, inside, bottom);
+                out.lower_double_root = out.lower_z == bottom && is_local_minimum(bottom);
+                break;
+            }
+        }
+    }
+    return out;
+}
+
+std::vector<AccessibleInterval> StratifiedProfile::intervals(const RayLevel& level) const {
+    std::vector<AccessibleInterval> out;
+    std::optional<AccessibleInterval> open;
+    for (std::size_t i = 0; i < runs_.size(); ++i) {
+        const Run& run = runs_[i];
+        const double g_top = gap(level, run.z_top), g_bottom = gap(level, run.z_bottom);
+        if (i == 0 && g_top > 0.0) open = AccessibleInterval{};
+        if (open) {
+            if (g_bottom <= 0.0) {
+                open->lower_kind = LowerEndKind::turning;
+                open->lower_z = solve_turning(level, run.z_top, run.z_bottom);
+                open->lower_double_root = open->lower_z == run.z_bottom && is_local_minimum(run.z_bottom);
+                if (open->upper_z > open->lower_z) out.push_back(*open);
+                open.reset();
+            }
+        } else if (g_bottom > 0.0) {
+            AccessibleInterval next;
+            next.upper_kind = UpperEndKind::turning;
+            next.upper_z = solve_turning(level, run.z_bottom, run.z_top);
+            next.upper_double_root = next.upper_z == run.z_top && is_local_minimum(run.z_top);
+            open = next;
+        }
+    }
+    if (open) {
+        open->lower_kind = bottom_z_ ? LowerEndKind::bottom : LowerEndKind::unbounded;
+        open->lower_z = bottom_z_ ? *bottom_z_ : -infinity;
+        out.push_back(*open);
+    }
+    return out;
+}
+
+std::vector<IndexInversion> StratifiedProfile::inversions() const {
+    std::vector<IndexInversion> out;
+    for (const Run& run : runs_)
+        if (run.direction < 0) out.push_back({run.z_top, run.z_bottom, run.index_top, run.index_bottom});
+    return out;
+}
+
+std::vector<Duct> StratifiedProfile::ducts() const {
+    std::vector<double> maxima;
+    if (!runs_.empty() && runs_.front().direction < 0) maxima.push_back(0.0);
+    for (std::size_t i = 0; i + 1 < runs_.size(); ++i)
+        if (runs_[i].direction > 0 && runs_[i + 1].direction < 0) maxima.push_back(runs_[i].z_bottom);
+    std::vector<Duct> out;
+    for (double axis : maxima) {
+        const double n_axis = index(axis);
+        const double below = minimum_index(floor_z_, axis).first;
+        const double above = axis == 0.0 ? n_axis : minimum_index(axis, 0.0).first;
+        if (below >= n_axis) continue;
+        Duct duct;
+        duct.axis_z = axis;
+        duct.ray_parameter_low = below;
+        duct.ray_parameter_high = n_axis;
+        if (axis == 0.0) duct.surface_ray_parameter = n_axis;
+        else if (above > below) duct.surface_ray_parameter = above;
+        // Widest extent: the interval just above the lowest ξ of the duct.
+        const double xi = below + 1e-9 * (n_axis - below);
+        if (const auto interval = interval_around(xi, axis)) {
+            duct.z_top = interval->upper_z;
+            duct.z_bottom = interval->lower_z;
+        }
+        out.push_back(duct);
+    }
+    return out;
+}
+
+}  // namespace firnray

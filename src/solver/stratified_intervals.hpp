@@ -1,0 +1,166 @@
+// Any horizontally stratified index profile as a ray of parameter ξ sees it (physics notes §8):
+// the accessible interval of depths around a point (where n(z) > ξ), its ends (surface, turning
+// point, bottom, or none), every such interval of the profile, and where n falls with depth and
+// the ducts that makes. The profile is cut into cells (a table's pieces, exactly as cubics), so
+// that the Snell integrals (solver/snell_integrals.hpp) can evaluate n without virtual calls.
+#pragma once
+
+#include <cstddef>
+#include <memory>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "model/index_profile.hpp"
+
+namespace firnray {
+
+class StratifiedProfile;
+
+// A ray parameter ξ. Given plainly, n(z) − ξ is a difference of two numbers near n; given as
+// ξ = n(anchor_z) − offset it is the difference n(z) − n(anchor_z), evaluated from the profile's
+// formula without cancellation, plus offset. The second form resolves rays whose n − ξ is far
+// below the precision of n itself (deep ice near n_deep, rays horizontal at an end).
+struct RayLevel {
+    double ray_parameter = 0.0;
+    bool anchored = false;
+    double anchor_z = 0.0;
+    double offset = 0.0;
+    // Filled by anchored_at: the profile cell of the anchor and n there.
+    std::size_t anchor_cell = 0;
+    double anchor_index = 0.0;
+
+    static RayLevel plain(double ray_parameter);
+    static RayLevel anchored_at(const StratifiedProfile& profile, double anchor_z, double offset);
+};
+
+enum class UpperEndKind : unsigned char { surface, turning };
+enum class LowerEndKind : unsigned char { turning, bottom, unbounded };
+const char* to_string(UpperEndKind kind);
+const char* to_string(LowerEndKind kind);
+
+// The connected set of depths around a point where n(z) > ξ, with how a ray leaves it at each end.
+struct AccessibleInterval {
+    UpperEndKind upper_kind = UpperEndKind::surface;
+    double upper_z = 0.0;  // 0 at the surface
+    LowerEndKind lower_kind = LowerEndKind::unbounded;
+    double lower_z = 0.0;  // −infinity when unbounded
+    // A turning end where dn/dz = 0 too (ξ equal to a local minimum of n): the ray approaches it
+    // horizontally and never arrives; every leg ending there is infinitely long (a limit).
+    bool upper_double_root = false;
+    bool lower_double_root = false;
+
+    bool contains(double z) const { return z <= upper_z && z >= lower_z; }
+    // Bounded by turning points on both sides: the ray oscillates between them.
+    bool is_duct() const { return upper_kind == UpperEndKind::turning && lower_kind == LowerEndKind::turning; }
+};
+
+// Depths between z_top and z_bottom (z_top > z_bottom) where n falls with depth.
+struct IndexInversion {
+    double z_top = 0.0, z_bottom = 0.0;
+    double index_top = 0.0, index_bottom = 0.0;  // n_top > n_bottom
+};
+
+// A duct: rays with ray_parameter_low < ξ < ray_parameter_high near axis_z (a local maximum of n)
+// cannot leave the depths between a turning point below and a turning point (or the surface)
+// above. z_top, z_bottom: its widest extent, reached as ξ → ray_parameter_low.
+struct Duct {
+    double axis_z = 0.0;
+    double ray_parameter_low = 0.0, ray_parameter_high = 0.0;
+    double z_top = 0.0, z_bottom = 0.0;
+    // Rays with ξ below this reflect at the surface instead of turning above (no value: every ray
+    // of the duct turns above). Equal to ray_parameter_high when the axis is the surface itself.
+    std::optional<double> surface_ray_parameter;
+};
+
+// The profile prepared for the questions above. Cells: the profile's pieces (IndexProfile::joins_z),
+// each kept as a cubic when it is one (a table), as the exponential formula, or evaluated through
+// IndexProfile::piece_index; smooth profiles without joins are cut into cells a few metres long.
+// Runs: the depth ranges between the local extrema of n, on each of which n is monotone.
+// Below floor_z() (the bottom when given, else the deeper of analysis_depth_m and 100 m below the
+// deepest join) n is taken not to decrease with depth, as in every model kind of firnray.
+class StratifiedProfile {
+public:
+    static constexpr double default_analysis_depth_m = 4000.0;
+
+    // bottom_z: a reflecting bottom (< 0). Throws ModelInputError for a bottom at or above the
+    // surface, a non-finite value or an analysis depth that is not positive.
+    explicit StratifiedProfile(std::shared_ptr<const IndexProfile> profile, std::optional<double> bottom_z = {},
+                               double analysis_depth_m = default_analysis_depth_m);
+
+    const IndexProfile& profile() const { return *profile_; }
+    std::optional<double> bottom_z() const { return bottom_z_; }
+    double floor_z() const { return floor_z_; }
+
+    // The cell holding z; at a boundary between two cells the one on the side `toward` (> 0 the
+    // cell above, < 0 the cell below).
+    std::size_t cell_at(double z, int toward = -1) const;
+    std::size_t cell_count() const { return cells_.size(); }
+    double cell_top(std::size_t cell) const { return cells_[cell].z_top; }
+    double cell_bottom(std::size_t cell) const { return cells_[cell].z_bottom; }
+    // n, dn/dz and d²n/dz² of one cell's formula at z (continued beyond the cell if z is outside).
+    void evaluate(std::size_t cell, double z, double& n, double& dn_dz, double& d2n_dz2) const;
+    // d³n/dz³ of a cell's formula at z: exact for cubic and exponential cells, 0 for the others
+    // (their cells are short, see above). Used to bound the distance to the zeros of n² − ξ².
+    double third_derivative(std::size_t cell, double z) const;
+    double index(double z) const;
+    // (n(z) − n(z_ref)) / (z − z_ref) for two points of one cell, without cancellation; dn/dz at
+    // z_ref when z = z_ref.
+    double divided_difference(std::size_t cell, double z, double z_ref) const;
+    // n(z) − n(z_ref) for any two depths, exact to rounding when they are close.
+    double index_difference(double z, double z_ref) const;
+    // n(z) − ξ for a ray level.
+    double gap(const RayLevel& level, double z) const;
+    // The same at a point of a known cell where n is known already (the quadrature's inner loop).
+    double gap_in_cell(const RayLevel& level, std::size_t cell, double z, double n_z) const;
+
+    struct Run {
+        double z_top = 0.0, z_bottom = 0.0;
+        double index_top = 0.0, index_bottom = 0.0;
+        int direction = 0;  // +1: n grows with depth, −1: n falls with depth, 0: constant
+    };
+    const std::vector<Run>& runs() const { return runs_; }
+    // Local minima of n (z where a run falling with depth meets one growing with depth).
+    const std::vector<double>& local_minima_z() const { return minima_z_; }
+    // The smallest n on [z_low, z_high] and a depth where it is reached.
+    std::pair<double, double> minimum_index(double z_low, double z_high) const;
+
+    // The accessible interval around z for ray level `level`, empty when n(z) < ξ. At n(z) = ξ
+    // exactly (z is a turning point) the side where n > ξ; empty when n has a maximum there.
+    std::optional<AccessibleInterval> interval_around(const RayLevel& level, double z) const;
+    std::optional<AccessibleInterval> interval_around(double ray_parameter, double z) const {
+        return interval_around(RayLevel::plain(ray_parameter), z);
+    }
+    // Every accessible interval between the surface and floor_z(), from the top down.
+    std::vector<AccessibleInterval> intervals(const RayLevel& level) const;
+    std::vector<AccessibleInterval> intervals(double ray_parameter) const { return intervals(RayLevel::plain(ray_parameter)); }
+
+    std::vector<IndexInversion> inversions() const;
+    std::vector<Duct> ducts() const;
+
+private:
+    enum class Form : unsigned char { cubic, exponential, generic };
+    struct Cell {
+        double z_top = 0.0, z_bottom = 0.0;
+        Form form = Form::generic;
+        std::size_t piece = 0;
+        double c[4] = {0.0, 0.0, 0.0, 0.0};  // cubic in t = z − z_top
+    };
+    void build_cells(double analysis_depth_m);
+    void add_piece_cells(std::size_t piece, double z_top, double z_bottom);
+    void build_runs();
+    // The turning point between z_inside (gap > 0) and z_outside (gap <= 0) of one run.
+    double solve_turning(const RayLevel& level, double z_inside, double z_outside) const;
+    bool is_local_minimum(double z) const;
+
+    std::shared_ptr<const IndexProfile> profile_;
+    std::optional<double> bottom_z_;
+    double floor_z_ = 0.0;
+    bool exponential_ = false;
+    double exp_a_ = 0.0, exp_b_ = 0.0, exp_c_ = 0.0;  // n = A − B e^{C z}
+    std::vector<Cell> cells_;                          // from the surface down
+    std::vector<Run> runs_;                            // from the surface down
+    std::vector<double> minima_z_;
+};
+
+}  // namespace firnray
