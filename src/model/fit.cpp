@@ -1,5 +1,8 @@
 #include "model/fit.hpp"
 
+#include "core/text.hpp"
+#include "model/model_limits.hpp"
+
 #include <algorithm>
 #include <cmath>
 #include <set>
@@ -130,11 +133,35 @@ void validate(std::span<const double> depth, std::span<const double> n, const Ex
 
 }  // namespace
 
+// A least-squares optimum can lie where no firn is (data far from the exponential shape pull
+// n_surface below 1 or the scale depth to zero): that is a failed fit, never a model to write.
+static void check_physical(const ExponentialFit& fit) {
+    const auto outside = [](double value, const NumberRange& range) {
+        return !(value >= range.low && value <= range.high);
+    };
+    std::string what;
+    if (outside(fit.n_surface, model_limits::index))
+        what = fmt::format("n_surface = {}", number_for_message(fit.n_surface));
+    else if (outside(fit.n_deep, model_limits::index))
+        what = fmt::format("n_deep = {}", number_for_message(fit.n_deep));
+    else if (outside(fit.scale_depth_m, model_limits::scale_depth))
+        what = fmt::format("scale depth {} m", number_for_message(fit.scale_depth_m));
+    if (!what.empty())
+        throw NumericalError(fmt::format(
+            "the best exponential fit has {}, outside what firn can be (n between 1 and 2, scale depth "
+            "0.01 to 10000 m): the data do not follow the exponential model; check them, or hold n_deep fixed",
+            what));
+}
+
 ExponentialFit fit_exponential(std::span<const double> depth_m, std::span<const double> n,
                                const ExponentialFitOptions& options) {
     validate(depth_m, n, options, "n");
-    for (std::size_t i = 0; i < n.size(); ++i)
+    for (std::size_t i = 0; i < n.size(); ++i) {
         if (n[i] < 1.0) throw DataInputError(fmt::format("point {}: n = {} is below 1", i + 1, n[i]));
+        if (n[i] > model_limits::index.high)
+            throw DataInputError(fmt::format("point {}: n = {} is above 2, which no snow, firn or ice reaches", i + 1,
+                                             number_for_message(n[i])));
+    }
 
     const Problem problem{depth_m, n, options.fixed_n_deep};
     const auto p = static_cast<Eigen::Index>(problem.parameter_count());
@@ -197,6 +224,7 @@ ExponentialFit fit_exponential(std::span<const double> depth_m, std::span<const 
     fit.parameters = static_cast<std::size_t>(p);
     fit.residual_rms = std::sqrt(ssr / static_cast<double>(fit.points));
     fit.residual_sigma = std::sqrt(ssr / static_cast<double>(fit.points - fit.parameters));
+    check_physical(fit);
     if (fit.n_surface > fit.n_deep)
         throw DataInputError(fmt::format("the data do not rise with depth: the best fit has n_surface = {:.5g} above "
                                          "n_deep = {:.5g}",

@@ -38,6 +38,8 @@ FitData read_fit_data(const std::string& path, const FitColumns& columns) {
                                      csv.number(row, value_index), density_unit_name(columns.density_unit)));
         } else if (value < 1.0) {
             csv.fail(row, csv.columns[value_index], fmt::format("n = {} is below 1", value));
+        } else if (value > 2.0) {
+            csv.fail(row, csv.columns[value_index], fmt::format("n = {} is above 2, which no snow, firn or ice reaches", value));
         }
         data.depth_m.push_back(depth);
         data.value.push_back(value);

@@ -132,3 +132,17 @@ TEST_CASE("fit: data that cannot fix the scale depth fail as numerical errors", 
     const std::vector<double> d{0, 10, 20, 40, 80}, n(5, 1.5);
     CHECK_THROWS_AS(fit_exponential(d, n), NumericalError);
 }
+
+TEST_CASE("fit: an optimum outside what firn can be is a numerical failure, and indices above 2 are refused "
+          "(model bounds of docs/model-files.md)",
+          "[model][fit]") {
+    // Data that fall near the surface before they rise: the least-squares optimum puts n_surface
+    // below 1 (found by fuzzing; the fit used to return it as a model).
+    const std::vector<double> depth{0, 1, 2, 3, 4, 50};
+    const std::vector<double> n{1.05, 1.01, 1.5, 1.7, 1.75, 1.78};
+    CHECK_THROWS_AS(fit_exponential(depth, n), NumericalError);
+    CHECK_THROWS_WITH(fit_exponential(depth, n), Catch::Contains("outside what firn can be"));
+    const std::vector<double> too_high{1.35, 1.5, 1.6, 2.5, 1.75, 1.78};
+    CHECK_THROWS_AS(fit_exponential(depth, too_high), DataInputError);
+    CHECK_THROWS_WITH(fit_exponential(depth, too_high), Catch::Contains("point 4"));
+}
