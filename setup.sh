@@ -66,5 +66,5 @@ configure build-fuzz -DCMAKE_CXX_COMPILER=clang++ -DCMAKE_BUILD_TYPE=RelWithDebI
 cmake --build build-fuzz -j "$jobs"
 cmake --build build-fuzz --target fuzz_seed_corpus
 step "short fuzz runs"
-sh fuzz/run_short.sh build-fuzz 8
+sh fuzz/run_short.sh build-fuzz
 step "done"
