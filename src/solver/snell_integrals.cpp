@@ -2,8 +2,10 @@
 
 #include <algorithm>
 #include <array>
+#include <atomic>
 #include <cmath>
 #include <limits>
+#include <memory>
 #include <optional>
 #include <vector>
 
@@ -15,6 +17,60 @@
 #include "model/firn_model.hpp"
 
 namespace firnray {
+
+// Snell integrals over whole blocks of cells, tabulated over the ray parameter. Blocks are
+// dyadic: level L holds cells [i·2^L, (i+1)·2^L), so any run of whole cells inside a leg is a
+// few blocks. With N the smallest n on a block (at z_min) and w = √(N − ξ), the block's integrals
+// are analytic in w except where n(z) = ξ or n′(z) = 0 with n(z) = ξ, i.e. at ξ = n of a cell
+// end or extremum of the block: all at w² = N − n <= 0, on the imaginary axis of w (a ray crossing
+// a whole block has ξ < N). At w = 0 itself they are analytic when N is reached at an end of the
+// block with n′ ≠ 0 (the inverse square root becomes a term linear in w), and so is w·∂x/∂ξ.
+// So Chebyshev series in w converge fast on pieces whose squares double, w² in
+// [w0² 2^(j−1), w0² 2^j] for piece j >= 1 and w in [0, w0] for piece 0, with w0 <= √Δ/2 (Δ: the
+// smallest n − N > 0 at a cell end or run end of the block): about 1e-15 at degree 16. Each piece
+// is built on first use at its Chebyshev nodes, from the direct quadrature (level 0) or from the
+// blocks one level down (each built and checked the same way), checked (small last coefficients,
+// and two more points against the sum it was built from), and kept as "integrate directly" when a
+// check fails. Where N is a minimum of n (n′ = 0: a logarithm at w = 0) piece 0 is always direct.
+struct SnellCellTables {
+    static constexpr int degree = 16;
+    static constexpr int nodes = degree + 1;
+    // The four series of a piece: x/ξ, c·T, s and w·∂x/∂ξ.
+    struct Piece {
+        bool tabulated = false;
+        double w_low = 0.0, w_high = 0.0;
+        double coefficients[4][nodes] = {};
+    };
+    struct Block {
+        std::size_t first_cell = 0, last_cell = 0;
+        bool tabulated = false;    // false: n (all but) constant on the block, always direct
+        bool direct_base = false;  // N is a minimum of n (n′ = 0 there): piece 0 integrated directly
+        double z_min = 0.0;        // where n is smallest on the block
+        std::size_t cell_min = 0;  // a cell of the block holding z_min
+        double n_min = 0.0;        // N, from that cell's formula
+        int w0_exponent = 0;       // w0² = 2^w0_exponent
+        std::size_t first_piece = 0, piece_count = 0;
+    };
+
+    std::vector<std::vector<Block>> levels;  // levels[L][i]
+    std::unique_ptr<std::atomic<Piece*>[]> pieces;
+    std::size_t piece_total = 0;
+
+    SnellCellTables() = default;
+    SnellCellTables(const SnellCellTables&) = delete;
+    SnellCellTables& operator=(const SnellCellTables&) = delete;
+    ~SnellCellTables() {
+        for (std::size_t i = 0; i < piece_total; ++i) delete pieces[i].load(std::memory_order_acquire);
+    }
+
+    // The piece of a block that holds w² = N − ξ, built if needed; null where the block is
+    // integrated otherwise.
+    const Piece* piece(const StratifiedProfile& profile, std::size_t level, const Block& block, double w_squared);
+
+private:
+    static std::unique_ptr<Piece> build(const StratifiedProfile& profile, std::size_t level, const Block& block,
+                                        std::size_t index);
+};
 
 namespace {
 
@@ -93,10 +149,12 @@ struct SquareTaylor {
 class LegQuadrature {
 public:
     // attenuation: a depth-dependent attenuation length to integrate ∫ ds/L along (or null).
+    // table_levels: whole cells from the profile's SnellCellTables, blocks of levels below this
+    // (0: quadrature only).
     LegQuadrature(const StratifiedProfile& profile, const RayLevel& level, bool with_time, bool with_derivative,
-                  const AttenuationProfile* attenuation)
+                  const AttenuationProfile* attenuation, std::size_t table_levels)
         : profile_(profile), level_(level), xi_(level.ray_parameter), with_time_(with_time),
-          with_derivative_(with_derivative), attenuation_(attenuation) {}
+          with_derivative_(with_derivative), attenuation_(attenuation), table_levels_(attenuation ? 0 : table_levels) {}
 
     // Panels of [low, high] inside one cell, none of which ends at a zero of Q.
     void regular(std::size_t cell, double low, double high, int depth = 0) {
@@ -143,18 +201,82 @@ public:
         }
     }
 
-    // Everything from the middle of the leg between its end pieces, cell by cell.
+    // Everything from the middle of the leg between its end pieces, cell by cell; runs of whole
+    // cells from the tables where they have them.
     void middle(double low, double high) {
         if (!(high > low)) return;
-        for (std::size_t cell = profile_.cell_at(high, -1); cell < profile_.cell_count(); ++cell) {
-            const double top = std::min(high, profile_.cell_top(cell)), bottom = std::max(low, profile_.cell_bottom(cell));
-            if (cell + 1 == profile_.cell_count()) {
-                regular(cell, low, top);
-                break;
+        const std::size_t count = profile_.cell_count();
+        std::size_t last_whole = count;  // the deepest cell inside [low, high] (count: none)
+        if (table_levels_ > 0) {
+            const std::size_t c = profile_.cell_at(low, 1);
+            if (profile_.cell_bottom(c) == low) last_whole = c;
+            else if (c > 0) last_whole = c - 1;
+        }
+        for (std::size_t cell = profile_.cell_at(high, -1); cell < count;) {
+            const bool last = cell + 1 == count;
+            const double top = std::min(high, profile_.cell_top(cell));
+            const double bottom = last ? low : std::max(low, profile_.cell_bottom(cell));
+            if (last_whole < count && cell <= last_whole && top == profile_.cell_top(cell) &&
+                bottom == profile_.cell_bottom(cell)) {
+                const std::size_t done = from_tables(cell, last_whole);
+                if (done > 0) {
+                    cell += done;
+                    if (cell > last_whole && profile_.cell_bottom(cell - 1) <= low) break;
+                    continue;
+                }
             }
             regular(cell, bottom, top);
-            if (bottom <= low) break;
+            if (last || bottom <= low) break;
+            ++cell;
         }
+    }
+
+    // The largest block starting at `cell` and ending at or above last_whole that has a table for
+    // this ξ, added to the sums; the number of cells it covers (0: none, integrate directly).
+    std::size_t from_tables(std::size_t cell, std::size_t last_whole) {
+        if (failed_) return 0;
+        SnellCellTables& tables = profile_.snell_cell_tables();
+        for (std::size_t level = std::min(table_levels_, tables.levels.size()); level-- > 0;) {
+            const std::size_t size = std::size_t{1} << level;
+            if (cell % size != 0) continue;
+            const SnellCellTables::Block& block = tables.levels[level][cell >> level];
+            if (block.last_cell > last_whole) continue;
+            if (add_block(tables, level, block)) return block.last_cell - block.first_cell + 1;
+        }
+        return 0;
+    }
+
+    bool add_block(SnellCellTables& tables, std::size_t level, const SnellCellTables::Block& block) {
+        if (!block.tabulated) return false;
+        const double w_squared = profile_.gap_in_cell(level_, block.cell_min, block.z_min, block.n_min);
+        if (!(w_squared > 0.0)) return false;
+        const SnellCellTables::Piece* piece = tables.piece(profile_, level, block, w_squared);
+        if (!piece) return false;
+        const double w = std::sqrt(w_squared);
+        const double t = (2.0 * w - (piece->w_low + piece->w_high)) / (piece->w_high - piece->w_low);
+        // Clenshaw's recurrence for the series needed, side by side (scalars, so that the chains
+        // stay in registers and overlap).
+        const double two_t = 2.0 * t;
+        const double (&c)[4][SnellCellTables::nodes] = piece->coefficients;
+        double x1 = 0.0, x2 = 0.0, d1 = 0.0, d2 = 0.0;
+        if (with_time_) {
+            double o1 = 0.0, o2 = 0.0, l1 = 0.0, l2 = 0.0;
+            for (int m = SnellCellTables::degree; m >= 1; --m) {
+                const double x0 = two_t * x1 - x2 + c[0][m], o0 = two_t * o1 - o2 + c[1][m];
+                const double l0 = two_t * l1 - l2 + c[2][m], d0 = two_t * d1 - d2 + c[3][m];
+                x2 = x1, x1 = x0, o2 = o1, o1 = o0, l2 = l1, l1 = l0, d2 = d1, d1 = d0;
+            }
+            sums_.optical += t * o1 - o2 + c[1][0];
+            sums_.length += t * l1 - l2 + c[2][0];
+        } else {
+            for (int m = SnellCellTables::degree; m >= 1; --m) {
+                const double x0 = two_t * x1 - x2 + c[0][m], d0 = two_t * d1 - d2 + c[3][m];
+                x2 = x1, x1 = x0, d2 = d1, d1 = d0;
+            }
+        }
+        sums_.x += xi_ * (t * x1 - x2 + c[0][0]);
+        if (with_derivative_) sums_.derivative += (t * d1 - d2 + c[3][0]) / w;
+        return true;
     }
 
     struct EndPiece {
@@ -277,6 +399,7 @@ private:
     double xi_;
     bool with_time_, with_derivative_;
     const AttenuationProfile* attenuation_;
+    std::size_t table_levels_;
     Sums sums_;
 };
 
@@ -322,10 +445,10 @@ void check_end(const StratifiedProfile& profile, double z) {
                                          number_for_message(z), number_for_message(profile.floor_z())));
 }
 
-}  // namespace
-
-LegIntegrals leg_integrals(const StratifiedProfile& profile, const RayLevel& level, LegEndpoint a, LegEndpoint b,
-                           bool with_time_and_length, bool with_derivative, const AttenuationProfile* attenuation) {
+// table_levels: as for LegQuadrature.
+LegIntegrals integrate_leg(const StratifiedProfile& profile, const RayLevel& level, LegEndpoint a, LegEndpoint b,
+                           bool with_time_and_length, bool with_derivative, const AttenuationProfile* attenuation,
+                           std::size_t table_levels) {
     // A uniform length needs no quadrature: the exponent is s/L.
     const std::optional<double> uniform = attenuation ? attenuation->constant_length_m() : std::nullopt;
     const AttenuationProfile* varying = uniform ? nullptr : attenuation;
@@ -339,7 +462,8 @@ LegIntegrals leg_integrals(const StratifiedProfile& profile, const RayLevel& lev
         return *limit;
     }
     if (height == 0.0) return out;
-    LegQuadrature quadrature(profile, level, with_time_and_length, with_derivative, with_time_and_length ? varying : nullptr);
+    LegQuadrature quadrature(profile, level, with_time_and_length, with_derivative, with_time_and_length ? varying : nullptr,
+                             table_levels);
     // Each end may take at most half of the leg.
     std::size_t cell_low, cell_high;
     double g_low, g_high, slope_low, slope_high;
@@ -363,6 +487,166 @@ LegIntegrals leg_integrals(const StratifiedProfile& profile, const RayLevel& lev
     if (with_time_and_length && attenuation) out.attenuation_exponent = uniform ? s.length / *uniform : s.attenuation;
     out.distance_derivative = with_derivative ? s.derivative : std::numeric_limits<double>::quiet_NaN();
     return out;
+}
+
+}  // namespace
+
+LegIntegrals leg_integrals(const StratifiedProfile& profile, const RayLevel& level, LegEndpoint a, LegEndpoint b,
+                           bool with_time_and_length, bool with_derivative, const AttenuationProfile* attenuation) {
+    return integrate_leg(profile, level, a, b, with_time_and_length, with_derivative, attenuation,
+                         std::numeric_limits<std::size_t>::max());
+}
+
+LegIntegrals leg_integrals_by_quadrature(const StratifiedProfile& profile, const RayLevel& level, LegEndpoint a,
+                                         LegEndpoint b, bool with_time_and_length, bool with_derivative,
+                                         const AttenuationProfile* attenuation) {
+    return integrate_leg(profile, level, a, b, with_time_and_length, with_derivative, attenuation, 0);
+}
+
+std::shared_ptr<SnellCellTables> make_snell_cell_tables(const StratifiedProfile& profile) {
+    auto tables = std::make_shared<SnellCellTables>();
+    const std::size_t count = profile.cell_count();
+    // n at every cell end and every end of a monotone run (the extrema), with a cell holding it.
+    struct Knot {
+        double z, n, slope;
+        std::size_t cell;
+    };
+    std::vector<Knot> knots;
+    auto add_knot = [&](std::size_t cell, double z) {
+        double n, dn, d2n;
+        profile.evaluate(cell, z, n, dn, d2n);
+        knots.push_back({z, n, dn, cell});
+    };
+    for (std::size_t cell = 0; cell < count; ++cell) {
+        add_knot(cell, profile.cell_top(cell));
+        for (const auto& run : profile.runs())
+            if (run.z_bottom < profile.cell_top(cell) && run.z_bottom > profile.cell_bottom(cell)) add_knot(cell, run.z_bottom);
+        add_knot(cell, profile.cell_bottom(cell));
+    }
+    std::size_t total = 0;
+    for (std::size_t size = 1, level = 0; size < 2 * count; size *= 2, ++level) {
+        auto& blocks = tables->levels.emplace_back();
+        for (std::size_t first = 0; first < count; first += size) {
+            SnellCellTables::Block& block = blocks.emplace_back();
+            block.first_cell = first;
+            block.last_cell = std::min(count, first + size) - 1;
+            const double z_top = profile.cell_top(block.first_cell), z_bottom = profile.cell_bottom(block.last_cell);
+            const Knot* lowest = nullptr;
+            for (const Knot& k : knots)
+                if (k.cell >= block.first_cell && k.cell <= block.last_cell && (!lowest || k.n < lowest->n)) lowest = &k;
+            if (!lowest || !(lowest->n > 0.0) || !std::isfinite(lowest->n)) continue;
+            double gap = infinity;
+            for (const Knot& k : knots)
+                if (k.cell >= block.first_cell && k.cell <= block.last_cell && k.n - lowest->n > 0.0)
+                    gap = std::min(gap, k.n - lowest->n);
+            // n all but constant on the block: x ≈ ξh/√(n² − ξ²) has its pole at w = 0 itself.
+            if (!(gap > 1e-12 * lowest->n) || !std::isfinite(gap)) continue;
+            block.tabulated = true;
+            block.z_min = lowest->z;
+            block.cell_min = lowest->cell;
+            block.n_min = lowest->n;
+            // A minimum inside the block, or one where n′ vanishes: a logarithm at w = 0.
+            block.direct_base = (lowest->z < z_top && lowest->z > z_bottom) ||
+                                std::abs(lowest->slope) <= 1e-12 * std::max(1.0, std::abs(lowest->n));
+            block.w0_exponent = std::ilogb(0.25 * gap);
+            // Pieces up to w² = N (ξ = 0).
+            block.piece_count = static_cast<std::size_t>(std::max(0, std::ilogb(lowest->n) - block.w0_exponent)) + 2;
+            block.first_piece = total;
+            total += block.piece_count;
+        }
+        if (size >= count) break;
+    }
+    tables->piece_total = total;
+    tables->pieces = std::make_unique<std::atomic<SnellCellTables::Piece*>[]>(total);
+    for (std::size_t i = 0; i < total; ++i) tables->pieces[i].store(nullptr, std::memory_order_relaxed);
+    return tables;
+}
+
+const SnellCellTables::Piece* SnellCellTables::piece(const StratifiedProfile& profile, std::size_t level,
+                                                     const Block& block, double w_squared) {
+    const int above_base = std::ilogb(w_squared) - block.w0_exponent;
+    const std::size_t index = above_base < 0 ? 0 : static_cast<std::size_t>(above_base) + 1;
+    if (index >= block.piece_count || (index == 0 && block.direct_base)) return nullptr;
+    std::atomic<Piece*>& slot = pieces[block.first_piece + index];
+    Piece* found = slot.load(std::memory_order_acquire);
+    if (!found) {
+        // Two threads may build the same piece; the first to publish wins, the other's is dropped.
+        std::unique_ptr<Piece> fresh = build(profile, level, block, index);
+        Piece* expected = nullptr;
+        if (slot.compare_exchange_strong(expected, fresh.get(), std::memory_order_acq_rel, std::memory_order_acquire))
+            found = fresh.release();
+        else
+            found = expected;
+    }
+    return found->tabulated ? found : nullptr;
+}
+
+std::unique_ptr<SnellCellTables::Piece> SnellCellTables::build(const StratifiedProfile& profile, std::size_t level,
+                                                               const Block& block, std::size_t index) {
+    auto piece = std::make_unique<Piece>();
+    const double w0_squared = std::ldexp(1.0, block.w0_exponent);
+    piece->w_low = index == 0 ? 0.0 : std::sqrt(std::ldexp(w0_squared, static_cast<int>(index) - 1));
+    // The last piece ends at ξ = 0 (beyond, n + ξ vanishes at w² = N + n).
+    piece->w_high = std::sqrt(std::min(std::ldexp(w0_squared, static_cast<int>(index)), block.n_min));
+    if (!(piece->w_high > piece->w_low)) return piece;
+    const double centre = 0.5 * (piece->w_high + piece->w_low), half = 0.5 * (piece->w_high - piece->w_low);
+    // The four integrals of the whole block at w, for a level anchored at z_min in the cell that
+    // holds it (so that n − ξ there is w² exactly): by quadrature for a cell, else from the
+    // blocks of the levels below.
+    auto direct = [&](double w, double out[4]) {
+        RayLevel ray;
+        ray.anchored = true;
+        ray.anchor_z = block.z_min;
+        ray.offset = w * w;
+        ray.anchor_cell = block.cell_min;
+        ray.anchor_index = block.n_min;
+        ray.ray_parameter = block.n_min - w * w;
+        const LegIntegrals whole = integrate_leg(profile, ray, {profile.cell_bottom(block.last_cell)},
+                                                 {profile.cell_top(block.first_cell)}, true, true, nullptr, level);
+        out[0] = whole.distance_m / ray.ray_parameter;  // x/ξ, so that x is 0 at ξ = 0 exactly
+        out[1] = whole.optical_path_m;
+        out[2] = whole.length_m;
+        out[3] = w * whole.distance_derivative;
+        return std::isfinite(out[0]) && std::isfinite(out[1]) && std::isfinite(out[2]) && std::isfinite(out[3]);
+    };
+    static const auto cosines = [] {
+        std::array<std::array<double, nodes>, nodes> table{};
+        for (int m = 0; m < nodes; ++m)
+            for (int k = 0; k < nodes; ++k) table[m][k] = std::cos(pi * m * (k + 0.5) / nodes);
+        return table;
+    }();
+    double values[nodes][4];
+    for (int k = 0; k < nodes; ++k)
+        if (!direct(centre + half * cosines[1][k], values[k])) return piece;
+    for (int series = 0; series < 4; ++series) {
+        double magnitude = 0.0;
+        for (int m = 0; m < nodes; ++m) {
+            double sum = 0.0;
+            for (int k = 0; k < nodes; ++k) sum += values[k][series] * cosines[m][k];
+            piece->coefficients[series][m] = (m == 0 ? 1.0 : 2.0) * sum / nodes;
+            magnitude += std::abs(piece->coefficients[series][m]);
+        }
+        // Converged: the last two coefficients at the level of the quadrature's own rounding.
+        const double tail = std::abs(piece->coefficients[series][degree - 1]) + std::abs(piece->coefficients[series][degree]);
+        if (!(tail <= 1e-13 * magnitude)) return piece;
+    }
+    // Two points between the nodes against the quadrature itself.
+    for (double t : {0.3, -0.63}) {
+        double check[4];
+        if (!direct(centre + half * t, check)) return piece;
+        for (int series = 0; series < 4; ++series) {
+            double b1 = 0.0, b2 = 0.0;
+            for (int m = degree; m >= 1; --m) {
+                const double b0 = 2.0 * t * b1 - b2 + piece->coefficients[series][m];
+                b2 = b1;
+                b1 = b0;
+            }
+            const double value = t * b1 - b2 + piece->coefficients[series][0];
+            if (!(std::abs(value - check[series]) <= 1e-13 * std::abs(check[series]))) return piece;
+        }
+    }
+    piece->tabulated = true;
+    return piece;
 }
 
 }  // namespace firnray

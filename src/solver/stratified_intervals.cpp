@@ -86,6 +86,7 @@ StratifiedProfile::StratifiedProfile(std::shared_ptr<const IndexProfile> profile
                                           number_for_message(analysis_depth_m)));
     build_cells(analysis_depth_m);
     build_runs();
+    snell_tables_ = make_snell_cell_tables(*this);
 }
 
 void StratifiedProfile::build_cells(double analysis_depth_m) {

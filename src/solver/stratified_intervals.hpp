@@ -17,6 +17,11 @@ namespace firnray {
 
 class StratifiedProfile;
 
+// Per-cell tables of the whole-cell Snell integrals over the ray parameter (defined and filled by
+// solver/snell_integrals.cpp); made with the profile and shared by its copies.
+struct SnellCellTables;
+std::shared_ptr<SnellCellTables> make_snell_cell_tables(const StratifiedProfile& profile);
+
 // A ray parameter ξ. Given plainly, n(z) − ξ is a difference of two numbers near n; given as
 // ξ = n(anchor_z) − offset it is the difference n(z) − n(anchor_z), evaluated from the profile's
 // formula without cancellation, plus offset. The second form resolves rays whose n − ξ is far
@@ -138,6 +143,10 @@ public:
     std::vector<IndexInversion> inversions() const;
     std::vector<Duct> ducts() const;
 
+    // The tables the Snell integrals keep for this profile's cells: filled lazily, safe to use
+    // from several threads at once (see solver/snell_integrals.hpp).
+    SnellCellTables& snell_cell_tables() const { return *snell_tables_; }
+
 private:
     enum class Form : unsigned char { cubic, exponential, generic };
     struct Cell {
@@ -161,6 +170,7 @@ private:
     std::vector<Cell> cells_;                          // from the surface down
     std::vector<Run> runs_;                            // from the surface down
     std::vector<double> minima_z_;
+    std::shared_ptr<SnellCellTables> snell_tables_;
 };
 
 }  // namespace firnray
