@@ -373,6 +373,13 @@ std::pair<double, double> StratifiedProfile::minimum_index(double z_low, double 
     return {best, best_z};
 }
 
+bool StratifiedProfile::clearly_inside(const RayLevel& level, double n) const {
+    // gap() at a run's end differs from this by a few rounding errors of n at most (another
+    // cell's formula, or n − n(anchor) taken through a shared boundary).
+    const double approximate = level.anchored ? (n - level.anchor_index) + level.offset : n - level.ray_parameter;
+    return approximate > 1e-12 * (1.0 + std::abs(n));
+}
+
 bool StratifiedProfile::is_local_minimum(double z) const {
     return std::find(minima_z_.begin(), minima_z_.end(), z) != minima_z_.end();
 }
@@ -410,6 +417,7 @@ std::optional<AccessibleInterval> StratifiedProfile::interval_around(const RayLe
         for (std::size_t j = r + 1; j-- > 0;) {
             const double top = runs_[j].z_top;
             if (top <= z) continue;
+            if (clearly_inside(level, runs_[j].index_top)) continue;
             if (gap(level, top) <= 0.0) {
                 const double inside = j == r ? z : runs_[j].z_bottom;
                 out.upper_kind = UpperEndKind::turning;
@@ -428,6 +436,7 @@ std::optional<AccessibleInterval> StratifiedProfile::interval_around(const RayLe
         for (std::size_t j = r; j < runs_.size(); ++j) {
             const double bottom = runs_[j].z_bottom;
             if (bottom >= z) continue;
+            if (clearly_inside(level, runs_[j].index_bottom)) continue;
             if (gap(level, bottom) <= 0.0) {
                 const double inside = j == r ? z : runs_[j].z_top;
                 out.lower_kind = LowerEndKind::turning;

@@ -161,6 +161,8 @@ private:
     // The turning point between z_inside (gap > 0) and z_outside (gap <= 0) of one run.
     double solve_turning(const RayLevel& level, double z_inside, double z_outside) const;
     bool is_local_minimum(double z) const;
+    // Whether n − ξ at a point where n is known is positive beyond any doubt (no need for gap()).
+    bool clearly_inside(const RayLevel& level, double n) const;
 
     std::shared_ptr<const IndexProfile> profile_;
     std::optional<double> bottom_z_;

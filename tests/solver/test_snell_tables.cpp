@@ -1,0 +1,166 @@
+// The fast path of the stratified Snell integrals (whole cells from the tables of
+// solver/snell_integrals.cpp) against the direct quadrature it replaces and against an independent
+// quadrature (Boost.Math tanh_sinh, tests/support/snell_integrals.hpp), at random ray parameters
+// and depths on a 200-point log with many inversions, and filled from two threads at once.
+#include <catch2/catch.hpp>
+
+#include <algorithm>
+#include <cmath>
+#include <memory>
+#include <thread>
+#include <vector>
+
+#include "core/constants.hpp"
+#include "model/table_profile.hpp"
+#include "solver/snell_integrals.hpp"
+#include "support/snell_integrals.hpp"
+
+using namespace firnray;
+
+namespace {
+
+// The log of bench/bench_stratified.cpp: an exponential trend, ±0.013 of layering every 7.3 m,
+// small irregular noise and an ice lens at 60 m, every metre to 199 m (made up, not a site).
+std::shared_ptr<TableProfile> layered_log() {
+    std::vector<double> depth, n;
+    unsigned state = 12345u;
+    auto next_uniform = [&]() {
+        state = state * 1664525u + 1013904223u;
+        return (state >> 8) / 16777216.0;
+    };
+    for (int i = 0; i < 200; ++i) {
+        const double d = i;
+        double value = 1.78 - 0.43 * std::exp(-d / 37.0) + 0.013 * std::sin(2.0 * pi * d / 7.3) +
+                       0.004 * (next_uniform() - 0.5);
+        if (i == 60) value += 0.05;
+        depth.push_back(d);
+        n.push_back(value);
+    }
+    return std::make_shared<TableProfile>(depth, n);
+}
+
+// A fixed sequence of uniform numbers in [0, 1) (the same on every platform).
+struct Uniform {
+    unsigned long long state;
+    double operator()() {
+        state = state * 6364136223846793005ull + 1442695040888963407ull;
+        return static_cast<double>(state >> 11) * 0x1.0p-53;
+    }
+};
+
+struct RandomLeg {
+    RayLevel level;
+    LegEndpoint a, b;
+};
+
+// Legs with fixed ends at random depths and ξ below the smallest n between them, drawn closer to
+// that smallest n (rays near horizontal somewhere) as often as far from it; and legs from a random
+// depth to the turning points of its interval.
+std::vector<RandomLeg> random_legs(const StratifiedProfile& profile, int count, unsigned long long seed) {
+    Uniform uniform{seed};
+    std::vector<RandomLeg> legs;
+    while (static_cast<int>(legs.size()) < count) {
+        const double z_a = -0.5 - 198.0 * uniform(), z_b = -0.5 - 198.0 * uniform();
+        const double n_min = profile.minimum_index(std::min(z_a, z_b), std::max(z_a, z_b)).first;
+        const double u = uniform();
+        const double xi = n_min - (uniform() < 0.5 ? n_min * u * u : 0.02 * std::pow(10.0, -6.0 * u));
+        const RayLevel level = RayLevel::plain(xi);
+        legs.push_back({level, {z_a}, {z_b}});
+        const auto interval = profile.interval_around(level, z_a);
+        if (!interval) continue;
+        if (interval->upper_kind == UpperEndKind::turning && !interval->upper_double_root)
+            legs.push_back({level, {z_a}, {interval->upper_z, LegEnd::turning}});
+        if (interval->lower_kind == LowerEndKind::turning && !interval->lower_double_root)
+            legs.push_back({level, {interval->lower_z, LegEnd::turning}, {z_a}});
+    }
+    return legs;
+}
+
+bool agrees(double fast, double direct, double relative, double absolute) {
+    if (std::isinf(fast) || std::isinf(direct)) return fast == direct;
+    return std::abs(fast - direct) <= std::max(relative * std::abs(direct), absolute);
+}
+
+}  // namespace
+
+TEST_CASE("tabulated Snell integrals on a 200-point log with 27 inversions agree with the direct quadrature at "
+          "random ray parameters and depths (within 1e-12 relative or 1e-9 m and 1e-6 ns)",
+          "[solver][stratified][snell tables]") {
+    const StratifiedProfile profile(layered_log());
+    REQUIRE(profile.inversions().size() == 27);
+    double worst_distance = 0.0, worst_time_ns = 0.0, worst_derivative = 0.0;
+    int turning_legs = 0;
+    for (const RandomLeg& leg : random_legs(profile, 400, 20261203)) {
+        const LegIntegrals fast = leg_integrals(profile, leg.level, leg.a, leg.b);
+        const LegIntegrals direct = leg_integrals_by_quadrature(profile, leg.level, leg.a, leg.b);
+        turning_legs += leg.a.kind == LegEnd::turning || leg.b.kind == LegEnd::turning;
+        INFO("ξ " << leg.level.ray_parameter << " from " << leg.a.z << " to " << leg.b.z);
+        CHECK(agrees(fast.distance_m, direct.distance_m, 1e-12, 1e-9));
+        CHECK(agrees(fast.optical_path_m / speed_of_light * 1e9, direct.optical_path_m / speed_of_light * 1e9, 1e-12, 1e-6));
+        CHECK(agrees(fast.length_m, direct.length_m, 1e-12, 1e-9));
+        CHECK(agrees(fast.distance_derivative, direct.distance_derivative, 1e-10, 1e-6));
+        if (std::isfinite(direct.distance_m)) {
+            worst_distance = std::max(worst_distance, std::abs(fast.distance_m - direct.distance_m));
+            worst_time_ns = std::max(worst_time_ns, std::abs(fast.optical_path_m - direct.optical_path_m) / speed_of_light * 1e9);
+            worst_derivative = std::max(worst_derivative, std::abs(fast.distance_derivative - direct.distance_derivative) /
+                                                              std::max(1e-300, std::abs(direct.distance_derivative)));
+        }
+    }
+    CHECK(turning_legs > 100);
+    WARN("tables against direct quadrature: largest difference " << worst_distance << " m, " << worst_time_ns
+                                                                 << " ns, ∂x/∂ξ relative " << worst_derivative);
+}
+
+TEST_CASE("tabulated Snell integrals on a 200-point log with 27 inversions agree with tanh_sinh quadrature of the "
+          "Snell integrals (Boost.Math) at random ray parameters and fixed depths",
+          "[solver][stratified][snell tables]") {
+    const auto table = layered_log();
+    const StratifiedProfile profile(table);
+    std::vector<double> breaks(table->joins_z().rbegin(), table->joins_z().rend());
+    Uniform uniform{77};
+    double worst_relative = 0.0, worst_time_ns = 0.0;
+    for (int i = 0; i < 40; ++i) {
+        const double z_a = -0.5 - 198.0 * uniform(), z_b = -0.5 - 198.0 * uniform();
+        const double low = std::min(z_a, z_b), high = std::max(z_a, z_b);
+        // n − ξ >= 1e-4 everywhere on the leg: tanh_sinh with the plain gap n − ξ is accurate there.
+        const double n_min = profile.minimum_index(low, high).first;
+        const double xi = (n_min - 1e-4) * (1.0 - std::pow(uniform(), 3.0));
+        const auto ours = leg_integrals(profile, RayLevel::plain(xi), {z_a}, {z_b});
+        const auto ref = test::snell_integrals(*table, xi, low, high, test::plain_gap(*table, xi), breaks);
+        INFO("ξ " << xi << " from " << z_a << " to " << z_b);
+        CHECK(ours.distance_m == Approx(ref.distance_m).epsilon(1e-10).margin(1e-12));
+        CHECK(ours.optical_path_m == Approx(ref.optical_path_m).epsilon(1e-10));
+        CHECK(ours.length_m == Approx(ref.length_m).epsilon(1e-10));
+        CHECK(ours.distance_derivative == Approx(ref.distance_derivative).epsilon(1e-9).margin(1e-12));
+        worst_relative = std::max(worst_relative, std::abs(ours.distance_m - ref.distance_m) / std::max(1e-300, ref.distance_m));
+        worst_time_ns = std::max(worst_time_ns, std::abs(ours.optical_path_m - ref.optical_path_m) / speed_of_light * 1e9);
+    }
+    WARN("tables against tanh_sinh: largest relative distance difference " << worst_relative << ", time "
+                                                                             << worst_time_ns << " ns");
+}
+
+TEST_CASE("Snell integral tables filled from two threads at once give the values of one thread (common practice: "
+          "lazily built shared tables must be safe to fill concurrently)",
+          "[solver][stratified][snell tables]") {
+    const auto table = layered_log();
+    const std::vector<RandomLeg> legs = random_legs(StratifiedProfile(table), 300, 99);
+    // A fresh profile: its tables are empty, and both threads fill the same pieces.
+    const StratifiedProfile shared(table);
+    std::vector<LegIntegrals> first(legs.size()), second(legs.size());
+    auto run = [&](std::vector<LegIntegrals>& out) {
+        for (std::size_t i = 0; i < legs.size(); ++i) out[i] = leg_integrals(shared, legs[i].level, legs[i].a, legs[i].b);
+    };
+    std::thread one(run, std::ref(first)), two(run, std::ref(second));
+    one.join();
+    two.join();
+    const StratifiedProfile alone(table);
+    for (std::size_t i = 0; i < legs.size(); ++i) {
+        const LegIntegrals expected = leg_integrals(alone, legs[i].level, legs[i].a, legs[i].b);
+        INFO("leg " << i);
+        for (const LegIntegrals* got : {&first[i], &second[i]}) {
+            CHECK((got->distance_m == expected.distance_m || (std::isnan(got->distance_m) && std::isnan(expected.distance_m))));
+            CHECK((got->optical_path_m == expected.optical_path_m ||
+                   (std::isnan(got->optical_path_m) && std::isnan(expected.optical_path_m))));
+        }
+    }
+}
