@@ -7,6 +7,10 @@
 // on a smooth 200-point log (the trend alone, n growing with depth) with NumericSolver and with
 // StratifiedSolver, the drop-in RaySolver on the same quadrature.
 //
+// Whole cells of a leg come from tables the profile fills on first use (solver/snell_integrals.cpp):
+// each leg is timed with them (after one warm-up call) and by quadrature alone, and the pairs are
+// timed twice, on a fresh profile (tables filled as the pairs need them) and again (tables warm).
+//
 // Times are CPU time of the calling thread (the machine is often shared, and wall-clock figures
 // then mostly measure the other processes).
 //
@@ -92,7 +96,6 @@ void bench_pairs(const char* name, const StratifiedProfile& profile, int per_dep
 int main(int argc, char** argv) {
     const int per_depth = argc > 1 ? std::max(2, std::atoi(argv[1])) : 12;
     const StratifiedProfile log(synthetic_log());
-    const StratifiedProfile exponential(std::make_shared<ExponentialProfile>(1.78, 1.35, 37.0));
     std::printf("synthetic log: %zu cells, %zu runs, %zu inversions, %zu ducts\n", log.cell_count(), log.runs().size(),
                 log.inversions().size(), log.ducts().size());
     volatile double sink = 0.0;
@@ -101,18 +104,29 @@ int main(int argc, char** argv) {
     if (interval) {
         std::printf("interval at 120 m for ξ 1.70: %.3f to %.3f m\n", interval->upper_z, interval->lower_z);
         const LegEndpoint up{interval->upper_z, interval->upper_kind == UpperEndKind::turning ? LegEnd::turning : LegEnd::fixed};
-        std::printf("leg 120 m to 190 m, fixed ends:        %.2f us\n",
-                    microseconds_per_call(2000, [&] { sink = leg_integrals(log, level, {-120.0}, {-190.0}).distance_m; }));
-        std::printf("leg 120 m to the end above:            %.2f us\n",
-                    microseconds_per_call(2000, [&] { sink = leg_integrals(log, level, {-120.0}, up).distance_m; }));
-        std::printf("same, distance and derivative only:    %.2f us\n",
-                    microseconds_per_call(2000, [&] { sink = leg_integrals(log, level, {-120.0}, up, false).distance_m; }));
+        auto leg_line = [&](const char* name, LegEndpoint a, LegEndpoint b, bool with_time) {
+            sink = leg_integrals(log, level, a, b, with_time).distance_m;  // fills the tables it needs
+            const double tables = microseconds_per_call(2000, [&] { sink = leg_integrals(log, level, a, b, with_time).distance_m; });
+            const double quadrature = microseconds_per_call(
+                2000, [&] { sink = leg_integrals_by_quadrature(log, level, a, b, with_time).distance_m; });
+            std::printf("%-38s %7.2f us (quadrature alone %.2f us)\n", name, tables, quadrature);
+        };
+        leg_line("leg 120 m to 190 m, fixed ends:", {-120.0}, {-190.0}, true);
+        leg_line("leg 120.3 m to 189.7 m, fixed ends:", {-120.3}, {-189.7}, true);
+        leg_line("leg 120 m to the end above:", {-120.0}, up, true);
+        leg_line("same, distance and derivative only:", {-120.0}, up, false);
     }
     std::printf("interval_around:                       %.2f us\n",
                 microseconds_per_call(2000, [&] { sink = log.interval_around(level, -120.0)->upper_z; }));
-    bench_pairs("log", log, per_depth, 1);
-    bench_pairs("log", log, per_depth, 4);
-    bench_pairs("exponential", exponential, per_depth, 1);
+    const StratifiedProfile fresh_log(synthetic_log());
+    const StratifiedProfile fresh_exponential(std::make_shared<ExponentialProfile>(1.78, 1.35, 37.0));
+    const double cold_start = cpu_microseconds();
+    bench_pairs("log, cold", fresh_log, per_depth, 1);
+    std::printf("  (that pass, tables included: %.0f ms)\n", (cpu_microseconds() - cold_start) * 1e-3);
+    bench_pairs("log", fresh_log, per_depth, 1);
+    bench_pairs("log", fresh_log, per_depth, 4);
+    bench_pairs("exp., cold", fresh_exponential, per_depth, 1);
+    bench_pairs("exponential", fresh_exponential, per_depth, 1);
 
     auto model = std::make_shared<FirnModel>();
     model->name = "smooth log";
