@@ -512,17 +512,23 @@ std::shared_ptr<SnellCellTables> make_snell_cell_tables(const StratifiedProfile&
         std::size_t cell;
     };
     std::vector<Knot> knots;
+    std::vector<std::size_t> first_knot;  // knots of cell c: [first_knot[c], first_knot[c + 1])
     auto add_knot = [&](std::size_t cell, double z) {
         double n, dn, d2n;
         profile.evaluate(cell, z, n, dn, d2n);
         knots.push_back({z, n, dn, cell});
     };
+    const auto& runs = profile.runs();  // from the surface down, like the cells
+    std::size_t run = 0;
     for (std::size_t cell = 0; cell < count; ++cell) {
+        first_knot.push_back(knots.size());
         add_knot(cell, profile.cell_top(cell));
-        for (const auto& run : profile.runs())
-            if (run.z_bottom < profile.cell_top(cell) && run.z_bottom > profile.cell_bottom(cell)) add_knot(cell, run.z_bottom);
+        while (run < runs.size() && runs[run].z_bottom >= profile.cell_top(cell)) ++run;
+        for (std::size_t j = run; j < runs.size() && runs[j].z_bottom > profile.cell_bottom(cell); ++j)
+            add_knot(cell, runs[j].z_bottom);
         add_knot(cell, profile.cell_bottom(cell));
     }
+    first_knot.push_back(knots.size());
     std::size_t total = 0;
     for (std::size_t size = 1, level = 0; size < 2 * count; size *= 2, ++level) {
         auto& blocks = tables->levels.emplace_back();
@@ -531,14 +537,15 @@ std::shared_ptr<SnellCellTables> make_snell_cell_tables(const StratifiedProfile&
             block.first_cell = first;
             block.last_cell = std::min(count, first + size) - 1;
             const double z_top = profile.cell_top(block.first_cell), z_bottom = profile.cell_bottom(block.last_cell);
+            const Knot* begin = knots.data() + first_knot[block.first_cell];
+            const Knot* end = knots.data() + first_knot[block.last_cell + 1];
             const Knot* lowest = nullptr;
-            for (const Knot& k : knots)
-                if (k.cell >= block.first_cell && k.cell <= block.last_cell && (!lowest || k.n < lowest->n)) lowest = &k;
+            for (const Knot* k = begin; k != end; ++k)
+                if (!lowest || k->n < lowest->n) lowest = k;
             if (!lowest || !(lowest->n > 0.0) || !std::isfinite(lowest->n)) continue;
             double gap = infinity;
-            for (const Knot& k : knots)
-                if (k.cell >= block.first_cell && k.cell <= block.last_cell && k.n - lowest->n > 0.0)
-                    gap = std::min(gap, k.n - lowest->n);
+            for (const Knot* k = begin; k != end; ++k)
+                if (k->n - lowest->n > 0.0) gap = std::min(gap, k->n - lowest->n);
             // n all but constant on the block: x ≈ ξh/√(n² − ξ²) has its pole at w = 0 itself.
             if (!(gap > 1e-12 * lowest->n) || !std::isfinite(gap)) continue;
             block.tabulated = true;
