@@ -9,6 +9,7 @@
 #include <optional>
 #include <vector>
 
+#include <boost/math/tools/roots.hpp>
 #include <fmt/format.h>
 
 #include "core/constants.hpp"
@@ -56,20 +57,49 @@ struct SnellCellTables {
     std::unique_ptr<std::atomic<Piece*>[]> pieces;
     std::size_t piece_total = 0;
 
+    // A cell where n is strictly monotone, for rays turning inside it: the part of the cell from
+    // the turning point to the end where n is largest, a function of ξ alone. With σ = n_high − ξ
+    // and ρ = ξ − n_low (σ + ρ = Δ), it goes like √σ as σ → 0 and is analytic in ξ at ρ = 0 unless
+    // n′ vanishes at that end (then a logarithm). Pieces: σ in [Δ 2^(−j−2), Δ 2^(−j−1)] in the
+    // variable √σ toward the high end, ρ in the same ranges in the variable ρ toward the low end,
+    // j < turn_levels; the four series are x/ξ, c·T, s and √σ·dx/dξ (the turning end moving).
+    static constexpr int turn_levels = 40;
+    struct TurnCell {
+        bool tabulated = false;
+        double z_high = 0.0, z_low = 0.0;  // the ends where n is largest and smallest
+        double n_high = 0.0, n_low = 0.0;  // from the cell's formula
+        std::size_t first_piece = 0;       // 2 × turn_levels pieces
+    };
+    std::vector<TurnCell> turn_cells;
+    std::unique_ptr<std::atomic<Piece*>[]> turn_pieces;
+    std::size_t turn_piece_total = 0;
+
     SnellCellTables() = default;
     SnellCellTables(const SnellCellTables&) = delete;
     SnellCellTables& operator=(const SnellCellTables&) = delete;
     ~SnellCellTables() {
         for (std::size_t i = 0; i < piece_total; ++i) delete pieces[i].load(std::memory_order_acquire);
+        for (std::size_t i = 0; i < turn_piece_total; ++i) delete turn_pieces[i].load(std::memory_order_acquire);
     }
 
     // The piece of a block that holds w² = N − ξ, built if needed; null where the block is
     // integrated otherwise.
     const Piece* piece(const StratifiedProfile& profile, std::size_t level, const Block& block, double w_squared);
 
+    // The piece of a turning cell for σ and ρ (both > 0), built if needed; null where the cell is
+    // integrated otherwise. `variable` receives the piece's variable (√σ or ρ).
+    const Piece* turn_piece(const StratifiedProfile& profile, std::size_t cell, double sigma, double rho,
+                            double& variable);
+
 private:
     static std::unique_ptr<Piece> build(const StratifiedProfile& profile, std::size_t level, const Block& block,
                                         std::size_t index);
+    static std::unique_ptr<Piece> build_turn(const StratifiedProfile& profile, std::size_t cell, const TurnCell& turn,
+                                             std::size_t index);
+    // Coefficients of a piece from its values at the Chebyshev nodes, then checked; false when
+    // a check fails (the piece stays "integrate directly").
+    template <class Values>
+    static bool fit(Piece& piece, const Values& values_at);
 };
 
 namespace {
@@ -246,6 +276,31 @@ public:
         return 0;
     }
 
+    // The part of a turning end's cell from the turning point to the cell's end where n is largest,
+    // from the cell's table, when the leg goes on beyond that end (inward: +1 up, −1 down from the
+    // turning end). False where there is no table for it (integrate directly).
+    bool turning_cell(std::size_t cell, int inward, double other_end_z, std::size_t other_end_cell) {
+        if (table_levels_ == 0 || failed_) return false;
+        SnellCellTables& tables = profile_.snell_cell_tables();
+        const SnellCellTables::TurnCell& turn = tables.turn_cells[cell];
+        if (!turn.tabulated) return false;
+        const bool high_is_top = turn.z_high == profile_.cell_top(cell);
+        if (high_is_top != (inward > 0)) return false;
+        // The other end (and its end piece, which stays in its own cell) beyond this cell.
+        if (!(inward > 0 ? other_end_z > turn.z_high && other_end_cell < cell
+                         : other_end_z < turn.z_high && other_end_cell > cell))
+            return false;
+        const double sigma = profile_.gap_in_cell(level_, cell, turn.z_high, turn.n_high);
+        const double rho = -profile_.gap_in_cell(level_, cell, turn.z_low, turn.n_low);
+        if (!(sigma > 0.0) || !(rho > 0.0)) return false;
+        double variable = 0.0;
+        const SnellCellTables::Piece* piece = tables.turn_piece(profile_, cell, sigma, rho, variable);
+        if (!piece) return false;
+        add_series(*piece, (2.0 * variable - (piece->w_low + piece->w_high)) / (piece->w_high - piece->w_low),
+                   std::sqrt(sigma));
+        return true;
+    }
+
     bool add_block(SnellCellTables& tables, std::size_t level, const SnellCellTables::Block& block) {
         if (!block.tabulated) return false;
         const double w_squared = profile_.gap_in_cell(level_, block.cell_min, block.z_min, block.n_min);
@@ -253,11 +308,16 @@ public:
         const SnellCellTables::Piece* piece = tables.piece(profile_, level, block, w_squared);
         if (!piece) return false;
         const double w = std::sqrt(w_squared);
-        const double t = (2.0 * w - (piece->w_low + piece->w_high)) / (piece->w_high - piece->w_low);
+        add_series(*piece, (2.0 * w - (piece->w_low + piece->w_high)) / (piece->w_high - piece->w_low), w);
+        return true;
+    }
+
+    // A piece's four series at t in [−1, 1] added to the sums; the last one is divided by `scale`.
+    void add_series(const SnellCellTables::Piece& piece, double t, double scale) {
         // Clenshaw's recurrence for the series needed, side by side (scalars, so that the chains
         // stay in registers and overlap).
         const double two_t = 2.0 * t;
-        const double (&c)[4][SnellCellTables::nodes] = piece->coefficients;
+        const double (&c)[4][SnellCellTables::nodes] = piece.coefficients;
         double x1 = 0.0, x2 = 0.0, d1 = 0.0, d2 = 0.0;
         if (with_time_) {
             double o1 = 0.0, o2 = 0.0, l1 = 0.0, l2 = 0.0;
@@ -275,8 +335,7 @@ public:
             }
         }
         sums_.x += xi_ * (t * x1 - x2 + c[0][0]);
-        if (with_derivative_) sums_.derivative += (t * d1 - d2 + c[3][0]) / w;
-        return true;
+        if (with_derivative_) sums_.derivative += (t * d1 - d2 + c[3][0]) / scale;
     }
 
     struct EndPiece {
@@ -475,10 +534,20 @@ LegIntegrals integrate_leg(const StratifiedProfile& profile, const RayLevel& lev
         out.distance_derivative = std::numeric_limits<double>::quiet_NaN();
         return out;
     }
-    const double low = piece_low.used ? a.z + piece_low.length : a.z;
-    const double high = piece_high.used ? b.z - piece_high.length : b.z;
-    if (piece_low.used) quadrature.end_piece(a.z, a.kind, +1, cell_low, g_low, slope_low, piece_low.length);
-    if (piece_high.used) quadrature.end_piece(b.z, b.kind, -1, cell_high, g_high, slope_high, piece_high.length);
+    double low = piece_low.used ? a.z + piece_low.length : a.z;
+    double high = piece_high.used ? b.z - piece_high.length : b.z;
+    // A turning end's cell from its table when the leg goes on beyond that cell (the other end's
+    // piece then lies in its own cell, outside this one).
+    if (a.kind == LegEnd::turning && quadrature.turning_cell(cell_low, +1, b.z, cell_high)) {
+        low = profile.cell_top(cell_low);
+    } else if (piece_low.used) {
+        quadrature.end_piece(a.z, a.kind, +1, cell_low, g_low, slope_low, piece_low.length);
+    }
+    if (b.kind == LegEnd::turning && quadrature.turning_cell(cell_high, -1, a.z, cell_low)) {
+        high = profile.cell_bottom(cell_high);
+    } else if (piece_high.used) {
+        quadrature.end_piece(b.z, b.kind, -1, cell_high, g_high, slope_high, piece_high.length);
+    }
     quadrature.middle(low, high);
     const Sums& s = quadrature.sums();
     out.distance_m = s.x;
@@ -563,6 +632,27 @@ std::shared_ptr<SnellCellTables> make_snell_cell_tables(const StratifiedProfile&
         }
         if (size >= count) break;
     }
+    tables->turn_cells.resize(count);
+    std::size_t turn_total = 0;
+    for (std::size_t cell = 0; cell < count; ++cell) {
+        // Monotone: its only knots are its two ends.
+        if (first_knot[cell + 1] - first_knot[cell] != 2) continue;
+        const Knot& top = knots[first_knot[cell]];
+        const Knot& bottom = knots[first_knot[cell] + 1];
+        SnellCellTables::TurnCell& turn = tables->turn_cells[cell];
+        const bool high_is_top = top.n > bottom.n;
+        turn.z_high = high_is_top ? top.z : bottom.z;
+        turn.z_low = high_is_top ? bottom.z : top.z;
+        turn.n_high = std::max(top.n, bottom.n);
+        turn.n_low = std::min(top.n, bottom.n);
+        if (!(turn.n_high - turn.n_low > 1e-12 * turn.n_high) || !(turn.n_low > 0.0) || !std::isfinite(turn.n_high)) continue;
+        turn.tabulated = true;
+        turn.first_piece = turn_total;
+        turn_total += 2 * SnellCellTables::turn_levels;
+    }
+    tables->turn_piece_total = turn_total;
+    tables->turn_pieces = std::make_unique<std::atomic<SnellCellTables::Piece*>[]>(turn_total);
+    for (std::size_t i = 0; i < turn_total; ++i) tables->turn_pieces[i].store(nullptr, std::memory_order_relaxed);
     tables->piece_total = total;
     tables->pieces = std::make_unique<std::atomic<SnellCellTables::Piece*>[]>(total);
     for (std::size_t i = 0; i < total; ++i) tables->pieces[i].store(nullptr, std::memory_order_relaxed);
@@ -596,7 +686,6 @@ std::unique_ptr<SnellCellTables::Piece> SnellCellTables::build(const StratifiedP
     // The last piece ends at ξ = 0 (beyond, n + ξ vanishes at w² = N + n).
     piece->w_high = std::sqrt(std::min(std::ldexp(w0_squared, static_cast<int>(index)), block.n_min));
     if (!(piece->w_high > piece->w_low)) return piece;
-    const double centre = 0.5 * (piece->w_high + piece->w_low), half = 0.5 * (piece->w_high - piece->w_low);
     // The four integrals of the whole block at w, for a level anchored at z_min in the cell that
     // holds it (so that n − ξ there is w² exactly): by quadrature for a cell, else from the
     // blocks of the levels below.
@@ -616,6 +705,13 @@ std::unique_ptr<SnellCellTables::Piece> SnellCellTables::build(const StratifiedP
         out[3] = w * whole.distance_derivative;
         return std::isfinite(out[0]) && std::isfinite(out[1]) && std::isfinite(out[2]) && std::isfinite(out[3]);
     };
+    fit(*piece, direct);
+    return piece;
+}
+
+template <class Values>
+bool SnellCellTables::fit(Piece& piece, const Values& values_at) {
+    const double centre = 0.5 * (piece.w_high + piece.w_low), half = 0.5 * (piece.w_high - piece.w_low);
     static const auto cosines = [] {
         std::array<std::array<double, nodes>, nodes> table{};
         for (int m = 0; m < nodes; ++m)
@@ -624,35 +720,108 @@ std::unique_ptr<SnellCellTables::Piece> SnellCellTables::build(const StratifiedP
     }();
     double values[nodes][4];
     for (int k = 0; k < nodes; ++k)
-        if (!direct(centre + half * cosines[1][k], values[k])) return piece;
+        if (!values_at(centre + half * cosines[1][k], values[k])) return false;
     for (int series = 0; series < 4; ++series) {
         double magnitude = 0.0;
         for (int m = 0; m < nodes; ++m) {
             double sum = 0.0;
             for (int k = 0; k < nodes; ++k) sum += values[k][series] * cosines[m][k];
-            piece->coefficients[series][m] = (m == 0 ? 1.0 : 2.0) * sum / nodes;
-            magnitude += std::abs(piece->coefficients[series][m]);
+            piece.coefficients[series][m] = (m == 0 ? 1.0 : 2.0) * sum / nodes;
+            magnitude += std::abs(piece.coefficients[series][m]);
         }
         // Converged: the last two coefficients at the level of the quadrature's own rounding.
-        const double tail = std::abs(piece->coefficients[series][degree - 1]) + std::abs(piece->coefficients[series][degree]);
-        if (!(tail <= 1e-13 * magnitude)) return piece;
+        const double tail = std::abs(piece.coefficients[series][degree - 1]) + std::abs(piece.coefficients[series][degree]);
+        if (!(tail <= 1e-13 * magnitude)) return false;
     }
-    // Two points between the nodes against the quadrature itself.
+    // Two points between the nodes against what the piece was built from.
     for (double t : {0.3, -0.63}) {
         double check[4];
-        if (!direct(centre + half * t, check)) return piece;
+        if (!values_at(centre + half * t, check)) return false;
         for (int series = 0; series < 4; ++series) {
             double b1 = 0.0, b2 = 0.0;
             for (int m = degree; m >= 1; --m) {
-                const double b0 = 2.0 * t * b1 - b2 + piece->coefficients[series][m];
+                const double b0 = 2.0 * t * b1 - b2 + piece.coefficients[series][m];
                 b2 = b1;
                 b1 = b0;
             }
-            const double value = t * b1 - b2 + piece->coefficients[series][0];
-            if (!(std::abs(value - check[series]) <= 1e-13 * std::abs(check[series]))) return piece;
+            const double value = t * b1 - b2 + piece.coefficients[series][0];
+            if (!(std::abs(value - check[series]) <= 1e-13 * std::abs(check[series]))) return false;
         }
     }
-    piece->tabulated = true;
+    piece.tabulated = true;
+    return true;
+}
+
+const SnellCellTables::Piece* SnellCellTables::turn_piece(const StratifiedProfile& profile, std::size_t cell,
+                                                          double sigma, double rho, double& variable) {
+    const TurnCell& turn = turn_cells[cell];
+    const double range = turn.n_high - turn.n_low;
+    const bool near_high = sigma <= rho;
+    const int level = std::max(0, std::ilogb(range / (near_high ? sigma : rho)) - 1);
+    if (level >= turn_levels) return nullptr;
+    const std::size_t index = static_cast<std::size_t>(near_high ? level : turn_levels + level);
+    variable = near_high ? std::sqrt(sigma) : rho;
+    std::atomic<Piece*>& slot = turn_pieces[turn.first_piece + index];
+    Piece* found = slot.load(std::memory_order_acquire);
+    if (!found) {
+        std::unique_ptr<Piece> fresh = build_turn(profile, cell, turn, index);
+        Piece* expected = nullptr;
+        if (slot.compare_exchange_strong(expected, fresh.get(), std::memory_order_acq_rel, std::memory_order_acquire))
+            found = fresh.release();
+        else
+            found = expected;
+    }
+    return found->tabulated ? found : nullptr;
+}
+
+std::unique_ptr<SnellCellTables::Piece> SnellCellTables::build_turn(const StratifiedProfile& profile, std::size_t cell,
+                                                                    const TurnCell& turn, std::size_t index) {
+    auto piece = std::make_unique<Piece>();
+    const double range = turn.n_high - turn.n_low;
+    const bool near_high = index < static_cast<std::size_t>(turn_levels);
+    const int level = static_cast<int>(near_high ? index : index - turn_levels);
+    const double from = std::ldexp(range, -level - 2), to = std::ldexp(range, -level - 1);
+    piece->w_low = near_high ? std::sqrt(from) : from;
+    piece->w_high = near_high ? std::sqrt(to) : to;
+    // The integrals from the turning point to the high end at one value of the piece's variable,
+    // for a level anchored at the nearer end of the cell (so that σ or ρ is exact there).
+    auto direct = [&](double variable, double out[4]) {
+        const double sigma = near_high ? variable * variable : range - variable;
+        RayLevel ray;
+        ray.anchored = true;
+        ray.anchor_cell = cell;
+        if (near_high) {
+            ray.anchor_z = turn.z_high, ray.anchor_index = turn.n_high, ray.offset = sigma;
+        } else {
+            ray.anchor_z = turn.z_low, ray.anchor_index = turn.n_low, ray.offset = -variable;
+        }
+        ray.ray_parameter = ray.anchor_index - ray.offset;
+        auto gap = [&](double z) {
+            double n, dn, d2n;
+            profile.evaluate(cell, z, n, dn, d2n);
+            return profile.gap_in_cell(ray, cell, z, n);
+        };
+        const double g_high = gap(turn.z_high), g_low = gap(turn.z_low);
+        if (!(g_high > 0.0) || !(g_low < 0.0)) return false;
+        std::uintmax_t iterations = 200;
+        auto tolerance = [](double lo, double hi) {
+            return std::abs(hi - lo) <= 4.0 * std::numeric_limits<double>::epsilon() * std::max(std::abs(lo), std::abs(hi));
+        };
+        const bool low_first = turn.z_low < turn.z_high;  // toms748 wants the bracket in order
+        const auto bracket = boost::math::tools::toms748_solve(gap, low_first ? turn.z_low : turn.z_high,
+                                                               low_first ? turn.z_high : turn.z_low,
+                                                               low_first ? g_low : g_high, low_first ? g_high : g_low,
+                                                               tolerance, iterations);
+        const double z_turn = std::abs(gap(bracket.first)) <= std::abs(gap(bracket.second)) ? bracket.first : bracket.second;
+        const LegIntegrals part =
+            integrate_leg(profile, ray, {z_turn, LegEnd::turning}, {turn.z_high}, true, true, nullptr, 0);
+        out[0] = part.distance_m / ray.ray_parameter;
+        out[1] = part.optical_path_m;
+        out[2] = part.length_m;
+        out[3] = std::sqrt(sigma) * part.distance_derivative;
+        return std::isfinite(out[0]) && std::isfinite(out[1]) && std::isfinite(out[2]) && std::isfinite(out[3]);
+    };
+    fit(*piece, direct);
     return piece;
 }
 
