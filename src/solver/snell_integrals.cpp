@@ -32,7 +32,9 @@ namespace firnray {
 // is built on first use at its Chebyshev nodes, from the direct quadrature (level 0) or from the
 // blocks one level down (each built and checked the same way), checked (small last coefficients,
 // and two more points against the sum it was built from), and kept as "integrate directly" when a
-// check fails. Where N is a minimum of n (n′ = 0: a logarithm at w = 0) piece 0 is always direct.
+// check fails. Where N is a minimum of n (n′ = 0: a logarithm at w = 0) piece 0 is always direct:
+// there the problem itself is ill-conditioned (x grows like log w), and tabulating it would move
+// the results by more than the quadrature's own scatter.
 struct SnellCellTables {
     static constexpr int degree = 16;
     static constexpr int nodes = degree + 1;
@@ -60,15 +62,17 @@ struct SnellCellTables {
     // A cell where n is strictly monotone, for rays turning inside it: the part of the cell from
     // the turning point to the end where n is largest, a function of ξ alone. With σ = n_high − ξ
     // and ρ = ξ − n_low (σ + ρ = Δ), it goes like √σ as σ → 0 and is analytic in ξ at ρ = 0 unless
-    // n′ vanishes at that end (then a logarithm). Pieces: σ in [Δ 2^(−j−2), Δ 2^(−j−1)] in the
-    // variable √σ toward the high end, ρ in the same ranges in the variable ρ toward the low end,
-    // j < turn_levels; the four series are x/ξ, c·T, s and √σ·dx/dξ (the turning end moving).
-    static constexpr int turn_levels = 40;
+    // n′ vanishes at that end (then a logarithm). Both are entire in log σ and log ρ, whose other
+    // singularities (σ or ρ < 0) lie at least π off the real axis: pieces σ (toward the high end)
+    // or ρ (toward the low end) in [Δ 2^(−j−2), Δ 2^(−j−1)], j < turn_levels, in the variable
+    // log σ or log ρ; the four series are x/ξ, c·T, s and √σ·dx/dξ (the turning end moving).
+    static constexpr int turn_levels = 60;
     struct TurnCell {
         bool tabulated = false;
         double z_high = 0.0, z_low = 0.0;  // the ends where n is largest and smallest
         double n_high = 0.0, n_low = 0.0;  // from the cell's formula
         std::size_t first_piece = 0;       // 2 × turn_levels pieces
+        bool low_double_root = false;      // n′ = 0 at the low end: see turn_piece
     };
     std::vector<TurnCell> turn_cells;
     std::unique_ptr<std::atomic<Piece*>[]> turn_pieces;
@@ -87,7 +91,7 @@ struct SnellCellTables {
     const Piece* piece(const StratifiedProfile& profile, std::size_t level, const Block& block, double w_squared);
 
     // The piece of a turning cell for σ and ρ (both > 0), built if needed; null where the cell is
-    // integrated otherwise. `variable` receives the piece's variable (√σ or ρ).
+    // integrated otherwise. `variable` receives the piece's variable (log σ or log ρ).
     const Piece* turn_piece(const StratifiedProfile& profile, std::size_t cell, double sigma, double rho,
                             double& variable);
 
@@ -645,6 +649,8 @@ std::shared_ptr<SnellCellTables> make_snell_cell_tables(const StratifiedProfile&
         turn.z_low = high_is_top ? bottom.z : top.z;
         turn.n_high = std::max(top.n, bottom.n);
         turn.n_low = std::min(top.n, bottom.n);
+        const double low_slope = high_is_top ? bottom.slope : top.slope;
+        turn.low_double_root = std::abs(low_slope) <= 1e-12 * std::max(1.0, std::abs(turn.n_low));
         if (!(turn.n_high - turn.n_low > 1e-12 * turn.n_high) || !(turn.n_low > 0.0) || !std::isfinite(turn.n_high)) continue;
         turn.tabulated = true;
         turn.first_piece = turn_total;
@@ -718,6 +724,9 @@ bool SnellCellTables::fit(Piece& piece, const Values& values_at) {
             for (int k = 0; k < nodes; ++k) table[m][k] = std::cos(pi * m * (k + 0.5) / nodes);
         return table;
     }();
+    // x, c·T and s to the quadrature's own rounding; the derivative to 1e-10, because with a
+    // turning end the quadrature's by-parts sum scatters by more than 1e-13 from one ξ to the next.
+    constexpr double tolerance[4] = {1e-13, 1e-13, 1e-13, 1e-10};
     double values[nodes][4];
     for (int k = 0; k < nodes; ++k)
         if (!values_at(centre + half * cosines[1][k], values[k])) return false;
@@ -729,9 +738,9 @@ bool SnellCellTables::fit(Piece& piece, const Values& values_at) {
             piece.coefficients[series][m] = (m == 0 ? 1.0 : 2.0) * sum / nodes;
             magnitude += std::abs(piece.coefficients[series][m]);
         }
-        // Converged: the last two coefficients at the level of the quadrature's own rounding.
+        // Converged: the last two coefficients small enough.
         const double tail = std::abs(piece.coefficients[series][degree - 1]) + std::abs(piece.coefficients[series][degree]);
-        if (!(tail <= 1e-13 * magnitude)) return false;
+        if (!(tail <= tolerance[series] * magnitude)) return false;
     }
     // Two points between the nodes against what the piece was built from.
     for (double t : {0.3, -0.63}) {
@@ -745,7 +754,7 @@ bool SnellCellTables::fit(Piece& piece, const Values& values_at) {
                 b1 = b0;
             }
             const double value = t * b1 - b2 + piece.coefficients[series][0];
-            if (!(std::abs(value - check[series]) <= 1e-13 * std::abs(check[series]))) return false;
+            if (!(std::abs(value - check[series]) <= tolerance[series] * std::abs(check[series]))) return false;
         }
     }
     piece.tabulated = true;
@@ -759,8 +768,11 @@ const SnellCellTables::Piece* SnellCellTables::turn_piece(const StratifiedProfil
     const bool near_high = sigma <= rho;
     const int level = std::max(0, std::ilogb(range / (near_high ? sigma : rho)) - 1);
     if (level >= turn_levels) return nullptr;
+    // Next to a double root (ξ → a minimum of n where n′ = 0) x grows like log ρ and the problem
+    // is ill-conditioned; as for the blocks, the last 1e-4 of the cell's range stays direct.
+    if (!near_high && turn.low_double_root && level >= 12) return nullptr;
     const std::size_t index = static_cast<std::size_t>(near_high ? level : turn_levels + level);
-    variable = near_high ? std::sqrt(sigma) : rho;
+    variable = std::log(near_high ? sigma : rho);
     std::atomic<Piece*>& slot = turn_pieces[turn.first_piece + index];
     Piece* found = slot.load(std::memory_order_acquire);
     if (!found) {
@@ -781,19 +793,20 @@ std::unique_ptr<SnellCellTables::Piece> SnellCellTables::build_turn(const Strati
     const bool near_high = index < static_cast<std::size_t>(turn_levels);
     const int level = static_cast<int>(near_high ? index : index - turn_levels);
     const double from = std::ldexp(range, -level - 2), to = std::ldexp(range, -level - 1);
-    piece->w_low = near_high ? std::sqrt(from) : from;
-    piece->w_high = near_high ? std::sqrt(to) : to;
+    piece->w_low = std::log(from);
+    piece->w_high = std::log(to);
     // The integrals from the turning point to the high end at one value of the piece's variable,
     // for a level anchored at the nearer end of the cell (so that σ or ρ is exact there).
     auto direct = [&](double variable, double out[4]) {
-        const double sigma = near_high ? variable * variable : range - variable;
+        const double distance = std::exp(variable);  // σ or ρ
+        const double sigma = near_high ? distance : range - distance;
         RayLevel ray;
         ray.anchored = true;
         ray.anchor_cell = cell;
         if (near_high) {
             ray.anchor_z = turn.z_high, ray.anchor_index = turn.n_high, ray.offset = sigma;
         } else {
-            ray.anchor_z = turn.z_low, ray.anchor_index = turn.n_low, ray.offset = -variable;
+            ray.anchor_z = turn.z_low, ray.anchor_index = turn.n_low, ray.offset = -distance;
         }
         ray.ray_parameter = ray.anchor_index - ray.offset;
         auto gap = [&](double z) {
