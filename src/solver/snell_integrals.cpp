@@ -269,7 +269,7 @@ public:
     // this ξ, added to the sums; the number of cells it covers (0: none, integrate directly).
     std::size_t from_tables(std::size_t cell, std::size_t last_whole) {
         if (failed_) return 0;
-        SnellCellTables& tables = profile_.snell_cell_tables();
+        SnellCellTables& tables = this->tables();
         for (std::size_t level = std::min(table_levels_, tables.levels.size()); level-- > 0;) {
             const std::size_t size = std::size_t{1} << level;
             if (cell % size != 0) continue;
@@ -285,7 +285,7 @@ public:
     // turning end). False where there is no table for it (integrate directly).
     bool turning_cell(std::size_t cell, int inward, double other_end_z, std::size_t other_end_cell) {
         if (table_levels_ == 0 || failed_) return false;
-        SnellCellTables& tables = profile_.snell_cell_tables();
+        SnellCellTables& tables = this->tables();
         const SnellCellTables::TurnCell& turn = tables.turn_cells[cell];
         if (!turn.tabulated) return false;
         const bool high_is_top = turn.z_high == profile_.cell_top(cell);
@@ -463,6 +463,11 @@ private:
     bool with_time_, with_derivative_;
     const AttenuationProfile* attenuation_;
     std::size_t table_levels_;
+    SnellCellTables* tables_ = nullptr;  // fetched on first use
+    SnellCellTables& tables() {
+        if (!tables_) tables_ = &profile_.snell_cell_tables();
+        return *tables_;
+    }
     Sums sums_;
 };
 

@@ -86,7 +86,11 @@ StratifiedProfile::StratifiedProfile(std::shared_ptr<const IndexProfile> profile
                                           number_for_message(analysis_depth_m)));
     build_cells(analysis_depth_m);
     build_runs();
-    snell_tables_ = make_snell_cell_tables(*this);
+}
+
+SnellCellTables& StratifiedProfile::snell_cell_tables() const {
+    std::call_once(snell_tables_->made, [this] { snell_tables_->tables = make_snell_cell_tables(*this); });
+    return *snell_tables_->tables;
 }
 
 void StratifiedProfile::build_cells(double analysis_depth_m) {

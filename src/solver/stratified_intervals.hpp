@@ -7,6 +7,7 @@
 
 #include <cstddef>
 #include <memory>
+#include <mutex>
 #include <optional>
 #include <string>
 #include <vector>
@@ -143,9 +144,9 @@ public:
     std::vector<IndexInversion> inversions() const;
     std::vector<Duct> ducts() const;
 
-    // The tables the Snell integrals keep for this profile's cells: filled lazily, safe to use
-    // from several threads at once (see solver/snell_integrals.hpp).
-    SnellCellTables& snell_cell_tables() const { return *snell_tables_; }
+    // The tables the Snell integrals keep for this profile's cells: laid out on first use and
+    // filled lazily, safe to use from several threads at once (see solver/snell_integrals.hpp).
+    SnellCellTables& snell_cell_tables() const;
 
 private:
     enum class Form : unsigned char { cubic, exponential, generic };
@@ -172,7 +173,11 @@ private:
     std::vector<Cell> cells_;                          // from the surface down
     std::vector<Run> runs_;                            // from the surface down
     std::vector<double> minima_z_;
-    std::shared_ptr<SnellCellTables> snell_tables_;
+    struct LazySnellTables {
+        std::once_flag made;
+        std::shared_ptr<SnellCellTables> tables;
+    };
+    std::shared_ptr<LazySnellTables> snell_tables_ = std::make_shared<LazySnellTables>();
 };
 
 }  // namespace firnray
