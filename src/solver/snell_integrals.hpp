@@ -40,9 +40,11 @@ struct LegIntegrals {
 // a limit, which path finders treat as such. Throws DataInputError for ends above the surface or
 // below the profile's floor. With an attenuation profile (and with_time_and_length) the field
 // attenuation exponent ∫ ds/L_α is added: s/L for a uniform length, the same quadrature otherwise.
-// Whole cells inside the leg come from tables of each cell's integrals over ξ, built lazily on the
-// profile (thread-safe) and checked against the quadrature as they are built; the cells at the
-// ends, and whole cells with an attenuation profile that varies, by quadrature.
+// Runs of whole cells inside the leg, and the cell of a turning end when the leg goes on beyond
+// it, come from tables over ξ kept on the profile (built lazily, thread-safe, checked against the
+// quadrature as they are built; see SnellCellTables in snell_integrals.cpp); partial cells at
+// fixed ends, anything the tables do not cover, and everything when an attenuation profile
+// varies with depth, by the quadrature above.
 LegIntegrals leg_integrals(const StratifiedProfile& profile, const RayLevel& level, LegEndpoint a, LegEndpoint b,
                            bool with_time_and_length = true, bool with_derivative = true,
                            const AttenuationProfile* attenuation = nullptr);
