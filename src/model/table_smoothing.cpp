@@ -1,0 +1,82 @@
+#include "model/table_smoothing.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <numbers>
+
+namespace firnray {
+
+namespace {
+
+// Beyond this many σ the Gaussian weight (about 1e-15 of the whole) changes nothing in a double.
+constexpr double window_sigmas = 8.0;
+
+double normal_cdf(double u) { return 0.5 * std::erfc(-u / std::numbers::sqrt2); }
+double normal_pdf(double u) { return std::exp(-0.5 * u * u) / std::sqrt(2.0 * std::numbers::pi); }
+
+// The table's curve continued beyond both ends by odd reflections. The continuation repeats
+// with period 2L (L the depth span) and rises by 2(f_last − f_first) per period; each period is
+// the table itself and its mirror image (reflected through the shallowest point).
+class ReflectedCurve {
+public:
+    ReflectedCurve(const std::vector<double>& depth, const std::vector<double>& values)
+        : depth_(depth), values_(values), span_(depth.back() - depth.front()),
+          rise_(2.0 * (values.back() - values.front())) {}
+
+    // Adds ∫ φ(u)(a + b u) du over every linear piece of the continued curve inside
+    // [centre − wσ, centre + wσ], where u = (s − centre)/σ; returns the weighted sum and the weight.
+    void accumulate(double centre, double sigma, double& sum, double& weight) const {
+        const double low = centre - window_sigmas * sigma, high = centre + window_sigmas * sigma;
+        const double d0 = depth_.front();
+        const long first = static_cast<long>(std::floor((low - (2.0 * d0 - depth_.back())) / (2.0 * span_)));
+        const long last = static_cast<long>(std::floor((high - (2.0 * d0 - depth_.back())) / (2.0 * span_)));
+        for (long k = first; k <= last; ++k) {
+            const double shift = 2.0 * span_ * static_cast<double>(k), lift = rise_ * static_cast<double>(k);
+            // The table itself, shifted: s = d + shift, value f(d) + lift.
+            for (std::size_t i = 1; i < depth_.size(); ++i)
+                add_piece(depth_[i - 1] + shift, values_[i - 1] + lift, depth_[i] + shift, values_[i] + lift, centre,
+                          sigma, low, high, sum, weight);
+            // Its mirror image through (d0, f0), shifted: s = 2 d0 − d + shift, value 2 f0 − f(d) + lift.
+            const double f0 = values_.front();
+            for (std::size_t i = 1; i < depth_.size(); ++i)
+                add_piece(2.0 * d0 - depth_[i] + shift, 2.0 * f0 - values_[i] + lift, 2.0 * d0 - depth_[i - 1] + shift,
+                          2.0 * f0 - values_[i - 1] + lift, centre, sigma, low, high, sum, weight);
+        }
+    }
+
+private:
+    static void add_piece(double s_a, double f_a, double s_b, double f_b, double centre, double sigma, double low,
+                          double high, double& sum, double& weight) {
+        if (s_b <= low || s_a >= high) return;
+        const double slope = (f_b - f_a) / (s_b - s_a);
+        const double u_a = (std::max(s_a, low) - centre) / sigma, u_b = (std::min(s_b, high) - centre) / sigma;
+        // f = α + β u on this piece, with α the line's value at the centre and β = slope·σ.
+        const double alpha = f_a + slope * (centre - s_a), beta = slope * sigma;
+        const double mass = normal_cdf(u_b) - normal_cdf(u_a);
+        sum += alpha * mass - beta * (normal_pdf(u_b) - normal_pdf(u_a));
+        weight += mass;
+    }
+
+    const std::vector<double>& depth_;
+    const std::vector<double>& values_;
+    double span_, rise_;
+};
+
+}  // namespace
+
+std::vector<double> gaussian_smoothed(const std::vector<double>& depth_m, const std::vector<double>& values,
+                                      double smoothing_m) {
+    const ReflectedCurve curve(depth_m, values);
+    std::vector<double> smoothed(values.size());
+    for (std::size_t i = 0; i < depth_m.size(); ++i) {
+        double sum = 0.0, weight = 0.0;
+        curve.accumulate(depth_m[i], smoothing_m, sum, weight);
+        smoothed[i] = sum / weight;
+    }
+    // The reflections hold the end values exactly; say so in the numbers too, free of rounding.
+    smoothed.front() = values.front();
+    smoothed.back() = values.back();
+    return smoothed;
+}
+
+}  // namespace firnray
