@@ -58,11 +58,12 @@ int tabulate(const ProfileOptions& o) {
                           text_bytes, o.memory_limit_mb);
     const auto model = load_model_or_default(o.model_path);
     const auto samples = sample_profile(*model->index, o.from_depth_m, o.to_depth_m, o.step_m);
+    const ProfileContents contents = profile_contents(*model);
     outputs.set_writer(o.output, [&](std::ostream& out) {
-        if (json) write_profile_samples_json(out, *model, samples);
-        else write_profile_samples_csv(out, samples);
+        if (json) write_profile_samples_json(out, *model, samples, contents);
+        else write_profile_samples_csv(out, samples, contents);
     });
-    outputs.set_writer(o.plot_path, [&](std::ostream& out) { write_profile_svg(out, *model, samples); });
+    outputs.set_writer(o.plot_path, [&](std::ostream& out) { write_profile_svg(out, *model, samples, contents); });
     outputs.write_all();
     return 0;
 }
