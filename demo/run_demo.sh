@@ -93,7 +93,7 @@ echo "  7/7 summary"
       "$out/calibration-delays.csv" | sort
   echo
   echo "## A measured log against its smooth fit (synthetic log, fictional Halvard Dome)"
-  awk 'NR == 1 && /^# n falls with depth in/ { sub(/^# /, ""); sub(/ \(docs.*$/, ""); print "- " $0 "." }
+  awk 'NR == 1 && /^# n falls with depth in/ { sub(/^# /, ""); sub(/ \(docs.*$/, ""); print "- " $0 "."; next }
        NR == 1 && !/^#/ { print "- n grows with depth everywhere in this log: no ducts." }' "$out/log-profile.csv"
   awk '/^n_deep|^n_surface|^scale_depth_m/ { sub(/ *=/, " ="); line = line (line ? ", " : "") $1 " " $2 " " $3 }
        END { print "- its exponential fit: " line }' "$out/log-fit.txt"

@@ -130,6 +130,9 @@ std::vector<ModelWarning> unusual_table_features(const PointTable& table, const 
     warn_index_falls(table, n, out);
     warn_large_steps(table, n, density_kg_m3_per_unit, out);
     warn_uneven_spacing(table, out);
+    // In file order (a table given bottom up is stored top down, so its lines run backwards).
+    std::stable_sort(out.begin(), out.end(),
+                     [](const ModelWarning& a, const ModelWarning& b) { return a.where.line < b.where.line; });
     return out;
 }
 

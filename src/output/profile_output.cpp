@@ -124,7 +124,7 @@ void add_inversion_bands(plot::Figure& figure, const std::vector<ProfileSample>&
                                  contents.inversions.size() == 1 ? "" : "s",
                                  labelled ? ", numbered" : "");
         in_legend = true;
-        figure.add_y_band(std::max(top, shallowest), std::min(bottom, deepest), "#f4a582", legend);
+        figure.add_y_band(std::max(top, shallowest), std::min(bottom, deepest), "#fcd5c0", legend);
         if (labelled) {
             plot::TextStyle style;
             style.size_px = 11.0;
