@@ -3,6 +3,7 @@
 #include <algorithm>
 #include <cmath>
 #include <numbers>
+#include <utility>
 
 namespace firnray {
 
@@ -32,19 +33,29 @@ public:
         const long last = static_cast<long>(std::floor((high - (2.0 * d0 - depth_.back())) / (2.0 * span_)));
         for (long k = first; k <= last; ++k) {
             const double shift = 2.0 * span_ * static_cast<double>(k), lift = rise_ * static_cast<double>(k);
-            // The table itself, shifted: s = d + shift, value f(d) + lift.
-            for (std::size_t i = 1; i < depth_.size(); ++i)
+            // The table itself, shifted: s = d + shift, value f(d) + lift; only its pieces in the window.
+            const auto [first_in, last_in] = pieces_between(low - shift, high - shift);
+            for (std::size_t i = first_in; i < last_in; ++i)
                 add_piece(depth_[i - 1] + shift, values_[i - 1] + lift, depth_[i] + shift, values_[i] + lift, centre,
                           sigma, low, high, sum, weight);
             // Its mirror image through (d0, f0), shifted: s = 2 d0 − d + shift, value 2 f0 − f(d) + lift.
             const double f0 = values_.front();
-            for (std::size_t i = 1; i < depth_.size(); ++i)
+            const auto [first_mirror, last_mirror] = pieces_between(2.0 * d0 + shift - high, 2.0 * d0 + shift - low);
+            for (std::size_t i = first_mirror; i < last_mirror; ++i)
                 add_piece(2.0 * d0 - depth_[i] + shift, 2.0 * f0 - values_[i] + lift, 2.0 * d0 - depth_[i - 1] + shift,
                           2.0 * f0 - values_[i - 1] + lift, centre, sigma, low, high, sum, weight);
         }
     }
 
 private:
+    // The pieces [depth[i-1], depth[i]] that overlap [from, to], as the range of i [first, last).
+    std::pair<std::size_t, std::size_t> pieces_between(double from, double to) const {
+        const auto begin = depth_.begin();
+        const std::size_t first = static_cast<std::size_t>(std::upper_bound(begin, depth_.end(), from) - begin);
+        const std::size_t last = static_cast<std::size_t>(std::lower_bound(begin, depth_.end(), to) - begin) + 1;
+        return {std::max<std::size_t>(first, 1), std::min(last, depth_.size())};
+    }
+
     static void add_piece(double s_a, double f_a, double s_b, double f_b, double centre, double sigma, double low,
                           double high, double& sum, double& weight) {
         if (s_b <= low || s_a >= high) return;

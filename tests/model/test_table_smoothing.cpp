@@ -2,6 +2,7 @@
 // of the tabulated index with the ends continued by odd reflection.
 #include <cmath>
 #include <numbers>
+#include <sstream>
 #include <vector>
 
 #include <catch2/catch.hpp>
@@ -10,6 +11,7 @@
 #include "model/model_file.hpp"
 #include "model/table_profile.hpp"
 #include "model/table_smoothing.hpp"
+#include "output/model_json.hpp"
 
 using namespace firnray;
 
@@ -82,6 +84,13 @@ TEST_CASE("table profile: smoothing_m in a model file, its bounds and its round 
     CHECK(table.tabulated_n()[3] == 1.38);
     CHECK(table.n_values()[3] != 1.38);
     CHECK(table.describe().find("smoothed by a Gaussian of sigma 1.5 m") != std::string::npos);
+    std::ostringstream json_text;
+    {
+        JsonWriter json(json_text);
+        write_model_json(json, model);
+        json.flush();
+    }
+    CHECK(json_text.str().find("\"smoothing_m\": 1.5") != std::string::npos);
 
     const std::string written = model_to_toml(model);
     CHECK(written.find("smoothing_m = 1.5") != std::string::npos);
