@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <limits>
 #include <numbers>
 #include <utility>
 
@@ -34,16 +35,24 @@ public:
         for (long k = first; k <= last; ++k) {
             const double shift = 2.0 * span_ * static_cast<double>(k), lift = rise_ * static_cast<double>(k);
             // The table itself, shifted: s = d + shift, value f(d) + lift; only its pieces in the window.
+            // Going down, each piece's lower knot is the next piece's upper knot.
+            KnotCache upper, lower;
             const auto [first_in, last_in] = pieces_between(low - shift, high - shift);
-            for (std::size_t i = first_in; i < last_in; ++i)
+            for (std::size_t i = first_in; i < last_in; ++i) {
                 add_piece(depth_[i - 1] + shift, values_[i - 1] + lift, depth_[i] + shift, values_[i] + lift, centre,
-                          sigma, low, high, sum, weight);
+                          sigma, low, high, sum, weight, upper, lower);
+                std::swap(upper, lower);
+            }
             // Its mirror image through (d0, f0), shifted: s = 2 d0 − d + shift, value 2 f0 − f(d) + lift.
             const double f0 = values_.front();
             const auto [first_mirror, last_mirror] = pieces_between(2.0 * d0 + shift - high, 2.0 * d0 + shift - low);
-            for (std::size_t i = first_mirror; i < last_mirror; ++i)
+            // Mirrored, the order runs the other way: each piece's upper knot is the next one's lower knot.
+            KnotCache start, end;
+            for (std::size_t i = first_mirror; i < last_mirror; ++i) {
                 add_piece(2.0 * d0 - depth_[i] + shift, 2.0 * f0 - values_[i] + lift, 2.0 * d0 - depth_[i - 1] + shift,
-                          2.0 * f0 - values_[i - 1] + lift, centre, sigma, low, high, sum, weight);
+                          2.0 * f0 - values_[i - 1] + lift, centre, sigma, low, high, sum, weight, start, end);
+                std::swap(start, end);
+            }
         }
     }
 
@@ -56,15 +65,33 @@ private:
         return {std::max<std::size_t>(first, 1), std::min(last, depth_.size())};
     }
 
+    // Φ and φ at the last knot evaluated: neighbouring pieces share a knot, so each knot's erfc and
+    // exp are computed once (the same double, computed the same way, is recognised exactly).
+    struct KnotCache {
+        double u = std::numeric_limits<double>::quiet_NaN(), cdf = 0.0, pdf = 0.0;
+        void at(double u_new, double& cdf_out, double& pdf_out) {
+            if (u_new != u) {
+                u = u_new;
+                cdf = normal_cdf(u_new);
+                pdf = normal_pdf(u_new);
+            }
+            cdf_out = cdf;
+            pdf_out = pdf;
+        }
+    };
+
     static void add_piece(double s_a, double f_a, double s_b, double f_b, double centre, double sigma, double low,
-                          double high, double& sum, double& weight) {
+                          double high, double& sum, double& weight, KnotCache& cache_a, KnotCache& cache_b) {
         if (s_b <= low || s_a >= high) return;
         const double slope = (f_b - f_a) / (s_b - s_a);
         const double u_a = (std::max(s_a, low) - centre) / sigma, u_b = (std::min(s_b, high) - centre) / sigma;
         // f = α + β u on this piece, with α the line's value at the centre and β = slope·σ.
         const double alpha = f_a + slope * (centre - s_a), beta = slope * sigma;
-        const double mass = normal_cdf(u_b) - normal_cdf(u_a);
-        sum += alpha * mass - beta * (normal_pdf(u_b) - normal_pdf(u_a));
+        double cdf_a, pdf_a, cdf_b, pdf_b;
+        cache_a.at(u_a, cdf_a, pdf_a);
+        cache_b.at(u_b, cdf_b, pdf_b);
+        const double mass = cdf_b - cdf_a;
+        sum += alpha * mass - beta * (pdf_b - pdf_a);
         weight += mass;
     }
 
