@@ -1,6 +1,6 @@
 // Harness: a model file (bytes → file → load_model_file). A model that loads must give a finite
-// n >= 1 and a finite dn/dz at every depth, and must write back (model_to_toml) to text that
-// loads again.
+// n >= 1 and a finite dn/dz at every depth, locate each of its warnings, and must write back
+// (model_to_toml) to text that loads again.
 #include <cmath>
 #include <string>
 #include <string_view>
@@ -26,6 +26,10 @@ int fuzz_one(const std::uint8_t* data, std::size_t size) {
         return 0;
     }
     if (!model.index) fuzz::fail_invariant("a loaded model has no index profile");
+    // A warning says what and where: a message and a file line (a CSV's or the model's).
+    for (const auto& warning : model.warnings)
+        if (warning.message.empty() || warning.where.file.empty() || warning.where.line <= 0)
+            fuzz::fail_invariant(fmt::format("a warning without a message or a place: '{}'", warning.describe()));
     for (const double depth : {0.0, 1e-3, 0.5, 3.0, 17.0, 60.0, 150.0, 400.0, 1500.0, 4000.0, 1e5}) {
         double n = 0.0, dn_dz = 0.0;
         model.index->index_and_gradient(-depth, n, dn_dz);

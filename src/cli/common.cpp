@@ -2,6 +2,7 @@
 
 #include <cmath>
 #include <cstdio>
+#include <iostream>
 #include <sstream>
 #include <thread>
 
@@ -20,7 +21,11 @@ void add_model_option(CLI::App* command, std::string& path) {
 }
 
 std::shared_ptr<const FirnModel> load_model_or_default(const std::string& path) {
-    return std::make_shared<const FirnModel>(path.empty() ? default_model() : load_model_file(path));
+    auto model = std::make_shared<const FirnModel>(path.empty() ? default_model() : load_model_file(path));
+    // Shown even with --quiet: --quiet silences progress, not what the user should know about
+    // the input (docs/model-files.md, "Warnings").
+    for (const auto& warning : model->warnings) std::cerr << "warning: " << warning.describe() << '\n';
+    return model;
 }
 
 void add_solver_option(CLI::App* command, std::string& choice) {

@@ -36,6 +36,8 @@ CLI::Validator parser_check(std::function<void(const std::string& text)> parse, 
 
 // --model FILE (default: the built-in generic model).
 void add_model_option(CLI::App* command, std::string& path);
+// The model, with each of its warnings (model/firn_model.hpp) printed on stderr as
+// "warning: FILE:LINE:COLUMN: ...", also under --quiet (which only silences progress).
 std::shared_ptr<const FirnModel> load_model_or_default(const std::string& path);
 
 // --solver auto|closed|numeric (the value is parsed by parse_solver_choice).

@@ -5,6 +5,7 @@ namespace firnray {
 std::string InputLocation::describe() const {
     std::string out = file;
     if (line > 0) out += (out.empty() ? "line " : ":") + std::to_string(line);
+    if (line > 0 && column > 0) out += (file.empty() ? ", column " : ":") + std::to_string(column);
     if (!key.empty()) out += (out.empty() ? "" : ": ") + std::string("key '") + key + "'";
     return out;
 }

@@ -12,8 +12,9 @@ struct InputLocation {
     std::string file;  // path as the user gave it
     int line = 0;      // 1-based; 0 = unknown
     std::string key;   // e.g. "index.n_deep", a CSV column name, or an option name
+    int column = 0;    // 1-based character column in the line (a CSV field, an array element); 0 = unknown
 
-    std::string describe() const;  // "file:line: key 'index.n_deep'" (parts omitted when empty)
+    std::string describe() const;  // "file:line:column: key 'index.n_deep'" (parts omitted when empty)
 };
 
 class Error : public std::runtime_error {

@@ -29,11 +29,14 @@ std::string_view trim(std::string_view text) {
 
 // Splits one line into fields. Returns false (with a reason) for an unterminated quote or text
 // after a closing quote.
-bool split_line(std::string_view line, std::vector<std::string>& fields, std::string& problem) {
+bool split_line(std::string_view line, std::vector<std::string>& fields, std::vector<int>& columns,
+                std::string& problem) {
     fields.clear();
+    columns.clear();
     std::size_t i = 0;
     while (true) {
         while (i < line.size() && (line[i] == ' ' || line[i] == '\t')) ++i;
+        columns.push_back(static_cast<int>(i) + 1);
         std::string field;
         if (i < line.size() && line[i] == '"') {
             ++i;
@@ -129,7 +132,7 @@ CsvTable parse_csv(std::string_view text, const std::string& origin, CsvErrorKin
 
         CsvRow row;
         row.line = line_number;
-        const bool split_ok = split_line(line, row.fields, row.problem);
+        const bool split_ok = split_line(line, row.fields, row.field_columns, row.problem);
         if (table.header_line == 0) {
             take_header(table, row, split_ok);
             continue;
@@ -155,7 +158,7 @@ CsvStreamReader::CsvStreamReader(const std::string& path, CsvErrorKind kind) {
     CsvRow row;
     if (!next_line(line, row.line, too_long)) raise_no_header(header_);
     if (too_long) raise(kind, "the header line is longer than 1 MiB", {path, row.line, ""});
-    const bool split_ok = split_line(line, row.fields, row.problem);
+    const bool split_ok = split_line(line, row.fields, row.field_columns, row.problem);
     take_header(header_, row, split_ok);
 }
 
@@ -189,7 +192,7 @@ bool CsvStreamReader::read_rows(std::vector<CsvRow>& rows, std::size_t max_rows)
         CsvRow row;
         if (!next_line(line, row.line, too_long)) break;
         if (too_long) row.problem = fmt::format("the line is longer than {} bytes", most_line_bytes);
-        else split_line(line, row.fields, row.problem);
+        else split_line(line, row.fields, row.field_columns, row.problem);
         rows.push_back(std::move(row));
     }
     if (in_.bad()) raise(header_.error_kind, "reading the file failed", {header_.path, line_number_, ""});

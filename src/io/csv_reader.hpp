@@ -19,6 +19,7 @@ enum class CsvErrorKind { data, model };
 struct CsvRow {
     int line = 0;                     // 1-based line in the file
     std::vector<std::string> fields;  // trimmed, quotes removed
+    std::vector<int> field_columns;   // 1-based character column where each field starts (for messages)
     std::string problem;              // non-empty when the line could not be split (e.g. an open quote)
 };
 

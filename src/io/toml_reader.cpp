@@ -203,7 +203,9 @@ std::vector<LocatedNumber> TomlTable::numbers(std::string_view key) const {
     for (std::size_t i = 0; i < array->size(); ++i) {
         const toml::node& element = *array->get(i);
         const std::string element_key = fmt::format("{}[{}]", key_path(key), i);
-        out.push_back({number_of(element, origin(), element_key), {origin(), line_of(element), element_key}});
+        InputLocation at{origin(), line_of(element), element_key};
+        at.column = std::max(0, static_cast<int>(element.source().begin.column));
+        out.push_back({number_of(element, origin(), element_key), std::move(at)});
     }
     return out;
 }

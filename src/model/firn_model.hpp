@@ -5,6 +5,9 @@
 #include <memory>
 #include <optional>
 #include <string>
+#include <vector>
+
+#include "core/errors.hpp"
 
 #include "model/index_profile.hpp"
 
@@ -31,6 +34,17 @@ struct Bottom {
     double power_reflectivity = 1.0;   // |r|^2 in [0, 1]; the field factor is its square root
 };
 
+// Something merely unusual in a model file (not an error): the front end shows it as
+// "warning: FILE:LINE:COLUMN: ..." on stderr and goes on.
+struct ModelWarning {
+    std::string message;
+    InputLocation where;
+    std::string describe() const {
+        const std::string place = where.describe();
+        return place.empty() ? message : place + ": " + message;
+    }
+};
+
 struct FirnModel {
     std::string name;                               // from the file, or the built-in name
     std::string origin;                             // file path, or "built-in"
@@ -38,6 +52,7 @@ struct FirnModel {
     double n_air = 1.0;
     std::optional<Bottom> bottom;
     std::shared_ptr<const AttenuationProfile> attenuation;  // null: no attenuation (factor 1)
+    std::vector<ModelWarning> warnings;             // from the file; empty for a model made in code
 
     // n at z: the profile in the ice (z <= 0), n_air above.
     double index_at(double z) const { return z > 0.0 ? n_air : index->index(z); }

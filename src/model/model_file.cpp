@@ -78,6 +78,7 @@ FirnModel read_model(const TomlDocument& document) {
         model.attenuation = read_attenuation_profile(*attenuation, context);
     if (const auto bottom = top.optional_table("bottom")) model.bottom = read_bottom(*bottom, context);
     context.check_vertical_convention();
+    model.warnings = std::move(context.warnings);
     return model;
 }
 

@@ -33,6 +33,27 @@ inline constexpr NumberRange height{-deepest_depth_m, 0.0, "m", "a z in the ice"
 // Table points closer than this are not resolved by any log, and would make the cubic's slopes huge.
 inline constexpr double smallest_point_spacing_m = 0.001;
 
+// Smoothing length of a table (the σ of its Gaussian average, docs/physics.md §1.4): below a
+// centimetre no log resolves anything, and above 100 m nothing of the firn's structure is left
+// (fit the exponential model instead).
+inline constexpr NumberRange smoothing{0.01, 100.0, "m", "a smoothing length",
+                                       "it is the scale below which features of the log are averaged away"};
+
+// What is unusual in a table, though possible, and gets a warning rather than an error (the
+// user may well mean it: a lens, a crust, a gap in a log). See docs/model-files.md §Warnings.
+// n falling with depth by more than this within unusual_fall_span_m.
+inline constexpr double unusual_index_fall = 0.05;
+inline constexpr double unusual_fall_span_m = 1.0;
+// A step between neighbouring points of a density log larger than this (kg/m³): an ice lens in
+// firn is a step of a few hundred kg/m³ (from memory), so this is a lens, but a large one, or a
+// unit or transcription slip. For index tables, the same step through Kovacs (0.845 per g/cm³).
+inline constexpr double unusual_density_step_kg_m3 = 250.0;
+inline constexpr double unusual_index_step = 0.845 * unusual_density_step_kg_m3 / 1000.0;
+// A point spacing this many times finer or coarser than the table's median spacing.
+inline constexpr double unusual_spacing_ratio = 10.0;
+// At most this many warnings of one kind per table; the rest are counted in one more warning.
+inline constexpr int most_warnings_per_kind = 5;
+
 // Radio attenuation lengths: a metre (far lossier than any ice) to 100 km (far clearer than any).
 inline constexpr NumberRange attenuation_length{1.0, 100000.0, "m", "an attenuation length",
                                                 "common practice puts cold polar ice near 1 km"};

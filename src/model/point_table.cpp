@@ -81,6 +81,24 @@ std::size_t chosen_value(const TomlTable& t, const std::vector<ValueAlternative>
     return *chosen;
 }
 
+// Where a cell of a table file is: file, line, column name and the character column of the field,
+// so that an editor can jump to the very number.
+InputLocation cell_location(const CsvTable& csv, const CsvRow& row, std::size_t column_index) {
+    InputLocation at{csv.path, row.line, csv.columns[column_index]};
+    if (column_index < row.field_columns.size()) at.column = row.field_columns[column_index];
+    return at;
+}
+
+// The cell's number; a cell that is not one is refused at its file, line and column.
+double cell_number(const CsvTable& csv, const CsvRow& row, std::size_t column_index, const InputLocation& at) {
+    try {
+        return csv.number(row, column_index);
+    } catch (const ModelInputError& e) {
+        if (e.where().line != row.line || e.where().key != at.key) throw;  // a row-wide problem (field count)
+        throw ModelInputError(e.reason(), at);
+    }
+}
+
 void read_csv_points(const TomlTable& t, ModelFileContext& context, const std::vector<ValueAlternative>& values,
                      PointTable& table) {
     for (const std::string_view key : {"depth_m", "z_m"})
@@ -115,11 +133,11 @@ void read_csv_points(const TomlTable& t, ModelFileContext& context, const std::v
     table.named_at = fmt::format("key '{}' of '{}'", file_key.key, file_key.file);
     for (const CsvRow& row : csv.rows) {
         TablePoint point;
-        point.depth = csv.number(row, depth_index);
+        point.depth_at = cell_location(csv, row, depth_index);
+        point.value_at = cell_location(csv, row, value_index);
+        point.depth = cell_number(csv, row, depth_index, point.depth_at);
         if (is_z) point.depth = -point.depth;
-        point.value = csv.number(row, value_index);
-        point.depth_at = {csv.path, row.line, depth_column};
-        point.value_at = {csv.path, row.line, value_column};
+        point.value = cell_number(csv, row, value_index, point.value_at);
         table.points.push_back(point);
         table.last_line = row.line;
     }

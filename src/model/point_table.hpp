@@ -11,6 +11,7 @@
 
 #include "core/errors.hpp"
 #include "io/toml_reader.hpp"
+#include "model/firn_model.hpp"
 
 namespace firnray {
 
@@ -29,6 +30,9 @@ public:
     // A file gives positions as depth or as z, never both. Checked once the whole file is read so
     // that the message blames the later key in the file, whatever order the tables are read in.
     void check_vertical_convention() const;
+
+    // Warnings found while reading the file's tables (model/firn_model.hpp), in file order.
+    std::vector<ModelWarning> warnings;
 
 private:
     struct VerticalKey {

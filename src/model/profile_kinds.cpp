@@ -11,6 +11,7 @@
 #include "model/layered_profile.hpp"
 #include "model/model_limits.hpp"
 #include "model/table_profile.hpp"
+#include "model/table_warnings.hpp"
 
 namespace firnray {
 
@@ -160,19 +161,30 @@ std::shared_ptr<const IndexProfile> read_index_table(const TomlTable& t, ModelFi
     const auto interpolation =
         t.optional_choice("interpolation", {"monotone", "spline"}, "a table interpolation",
                           "\"monotone\" (Fritsch-Carlson, the default) or \"spline\" (C² cubic spline)");
+    const std::optional<double> smoothing = t.optional_number("smoothing_m", model_limits::smoothing);
+    std::shared_ptr<const TableProfile> profile;
     try {
-        return std::make_shared<TableProfile>(std::move(depth), std::move(n),
-                                              interpolation == "spline" ? TableInterpolation::spline
-                                                                        : TableInterpolation::monotone);
+        profile = std::make_shared<TableProfile>(std::move(depth), std::move(n),
+                                                 interpolation == "spline" ? TableInterpolation::spline
+                                                                           : TableInterpolation::monotone,
+                                                 smoothing);
     } catch (const ModelInputError& e) {
+        if (e.where().key == "smoothing_m") t.fail("smoothing_m", e.reason());
         table.fail(fmt::format("{}: {}", table.description, e.reason()));
     }
+    std::optional<double> kg_m3_per_unit;
+    if (density)
+        kg_m3_per_unit = to_g_cm3(1.0, *density_unit_from_name(t.text("density_unit", "a density unit"))) * 1000.0;
+    for (auto& warning : unusual_table_features(table, profile->n_values(), kg_m3_per_unit))
+        context.warnings.push_back(std::move(warning));
+    return profile;
 }
 
 void write_index_table(const IndexProfile& profile, TomlWriter& out) {
     const auto& p = static_cast<const TableProfile&>(profile);
-    out.value("depth_m", p.depth_m()).value("n", p.n_values());
+    out.value("depth_m", p.depth_m()).value("n", p.tabulated_n());
     if (p.interpolation() == TableInterpolation::spline) out.value("interpolation", "spline");
+    if (p.smoothing_m()) out.value("smoothing_m", *p.smoothing_m());
 }
 
 // ---- attenuation -----------------------------------------------------------------------------
@@ -249,7 +261,7 @@ const std::vector<IndexKind>& index_kinds() {
         {"table",
          [] {
              auto keys = with_kind(point_table_keys(index_values()));
-             keys.insert(keys.end(), {"density_unit", "density_rule", "interpolation"});
+             keys.insert(keys.end(), {"density_unit", "density_rule", "interpolation", "smoothing_m"});
              return keys;
          }(),
          read_index_table, write_index_table},

@@ -6,12 +6,13 @@
 
 #include "core/errors.hpp"
 #include "model/table_checks.hpp"
+#include "model/table_smoothing.hpp"
 
 namespace firnray {
 
 namespace {
 
-CubicSpline build_spline(std::vector<double> depth, std::vector<double> n, TableInterpolation interpolation) {
+void require_index_values(const std::vector<double>& depth, const std::vector<double>& n) {
     require_table_depths(depth, n.size(), TableProfile::minimum_points, "an index table", "n");
     for (std::size_t i = 0; i < depth.size(); ++i) {
         if (!std::isfinite(n[i]))
@@ -20,6 +21,27 @@ CubicSpline build_spline(std::vector<double> depth, std::vector<double> n, Table
             throw ModelInputError(fmt::format("point {}: n = {} is below 1 (no medium is faster than vacuum)", i + 1, n[i]),
                                   {"", 0, "n"});
     }
+}
+
+// The values the cubic goes through: the tabulated ones, or their Gaussian average.
+std::vector<double> interpolated_values(const std::vector<double>& depth, const std::vector<double>& n,
+                                        std::optional<double> smoothing_m) {
+    require_index_values(depth, n);
+    if (!smoothing_m) return n;
+    if (!(std::isfinite(*smoothing_m) && *smoothing_m > 0.0))
+        throw ModelInputError(fmt::format("the smoothing length {} m is not a positive length", *smoothing_m),
+                              {"", 0, "smoothing_m"});
+    std::vector<double> smoothed = gaussian_smoothed(depth, n, *smoothing_m);
+    for (std::size_t i = 0; i < smoothed.size(); ++i)
+        if (!(smoothed[i] >= 1.0))
+            throw ModelInputError(fmt::format("smoothed over {} m, the table falls to n = {:.6g} at point {} ({} m), "
+                                              "below 1; use a shorter smoothing length",
+                                              *smoothing_m, smoothed[i], i + 1, depth[i]),
+                                  {"", 0, "smoothing_m"});
+    return smoothed;
+}
+
+CubicSpline build_spline(std::vector<double> depth, std::vector<double> n, TableInterpolation interpolation) {
     if (interpolation == TableInterpolation::spline)
         return CubicSpline(std::move(depth), std::move(n), SplineEnd::natural(), SplineEnd::clamped(0.0));
     std::vector<double> slopes = fritsch_carlson_slopes(depth, n);
@@ -29,8 +51,11 @@ CubicSpline build_spline(std::vector<double> depth, std::vector<double> n, Table
 
 }  // namespace
 
-TableProfile::TableProfile(std::vector<double> depth_m, std::vector<double> n, TableInterpolation interpolation)
-    : spline_(build_spline(std::move(depth_m), std::move(n), interpolation)), interpolation_(interpolation) {
+TableProfile::TableProfile(std::vector<double> depth_m, std::vector<double> n, TableInterpolation interpolation,
+                           std::optional<double> smoothing_m)
+    : tabulated_n_(n), smoothing_m_(smoothing_m),
+      spline_(build_spline(depth_m, interpolated_values(depth_m, n, smoothing_m), interpolation)),
+      interpolation_(interpolation) {
     for (const double d : spline_.x()) joins_z_.push_back(-d);
     const double lowest = spline_.minimum_on_knots();
     if (lowest < 1.0)
@@ -70,9 +95,11 @@ void TableProfile::piece_index(std::size_t piece, double z, double& n, double& d
 std::string TableProfile::describe() const {
     const auto& d = spline_.x();
     const auto& n = spline_.y();
-    return fmt::format("table: {} points from {} m (n {:.6g}) to {} m (n {:.6g}), {}", d.size(), d.front(), n.front(),
+    const std::string smoothing =
+        smoothing_m_ ? fmt::format(", smoothed by a Gaussian of sigma {} m", *smoothing_m_) : std::string();
+    return fmt::format("table: {} points from {} m (n {:.6g}) to {} m (n {:.6g}), {}{}", d.size(), d.front(), n.front(),
                        d.back(), n.back(),
-                       interpolation_ == TableInterpolation::spline ? "cubic spline" : "monotone cubic");
+                       interpolation_ == TableInterpolation::spline ? "cubic spline" : "monotone cubic", smoothing);
 }
 
 }  // namespace firnray

@@ -3,9 +3,13 @@
 // cubic (Fritsch & Carlson 1980), which never overshoots the data, so a log whose n grows with
 // depth gives a profile that grows with depth too (what the path finders assume); or with a C²
 // cubic spline, which is smoother but may overshoot between uneven points.
-// Noisy logs should be fitted (model/fit.hpp) rather than interpolated through every wiggle.
+// A measured log is taken as it is (every layer, lens and crust, ducts included) unless a
+// smoothing length is given: the values are then first averaged by a Gaussian of that standard
+// deviation (model/table_smoothing.hpp, docs/physics.md §1.4). Noisy logs whose detail is not
+// wanted at all should be fitted (model/fit.hpp) rather than interpolated through every wiggle.
 #pragma once
 
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -32,8 +36,12 @@ public:
 
     // depth_m strictly increasing and >= 0, n finite and >= 1, at least minimum_points points.
     // Throws ModelInputError (key "depth_m" or "n") naming the offending point (counting from 1).
+    // smoothing_m: the σ (m) of the Gaussian average applied to n before interpolating; none: the
+    // points are interpolated as they are. Throws ModelInputError (key "smoothing_m") unless it is
+    // finite and positive.
     TableProfile(std::vector<double> depth_m, std::vector<double> n,
-                 TableInterpolation interpolation = TableInterpolation::monotone);
+                 TableInterpolation interpolation = TableInterpolation::monotone,
+                 std::optional<double> smoothing_m = std::nullopt);
 
     double index(double z) const override;
     double gradient(double z) const override;
@@ -45,10 +53,16 @@ public:
     std::string describe() const override;
 
     const std::vector<double>& depth_m() const { return spline_.x(); }
+    // The values interpolated: the tabulated ones, smoothed when a smoothing length is given.
     const std::vector<double>& n_values() const { return spline_.y(); }
+    // The values as tabulated (what a model file holds); equal to n_values() without smoothing.
+    const std::vector<double>& tabulated_n() const { return tabulated_n_; }
+    std::optional<double> smoothing_m() const { return smoothing_m_; }
     TableInterpolation interpolation() const { return interpolation_; }
 
 private:
+    std::vector<double> tabulated_n_;
+    std::optional<double> smoothing_m_;
     CubicSpline spline_;  // n against depth (C² spline or C¹ monotone Hermite, same pieces)
     TableInterpolation interpolation_;
     std::vector<double> joins_z_;

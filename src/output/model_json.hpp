@@ -7,8 +7,8 @@
 
 namespace firnray {
 
-// An object with name, origin, index (the profile's description) and n_air, written as the next
-// value (after a key).
+// An object with name, origin, index (the profile's description), smoothing_m (for a smoothed
+// table only) and n_air, written as the next value (after a key).
 void write_model_json(JsonWriter& json, const FirnModel& model);
 
 }  // namespace firnray

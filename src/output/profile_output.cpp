@@ -43,10 +43,110 @@ std::vector<double> indexes_of(const std::vector<ProfileSample>& samples) {
     return n;
 }
 
+// At most this many inversions are numbered on the plot; more would be unreadable labels.
+constexpr std::size_t most_labelled_inversions = 20;
+
+std::string inversion_line(std::size_t number, const IndexInversion& inversion) {
+    return fmt::format("inversion {}: n falls with depth from {:.6g} at {:.6g} m to {:.6g} at {:.6g} m", number,
+                       require_finite(inversion.index_top, "inversion n_top"),
+                       require_finite(-inversion.z_top, "inversion top_depth_m"),
+                       require_finite(inversion.index_bottom, "inversion n_bottom"),
+                       require_finite(-inversion.z_bottom, "inversion bottom_depth_m"));
+}
+
+std::string duct_line(std::size_t number, const Duct& duct) {
+    std::string line = fmt::format(
+        "duct {}: rays with ray parameter between {:.6g} and {:.6g} are trapped around {:.6g} m deep, at most "
+        "between {:.6g} and {:.6g} m",
+        number, require_finite(duct.ray_parameter_low, "duct ray_parameter_low"),
+        require_finite(duct.ray_parameter_high, "duct ray_parameter_high"), require_finite(-duct.axis_z, "duct axis_depth_m"),
+        require_finite(-duct.z_top, "duct top_depth_m"), require_finite(-duct.z_bottom, "duct bottom_depth_m"));
+    if (duct.surface_ray_parameter)
+        line += fmt::format(" (below {:.6g} they reflect at the surface instead of turning above)",
+                            require_finite(*duct.surface_ray_parameter, "duct surface_ray_parameter"));
+    return line;
+}
+
+void write_contents_comment(output::TextSink& out, const ProfileContents& contents) {
+    if (contents.inversions.empty()) return;
+    out.put(fmt::format("# n falls with depth in {} interval{} of this profile, making {} duct{} "
+                        "(docs/physics.md §8):",
+                        contents.inversions.size(), contents.inversions.size() == 1 ? "" : "s",
+                        contents.ducts.size(), contents.ducts.size() == 1 ? "" : "s"));
+    out.end_row();
+    for (std::size_t i = 0; i < contents.inversions.size(); ++i) {
+        out.put("# " + inversion_line(i + 1, contents.inversions[i]));
+        out.end_row();
+    }
+    for (std::size_t i = 0; i < contents.ducts.size(); ++i) {
+        out.put("# " + duct_line(i + 1, contents.ducts[i]));
+        out.end_row();
+    }
+}
+
+void write_contents_json(JsonWriter& json, const ProfileContents& contents) {
+    if (contents.inversions.empty()) return;
+    json.key("inversions").begin_array();
+    for (const auto& inversion : contents.inversions) {
+        json.begin_object();
+        json.field("top_depth_m", -inversion.z_top).field("bottom_depth_m", -inversion.z_bottom);
+        json.field("n_top", inversion.index_top).field("n_bottom", inversion.index_bottom);
+        json.end_object();
+    }
+    json.end_array();
+    json.key("ducts").begin_array();
+    for (const auto& duct : contents.ducts) {
+        json.begin_object();
+        json.field("axis_depth_m", -duct.axis_z);
+        json.field("ray_parameter_low", duct.ray_parameter_low).field("ray_parameter_high", duct.ray_parameter_high);
+        json.field("top_depth_m", -duct.z_top).field("bottom_depth_m", -duct.z_bottom);
+        if (duct.surface_ray_parameter) json.field("surface_ray_parameter", *duct.surface_ray_parameter);
+        json.end_object();
+    }
+    json.end_array();
+}
+
+// Shades the inversions inside the samples' depths and numbers them (when there are few enough).
+void add_inversion_bands(plot::Figure& figure, const std::vector<ProfileSample>& samples,
+                         const ProfileContents& contents) {
+    if (samples.empty() || contents.inversions.empty()) return;
+    const double shallowest = samples.front().depth_m, deepest = samples.back().depth_m;
+    double lowest_n = samples.front().n;
+    for (const auto& s : samples) lowest_n = std::min(lowest_n, s.n);
+    const bool labelled = contents.inversions.size() <= most_labelled_inversions;
+    bool in_legend = false;
+    for (std::size_t i = 0; i < contents.inversions.size(); ++i) {
+        const double top = -contents.inversions[i].z_top, bottom = -contents.inversions[i].z_bottom;
+        if (bottom < shallowest || top > deepest) continue;
+        std::string legend;
+        if (!in_legend)
+            legend = fmt::format("n falls with depth ({} interval{}{})", contents.inversions.size(),
+                                 contents.inversions.size() == 1 ? "" : "s",
+                                 labelled ? ", numbered" : "");
+        in_legend = true;
+        figure.add_y_band(std::max(top, shallowest), std::min(bottom, deepest), "#fcd5c0", legend);
+        if (labelled) {
+            plot::TextStyle style;
+            style.size_px = 11.0;
+            style.colour = "#b2182b";
+            figure.add_text(lowest_n, 0.5 * (std::max(top, shallowest) + std::min(bottom, deepest)),
+                            fmt::format("inversion {}", i + 1), style);
+        }
+    }
+}
+
 }  // namespace
 
-void write_profile_samples_csv(std::ostream& stream, const std::vector<ProfileSample>& samples) {
+ProfileContents profile_contents(const FirnModel& model) {
+    const StratifiedProfile profile(model.index,
+                                    model.bottom ? std::optional<double>(model.bottom->z_m) : std::nullopt);
+    return {profile.inversions(), profile.ducts()};
+}
+
+void write_profile_samples_csv(std::ostream& stream, const std::vector<ProfileSample>& samples,
+                               const ProfileContents& contents) {
     output::TextSink out(stream);
+    write_contents_comment(out, contents);
     out.put("depth_m,z_m,n,dn_dz_per_m");
     out.end_row();
     for (const auto& s : samples) {
@@ -62,11 +162,12 @@ void write_profile_samples_csv(std::ostream& stream, const std::vector<ProfileSa
     out.finish();
 }
 
-std::string profile_samples_csv(const std::vector<ProfileSample>& samples) {
-    return render_to_string([&](std::ostream& out) { write_profile_samples_csv(out, samples); });
+std::string profile_samples_csv(const std::vector<ProfileSample>& samples, const ProfileContents& contents) {
+    return render_to_string([&](std::ostream& out) { write_profile_samples_csv(out, samples, contents); });
 }
 
-void write_profile_samples_json(std::ostream& out, const FirnModel& model, const std::vector<ProfileSample>& samples) {
+void write_profile_samples_json(std::ostream& out, const FirnModel& model, const std::vector<ProfileSample>& samples,
+                                const ProfileContents& contents) {
     JsonWriter json(out);
     json.begin_object();
     json.key("model");
@@ -79,24 +180,29 @@ void write_profile_samples_json(std::ostream& out, const FirnModel& model, const
         json.end_object();
     }
     json.end_array();
+    write_contents_json(json, contents);
     json.end_object();
     json.flush();
     out << '\n';
 }
 
-std::string profile_samples_json(const FirnModel& model, const std::vector<ProfileSample>& samples) {
-    return render_to_string([&](std::ostream& out) { write_profile_samples_json(out, model, samples); });
+std::string profile_samples_json(const FirnModel& model, const std::vector<ProfileSample>& samples,
+                                 const ProfileContents& contents) {
+    return render_to_string([&](std::ostream& out) { write_profile_samples_json(out, model, samples, contents); });
 }
 
-void write_profile_svg(std::ostream& out, const FirnModel& model, const std::vector<ProfileSample>& samples) {
+void write_profile_svg(std::ostream& out, const FirnModel& model, const std::vector<ProfileSample>& samples,
+                       const ProfileContents& contents) {
     plot::Figure figure = profile_figure(fmt::format("Refractive index: {}", model.name));
+    add_inversion_bands(figure, samples, contents);
     figure.add_line(indexes_of(samples), depths_of(samples), plot::LineStyle{},
                     fmt::format("n, {} profile", model.index->kind()));
     out << figure.svg();
 }
 
-std::string profile_svg(const FirnModel& model, const std::vector<ProfileSample>& samples) {
-    return render_to_string([&](std::ostream& out) { write_profile_svg(out, model, samples); });
+std::string profile_svg(const FirnModel& model, const std::vector<ProfileSample>& samples,
+                        const ProfileContents& contents) {
+    return render_to_string([&](std::ostream& out) { write_profile_svg(out, model, samples, contents); });
 }
 
 void write_fit_report_text(std::ostream& stream, const FitData& data, const ExponentialFit& fit) {

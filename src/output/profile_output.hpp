@@ -12,18 +12,36 @@
 #include "model/fit.hpp"
 #include "model/fit_data.hpp"
 #include "model/profile_samples.hpp"
+#include "solver/stratified_intervals.hpp"
 
 namespace firnray {
 
-// Columns depth_m, z_m, n, dn_dz_per_m.
-void write_profile_samples_csv(std::ostream& out, const std::vector<ProfileSample>& samples);
-std::string profile_samples_csv(const std::vector<ProfileSample>& samples);
-// The samples under the model's name and description, with the conventions used.
-void write_profile_samples_json(std::ostream& out, const FirnModel& model, const std::vector<ProfileSample>& samples);
-std::string profile_samples_json(const FirnModel& model, const std::vector<ProfileSample>& samples);
-// n against depth (depth increasing downward), titled with the model's name.
-void write_profile_svg(std::ostream& out, const FirnModel& model, const std::vector<ProfileSample>& samples);
-std::string profile_svg(const FirnModel& model, const std::vector<ProfileSample>& samples);
+// What a profile holds beyond its samples: the depth intervals where n falls with depth and the
+// ducts they make (solver/stratified_intervals.hpp, docs/physics.md §8), from the surface down.
+struct ProfileContents {
+    std::vector<IndexInversion> inversions;
+    std::vector<Duct> ducts;
+};
+// The contents of a model's whole index profile (with its bottom, if any).
+ProfileContents profile_contents(const FirnModel& model);
+
+// Columns depth_m, z_m, n, dn_dz_per_m. When the profile has inversions, # comment lines before
+// the header list them and their ducts (CSV readers, firnray's included, skip # lines).
+void write_profile_samples_csv(std::ostream& out, const std::vector<ProfileSample>& samples,
+                               const ProfileContents& contents = {});
+std::string profile_samples_csv(const std::vector<ProfileSample>& samples, const ProfileContents& contents = {});
+// The samples under the model's name and description, with the conventions used; the members
+// "inversions" and "ducts" when the profile has any.
+void write_profile_samples_json(std::ostream& out, const FirnModel& model, const std::vector<ProfileSample>& samples,
+                                const ProfileContents& contents = {});
+std::string profile_samples_json(const FirnModel& model, const std::vector<ProfileSample>& samples,
+                                 const ProfileContents& contents = {});
+// n against depth (depth increasing downward), titled with the model's name; the inversions
+// within the samples' depths shaded and numbered as in the CSV and JSON.
+void write_profile_svg(std::ostream& out, const FirnModel& model, const std::vector<ProfileSample>& samples,
+                       const ProfileContents& contents = {});
+std::string profile_svg(const FirnModel& model, const std::vector<ProfileSample>& samples,
+                        const ProfileContents& contents = {});
 
 // Each parameter with its 1σ uncertainty, the residual and the iterations, naming the data file.
 void write_fit_report_text(std::ostream& out, const FitData& data, const ExponentialFit& fit);

@@ -154,3 +154,67 @@ TEST_CASE("profile --plot: SVGs of the model and of a fit, titled with the model
     // A plot that cannot be written is an output error (exit 6) and leaves nothing behind.
     CHECK(run_firnray({"profile", "--plot", dir + "/no/such/folder/p.svg"}).exit_code == 6);
 }
+
+TEST_CASE("profile: a log with inversions lists them and their ducts in the CSV, the JSON and on the plot",
+          "[cli][profile][inversions]") {
+    const std::string dir = temp_folder("profile-inversions");
+    // n falls with depth from 2 to 3 m: one inversion, one duct around 2 m.
+    write_file(dir + "/log.toml", "name = \"lens\"\n[index]\nkind = \"table\"\n"
+                                  "depth_m = [0, 1, 2, 3, 4, 6, 10]\nn = [1.30, 1.40, 1.50, 1.44, 1.52, 1.60, 1.70]\n");
+    const auto csv = run_firnray({"profile", "--model", dir + "/log.toml", "--depths", "0:10:0.5", "--plot",
+                                  dir + "/p.svg"});
+    REQUIRE(csv.exit_code == 0);
+    CHECK(csv.out.rfind("# n falls with depth in 1 interval of this profile, making 1 duct", 0) == 0);
+    CHECK(csv.out.find("# inversion 1: n falls with depth from 1.5 at 2 m to 1.44 at 3 m") != std::string::npos);
+    CHECK(csv.out.find("# duct 1: rays with ray parameter between 1.44 and 1.5 are trapped around 2 m deep")
+          != std::string::npos);
+    // Readers that skip # lines (firnray's own) still see the same table.
+    const CsvTable t = parse_csv(csv.out, "stdout");
+    CHECK(t.columns == std::vector<std::string>{"depth_m", "z_m", "n", "dn_dz_per_m"});
+    CHECK(t.rows.size() == 21);
+
+    const auto json = run_firnray({"profile", "--model", dir + "/log.toml", "--format", "json", "--depths", "0:10:1"});
+    REQUIRE(json.exit_code == 0);
+    CHECK(json.out.find("\"inversions\": [") != std::string::npos);
+    CHECK(json.out.find("\"top_depth_m\": 2,") != std::string::npos);
+    CHECK(json.out.find("\"n_bottom\": 1.44") != std::string::npos);
+    CHECK(json.out.find("\"ducts\": [") != std::string::npos);
+    CHECK(json.out.find("\"axis_depth_m\": 2,") != std::string::npos);
+    CHECK(json.out.find("\"ray_parameter_low\": 1.44") != std::string::npos);
+
+    const std::string svg = read_file(dir + "/p.svg");
+    CHECK(svg.find("n falls with depth (1 interval, numbered)") != std::string::npos);
+    CHECK(svg.find("inversion 1") != std::string::npos);
+    CHECK(std::system(("rsvg-convert '" + dir + "/p.svg' -o '" + dir + "/p.png' 2>/dev/null").c_str()) == 0);
+
+    // A profile whose n grows with depth says nothing more than before.
+    const auto plain = run_firnray({"profile", "--to-depth", "10"});
+    CHECK(plain.out.rfind("depth_m,z_m,n,dn_dz_per_m", 0) == 0);
+    const auto plain_json = run_firnray({"profile", "--to-depth", "10", "--format", "json"});
+    CHECK(plain_json.out.find("inversions") == std::string::npos);
+}
+
+TEST_CASE("profile: the demo's synthetic log loads with its warnings on stderr, also under --quiet of other commands",
+          "[cli][profile][warnings]") {
+    const auto r = run_firnray({"profile", "--model", source_path("models/halvard-log.toml"), "--depths", "0:40:1"});
+    REQUIRE(r.exit_code == 0);
+    CHECK(r.err.find("warning: ") == 0);
+    CHECK(r.err.find("halvard-density-log.csv:") != std::string::npos);
+    CHECK(r.err.find("n falls by") != std::string::npos);
+    CHECK(r.out.find("# n falls with depth in ") == 0);
+    // Every command that loads a model shows them, --quiet or not.
+    const auto trace = run_firnray({"trace", "--model", source_path("models/halvard-log.toml"), "--from", "0,-100",
+                                    "--zenith-range", "80:100:10", "--max-distance", "10"});
+    CHECK(trace.err.find("warning: ") != std::string::npos);
+}
+
+TEST_CASE("profile: table data no firn can be exits 3 naming file, line and column", "[cli][profile][errors]") {
+    const std::string dir = temp_folder("profile-bad-data");
+    write_file(dir + "/log.csv", "depth_m,rho\n0,400\n10,1100\n20,700\n30,800\n");
+    write_file(dir + "/m.toml", "[index]\nkind = \"table\"\nfile = \"log.csv\"\ndepth_column = \"depth_m\"\n"
+                                "density_column = \"rho\"\ndensity_unit = \"kg/m3\"\ndensity_rule = \"kovacs\"\n");
+    const auto r = run_firnray({"profile", "--model", dir + "/m.toml"});
+    CHECK(r.exit_code == 3);
+    CHECK(r.err.find("log.csv:3:4: key 'rho': density 1100 kg/m3 is not a snow, firn or ice density")
+          != std::string::npos);
+}

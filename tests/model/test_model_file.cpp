@@ -39,8 +39,10 @@ ModelInputError expect_error(const std::string& text, const std::string& key, in
         CHECK(e.where().file == origin);
         CHECK(e.where().key == key);
         CHECK(e.where().line == line);
-        const std::string expected_place = key.empty() ? fmt::format("{}:{}: ", origin, line)
-                                                       : fmt::format("{}:{}: key '{}': ", origin, line, key);
+        // An array element or a CSV cell is also located at its character column.
+        const std::string at = e.where().column > 0 ? fmt::format("{}:{}:{}", origin, line, e.where().column)
+                                                    : fmt::format("{}:{}", origin, line);
+        const std::string expected_place = key.empty() ? at + ": " : fmt::format("{}: key '{}': ", at, key);
         CHECK(std::string(e.what()).rfind(expected_place, 0) == 0);
         CHECK(std::string(e.what()).find(fragment) != std::string::npos);
         return e;
@@ -348,7 +350,7 @@ TEST_CASE("model file errors: tables in CSV files", "[model][model_file][errors]
         parse_model(csv_model("n_column = \"n\"\n"), model);
         FAIL("expected an error");
     } catch (const ModelInputError& e) {
-        CHECK(std::string(e.what()) == dir + "/log.csv:3: key 'n': 'x' is not a finite number");
+        CHECK(std::string(e.what()) == dir + "/log.csv:3:4: key 'n': 'x' is not a finite number");
     }
     write_file(dir + "/log.csv", "depth_m,n\n0,1.3\n10,1.4\n20,1.5\n");
     // Too few rows: the CSV file is blamed, at its last row, and the message says which key named it.

@@ -27,7 +27,10 @@ std::string expect_refused(const std::string& text, const std::string& key, int 
         CHECK(e.where().file == "m.toml");
         CHECK(e.where().key == key);
         CHECK(e.where().line == line);
-        CHECK(std::string(e.what()).rfind(fmt::format("m.toml:{}: key '{}': ", line, key), 0) == 0);
+        // An array element is also located at its character column.
+        const std::string at = e.where().column > 0 ? fmt::format("m.toml:{}:{}", line, e.where().column)
+                                                    : fmt::format("m.toml:{}", line);
+        CHECK(std::string(e.what()).rfind(fmt::format("{}: key '{}': ", at, key), 0) == 0);
         CHECK(std::string(e.what()).find(fragment) != std::string::npos);
         return e.what();
     }
@@ -127,7 +130,7 @@ TEST_CASE("model bounds: table depths that do not grow or are closer than 1 mm",
         load_model_file(model);
         FAIL("no error");
     } catch (const ModelInputError& e) {
-        CHECK(std::string(e.what()) == dir + "/log.csv:5: key 'depth': depth 9 m after depth 10 m (line 3): the points "
+        CHECK(std::string(e.what()) == dir + "/log.csv:5:1: key 'depth': depth 9 m after depth 10 m (line 3): the points "
                                              "must run strictly monotone (deeper throughout)");
     }
     write_file(dir + "/log.csv", "depth,n\n0,1.3\n10,2.4\n20,1.5\n30,1.6\n");
@@ -224,7 +227,7 @@ TEST_CASE("model files: a model fault is exit code 3 with file, line and key", "
     const std::string deep = write_file(dir + "/deep.toml", table("[0, 10, 20, 1e308]", "[1.3, 1.4, 1.5, 1.6]"));
     const auto d = run_firnray({"profile", "--model", deep});
     CHECK(d.exit_code == 3);
-    CHECK(d.err.find(deep + ":3: key 'index.depth_m[3]'") != std::string::npos);
+    CHECK(d.err.find(deep + ":3:23: key 'index.depth_m[3]'") != std::string::npos);
 }
 
 TEST_CASE("model files: every message about a table CSV names the CSV file", "[model][model_file][errors]") {

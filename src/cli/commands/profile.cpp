@@ -58,11 +58,12 @@ int tabulate(const ProfileOptions& o) {
                           text_bytes, o.memory_limit_mb);
     const auto model = load_model_or_default(o.model_path);
     const auto samples = sample_profile(*model->index, o.from_depth_m, o.to_depth_m, o.step_m);
+    const ProfileContents contents = profile_contents(*model);
     outputs.set_writer(o.output, [&](std::ostream& out) {
-        if (json) write_profile_samples_json(out, *model, samples);
-        else write_profile_samples_csv(out, samples);
+        if (json) write_profile_samples_json(out, *model, samples, contents);
+        else write_profile_samples_csv(out, samples, contents);
     });
-    outputs.set_writer(o.plot_path, [&](std::ostream& out) { write_profile_svg(out, *model, samples); });
+    outputs.set_writer(o.plot_path, [&](std::ostream& out) { write_profile_svg(out, *model, samples, contents); });
     outputs.write_all();
     return 0;
 }
@@ -137,6 +138,10 @@ void add_profile_command(CLI::App& app, CommandSlot& slot) {
         "  firnray profile --model models/demo-site.toml --depths 0:150:0.5 --output halvard.csv \\\n"
         "      --plot halvard.svg\n"
         "      writes depth_m,z_m,n,dn_dz_per_m rows from 0 to 150 m and an SVG of n against depth.\n"
+        "  firnray profile --model models/halvard-log.toml --depths 0:200:0.25 --plot log.svg\n"
+        "      a measured-style log: # lines before the CSV header (and \"inversions\", \"ducts\" in the JSON)\n"
+        "      list the depths where n falls with depth and the ray parameters each duct traps; the plot\n"
+        "      shades them. Unusual values in the log are reported as warnings on stderr.\n"
         "  firnray profile --fit models/synthetic-density.csv --density-column density_kg_m3 \\\n"
         "      --density-rule kovacs --write-model fitted.toml --plot fit.svg\n"
         "      fits n_deep, n_surface and scale_depth_m (with 1-sigma uncertainties) to densities converted by\n"
