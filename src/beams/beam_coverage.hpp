@@ -53,8 +53,8 @@ struct BeamCoverage {
 
 // Each antenna's arrivals come from an arrival table at its depth; the beams' delays are `beams`
 // (plane_wave_offsets of the same array). At each cell the best beam is the one with the highest
-// coherent-sum efficiency among the three that the cheap start value ranks first (see
-// coherent_sum_at_mean). Throws DataInputError for an empty beam list, a grid out of range or a
+// coherent-sum efficiency among the two whose residuals spread least (a ranking that needs no
+// pulse evaluation). Throws DataInputError for an empty beam list, a grid out of range or a
 // threshold outside (0, 1].
 BeamCoverage compute_beam_coverage(const RaySolver& solver, const PhasedArray& array,
                                    const std::vector<PlaneWaveOffsets>& beams, const MapGrid& grid,

@@ -45,63 +45,51 @@ double PulseShape::value(double time_s) const {
     return std::exp(-0.5 * time_s * time_s / (sigma * sigma));
 }
 
-double coherent_sum_at_mean(std::span<const double> residuals_s, std::size_t antenna_count, const PulseShape& pulse) {
-    check_pulse(pulse);
-    double mean = 0.0;
-    std::size_t used = 0;
-    for (double r : residuals_s)
-        if (std::isfinite(r)) {
-            mean += r;
-            ++used;
-        }
-    if (used == 0 || antenna_count == 0) return 0.0;
-    const double sigma = pulse.sigma_s();
-    return sum_at(residuals_s, mean / static_cast<double>(used), 1.0 / (sigma * sigma)).value /
-           static_cast<double>(antenna_count);
-}
-
 double coherent_sum_efficiency(std::span<const double> residuals_s, std::size_t antenna_count, const PulseShape& pulse) {
     check_pulse(pulse);
     const double sigma = pulse.sigma_s();
     const double inverse_variance = 1.0 / (sigma * sigma);
-    double mean = 0.0;
+    double mean = 0.0, low = INFINITY, high = -INFINITY;
     std::size_t used = 0;
     for (double r : residuals_s)
         if (std::isfinite(r)) {
             mean += r;
+            low = std::min(low, r);
+            high = std::max(high, r);
             ++used;
         }
     if (used == 0 || antenna_count == 0) return 0.0;
     mean /= static_cast<double>(used);
 
-    // The sum of equal Gaussians can have several maxima (residuals several σ apart); each lies
-    // near a residual or, for a tight cluster, near its mean: start from the best of those.
-    double start = mean, best = sum_at(residuals_s, mean, inverse_variance).value;
-    for (double r : residuals_s) {
-        if (!std::isfinite(r)) continue;
-        const double v = sum_at(residuals_s, r, inverse_variance).value;
-        if (v > best) {
-            best = v;
-            start = r;
-        }
-    }
-    // Newton on the slope, each step at most σ/2 and kept only when the sum grows.
-    double t = start;
-    for (int iteration = 0; iteration < 50; ++iteration) {
-        const SumValue s = sum_at(residuals_s, t, inverse_variance);
-        double step = s.curvature < 0.0 ? -s.slope / s.curvature : (s.slope >= 0.0 ? 0.5 : -0.5) * sigma;
-        step = std::clamp(step, -0.5 * sigma, 0.5 * sigma);
-        bool improved = false;
-        for (int halving = 0; halving < 30 && std::abs(step) > 1e-9 * sigma; ++halving, step *= 0.5) {
-            const double v = sum_at(residuals_s, t + step, inverse_variance).value;
-            if (v >= best) {
-                best = v;
-                t += step;
-                improved = true;
-                break;
+    // Pulses that all lie within 2σ of each other sum to one hump: its peak is found from the mean.
+    // Wider apart, the sum can have several maxima, each near a residual or the mean of a cluster:
+    // start from the best of those.
+    double t = mean;
+    SumValue at = sum_at(residuals_s, t, inverse_variance);
+    if (high - low > 2.0 * sigma)
+        for (double r : residuals_s) {
+            if (!std::isfinite(r)) continue;
+            const SumValue candidate = sum_at(residuals_s, r, inverse_variance);
+            if (candidate.value > at.value) {
+                at = candidate;
+                t = r;
             }
         }
-        if (!improved || std::abs(step) <= 1e-9 * sigma) break;
+    // Newton on the slope, each step at most σ/2; a step that lowers the sum is halved instead.
+    double best = at.value;
+    for (int iteration = 0; iteration < 60; ++iteration) {
+        double step = at.curvature < 0.0 ? -at.slope / at.curvature : (at.slope >= 0.0 ? 0.5 : -0.5) * sigma;
+        step = std::clamp(step, -0.5 * sigma, 0.5 * sigma);
+        SumValue next = sum_at(residuals_s, t + step, inverse_variance);
+        while (next.value < at.value && std::abs(step) > 1e-4 * sigma) {
+            step *= 0.5;
+            next = sum_at(residuals_s, t + step, inverse_variance);
+        }
+        if (next.value < at.value) break;
+        t += step;
+        at = next;
+        best = std::max(best, at.value);
+        if (std::abs(step) <= 1e-4 * sigma) break;  // the sum is then within ~1e-8 of its peak
     }
     return std::min(1.0, best / static_cast<double>(antenna_count));
 }

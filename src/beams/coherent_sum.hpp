@@ -19,12 +19,9 @@ struct PulseShape {
 // The coherent-sum efficiency for residuals r_k (arrival time minus beam delay, s): max over t of
 // Σ p(t − r_k) / (N p(0)). A NaN residual is an antenna that adds nothing (the source does not
 // reach it, or the beam has no delay for it); N = antenna_count stays the number of antennas.
-// The maximum is searched from every residual and their mean, each refined by safeguarded Newton
-// steps; 0 when no residual is finite. DataInputError for a pulse width that is not > 0.
+// The maximum is refined by safeguarded Newton steps from the mean residual or, when the residuals
+// spread over more than 2σ (the sum may then have several maxima), from the best of the mean and
+// every residual; 0 when no residual is finite. DataInputError for a pulse width that is not > 0.
 double coherent_sum_efficiency(std::span<const double> residuals_s, std::size_t antenna_count, const PulseShape& pulse);
-
-// The sum at the mean residual, Σ p(r̄ − r_k) / N: a lower bound of the efficiency that costs one
-// evaluation, used to rank beams before refining the best ones.
-double coherent_sum_at_mean(std::span<const double> residuals_s, std::size_t antenna_count, const PulseShape& pulse);
 
 }  // namespace firnray

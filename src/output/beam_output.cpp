@@ -38,7 +38,7 @@ std::string beam_colour(std::size_t beam, std::size_t beams) {
 }
 
 std::string beam_label(const BeamTable& table, std::size_t beam) {
-    return fmt::format("beam {} ({:g}°)", beam, table.beams[beam].arrival_zenith_deg);
+    return fmt::format("beam {} ({:.1f}°)", beam, table.beams[beam].arrival_zenith_deg);
 }
 
 void write_volume(JsonWriter& json, std::string_view name, double volume) { json.field(name, volume); }
