@@ -132,14 +132,29 @@ PlaneWaveOffsets plane_wave_offsets(const StratifiedProfile& profile, const Phas
     result.offsets_s.resize(array.antennas.size());
     result.unreached.resize(array.antennas.size());
     const RayLevel level = RayLevel::plain(xi);
-    const auto interval = profile.interval_around(level, z_ref);
+    // At 90° the reference is itself a turning point; the down-going branch lives in the interval
+    // just below it (none where n does not grow with depth there).
+    const double below_ref = z_ref - 1e-9 * std::max(1.0, std::abs(z_ref));
+    const auto interval = !horizontal                         ? profile.interval_around(level, z_ref)
+                          : profile.index(below_ref) > xi ? profile.interval_around(level, below_ref)
+                                                              : std::nullopt;
+    // A horizontal wave in a layer of constant index (n = ξ all along) reaches all of it at once.
+    auto in_uniform_layer = [&](double z) {
+        return profile.index(z) == xi && profile.index(0.5 * (z + z_ref)) == xi &&
+               profile.minimum_index(std::min(z, z_ref), std::max(z, z_ref)).first == xi;
+    };
     for (std::size_t k = 0; k < array.antennas.size(); ++k) {
         const double z = array.antennas[k].z_m;
         if (k == array.reference) {
             result.offsets_s[k] = 0.0;
             continue;
         }
-        if (!interval || !interval->contains(z)) {
+        const bool inside = interval && (interval->contains(z) || (horizontal && z <= z_ref && z >= interval->lower_z));
+        if (!inside && in_uniform_layer(z)) {
+            result.offsets_s[k] = 0.0;
+            continue;
+        }
+        if (!inside) {
             Unreached why;
             why.antenna_above = z > z_ref;
             if (interval) {
