@@ -290,12 +290,12 @@ at each source position the beam whose delays add the pulse best, and that coher
 (1 = a perfect match), for the first and the second arrival at the antennas.
 
 Example: 8 beams from 60 to 120 deg, offsets in samples at 1.5 GHz
-  firnray beams --station demo/station.toml --string P --beam-count 8 --zenith-range 60:120 \
+  firnray beams --station demo/station.toml --string PA --beam-count 8 --zenith-range 60:120 \
       --sample-rate-ghz 1.5 --plot array-factor.svg
 Example: coverage map and triggered volume at efficiency 0.7, and a depth scan
-  firnray beams --station demo/station.toml --string P --beam-count 8 --zenith-range 60:120 \
+  firnray beams --station demo/station.toml --string PA --beam-count 8 --zenith-range 60:120 \
       --map cover.csv --map-plot cover.svg --threshold 0.7 --source-distance 0:1500 --source-depth 0:300
-  firnray beams --station demo/station.toml --string P --beam-count 8 --zenith-range 60:120 \
+  firnray beams --station demo/station.toml --string PA --beam-count 8 --zenith-range 60:120 \
       --scan depth --scan-values 40:200:20 --scan-output scan.csv --scan-plot scan.svg)");
     cmd->callback([args, &slot] { slot.run = [args] { return run_beams(*args); }; });
 }
