@@ -1,9 +1,7 @@
 #include "beams/beam_coverage.hpp"
 
 #include <algorithm>
-#include <array>
 #include <cmath>
-#include <map>
 #include <memory>
 
 #include <fmt/format.h>
@@ -24,6 +22,8 @@ namespace {
 // no cost in exponentials, and the best beam is among the first two
 // (tests/beams/test_beam_coverage.cpp checks the map against a search over every beam).
 constexpr std::size_t beams_refined = 2;
+// Beam indices are kept in 16 bits per cell.
+constexpr std::size_t max_beams = 1000;
 
 // A rank for one beam: the mean square residual about the mean, raised for antennas that add nothing.
 double mismatch(const std::vector<double>& residuals, std::size_t antennas, double sigma) {
@@ -43,6 +43,25 @@ double mismatch(const std::vector<double>& residuals, std::size_t antennas, doub
     // An antenna that adds nothing costs as much as one a few σ off.
     return (variance * static_cast<double>(used) + 9.0 * sigma * sigma * static_cast<double>(antennas - used)) /
            static_cast<double>(antennas);
+}
+
+// An upper bound of a beam's efficiency: at any time t the squared distances (t − r_k)² add up to
+// at least the sum of squares about the mean, S; the sum of pulses is largest when all of S falls
+// on one antenna, so efficiency <= (M − 1 + exp(−S / 2σ²)) / N for M antennas that add.
+double efficiency_bound(const std::vector<double>& residuals, std::size_t antennas, double sigma) {
+    double sum = 0.0, square = 0.0, origin = NAN;
+    std::size_t used = 0;
+    for (std::size_t k = 0; k < antennas; ++k)
+        if (std::isfinite(residuals[k])) {
+            if (used == 0) origin = residuals[k];
+            const double r = residuals[k] - origin;
+            sum += r;
+            square += r * r;
+            ++used;
+        }
+    if (used == 0) return 0.0;
+    const double spread = std::max(0.0, square - sum * sum / static_cast<double>(used));
+    return (static_cast<double>(used) - 1.0 + std::exp(-spread / (2.0 * sigma * sigma))) / static_cast<double>(antennas);
 }
 
 struct BestBeam {
@@ -66,6 +85,7 @@ BestBeam best_beam(const std::vector<double>& times, const std::vector<std::vect
     for (std::size_t i = 0; i < refined; ++i) {
         const int b = ranking[i].second;
         for (std::size_t k = 0; k < antennas; ++k) residuals[k] = times[k] - beam_offsets[static_cast<std::size_t>(b)][k];
+        if (best.beam >= 0 && efficiency_bound(residuals, antennas, pulse.sigma_s()) <= best.efficiency) continue;
         const double efficiency = coherent_sum_efficiency(residuals, antennas, pulse);
         if (best.beam < 0 || efficiency > best.efficiency || (efficiency == best.efficiency && b < best.beam)) {
             best.beam = b;
@@ -82,6 +102,9 @@ BeamCoverage compute_beam_coverage(const RaySolver& solver, const PhasedArray& a
                                    const CoverageOptions& options) {
     grid.validate();
     if (beams.empty()) throw DataInputError("a coverage map needs at least one beam", {"", 0, "beams"});
+    if (beams.size() > max_beams)
+        throw DataInputError(fmt::format("a coverage map takes at most {} beams, not {}", max_beams, beams.size()),
+                             {"", 0, "beams"});
     if (options.threshold && !(*options.threshold > 0.0 && *options.threshold <= 1.0))
         throw DataInputError(fmt::format("an efficiency threshold must be in (0, 1], not {}",
                                          number_for_message(*options.threshold)),

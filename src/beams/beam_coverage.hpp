@@ -29,7 +29,7 @@ struct CoverageOptions {
 // One source position. Beam −1 and efficiency NaN where no antenna has that arrival.
 struct CoverageCell {
     std::int16_t first_beam = -1, second_beam = -1;
-    std::uint8_t antennas_first = 0, antennas_second = 0;  // antennas with a first (second) arrival
+    std::uint16_t antennas_first = 0, antennas_second = 0;  // antennas with a first (second) arrival
     float first_efficiency = NAN, second_efficiency = NAN;
 };
 
@@ -54,7 +54,7 @@ struct BeamCoverage {
 // Each antenna's arrivals come from an arrival table at its depth; the beams' delays are `beams`
 // (plane_wave_offsets of the same array). At each cell the best beam is the one with the highest
 // coherent-sum efficiency among the two whose residuals spread least (a ranking that needs no
-// pulse evaluation). Throws DataInputError for an empty beam list, a grid out of range or a
+// pulse evaluation). Throws DataInputError for an empty beam list (or more than 1000 beams), a grid out of range or a
 // threshold outside (0, 1].
 BeamCoverage compute_beam_coverage(const RaySolver& solver, const PhasedArray& array,
                                    const std::vector<PlaneWaveOffsets>& beams, const MapGrid& grid,

@@ -18,6 +18,8 @@ namespace {
 // Antennas farther apart than this horizontally are not one vertical string: the plane-wave
 // delays assume they are.
 constexpr double max_horizontal_offset_m = 0.01;
+// Antenna counts are kept in 16 bits per map cell; real arrays have a few to a few tens.
+constexpr std::size_t max_antennas = 1000;
 
 ModelInputError station_error(const PhasedArray& array, const Receiver& at, const std::string& what) {
     return ModelInputError(what, {array.origin, at.source_line, "string.receiver"});
@@ -56,6 +58,10 @@ PhasedArray make_phased_array(const Station& station, const std::string& string_
         throw station_error(array, array.antennas.front(),
                             fmt::format("string '{}' has one antenna ('{}'); a phased array needs at least 2",
                                         printable_excerpt(string_name), printable_excerpt(array.antennas.front().name)));
+    if (array.antennas.size() > max_antennas)
+        throw station_error(array, array.antennas.back(),
+                            fmt::format("string '{}' has {} antennas; a phased array takes at most {}",
+                                        printable_excerpt(string_name), array.antennas.size(), max_antennas));
     const Receiver& top = array.antennas.front();
     for (std::size_t k = 0; k < array.antennas.size(); ++k) {
         const Receiver& r = array.antennas[k];

@@ -27,7 +27,7 @@ struct PhasedArray {
 // The receivers of string `string_name`, top first, the top one as reference. Throws
 // DataInputError when the station has no such string (the front end checks the name first, with
 // a did-you-mean), ModelInputError naming the station file and line for a string of fewer than 2
-// antennas, two antennas at one depth, an antenna in the air, or antennas not on one vertical line.
+// (or more than 1000) antennas, two antennas at one depth, an antenna in the air, or antennas not on one vertical line.
 PhasedArray make_phased_array(const Station& station, const std::string& string_name);
 
 // Makes `name` the reference antenna; DataInputError when it is not on the array's string.
