@@ -173,9 +173,10 @@ PlaneWaveOffsets plane_wave_offsets(const StratifiedProfile& profile, const Phas
             continue;
         }
         // Ends where n = ξ are turning points: the quadrature then removes the inverse square root there.
+        const AccessibleInterval span = interval.value();
         auto end_at = [&](double end_z) {
-            const bool upper_turn = interval->upper_kind == UpperEndKind::turning && end_z == interval->upper_z;
-            const bool lower_turn = interval->lower_kind == LowerEndKind::turning && end_z == interval->lower_z;
+            const bool upper_turn = span.upper_kind == UpperEndKind::turning && end_z == span.upper_z;
+            const bool lower_turn = span.lower_kind == LowerEndKind::turning && end_z == span.lower_z;
             return LegEndpoint{end_z, (upper_turn || lower_turn || (horizontal && end_z == z_ref)) ? LegEnd::turning
                                                                                                  : LegEnd::fixed};
         };
