@@ -154,6 +154,13 @@ TEST_CASE("firnray beams: bad inputs get a message and exit 2 (option) or 3 (sta
                 CHECK(r.err.find(option) != std::string::npos);
             }
     }
+    SECTION("a threshold of 0, or without a map") {
+        const auto zero = run_firnray(beams_args({"--beam-zenith-deg", "60", "--threshold", "0", "--map", dir + "/m.csv"}));
+        CHECK(zero.exit_code == 2);
+        CHECK(zero.err.find("--threshold") != std::string::npos);
+        CHECK_FALSE(fs::exists(dir + "/m.csv"));
+        CHECK(run_firnray(beams_args({"--beam-zenith-deg", "60", "--threshold", "0.5"})).exit_code == 2);
+    }
     SECTION("no beams, or both ways of giving them") {
         CHECK(run_firnray(beams_args({})).exit_code == 2);
         CHECK(run_firnray(beams_args({"--beam-zenith-deg", "60", "--beam-count", "2", "--zenith-range", "60:90"})).exit_code == 2);

@@ -31,7 +31,7 @@ struct BeamsArguments {
     std::string map_path, map_plot_path;
     std::string distance_range = "0:2000", depth_range = "0:500";
     int distance_cells = 400, depth_cells = 200;
-    double threshold = 0.0, azimuth_deg = 0.0;
+    double threshold = -1.0, azimuth_deg = 0.0;  // threshold < 0: not given
     // The design scan.
     std::string scan, scan_values, scan_output, scan_plot;
     std::string solver = "auto";
@@ -117,6 +117,9 @@ int run_beams(const BeamsArguments& args) {
         throw UsageError("--scan", "--scan-values, --scan-output and --scan-plot need --scan depth|spacing|beams");
     if (with_scan && args.scan_output.empty() && args.scan_plot.empty())
         throw UsageError("--scan", "a scan needs --scan-output FILE or --scan-plot FILE.svg");
+    if (args.threshold == 0.0) throw UsageError("--threshold", "an efficiency threshold must be above 0 (and at most 1)");
+    if (args.threshold > 0.0 && !with_map && !with_scan)
+        throw UsageError("--threshold", "a threshold applies to a coverage map or a scan: add --map, --map-plot or --scan");
 
     OutputSet outputs;
     outputs.declare("--plot", args.plot_path, OutputFormat::svg);
