@@ -39,7 +39,7 @@ TEST_CASE("exit 2: wrong option values, each finite and in range, numbers writte
     const std::string station = source_path("demo/station.toml");
     check_usage_error({"shadow", "--receiver", "0,-60", "--source-distance", "-100:1500"}, "not -100");
     check_usage_error({"shadow", "--receiver", "0,-60", "--distance", "-100:1500"}, "not -100");  // old spelling
-    check_usage_error({"shadow", "--station", station, "--min-receivers", "13"}, "more receivers than there are (12)");
+    check_usage_error({"shadow", "--station", station, "--min-receivers", "21"}, "more receivers than there are (20)");
     check_usage_error({"delays", "--station", station, "--sources", source_path("demo/calibration-sources.csv"),
                        "--reference", "Z9"},
                       "no receiver named 'Z9'");

@@ -66,7 +66,7 @@ TEST_CASE("firnray shadow: a station with --min-receivers, and its errors", "[cl
     REQUIRE(r.exit_code == 0);
     require_svg_renders(dir + "/map.svg");
 
-    const auto too_many = run_firnray({"shadow", "--station", source_path("demo/station.toml"), "--min-receivers", "13",
+    const auto too_many = run_firnray({"shadow", "--station", source_path("demo/station.toml"), "--min-receivers", "21",
                                        "-o", dir + "/x.csv"});
     CHECK(too_many.exit_code == 2);  // a wrong option value
     CHECK(too_many.err.find("min-receivers") != std::string::npos);
