@@ -38,19 +38,26 @@ std::size_t channel_of(const CsvTable& table, const CsvRow& row, std::size_t col
 
 }  // namespace
 
+int problem_line(const ArrivalEvent& event, const Station&) {
+    std::map<std::size_t, int> seen;
+    for (const MeasuredPulse& p : event.pulses)
+        if (++seen[p.channel] == 3) return p.line;
+    return event.first_line;
+}
+
 std::string arrival_event_problem(const ArrivalEvent& event, const Station& station) {
     std::map<std::size_t, std::vector<int>> lines_per_channel;
     for (const MeasuredPulse& p : event.pulses) lines_per_channel[p.channel].push_back(p.line);
     for (const auto& [channel, lines] : lines_per_channel)
         if (lines.size() > 2)
-            return fmt::format("line {}: channel '{}' has a {} pulse in event '{}' (lines {}); a channel has one or two "
+            return fmt::format("channel '{}' has a {} pulse in event '{}' (lines {}); a channel has one or two "
                                "(the first and the second path)",
-                               lines[2], station.receivers[channel].name, lines.size() == 3 ? "third" : "further",
+                               station.receivers[channel].name, lines.size() == 3 ? "third" : "further",
                                printable_excerpt(event.name), fmt::format("{}", fmt::join(lines, ", ")));
     if (event.pulses.size() < unknowns)
-        return fmt::format("line {}: event '{}' has {} pulse{}; at least {} are needed (the unknowns are x, y, z and "
+        return fmt::format("event '{}' has {} pulse{}; at least {} are needed (the unknowns are x, y, z and "
                            "the emission time)",
-                           event.first_line, printable_excerpt(event.name), event.pulses.size(),
+                           printable_excerpt(event.name), event.pulses.size(),
                            event.pulses.size() == 1 ? "" : "s", unknowns);
     const Receiver& first = station.receivers[event.pulses.front().channel];
     bool one_line = true;
@@ -59,9 +66,9 @@ std::string arrival_event_problem(const ArrivalEvent& event, const Station& stat
         if (std::hypot(r.x_m - first.x_m, r.y_m - first.y_m) > same_line_tolerance_m) one_line = false;
     }
     if (one_line)
-        return fmt::format("line {}: every pulse of event '{}' is on one vertical line (string '{}'), so the "
+        return fmt::format("every pulse of event '{}' is on one vertical line (string '{}'), so the "
                            "azimuth of the source is free; pulses from at least two strings are needed",
-                           event.first_line, printable_excerpt(event.name),
+                           printable_excerpt(event.name),
                            first.string_name.empty() ? first.name : first.string_name);
     return {};
 }
@@ -125,8 +132,9 @@ std::vector<ArrivalEvent> read_arrival_events(const std::string& path, const Sta
     }
     for (ArrivalEvent& event : events)
         if (event.error.empty()) {
-            event.error = arrival_event_problem(event, station);
-            if (!event.error.empty()) event.error = path + ":" + event.error;
+            const std::string problem = arrival_event_problem(event, station);
+            // A third pulse is located at its own line, the other problems at the event's first.
+            if (!problem.empty()) event.error = fmt::format("{}:{}: {}", path, problem_line(event, station), problem);
         }
     return events;
 }

@@ -30,6 +30,8 @@ struct ArrivalEvent {
 // emission time), at most two pulses per channel, and channels on more than one vertical line
 // (on one string the azimuth is free). Returns the reason, or an empty string.
 std::string arrival_event_problem(const ArrivalEvent& event, const Station& station);
+// The line that problem is best reported at: a channel's third pulse, else the event's first row.
+int problem_line(const ArrivalEvent& event, const Station& station);
 
 // Reads ARRIVALS.csv. Events come in the order of their first row; rows of one event need not be
 // adjacent. Throws DataInputError when the file cannot be read, a required column (event,

@@ -431,7 +431,7 @@ EventFit SourceLocator::fit(const ArrivalEvent& event) const {
         return result;
     }
     if (const std::string problem = arrival_event_problem(event, station_); !problem.empty()) {
-        result.error = problem;
+        result.error = fmt::format("line {}: {}", problem_line(event, station_), problem);
         return result;
     }
     const PreparedEvent prepared = prepare(event);

@@ -57,8 +57,8 @@ TEST_CASE("bad rows of an arrivals file fail their own event with the line, the 
                                                          Catch::Contains("channel"));
     CHECK_THAT(event_named(events, "nan-time").error, Catch::Contains(":7:") && Catch::Contains("time_ns") &&
                                                           Catch::Contains("not a finite number"));
-    CHECK_THAT(event_named(events, "single").error, Catch::Contains("line 10") && Catch::Contains("1 pulse"));
-    CHECK_THAT(event_named(events, "triple").error, Catch::Contains("line 13") && Catch::Contains("third pulse") &&
+    CHECK_THAT(event_named(events, "single").error, Catch::Contains(":10:") && Catch::Contains("1 pulse"));
+    CHECK_THAT(event_named(events, "triple").error, Catch::Contains(":13:") && Catch::Contains("third pulse") &&
                                                         Catch::Contains("'A1'"));
     CHECK(event_named(events, "good").error.empty());
 
