@@ -25,6 +25,9 @@ constexpr double infinite_chi2 = std::numeric_limits<double>::infinity();
 constexpr int search_paths_per_receiver = 4;
 // Levenberg–Marquardt stops when a step would lower χ² by less than this.
 constexpr double converged_chi2_decrease = 1e-9;
+// Rounds of matching and emission time per position of the coarse search: enough to find the
+// basin, which the refinement then settles with the full alternation.
+constexpr int coarse_rounds = 2;
 // What a pulse that no predicted path explains adds to χ²: a 5σ miss (docs/locate.md).
 constexpr double unmatched_pulse_chi2 = 25.0;
 
@@ -81,8 +84,9 @@ struct Assignment {
 };
 
 // times_of(g) gives the predicted travel times (ns, ascending) at the event's g-th channel.
+// rounds bounds the alternation of t0 and matching (the coarse search affords only a few).
 template <class TimesOf>
-void assign_pulses(const PreparedEvent& event, TimesOf&& times_of, Assignment& a) {
+void assign_pulses(const PreparedEvent& event, TimesOf&& times_of, Assignment& a, int rounds = 8) {
     const std::size_t pulses = event.time_ns.size();
     a.path_of_pulse.assign(pulses, -1);
     a.valid = false;
@@ -111,7 +115,7 @@ void assign_pulses(const PreparedEvent& event, TimesOf&& times_of, Assignment& a
         return true;
     };
     if (!emission_time(a.t0_ns)) return;
-    for (int round = 0; round < 8; ++round) {
+    for (int round = 0; round < rounds; ++round) {
         bool changed = false;
         for (std::size_t g = 0; g < event.channels.size(); ++g) {
             const auto& times = times_of(g);
@@ -450,7 +454,7 @@ EventFit SourceLocator::fit(const ArrivalEvent& event) const {
                 const std::size_t slot = p * receivers + prepared.channels[g];
                 return std::span<const double>(&t.times_ns[slot * search_paths_per_receiver], t.path_counts[slot]);
             },
-            assignment);
+            assignment, coarse_rounds);
         // The coarse search keeps only positions that explain every pulse: there a missing path
         // is not a small penalty but a sign of the wrong region.
         chi2[p] = assignment.unmatched == 0 ? assignment.chi2 : infinite_chi2;
