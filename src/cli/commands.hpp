@@ -25,6 +25,10 @@ void add_shadow_command(CLI::App& app, CommandSlot& slot);
 void add_depths_command(CLI::App& app, CommandSlot& slot);
 // firnray delays: arrival times and differences at every channel of a station.
 void add_delays_command(CLI::App& app, CommandSlot& slot);
+// firnray locate: source positions and their covariance from measured arrival times.
+void add_locate_command(CLI::App& app, CommandSlot& slot);
+// firnray resolution: Cramér–Rao resolution maps of a station.
+void add_resolution_command(CLI::App& app, CommandSlot& slot);
 // firnray beams: trigger beams of a phased array: delays, array factor, coverage map, design scan.
 void add_beams_command(CLI::App& app, CommandSlot& slot);
 

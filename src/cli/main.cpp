@@ -82,6 +82,8 @@ int main(int argc, char** argv) {
     add_shadow_command(app, slot);
     add_depths_command(app, slot);
     add_delays_command(app, slot);
+    add_locate_command(app, slot);
+    add_resolution_command(app, slot);
     add_beams_command(app, slot);
 
     if (is_unknown_command(app, argc, argv)) return exit_usage;

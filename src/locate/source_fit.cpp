@@ -1,0 +1,538 @@
+#include "locate/source_fit.hpp"
+
+#include <algorithm>
+#include <array>
+#include <cmath>
+#include <limits>
+#include <span>
+
+#include <Eigen/Dense>
+#include <fmt/format.h>
+
+#include "core/constants.hpp"
+#include "core/errors.hpp"
+#include "core/parallel.hpp"
+#include "core/text.hpp"
+#include "station/delay_table.hpp"
+
+namespace firnray {
+
+namespace {
+
+constexpr double infinite_chi2 = std::numeric_limits<double>::infinity();
+// Paths kept per receiver and search position: with one bounce a receiver sees at most a direct
+// or refracted path, a reflected one and a bottom reflection.
+constexpr int search_paths_per_receiver = 4;
+// Levenberg–Marquardt stops when a step would lower χ² by less than this.
+constexpr double converged_chi2_decrease = 1e-9;
+// Rounds of matching and emission time per position of the coarse search: enough to find the
+// basin, which the refinement then settles with the full alternation.
+constexpr int coarse_rounds = 2;
+// What a pulse that no predicted path explains adds to χ²: a 5σ miss (docs/locate.md).
+constexpr double unmatched_pulse_chi2 = 25.0;
+
+// A fit whose χ² is this far above its ndof did not find the basin of the source (or the pulses
+// do not match the model): further candidates of the coarse search are tried.
+// A candidate of the coarse search whose χ² is within this factor of the best one's is refined
+// even when the best fit is good: it may be another minimum to report.
+constexpr double rival_chi2_factor = 2.0;
+
+bool acceptable_fit(double chi2, int ndof) {
+    return chi2 <= ndof + 5.0 * std::sqrt(2.0 * std::max(ndof, 1)) + 10.0;
+}
+
+// The pulses of one event grouped by channel, each group in time order: the order in which a
+// channel's pulses are matched to its paths (a later pulse never takes an earlier path).
+struct PreparedEvent {
+    std::vector<std::size_t> channels;              // distinct channels, in first-seen order
+    std::vector<std::array<int, 2>> pulses_of;      // per channel: pulse indices (second −1 if none)
+    std::vector<double> time_ns, weight;            // per pulse: time and 1/σ² (ns⁻²)
+};
+
+PreparedEvent prepare(const ArrivalEvent& event) {
+    PreparedEvent p;
+    for (std::size_t i = 0; i < event.pulses.size(); ++i) {
+        const MeasuredPulse& pulse = event.pulses[i];
+        p.time_ns.push_back(pulse.time_s * 1e9);
+        p.weight.push_back(1.0 / (pulse.sigma_s * 1e9 * pulse.sigma_s * 1e9));
+        const auto it = std::find(p.channels.begin(), p.channels.end(), pulse.channel);
+        if (it == p.channels.end()) {
+            p.channels.push_back(pulse.channel);
+            p.pulses_of.push_back({static_cast<int>(i), -1});
+        } else {
+            auto& group = p.pulses_of[static_cast<std::size_t>(it - p.channels.begin())];
+            group[1] = static_cast<int>(i);
+            if (p.time_ns[static_cast<std::size_t>(group[1])] < p.time_ns[static_cast<std::size_t>(group[0])])
+                std::swap(group[0], group[1]);
+        }
+    }
+    return p;
+}
+
+// The assignment of pulses to predicted paths that minimises χ², with the emission time t0 at
+// its optimum (a weighted mean, since the times are linear in t0). Channels are matched
+// independently given t0, and t0 is updated until the assignment no longer changes. A pulse may
+// stay unmatched (path −1) at the price of unmatched_pulse_chi2: a position where a channel has
+// fewer paths than pulses (just beyond a fold of its paths, in its shadow) is then a poor fit
+// rather than a wall that the search cannot cross.
+struct Assignment {
+    bool valid = false;  // at least one pulse matched
+    double chi2 = infinite_chi2;
+    double t0_ns = 0.0;
+    std::vector<int> path_of_pulse;
+    int unmatched = 0;
+};
+
+// times_of(g) gives the predicted travel times (ns, ascending) at the event's g-th channel.
+// rounds bounds the alternation of t0 and matching (the coarse search affords only a few).
+template <class TimesOf>
+void assign_pulses(const PreparedEvent& event, TimesOf&& times_of, Assignment& a, int rounds = 8) {
+    const std::size_t pulses = event.time_ns.size();
+    a.path_of_pulse.assign(pulses, -1);
+    a.valid = false;
+    a.chi2 = infinite_chi2;
+    // Start: a channel's pulses take its first paths in order.
+    for (std::size_t g = 0; g < event.channels.size(); ++g) {
+        const auto& times = times_of(g);
+        const auto& group = event.pulses_of[g];
+        for (std::size_t k = 0; k < 2; ++k)
+            if (group[k] >= 0 && k < times.size()) a.path_of_pulse[static_cast<std::size_t>(group[k])] = static_cast<int>(k);
+    }
+    const auto emission_time = [&](double& t0) {
+        double sum = 0.0, weights = 0.0;
+        for (std::size_t g = 0; g < event.channels.size(); ++g) {
+            const auto& times = times_of(g);
+            for (int i : event.pulses_of[g]) {
+                if (i < 0) continue;
+                const auto k = static_cast<std::size_t>(i);
+                if (a.path_of_pulse[k] < 0) continue;
+                sum += event.weight[k] * (event.time_ns[k] - times[static_cast<std::size_t>(a.path_of_pulse[k])]);
+                weights += event.weight[k];
+            }
+        }
+        if (weights <= 0.0) return false;
+        t0 = sum / weights;
+        return true;
+    };
+    if (!emission_time(a.t0_ns)) return;
+    for (int round = 0; round < rounds; ++round) {
+        bool changed = false;
+        for (std::size_t g = 0; g < event.channels.size(); ++g) {
+            const auto& times = times_of(g);
+            const int paths = static_cast<int>(times.size());
+            const auto& group = event.pulses_of[g];
+            const auto cost = [&](int pulse, int path) {
+                if (path < 0) return unmatched_pulse_chi2;
+                const auto k = static_cast<std::size_t>(pulse);
+                const double r = event.time_ns[k] - a.t0_ns - times[static_cast<std::size_t>(path)];
+                return event.weight[k] * r * r;
+            };
+            // Every order-keeping match: path −1 is "unmatched"; a later pulse takes a later path.
+            int best_first = -1, best_second = -1;
+            double best_cost = infinite_chi2;
+            // A pulse stays unmatched only when its channel has fewer paths than pulses.
+            const int count = group[1] < 0 ? 1 : 2;
+            const int must_match = std::min(count, paths);
+            for (int i = -1; i < paths; ++i) {
+                if (count == 1) {
+                    if ((i >= 0) != (must_match == 1)) continue;
+                    const double c = cost(group[0], i);
+                    if (c < best_cost) best_cost = c, best_first = i;
+                    continue;
+                }
+                for (int j = -1; j < paths; ++j) {
+                    if (i >= 0 && j >= 0 && j <= i) continue;
+                    if ((i >= 0) + (j >= 0) != must_match) continue;
+                    const double c = cost(group[0], i) + cost(group[1], j);
+                    if (c < best_cost) best_cost = c, best_first = i, best_second = j;
+                }
+            }
+            const auto first = static_cast<std::size_t>(group[0]);
+            changed |= a.path_of_pulse[first] != best_first;
+            a.path_of_pulse[first] = best_first;
+            if (group[1] >= 0) {
+                const auto second = static_cast<std::size_t>(group[1]);
+                changed |= a.path_of_pulse[second] != best_second;
+                a.path_of_pulse[second] = best_second;
+            }
+        }
+        if (!emission_time(a.t0_ns)) return;
+        if (!changed) break;
+    }
+    a.chi2 = 0.0;
+    a.unmatched = 0;
+    for (std::size_t g = 0; g < event.channels.size(); ++g) {
+        const auto& times = times_of(g);
+        for (int i : event.pulses_of[g]) {
+            if (i < 0) continue;
+            const auto k = static_cast<std::size_t>(i);
+            if (a.path_of_pulse[k] < 0) {
+                a.chi2 += unmatched_pulse_chi2;
+                ++a.unmatched;
+                continue;
+            }
+            const double r = event.time_ns[k] - a.t0_ns - times[static_cast<std::size_t>(a.path_of_pulse[k])];
+            a.chi2 += event.weight[k] * r * r;
+        }
+    }
+    a.valid = std::isfinite(a.chi2);
+}
+
+// The model's answer at one trial position for the event's channels.
+struct Evaluation {
+    Point position;
+    Assignment assignment;
+    std::vector<ReceiverArrivals> arrivals;       // per event channel
+    std::vector<std::vector<double>> times_ns;    // per event channel, ascending
+};
+
+using Matrix4 = Eigen::Matrix4d;
+using Vector4 = Eigen::Vector4d;
+
+}  // namespace
+
+void LocateSearchGrid::validate() const {
+    const auto fail = [](const std::string& field, const std::string& why) {
+        throw DataInputError(fmt::format("search grid: {}", why), {"", 0, field});
+    };
+    if (!(std::isfinite(min_distance_m) && min_distance_m > 0.0)) fail("min_distance_m", "must be above 0 m");
+    if (!(std::isfinite(max_distance_m) && max_distance_m > min_distance_m)) fail("max_distance_m", "must exceed min_distance_m");
+    if (distance_steps < 2 || distance_steps > 1000) fail("distance_steps", "must be 2..1000");
+    if (azimuth_steps < 3 || azimuth_steps > 3600) fail("azimuth_steps", "must be 3..3600");
+    if (depths_m.empty()) fail("depths_m", "needs at least one depth");
+    for (double d : depths_m)
+        if (!(std::isfinite(d) && d > 0.0)) fail("depths_m", fmt::format("{} is not a depth above 0 m", number_for_message(d)));
+    for (double h : heights_m)
+        if (!(std::isfinite(h) && h > 0.0)) fail("heights_m", fmt::format("{} is not a height above 0 m", number_for_message(h)));
+}
+
+// Predicted travel times of every receiver at every search position, indexed by
+// (azimuth, distance, level); levels run from the highest to the lowest z.
+struct SourceLocator::SearchTable {
+    int azimuths = 0, distances = 0, levels = 0;
+    std::vector<Point> positions;
+    std::vector<double> times_ns;            // [position][receiver][path], NaN beyond the paths found
+    std::vector<unsigned char> path_counts;  // [position][receiver]
+
+    std::size_t index(int azimuth, int distance, int level) const {
+        return (static_cast<std::size_t>(azimuth) * distances + static_cast<std::size_t>(distance)) * levels +
+               static_cast<std::size_t>(level);
+    }
+};
+
+SourceLocator::SourceLocator(const RaySolver& solver, const Station& station, LocateOptions options)
+    : solver_(solver), station_(station), options_(std::move(options)) {
+    options_.search.validate();
+    if (options_.candidates < 1) throw DataInputError("at least one search candidate is needed", {"", 0, "candidates"});
+    if (!(options_.alternative_chi2_margin >= 0.0))
+        throw DataInputError("the χ² margin of alternatives must be >= 0", {"", 0, "alternative_chi2_margin"});
+    centre_ = station_centre(station_.receivers);
+
+    const LocateSearchGrid& grid = options_.search;
+    std::vector<double> levels_z;
+    for (double h : grid.heights_m) levels_z.push_back(h);
+    const auto& bottom = solver_.model().bottom;
+    for (double d : grid.depths_m)
+        if (!bottom || -d > bottom->z_m) levels_z.push_back(-d);
+    std::sort(levels_z.begin(), levels_z.end(), std::greater<>());
+    levels_z.erase(std::unique(levels_z.begin(), levels_z.end()), levels_z.end());
+
+    table_ = std::make_unique<SearchTable>();
+    SearchTable& t = *table_;
+    t.azimuths = grid.azimuth_steps;
+    t.distances = grid.distance_steps;
+    t.levels = static_cast<int>(levels_z.size());
+    const double ratio = std::pow(grid.max_distance_m / grid.min_distance_m, 1.0 / (grid.distance_steps - 1));
+    t.positions.resize(static_cast<std::size_t>(t.azimuths) * t.distances * t.levels);
+    for (int a = 0; a < t.azimuths; ++a) {
+        const double azimuth = 2.0 * pi * a / t.azimuths;
+        for (int d = 0; d < t.distances; ++d) {
+            const double r = grid.min_distance_m * std::pow(ratio, d);
+            for (int l = 0; l < t.levels; ++l)
+                t.positions[t.index(a, d, l)] = {centre_.x + r * std::cos(azimuth), centre_.y + r * std::sin(azimuth),
+                                                 levels_z[static_cast<std::size_t>(l)]};
+        }
+    }
+    const std::size_t receivers = station_.receivers.size();
+    t.times_ns.assign(t.positions.size() * receivers * search_paths_per_receiver, std::numeric_limits<double>::quiet_NaN());
+    t.path_counts.assign(t.positions.size() * receivers, 0);
+    parallel_for(t.positions.size(), options_.threads, options_.control, [&](std::size_t p) {
+        for (std::size_t c = 0; c < receivers; ++c) {
+            const Receiver& r = station_.receivers[c];
+            std::vector<ConnectedPath> paths;
+            try {
+                paths = find_paths(solver_, t.positions[p], Point{r.x_m, r.y_m, r.z_m}, options_.paths);
+            } catch (const InputError&) {
+                continue;  // a search position at a receiver: that receiver predicts nothing there
+            } catch (const NumericalError&) {
+                continue;
+            }
+            const std::size_t kept = std::min<std::size_t>(paths.size(), search_paths_per_receiver);
+            t.path_counts[p * receivers + c] = static_cast<unsigned char>(kept);
+            for (std::size_t k = 0; k < kept; ++k)
+                t.times_ns[(p * receivers + c) * search_paths_per_receiver + k] = paths[k].time_s * 1e9;
+        }
+    });
+}
+
+SourceLocator::~SourceLocator() = default;
+
+std::size_t SourceLocator::search_positions() const { return table_->positions.size(); }
+
+namespace {
+
+// Trial positions where the model cannot answer (below the bottom, at a receiver, a channel in
+// the shadow with a pulse to explain) are not candidates: their χ² is infinite.
+bool evaluate(const RaySolver& solver, const std::vector<Receiver>& event_receivers, const PathOptions& paths,
+              const PreparedEvent& event, const Point& position, Evaluation& out) {
+    out.position = position;
+    out.assignment = Assignment{};
+    DelaySource source;
+    source.position = position;
+    DelayOptions options;
+    options.paths = paths;
+    std::vector<SourceDelays> delays;
+    try {
+        delays = compute_delays(solver, event_receivers, {source}, options);
+    } catch (const InputError&) {
+        return false;
+    } catch (const NumericalError&) {
+        return false;
+    }
+    out.arrivals = std::move(delays.front().receivers);
+    out.times_ns.resize(out.arrivals.size());
+    for (std::size_t g = 0; g < out.arrivals.size(); ++g) {
+        out.times_ns[g].clear();  // a channel that failed here (the source at the receiver) has no paths
+        for (const ConnectedPath& p : out.arrivals[g].paths) out.times_ns[g].push_back(p.time_s * 1e9);
+    }
+    assign_pulses(event, [&](std::size_t g) -> const std::vector<double>& { return out.times_ns[g]; }, out.assignment);
+    return out.assignment.valid;
+}
+
+// Normal equations of the weighted least squares at an evaluation: A = Jᵀ W J, b = Jᵀ W r for
+// the unknowns (x, y, z in m, t0 in ns), with r = measured − predicted.
+void normal_equations(const PreparedEvent& event, const Evaluation& e, Matrix4& a, Vector4& b) {
+    a.setZero();
+    b.setZero();
+    for (std::size_t g = 0; g < event.channels.size(); ++g)
+        for (int i : event.pulses_of[g]) {
+            if (i < 0) continue;
+            const auto k = static_cast<std::size_t>(i);
+            if (e.assignment.path_of_pulse[k] < 0) continue;  // an unmatched pulse: a constant in χ²
+            const auto path = static_cast<std::size_t>(e.assignment.path_of_pulse[k]);
+            const auto& gradient = e.arrivals[g].gradients[path];
+            // ∂(predicted time)/∂(x, y, z, t0), ns per m and 1.
+            const Vector4 row(gradient.dx * 1e9, gradient.dy * 1e9, gradient.dz * 1e9, 1.0);
+            const double residual = event.time_ns[k] - e.assignment.t0_ns - e.times_ns[g][path];
+            a += event.weight[k] * row * row.transpose();
+            b += event.weight[k] * residual * row;
+        }
+}
+
+struct Refined {
+    bool valid = false;
+    Evaluation at;
+    int iterations = 0;
+};
+
+// Levenberg–Marquardt from a start position (Marquardt's scaling of the diagonal; the emission
+// time is set to its optimum at every trial position, so only the position is carried).
+Refined refine(const RaySolver& solver, const std::vector<Receiver>& event_receivers, const LocateOptions& options,
+               const PreparedEvent& event, const Point& centre, const Point& start) {
+    Refined out;
+    if (!evaluate(solver, event_receivers, options.paths, event, start, out.at)) return out;
+    out.valid = true;
+    double lambda = 1e-3;
+    Evaluation trial;
+    Matrix4 a;
+    Vector4 b;
+    normal_equations(event, out.at, a, b);
+    for (int iteration = 0; iteration < options.max_iterations; ++iteration) {
+        out.iterations = iteration + 1;
+        Matrix4 damped = a;
+        for (int i = 0; i < 4; ++i) damped(i, i) += lambda * std::max(a(i, i), 1e-12);
+        const Vector4 step = damped.ldlt().solve(b);
+        // Gauss–Newton's predicted decrease of χ²: once it is far below 1 the position is within a
+        // small fraction of σ of the minimum, and more steps change nothing a user can see.
+        if (step.dot(b) < converged_chi2_decrease) break;
+        Eigen::Vector3d move = step.head<3>();
+        if (!move.allFinite()) break;
+        // Far steps leave the region where the linearisation means anything: cap them.
+        const Point& p = out.at.position;
+        const double from_centre = std::hypot(p.x - centre.x, p.y - centre.y, p.z - centre.z);
+        const double cap = std::max(50.0, 0.3 * from_centre);
+        if (move.norm() > cap) move *= cap / move.norm();
+        const Point next{p.x + move.x(), p.y + move.y(), p.z + move.z()};
+        const bool better = evaluate(solver, event_receivers, options.paths, event, next, trial) &&
+                            trial.assignment.chi2 <= out.at.assignment.chi2;
+        if (better) {
+            const double gain = out.at.assignment.chi2 - trial.assignment.chi2;
+            std::swap(out.at, trial);
+            normal_equations(event, out.at, a, b);
+            lambda = std::max(lambda * 0.1, 1e-12);
+            if (move.norm() < 1e-6 * (1.0 + from_centre) || gain < 1e-12 * (1.0 + out.at.assignment.chi2)) break;
+        } else {
+            lambda *= 10.0;
+            if (lambda > 1e12) break;  // no step lowers χ²: a minimum to numerical precision
+        }
+    }
+    return out;
+}
+
+// The fit's report at a minimum; false when the pulses do not fix the position there (the
+// normal matrix is singular).
+bool describe_fit(const ArrivalEvent& event, const PreparedEvent& prepared, const Refined& r, const Point& centre,
+                  SourceFit& fit) {
+    Matrix4 a;
+    Vector4 b;
+    normal_equations(prepared, r.at, a, b);
+    const Eigen::SelfAdjointEigenSolver<Matrix4> eigen(a);
+    const auto& values = eigen.eigenvalues();
+    if (!(values.minCoeff() > 1e-12 * values.maxCoeff())) return false;
+    const Matrix4 covariance = eigen.eigenvectors() * values.cwiseInverse().asDiagonal() * eigen.eigenvectors().transpose();
+    fit.position = r.at.position;
+    fit.emission_time_ns = r.at.assignment.t0_ns;
+    fit.chi2 = r.at.assignment.chi2;
+    fit.ndof = static_cast<int>(event.pulses.size()) - 4;
+    for (int i = 0; i < 3; ++i)
+        for (int j = 0; j < 3; ++j) fit.covariance_m2[i][j] = 0.5 * (covariance(i, j) + covariance(j, i));
+    fit.view = view_from_centre(centre, fit.position, fit.covariance_m2);
+    fit.iterations = r.iterations;
+    fit.unmatched_pulses = r.at.assignment.unmatched;
+    fit.pulses.clear();
+    for (std::size_t k = 0; k < event.pulses.size(); ++k) {
+        const MeasuredPulse& m = event.pulses[k];
+        const auto g = static_cast<std::size_t>(
+            std::find(prepared.channels.begin(), prepared.channels.end(), m.channel) - prepared.channels.begin());
+        AssignedPulse p;
+        p.channel = m.channel;
+        p.line = m.line;
+        p.time_ns = m.time_s * 1e9;
+        p.sigma_ns = m.sigma_s * 1e9;
+        if (r.at.assignment.path_of_pulse[k] < 0) {
+            p.matched = false;
+            p.path_rank = 0;
+            fit.pulses.push_back(p);
+            continue;
+        }
+        const auto path = static_cast<std::size_t>(r.at.assignment.path_of_pulse[k]);
+        p.kind = r.at.arrivals[g].paths[path].kind;
+        p.path_rank = static_cast<int>(path) + 1;
+        p.residual_ns = p.time_ns - r.at.assignment.t0_ns - r.at.times_ns[g][path];
+        fit.pulses.push_back(p);
+    }
+    return true;
+}
+
+}  // namespace
+
+EventFit SourceLocator::fit(const ArrivalEvent& event) const {
+    EventFit result;
+    result.event = event.name;
+    result.first_line = event.first_line;
+    if (!event.error.empty()) {
+        result.error = event.error;
+        return result;
+    }
+    if (const std::string problem = arrival_event_problem(event, station_); !problem.empty()) {
+        result.error = fmt::format("line {}: {}", problem_line(event, station_), problem);
+        return result;
+    }
+    const PreparedEvent prepared = prepare(event);
+    std::vector<Receiver> event_receivers;
+    for (std::size_t c : prepared.channels) event_receivers.push_back(station_.receivers[c]);
+
+    // Coarse search: χ² at every search position with the best assignment there.
+    const SearchTable& t = *table_;
+    const std::size_t receivers = station_.receivers.size();
+    std::vector<double> chi2(t.positions.size(), infinite_chi2);
+    Assignment assignment;
+    for (std::size_t p = 0; p < t.positions.size(); ++p) {
+        assign_pulses(
+            prepared,
+            [&](std::size_t g) {
+                const std::size_t slot = p * receivers + prepared.channels[g];
+                return std::span<const double>(&t.times_ns[slot * search_paths_per_receiver], t.path_counts[slot]);
+            },
+            assignment, coarse_rounds);
+        // The coarse search keeps only positions that explain every pulse: there a missing path
+        // is not a small penalty but a sign of the wrong region.
+        chi2[p] = assignment.unmatched == 0 ? assignment.chi2 : infinite_chi2;
+    }
+    // Candidates: the local minima of the search (each basin once: mirror positions, other
+    // assignments), best first.
+    std::vector<std::size_t> minima;
+    for (int a = 0; a < t.azimuths; ++a)
+        for (int d = 0; d < t.distances; ++d)
+            for (int l = 0; l < t.levels; ++l) {
+                const std::size_t p = t.index(a, d, l);
+                if (!std::isfinite(chi2[p])) continue;
+                bool lowest = true;
+                for (int da = -1; da <= 1 && lowest; ++da)
+                    for (int dd = -1; dd <= 1 && lowest; ++dd)
+                        for (int dl = -1; dl <= 1 && lowest; ++dl) {
+                            const int nd = d + dd, nl = l + dl;
+                            if (nd < 0 || nd >= t.distances || nl < 0 || nl >= t.levels) continue;
+                            const std::size_t q = t.index((a + da + t.azimuths) % t.azimuths, nd, nl);
+                            if (q != p && (chi2[q] < chi2[p] || (chi2[q] == chi2[p] && q < p))) lowest = false;
+                        }
+                if (lowest) minima.push_back(p);
+            }
+    std::sort(minima.begin(), minima.end(), [&](std::size_t x, std::size_t y) { return chi2[x] < chi2[y]; });
+    if (minima.size() > static_cast<std::size_t>(options_.candidates)) minima.resize(static_cast<std::size_t>(options_.candidates));
+    if (minima.empty()) {
+        result.error = fmt::format("line {}: no position of the search region explains the pulses of event '{}' (every "
+                                   "channel with two pulses needs two paths)",
+                                   event.first_line, printable_excerpt(event.name));
+        return result;
+    }
+
+    std::vector<SourceFit> fits;
+    bool unconstrained = false;
+    bool good_enough = false;
+    for (std::size_t i = 0; i < minima.size(); ++i) {
+        // Further candidates only when the best fit so far is poor, or when their coarse χ² rivals
+        // the first one's (a competing basin: a mirror position, another assignment).
+        const bool rival = chi2[minima[i]] <= rival_chi2_factor * chi2[minima.front()] + options_.alternative_chi2_margin;
+        if (i > 0 && good_enough && !rival) continue;
+        const Refined r = refine(solver_, event_receivers, options_, prepared, centre_, t.positions[minima[i]]);
+        if (!r.valid) continue;
+        SourceFit fit;
+        if (!describe_fit(event, prepared, r, centre_, fit)) {
+            unconstrained = true;
+            continue;
+        }
+        good_enough |= acceptable_fit(fit.chi2, fit.ndof);
+        // The same minimum reached from two starts is kept once.
+        const bool seen = std::any_of(fits.begin(), fits.end(), [&](const SourceFit& f) {
+            const double apart = std::hypot(f.position.x - fit.position.x, f.position.y - fit.position.y,
+                                            f.position.z - fit.position.z);
+            return apart < 1.0 + 1e-3 * f.view.distance_m;
+        });
+        if (!seen) fits.push_back(std::move(fit));
+    }
+    if (fits.empty()) {
+        result.error = unconstrained
+                           ? fmt::format("line {}: the pulses of event '{}' do not fix the source position (the fit's "
+                                         "normal matrix is singular)",
+                                         event.first_line, printable_excerpt(event.name))
+                           : fmt::format("line {}: no fit of event '{}' converged to a position the model can join "
+                                         "to every channel",
+                                         event.first_line, printable_excerpt(event.name));
+        return result;
+    }
+    std::sort(fits.begin(), fits.end(), [](const SourceFit& x, const SourceFit& y) { return x.chi2 < y.chi2; });
+    result.best = std::move(fits.front());
+    for (std::size_t i = 1; i < fits.size(); ++i)
+        if (fits[i].chi2 - result.best->chi2 <= options_.alternative_chi2_margin) result.alternatives.push_back(std::move(fits[i]));
+    return result;
+}
+
+std::vector<EventFit> locate_events(const SourceLocator& locator, const std::vector<ArrivalEvent>& events, int threads,
+                                    const RunControl& control) {
+    std::vector<EventFit> fits(events.size());
+    parallel_for(events.size(), threads, control, [&](std::size_t i) { fits[i] = locator.fit(events[i]); });
+    return fits;
+}
+
+}  // namespace firnray
