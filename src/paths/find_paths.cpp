@@ -715,6 +715,12 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
     const auto& nodes = family.nodes;
     auto z_of = [&](const Node& node) { return node.kind == NodeKind::upper_apex ? turning_z : node.z; };
     auto moving_up = [&](const Node& a, const Node& b) {
+        // Through the surface the ray moves from the ice end toward the air end, even when the ice
+        // end lies on the surface itself (z = 0 at both nodes of that leg).
+        if (a.kind == NodeKind::air_end) return false;
+        if (b.kind == NodeKind::air_end) return true;
+        if (b.kind == NodeKind::crossing) return true;
+        if (a.kind == NodeKind::crossing) return false;
         if (b.kind == NodeKind::upper_apex || a.kind == NodeKind::bottom_reflection) return true;
         if (a.kind == NodeKind::upper_apex || b.kind == NodeKind::bottom_reflection) return false;
         return z_of(b) > z_of(a);
@@ -733,6 +739,7 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
     };
 
     double offset = 0.0;
+    double air_horizontal = 0.0, air_length = 0.0;  // of the air leg, when there is one
     std::complex<double> interface_s{1.0, 0.0}, interface_p{1.0, 0.0};
     double flux = 1.0;
     const double cos_ice_surface = cos_from(n_surface_, xi);
@@ -742,10 +749,13 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
         if (a.kind == NodeKind::air_end || b.kind == NodeKind::air_end) {
             const double height = a.kind == NodeKind::air_end ? a.z : b.z;
             const double cos_air = cos_from(n_air_, xi);
-            const double leg = height / cos_air;
+            // ξ = n_air to the last bit: a horizontal air leg, whose extent the limit below sets.
+            const double leg = cos_air > 0.0 ? height / cos_air : height;
+            air_horizontal = cos_air > 0.0 ? leg * xi / n_air_ : 0.0;
+            air_length = leg;
             p.length_m += leg;
             p.time_s += n_air_ * leg / speed_of_light;
-            offset += leg * xi / n_air_;
+            offset += air_horizontal;
             regular_derivative += height / (n_air_ * cos_air * cos_air * cos_air);
         } else {
             const Segment s = solver_.segment(xi, z_of(a), z_of(b));
@@ -801,6 +811,25 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
             default: break;
         }
     }
+    // Through the surface with ξ so close to n_air that the air leg changes by more than the miss
+    // between neighbouring doubles ξ, the air leg is horizontal to the precision of a double: its
+    // horizontal extent is whatever the ice leg leaves of R (a source just above the surface
+    // reaching far into the ice). Take that limit: the air leg as the straight line it is.
+    std::optional<double> grazing_air_extent;  // set when the air leg is taken in that limit
+    constexpr double epsilon = std::numeric_limits<double>::epsilon();
+    const double air_gap = n_air_ - xi;  // the air leg changes by air_horizontal·ε·n_air/air_gap between neighbouring ξ
+    if (family.crossing && std::abs(r_ - offset) > root_residual(r_) &&
+        (air_gap <= 8.0 * epsilon * n_air_ || std::abs(r_ - offset) <= 4.0 * air_horizontal * epsilon * n_air_ / air_gap)) {
+        const double height = std::max(source_.z, receiver_.z);
+        const double extent = air_horizontal + (r_ - offset);
+        if (extent >= 0.0) {
+            const double length = std::hypot(extent, height);
+            p.length_m += length - air_length;
+            p.time_s += n_air_ * (length - air_length) / speed_of_light;
+            offset = r_;
+            grazing_air_extent = extent;
+        }
+    }
     // The root leaves a residual in distance; along a family dT/dr = ξ/c, so correct to first order.
     // A larger residual means that no double ξ resolves the path: a ray grazing the surface in
     // the air, where r changes by more than that between neighbouring values of ξ.
@@ -821,6 +850,11 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
     const double theta_source = upward_zenith(n_source, xi), theta_receiver = upward_zenith(n_receiver, xi);
     p.launch_zenith_rad = launch_up ? theta_source : pi - theta_source;
     p.arrival_zenith_rad = arrival_up ? theta_receiver : pi - theta_receiver;
+    if (grazing_air_extent) {
+        const double air_zenith = std::atan2(*grazing_air_extent, std::max(source_.z, receiver_.z));
+        if (source_.z > 0.0) p.launch_zenith_rad = pi - air_zenith;
+        else p.arrival_zenith_rad = air_zenith;
+    }
 
     // Spreading: L_eff² = n0²·(r/ξ)·|∂r/∂ξ|·|cos θ0 cos θr| (Červený 2001 with ∂ξ/∂θ0 = n0 cos θ0);
     // r/ξ → ∂r/∂ξ for a vertical path.
@@ -854,17 +888,27 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
 bool uses_stratified_paths(const RaySolver& solver, const Point& source, const Point& receiver) {
     if (source.z > 0.0 || receiver.z > 0.0) return false;
     if (solver.name() == "stratified") return true;
-    const StratifiedProfile& profile = solver.stratified_profile();
-    for (const StratifiedProfile::Run& run : profile.runs())
-        if (run.direction < 0) return true;
+    const IndexProfile& index = *solver.model().index;
+    // Exponential and constant profiles have no inversion. The stratified analysis cuts an
+    // exponential into cells of half a scale depth down to 10 km: below a scale depth of 1 m (no
+    // firn has one; model files accept 0.01 m) that is too many cells, and the closed form keeps them.
+    const auto* exponential = dynamic_cast<const ExponentialProfile*>(&index);
+    if (exponential && exponential->scale_depth_m() < 1.0) return false;
+    // Equal depths: the refracted path turns within r²·|dn/dz|/(8n) of the ends, so close that for
+    // short pairs (r below a metre or so) n − ξ at the ends is lost to rounding in ξ.
+    if (source.z == receiver.z) return true;
+    if (!exponential && index.kind() != "constant") {
+        const StratifiedProfile& profile = solver.stratified_profile();
+        for (const StratifiedProfile::Run& run : profile.runs())
+            if (run.direction < 0) return true;
+    }
     // The near-n_deep limit: how much n still grows below the shallower end, exactly for the
     // exponential (B·e^{z/z0}), else down to the deepest depth a model may have, with a gradient
     // that is not zero where that difference is lost to rounding.
-    const IndexProfile& index = *solver.model().index;
     const double z_high = std::max(source.z, receiver.z), n_high = index.index(z_high);
     double rise = 0.0;
     bool growing = false;
-    if (const auto* exponential = dynamic_cast<const ExponentialProfile*>(&index)) {
+    if (exponential) {
         rise = (exponential->n_deep() - exponential->n_surface()) * std::exp(z_high / exponential->scale_depth_m());
         growing = rise > 0.0;
     } else {

@@ -35,8 +35,10 @@ inline constexpr double near_deep_limit = 1e-6;
 
 // Whether find_paths answers an ice-to-ice pair (both z <= 0) with the stratified path finder
 // (solver/path_families.hpp, on solver.stratified_profile()) rather than with the solver's legs.
-// One rule, whatever the solver: yes with the stratified solver; yes on a profile whose index falls
-// with depth anywhere above its floor (ducts); yes where the index still grows below the shallower
+// One rule, whatever the solver: yes with the stratified solver; yes for two ends at the same depth
+// (the refracted path then turns within r²·|dn/dz|/(8n) of them, which a plain ξ cannot resolve
+// for short pairs); yes on a profile whose index falls with depth anywhere above its floor
+// (ducts); yes where the index still grows below the shallower
 // end but by less than near_deep_limit × n down to the deepest depth a model may have (the
 // near-n_deep limit, which the stratified finder resolves with anchored ray levels). Otherwise,
 // and for every pair with an end in the air, the solver's own legs.

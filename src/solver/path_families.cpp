@@ -498,13 +498,17 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
 
     const double distance = horizontal_distance_m;
     std::vector<StratifiedPath> paths;
-    // Equal depths where n is exactly constant around them: the horizontal straight line.
+    // Equal depths where n is constant around them: the horizontal straight line.
     if (z_source == z_receiver) {
         const std::size_t cell = profile.cell_at(z_source);
         double n, dn, d2n;
         profile.evaluate(cell, z_source, n, dn, d2n);
-        if (dn == 0.0 && d2n == 0.0 && profile.index_difference(z_source + 1e-3, z_source) == 0.0 &&
-            profile.index_difference(std::max(z_source - 1e-3, floor), z_source) == 0.0) {
+        // Constant to the last bit over the pair (deep ice of a smooth profile, where dn/dz ~ 1e-25
+        // and the refracted path differs from the straight line by nothing a double holds).
+        const double flat = 1e-15 * n, span = std::max(distance, 1.0);
+        if (std::abs(dn) * span <= flat && std::abs(d2n) * span * span <= flat &&
+            std::abs(profile.index_difference(z_source + 1e-3, z_source)) <= flat &&
+            std::abs(profile.index_difference(std::max(z_source - 1e-3, floor), z_source)) <= flat) {
             StratifiedPath path;
             path.family = "direct";
             path.ray_parameter = n;

@@ -125,7 +125,8 @@ factors for s and p, the spreading distance L_eff (m) and the attenuation field 
 Solvers (--solver): auto is the closed form on exponential and constant profiles and the
 stratified quadrature on every other; numeric integrates the ray equations (a cross-check; it
 refuses a model whose index falls with depth). Whatever the solver, a pair with both ends in the
-ice goes through the stratified path finder when the model's index falls with depth somewhere or
+ice goes through the stratified path finder when both ends are at one depth, when the model's
+index falls with depth somewhere, or
 when n_deep - n at the shallower end is below 1e-6 n (deep ice). See docs/connect.md.
 In 3-D (X,Y,Z) the horizontal distance is used and the azimuth (from +x toward +y) reported.
 No path at all means the receiver is in the shadow zone: "paths": [] in JSON, exit code 0.
