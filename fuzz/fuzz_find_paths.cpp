@@ -100,10 +100,14 @@ int fuzz_one(const std::uint8_t* data, std::size_t size) {
     options.bottom_paths = in.flag();
     options.scan_samples = in.integer(4, 64);
     const bool numeric = !exponential || in.flag();
+    // Half the time the stratified solver instead (the auto choice for tables and layers).
+    const bool stratified = in.flag();
 
     try {
         auto model = std::make_shared<const FirnModel>(parse_model(model_text, "fuzzed model"));
-        const auto solver = make_solver(model, numeric ? SolverChoice::numeric : SolverChoice::closed);
+        const auto solver = make_solver(model, stratified ? SolverChoice::stratified
+                                               : numeric  ? SolverChoice::numeric
+                                                          : SolverChoice::closed);
         const auto paths = find_paths(*solver, source, receiver, options);
 
         const double straight_m = std::hypot(receiver.x - source.x, receiver.y - source.y, receiver.z - source.z);

@@ -29,9 +29,11 @@ std::shared_ptr<const FirnModel> load_model_or_default(const std::string& path) 
 }
 
 void add_solver_option(CLI::App* command, std::string& choice) {
-    command->add_option("--solver", choice, "auto (closed form for exponential models), closed, or numeric")
+    command->add_option("--solver", choice,
+                        "auto (closed form for exponential and constant models, stratified for the others), closed, "
+                        "numeric or stratified")
         ->capture_default_str()
-        ->check(one_of({"auto", "closed", "numeric"}));
+        ->check(one_of({"auto", "closed", "numeric", "stratified"}));
 }
 
 void add_ray_parameters_option(CLI::App* command, int& count) {

@@ -40,7 +40,7 @@ void add_model_option(CLI::App* command, std::string& path);
 // "warning: FILE:LINE:COLUMN: ...", also under --quiet (which only silences progress).
 std::shared_ptr<const FirnModel> load_model_or_default(const std::string& path);
 
-// --solver auto|closed|numeric (the value is parsed by parse_solver_choice).
+// --solver auto|closed|numeric|stratified (the value is parsed by parse_solver_choice).
 void add_solver_option(CLI::App* command, std::string& choice);
 // --ray-parameters N: samples per arrival table in maps and scans (accuracy).
 void add_ray_parameters_option(CLI::App* command, int& count);

@@ -9,6 +9,7 @@
 #include "io/csv_writer.hpp"
 #include "io/json_writer.hpp"
 #include "output/model_json.hpp"
+#include "output/path_output.hpp"
 #include "output/text_sink.hpp"
 
 namespace firnray {
@@ -67,7 +68,7 @@ void DelayTableWriter::begin(const FirnModel* model) {
     out.put("name,input_line,receiver,path,kind,time_ns,minus_reference_same_kind_ns,first_minus_reference_first_ns,"
             "second_minus_first_ns,launch_zenith_deg,arrival_zenith_deg");
     if (derivatives_) out.put(",dt_dx_ns_per_m,dt_dy_ns_per_m,dt_dz_ns_per_m");
-    out.put(",error");
+    out.put(",events,error");
     out.end_row();
     out.finish();
 }
@@ -90,7 +91,7 @@ void DelayTableWriter::add(const std::vector<DelaySource>& sources, const std::v
     const DelayOptions& options = options_;
     const bool derivatives = derivatives_;
     output::TextSink out(out_);
-    const std::size_t extra = derivatives ? 3 : 0;
+    const std::size_t extra = (derivatives ? 3 : 0) + 1;  // the derivatives and events
     for (std::size_t i = 0; i < sources.size(); ++i) {
         const auto head = [&] {
             append_csv_field(out.buffer(), sources[i].name);
@@ -148,6 +149,8 @@ void DelayTableWriter::add(const std::vector<DelaySource>& sources, const std::v
                     put_fixed(out, g.dz * seconds_to_ns, 9, "dt_dz_ns_per_m");
                 }
                 out.put(',');
+                append_csv_field(out.buffer(), format_events(path.events, 6));
+                out.put(',');
                 out.end_row();
             }
         }
@@ -200,6 +203,10 @@ void DelayTableWriter::add_json(const std::vector<DelaySource>& sources, const s
                 else json.null();
                 json.field("launch_zenith_deg", rad_to_deg(path.launch_zenith_rad));
                 json.field("arrival_zenith_deg", rad_to_deg(path.arrival_zenith_rad));
+                json.key("events").begin_array();
+                for (const PathEvent& e : path.events)
+                    json.begin_object().field("kind", to_string(e.kind)).field("offset_m", e.offset_m).field("z_m", e.z_m).end_object();
+                json.end_array();
                 if (derivatives) {
                     const auto& g = here.gradients[p];
                     json.key("dt_dsource_ns_per_m").begin_array().value(g.dx * seconds_to_ns).value(g.dy * seconds_to_ns).value(g.dz * seconds_to_ns).end_array();

@@ -89,8 +89,8 @@ void integer(Buffer& out, long value) { fmt::format_to(fmt::appender(out), FMT_C
 constexpr std::string_view csv_path_columns =
     "path,kind,time_ns,launch_zenith_deg,arrival_zenith_deg,length_m,ray_parameter,turning_z_m,turning_points,"
     "surface_bounces,bottom_bounces,horizontal_distance_m,azimuth_deg,fresnel_s_re,fresnel_s_im,fresnel_p_re,"
-    "fresnel_p_im,flux_factor,spreading_m,attenuation,field_s_re,field_s_im,field_p_re,field_p_im,caustic";
-constexpr std::size_t csv_path_column_count = 25;
+    "fresnel_p_im,flux_factor,spreading_m,attenuation,field_s_re,field_s_im,field_p_re,field_p_im,caustic,events";
+constexpr std::size_t csv_path_column_count = 26;
 
 void csv_text(Buffer& out, std::string_view text) { append_csv_field(out, text); }
 
@@ -99,7 +99,7 @@ void csv_text(Buffer& out, std::string_view text) { append_csv_field(out, text);
 bool has_spreading(const PathAmplitude& a) { return !a.caustic || std::isfinite(a.spreading_distance_m); }
 bool has_field(const PathAmplitude& a) { return !a.caustic; }
 
-// The 25 path columns, without a leading or trailing separator.
+// The 26 path columns, without a leading or trailing separator.
 void csv_path(Buffer& out, std::size_t rank, const ConnectedPath& p, const Geometry& g) {
     integer(out, static_cast<long>(rank));
     put(out, ',');
@@ -142,6 +142,8 @@ void csv_path(Buffer& out, std::size_t rank, const ConnectedPath& p, const Geome
         if (column.present) significant(out, column.value, column.name);
     }
     put(out, a.caustic ? ",true" : ",false");
+    put(out, ',');
+    csv_text(out, format_events(p.events, 6));
 }
 
 // A row saying that a pair has no path: kind "none", with the pair's distance and azimuth.
@@ -254,12 +256,13 @@ constexpr TextColumn text_columns[] = {
     {"path", 4},           {"kind", 11, true},   {"time (ns)", 15},   {"launch (deg)", 12},
     {"arrival (deg)", 13}, {"length (m)", 11},   {"ray param.", 10},  {"turning z (m)", 13},
     {"bounces s/b", 11},   {"L_eff (m)", 11},    {"atten.", 8},       {"|F_s|", 7},
-    {"arg F_s (deg)", 13}, {"|F_p|", 7},         {"arg F_p (deg)", 13}, {"note", 4, true},
+    {"arg F_s (deg)", 13}, {"|F_p|", 7},         {"arg F_p (deg)", 13}, {"note", 7, true},
+    {"events (z, x from the source, m)", 0, true},
 };
 constexpr std::size_t text_column_count = std::size(text_columns);
 enum TextColumnIndex : std::size_t {
     c_path, c_kind, c_time, c_launch, c_arrival, c_length, c_ray, c_turning, c_bounces, c_spreading,
-    c_attenuation, c_fs, c_arg_fs, c_fp, c_arg_fp, c_note,
+    c_attenuation, c_fs, c_arg_fs, c_fp, c_arg_fp, c_note, c_events,
 };
 
 // Writes `text` into a field of the column's width; columns are separated by two spaces.
@@ -317,14 +320,17 @@ void text_path(Buffer& out, std::size_t rank, const ConnectedPath& p) {
     text_number<2>(out, c_arg_fs, phase_deg(a.interface_s));
     text_number<4>(out, c_fp, std::abs(a.interface_p));
     text_number<2>(out, c_arg_fp, phase_deg(a.interface_p));
-    if (a.caustic) put(out, "  caustic");
+    text_cell(out, c_note, a.caustic ? "caustic" : "");
+    text_cell(out, c_events, p.events.empty() ? "-" : format_events(p.events, 3));
 }
 
 constexpr std::string_view text_notes =
     "Angles: zenith angle of the direction of travel (0 up, 90 horizontal, 180 down); z is up, the surface is z = 0.\n"
     "bounces s/b: reflections at the surface / at the bottom. L_eff: geometric spreading distance (field ~ 1/L_eff).\n"
     "atten.: field factor of absorption. F_s, F_p: product of the interface (Fresnel) factors of the path for s and p\n"
-    "polarisation, as magnitude and phase. caustic: the spreading vanishes, ray theory gives no amplitude there.\n";
+    "polarisation, as magnitude and phase. caustic: the spreading vanishes, ray theory gives no amplitude there.\n"
+    "events: turning points, reflections and surface crossings in order from the source, at depth z and horizontal\n"
+    "offset x from the source (m); ducted paths turn at two depths, several times.\n";
 
 std::string describe_solver(const std::string& name) {
     if (name == "closed") return "closed (closed form of the exponential profile)";
@@ -362,6 +368,18 @@ std::string single_text(const PathOutputContext& context, const Point& source, c
 }
 
 }  // namespace
+
+std::string format_events(const std::vector<PathEvent>& events, int decimals) {
+    std::string out;
+    for (const PathEvent& e : events) {
+        if (!out.empty()) out += ';';
+        require_finite(e.z_m, "event z_m");
+        require_finite(e.offset_m, "event offset_m");
+        fmt::format_to(std::back_inserter(out), "{} z={:.{}f} x={:.{}f}", to_string(e.kind), e.z_m + 0.0, decimals,
+                       e.offset_m + 0.0, decimals);
+    }
+    return out;
+}
 
 void write_paths(std::ostream& out, PathFormat format, const PathOutputContext& context, const Point& source,
                  const Point& receiver, const std::vector<ConnectedPath>& paths) {

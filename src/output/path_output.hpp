@@ -41,6 +41,12 @@ struct PathOutputContext {
 //         attenuation, field_s_re, field_s_im, field_p_re, field_p_im, caustic.
 //   json: one object with model, solver, conventions, source, receiver, horizontal_distance_m,
 //         azimuth_deg and an array `paths` (see docs/connect.md).
+// The events of a path in one line, in order from the source: "turning z=-12.35 x=45.68;surface
+// reflection z=0.00 x=100.00", z and x (the horizontal offset from the source) in metres with
+// `decimals` decimals. Empty for a path without events. The CSV column `events` of connect and
+// delays and the text column of connect; JSON writes them as an array of objects instead.
+std::string format_events(const std::vector<PathEvent>& events, int decimals);
+
 void write_paths(std::ostream& out, PathFormat format, const PathOutputContext& context, const Point& source,
                  const Point& receiver, const std::vector<ConnectedPath>& paths);
 std::string format_paths(PathFormat format, const PathOutputContext& context, const Point& source,

@@ -9,21 +9,25 @@
 
 namespace firnray {
 
-// What a path did. Precedence when several apply: bottom > transmitted > reflected > refracted >
-// direct (a path with a bottom bounce is "bottom" even when it also crosses the surface).
+// What a path did. Precedence when several apply: bottom > transmitted > ducted > refracted_below >
+// reflected > refracted > direct (a path with a bottom bounce is "bottom" even when it also
+// crosses the surface or turns in a duct).
 enum class PathKind : unsigned char {
-    direct,       // monotone in z between the two ends
-    refracted,    // rises above both ends and turns below the surface (ξ > n_surface)
-    reflected,    // rises above both ends and reflects at the surface (ξ <= n_surface), or in air off the surface
-    transmitted,  // crosses the surface: one end in the air
-    bottom,       // reflects at the bottom at least once
+    direct,           // monotone in z between the two ends
+    refracted,        // rises above both ends and turns below the surface (ξ > n_surface)
+    reflected,        // rises above both ends and reflects at the surface (ξ <= n_surface), or in air off the surface
+    transmitted,      // crosses the surface: one end in the air
+    bottom,           // reflects at the bottom at least once
+    refracted_below,  // goes down from both ends and turns below them (where n falls with depth under the pair)
+    ducted,           // turns or reflects two or more times, never at the bottom: trapped between two ends of a duct
 };
 const char* to_string(PathKind kind);
 
 enum class PathEventKind : unsigned char { turning, surface_reflection, bottom_reflection, surface_crossing };
 const char* to_string(PathEventKind kind);
 
-// Where the path turns back vertically or crosses the surface, in order from the source.
+// Where the path turns back vertically (at a turning point or a reflection) or crosses the surface,
+// in order from the source: what tells two ducted paths apart.
 struct PathEvent {
     PathEventKind kind = PathEventKind::turning;
     double offset_m = 0.0;  // horizontal distance from the source, along the azimuth
@@ -64,7 +68,9 @@ struct ConnectedPath {
     double length_m = 0.0;             // arc length
     double horizontal_distance_m = 0.0;  // r between source and receiver (the same for every path of a pair)
     double azimuth_rad = 0.0;          // direction from source to receiver: atan2(Δy, Δx), 0 when r = 0
-    std::optional<double> turning_z_m; // where a refracted path turns (all its turning points share it)
+    // Where the path first turns back at a turning point (refracted: all its turning points share
+    // it; a ducted path turns at two depths, both listed in `events`).
+    std::optional<double> turning_z_m;
     int turning_points = 0;
     int surface_bounces = 0;           // surface reflections (from below, or from above for air pairs)
     int bottom_bounces = 0;

@@ -10,7 +10,11 @@
 
 #include "core/constants.hpp"
 #include "core/errors.hpp"
+#include "model/index_profile.hpp"
+#include "model/model_limits.hpp"
 #include "paths/amplitude.hpp"
+#include "solver/path_families.hpp"
+#include "solver/stratified_intervals.hpp"
 #include "trace/bracketed_root.hpp"
 #include "trace/fresnel.hpp"
 
@@ -23,6 +27,8 @@ const char* to_string(PathKind kind) {
         case PathKind::reflected: return "reflected";
         case PathKind::transmitted: return "transmitted";
         case PathKind::bottom: return "bottom";
+        case PathKind::refracted_below: return "refracted-below";
+        case PathKind::ducted: return "ducted";
     }
     return "?";
 }
@@ -55,7 +61,7 @@ double root_residual(double r) { return 1e-6 * std::max(r, 1.0); }
 // miss by) and no faster than light in the fastest medium it crosses, with finite numbers
 // everywhere and a field that is finite exactly when it is not a caustic. Anything else is a
 // numerical failure, reported instead of written out.
-void check_sane(const ConnectedPath& p, const Point& source, const Point& receiver, double n_min) {
+void check_sane(const ConnectedPath& p, const Point& source, const Point& receiver, double n_min, double residual) {
     const double straight = std::hypot(p.horizontal_distance_m, receiver.z - source.z);
     auto fail = [&](const char* what) {
         throw NumericalError(fmt::format("the {} path of ray parameter {} from z = {} m to r = {} m, z = {} m came out "
@@ -70,7 +76,7 @@ void check_sane(const ConnectedPath& p, const Point& source, const Point& receiv
     const bool finite_field = std::isfinite(std::abs(p.amplitude.field_s)) && std::isfinite(std::abs(p.amplitude.field_p));
     if (finite_field == p.amplitude.caustic) fail("with a field that is not finite outside a caustic");
     constexpr double rounding = 1e-9;
-    if (p.length_m < straight * (1.0 - rounding) - root_residual(p.horizontal_distance_m))
+    if (p.length_m < straight * (1.0 - rounding) - residual)
         fail("shorter than the straight line between its ends");
     if (p.time_s * speed_of_light < straight * n_min * (1.0 - rounding))
         fail("faster than light in the fastest medium it crosses");
@@ -118,6 +124,7 @@ public:
 
 private:
     void ice_pair();
+    void stratified_pair();
     void transmitted_pair();
     void air_pair();
 
@@ -143,8 +150,20 @@ private:
         return n;
     }
 
+    // The smallest index over the depths a path spans (its ends, turns and reflections): on a
+    // profile with inversions the fastest medium may lie between them.
+    double lowest_index_spanned(const ConnectedPath& p) const {
+        double z_low = std::min(source_.z, receiver_.z), z_high = std::max(source_.z, receiver_.z);
+        for (const PathEvent& e : p.events) {
+            z_low = std::min(z_low, e.z_m);
+            z_high = std::max(z_high, e.z_m);
+        }
+        return solver_.stratified_profile().minimum_index(z_low, z_high).first;
+    }
+
     const RaySolver& solver_;
     const FirnModel& model_;
+    bool stratified_ = false;  // the pair went through the stratified path finder
     Point source_, receiver_;
     PathOptions options_;
     double r_ = 0.0, azimuth_ = 0.0;
@@ -177,7 +196,10 @@ std::vector<ConnectedPath> PathFinder::run() {
     }
     const bool source_in_air = source_.z > 0.0, receiver_in_air = receiver_.z > 0.0;
     try {
-        if (!source_in_air && !receiver_in_air) ice_pair();
+        if (!source_in_air && !receiver_in_air) {
+            if (uses_stratified_paths(solver_, source_, receiver_)) stratified_pair();
+            else ice_pair();
+        }
         else if (source_in_air && receiver_in_air) air_pair();
         else transmitted_pair();
     } catch (const DataInputError& e) {
@@ -186,7 +208,12 @@ std::vector<ConnectedPath> PathFinder::run() {
         throw NumericalError(fmt::format("the path finder asked the solver for something it refused: {}", e.what()));
     }
     std::sort(paths_.begin(), paths_.end(), [](const ConnectedPath& a, const ConnectedPath& b) { return a.time_s < b.time_s; });
-    for (const ConnectedPath& p : paths_) check_sane(p, source_, receiver_, fastest_index(p));
+    for (const ConnectedPath& p : paths_) {
+        if (stratified_)
+            check_sane(p, source_, receiver_, lowest_index_spanned(p), stratified_root_residual * (1.0 + r_));
+        else
+            check_sane(p, source_, receiver_, fastest_index(p), root_residual(r_));
+    }
     return std::move(paths_);
 }
 
@@ -462,6 +489,92 @@ void PathFinder::ice_pair() {
     }
 }
 
+// Both ends in the ice, through solver/path_families.hpp: every family of every range of ξ,
+// turned into ConnectedPath with the amplitude of paths/amplitude.hpp.
+void PathFinder::stratified_pair() {
+    stratified_ = true;
+    const StratifiedProfile& profile = solver_.stratified_profile();
+    for (const Point* p : {&source_, &receiver_})
+        if (p->z < profile.floor_z())
+            throw DataInputError(fmt::format("z = {} m lies below the deepest depth the paths are found to ({} m)", p->z,
+                                             profile.floor_z()));
+    StratifiedPathOptions options;
+    options.max_bounces = options_.max_bounces;
+    options.bottom_paths = options_.bottom_paths;
+    options.scan_samples = options_.scan_samples;
+    options.attenuation = model_.attenuation;
+    const auto found = find_stratified_paths(profile, source_.z, receiver_.z, r_, options);
+    const double n_source = model_.index->index(source_.z), n_receiver = model_.index->index(receiver_.z);
+    for (const StratifiedPath& s : found) {
+        ConnectedPath p;
+        switch (s.kind) {
+            case StratifiedPathKind::direct: p.kind = PathKind::direct; break;
+            case StratifiedPathKind::refracted: p.kind = PathKind::refracted; break;
+            case StratifiedPathKind::reflected: p.kind = PathKind::reflected; break;
+            case StratifiedPathKind::bottom: p.kind = PathKind::bottom; break;
+            case StratifiedPathKind::refracted_below: p.kind = PathKind::refracted_below; break;
+            case StratifiedPathKind::ducted: p.kind = PathKind::ducted; break;
+        }
+        const double xi = s.ray_parameter;
+        p.time_s = s.time_s;
+        p.ray_parameter = xi;
+        p.launch_zenith_rad = s.launch_zenith_rad;
+        p.arrival_zenith_rad = s.arrival_zenith_rad;
+        p.length_m = s.length_m;
+        p.horizontal_distance_m = r_;
+        p.azimuth_rad = azimuth_;
+        p.attenuation_exponent = s.attenuation_exponent;
+        std::complex<double> interface_s{1.0, 0.0}, interface_p{1.0, 0.0};
+        for (const PathTurn& turn : s.turns) {
+            switch (turn.kind) {
+                case PathTurnKind::turning:
+                    ++p.turning_points;
+                    if (!p.turning_z_m) p.turning_z_m = turn.z_m;
+                    p.events.push_back({PathEventKind::turning, turn.offset_m, turn.z_m});
+                    break;
+                case PathTurnKind::surface_reflection: {
+                    ++p.surface_bounces;
+                    p.events.push_back({PathEventKind::surface_reflection, turn.offset_m, 0.0});
+                    const FresnelCoefficients f = fresnel(n_surface_, n_air_, cos_from(n_surface_, xi));
+                    interface_s *= f.r_s;
+                    interface_p *= f.r_p;
+                    break;
+                }
+                case PathTurnKind::bottom_reflection: {
+                    ++p.bottom_bounces;
+                    p.events.push_back({PathEventKind::bottom_reflection, turn.offset_m, turn.z_m});
+                    const double field = std::sqrt(model_.bottom->power_reflectivity);
+                    interface_s *= field;
+                    interface_p *= field;
+                    break;
+                }
+            }
+        }
+        // ∂r/∂θ0 = ∂r/∂ξ·n0·cos θ0; where the path is horizontal at the source (∂r/∂ξ infinite) it
+        // is the finite |∂r/∂ξ|·cos θ0·cos θr over cos θr, and infinite where it is horizontal at
+        // the receiver only.
+        const double launch_cos = std::cos(p.launch_zenith_rad), cos_receiver = cos_from(n_receiver, xi);
+        p.distance_derivative = s.distance_derivative;
+        if (std::isfinite(s.distance_derivative)) {
+            p.distance_per_launch_angle = s.distance_derivative * n_source * launch_cos;
+        } else {
+            const double sign = launch_cos >= 0.0 ? 1.0 : -1.0;
+            p.distance_per_launch_angle =
+                cos_receiver > 0.0 ? sign * s.derivative_cosines / cos_receiver * n_source : infinity;
+        }
+        RayTube tube;
+        tube.n_source = n_source;
+        tube.n_receiver = n_receiver;
+        tube.horizontal_distance_m = r_;
+        tube.ray_parameter = xi;
+        tube.derivative_cosines = s.derivative_cosines;
+        tube.distance_derivative = s.distance_derivative;
+        tube.length_m = p.length_m;
+        p.amplitude = path_amplitude(interface_s, interface_p, 1.0, p.attenuation_exponent, tube);
+        paths_.push_back(std::move(p));
+    }
+}
+
 void PathFinder::transmitted_pair() {
     const bool source_in_air = source_.z > 0.0;
     const Point& ice = source_in_air ? receiver_ : source_;
@@ -602,6 +715,12 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
     const auto& nodes = family.nodes;
     auto z_of = [&](const Node& node) { return node.kind == NodeKind::upper_apex ? turning_z : node.z; };
     auto moving_up = [&](const Node& a, const Node& b) {
+        // Through the surface the ray moves from the ice end toward the air end, even when the ice
+        // end lies on the surface itself (z = 0 at both nodes of that leg).
+        if (a.kind == NodeKind::air_end) return false;
+        if (b.kind == NodeKind::air_end) return true;
+        if (b.kind == NodeKind::crossing) return true;
+        if (a.kind == NodeKind::crossing) return false;
         if (b.kind == NodeKind::upper_apex || a.kind == NodeKind::bottom_reflection) return true;
         if (a.kind == NodeKind::upper_apex || b.kind == NodeKind::bottom_reflection) return false;
         return z_of(b) > z_of(a);
@@ -620,6 +739,7 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
     };
 
     double offset = 0.0;
+    double air_horizontal = 0.0, air_length = 0.0;  // of the air leg, when there is one
     std::complex<double> interface_s{1.0, 0.0}, interface_p{1.0, 0.0};
     double flux = 1.0;
     const double cos_ice_surface = cos_from(n_surface_, xi);
@@ -629,10 +749,13 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
         if (a.kind == NodeKind::air_end || b.kind == NodeKind::air_end) {
             const double height = a.kind == NodeKind::air_end ? a.z : b.z;
             const double cos_air = cos_from(n_air_, xi);
-            const double leg = height / cos_air;
+            // ξ = n_air to the last bit: a horizontal air leg, whose extent the limit below sets.
+            const double leg = cos_air > 0.0 ? height / cos_air : height;
+            air_horizontal = cos_air > 0.0 ? leg * xi / n_air_ : 0.0;
+            air_length = leg;
             p.length_m += leg;
             p.time_s += n_air_ * leg / speed_of_light;
-            offset += leg * xi / n_air_;
+            offset += air_horizontal;
             regular_derivative += height / (n_air_ * cos_air * cos_air * cos_air);
         } else {
             const Segment s = solver_.segment(xi, z_of(a), z_of(b));
@@ -688,6 +811,25 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
             default: break;
         }
     }
+    // Through the surface with ξ so close to n_air that the air leg changes by more than the miss
+    // between neighbouring doubles ξ, the air leg is horizontal to the precision of a double: its
+    // horizontal extent is whatever the ice leg leaves of R (a source just above the surface
+    // reaching far into the ice). Take that limit: the air leg as the straight line it is.
+    std::optional<double> grazing_air_extent;  // set when the air leg is taken in that limit
+    constexpr double epsilon = std::numeric_limits<double>::epsilon();
+    const double air_gap = n_air_ - xi;  // the air leg changes by air_horizontal·ε·n_air/air_gap between neighbouring ξ
+    if (family.crossing && std::abs(r_ - offset) > root_residual(r_) &&
+        (air_gap <= 8.0 * epsilon * n_air_ || std::abs(r_ - offset) <= 4.0 * air_horizontal * epsilon * n_air_ / air_gap)) {
+        const double height = std::max(source_.z, receiver_.z);
+        const double extent = air_horizontal + (r_ - offset);
+        if (extent >= 0.0) {
+            const double length = std::hypot(extent, height);
+            p.length_m += length - air_length;
+            p.time_s += n_air_ * (length - air_length) / speed_of_light;
+            offset = r_;
+            grazing_air_extent = extent;
+        }
+    }
     // The root leaves a residual in distance; along a family dT/dr = ξ/c, so correct to first order.
     // A larger residual means that no double ξ resolves the path: a ray grazing the surface in
     // the air, where r changes by more than that between neighbouring values of ξ.
@@ -708,6 +850,11 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
     const double theta_source = upward_zenith(n_source, xi), theta_receiver = upward_zenith(n_receiver, xi);
     p.launch_zenith_rad = launch_up ? theta_source : pi - theta_source;
     p.arrival_zenith_rad = arrival_up ? theta_receiver : pi - theta_receiver;
+    if (grazing_air_extent) {
+        const double air_zenith = std::atan2(*grazing_air_extent, std::max(source_.z, receiver_.z));
+        if (source_.z > 0.0) p.launch_zenith_rad = pi - air_zenith;
+        else p.arrival_zenith_rad = air_zenith;
+    }
 
     // Spreading: L_eff² = n0²·(r/ξ)·|∂r/∂ξ|·|cos θ0 cos θr| (Červený 2001 with ∂ξ/∂θ0 = n0 cos θ0);
     // r/ξ → ∂r/∂ξ for a vertical path.
@@ -737,6 +884,39 @@ void PathFinder::add_path(const Family& family, double xi, bool refracted) {
 }
 
 }  // namespace
+
+bool uses_stratified_paths(const RaySolver& solver, const Point& source, const Point& receiver) {
+    if (source.z > 0.0 || receiver.z > 0.0) return false;
+    if (solver.name() == "stratified") return true;
+    const IndexProfile& index = *solver.model().index;
+    // Exponential and constant profiles have no inversion. The stratified analysis cuts an
+    // exponential into cells of half a scale depth down to 10 km: below a scale depth of 1 m (no
+    // firn has one; model files accept 0.01 m) that is too many cells, and the closed form keeps them.
+    const auto* exponential = dynamic_cast<const ExponentialProfile*>(&index);
+    if (exponential && exponential->scale_depth_m() < 1.0) return false;
+    // Equal depths: the refracted path turns within r²·|dn/dz|/(8n) of the ends, so close that for
+    // short pairs (r below a metre or so) n − ξ at the ends is lost to rounding in ξ.
+    if (source.z == receiver.z) return true;
+    if (!exponential && index.kind() != "constant") {
+        const StratifiedProfile& profile = solver.stratified_profile();
+        for (const StratifiedProfile::Run& run : profile.runs())
+            if (run.direction < 0) return true;
+    }
+    // The near-n_deep limit: how much n still grows below the shallower end, exactly for the
+    // exponential (B·e^{z/z0}), else down to the deepest depth a model may have, with a gradient
+    // that is not zero where that difference is lost to rounding.
+    const double z_high = std::max(source.z, receiver.z), n_high = index.index(z_high);
+    double rise = 0.0;
+    bool growing = false;
+    if (exponential) {
+        rise = (exponential->n_deep() - exponential->n_surface()) * std::exp(z_high / exponential->scale_depth_m());
+        growing = rise > 0.0;
+    } else {
+        rise = index.index(-model_limits::deepest_depth_m) - n_high;
+        growing = rise > 0.0 || index.gradient(z_high) != 0.0;
+    }
+    return growing && rise < near_deep_limit * n_high;
+}
 
 std::vector<ConnectedPath> find_paths(const RaySolver& solver, const Point& source, const Point& receiver,
                                       const PathOptions& options) {

@@ -247,11 +247,30 @@ private:
         double fa = std::isfinite(a.f) ? a.f : distance_ + 1.0, fb = std::isfinite(b.f) ? b.f : distance_ + 1.0;
         if (fa == 0.0) return a.v;
         if (fb == 0.0) return b.v;
+        double va = a.v, vb = b.v;
+        // A root next to v = 0 can lie many decades below the first sample (equal depths in deep
+        // ice: n − ξ ~ 1e-19 where X = R, X ∝ v there): close in on it geometrically first, which
+        // keeps TOMS748 within its iterations.
+        if (va == 0.0) {
+            for (int k = 0; k < 120; ++k) {
+                const double vm = 0.25 * vb;
+                if (!(vm > 0.0)) break;
+                const double fm = f(vm);
+                if (fm == 0.0) return vm;
+                if ((fm < 0.0) == (fa < 0.0)) {
+                    va = vm;
+                    fa = fm;
+                    break;
+                }
+                vb = vm;
+                fb = fm;
+            }
+        }
         std::uintmax_t iterations = 100;
         auto tolerance = [](double lo, double hi) {
             return std::abs(hi - lo) <= 2.0 * std::numeric_limits<double>::epsilon() * std::max(std::abs(lo), std::abs(hi));
         };
-        const auto bracket = boost::math::tools::toms748_solve(f, a.v, b.v, fa, fb, tolerance, iterations);
+        const auto bracket = boost::math::tools::toms748_solve(f, va, vb, fa, fb, tolerance, iterations);
         return std::abs(f(bracket.first)) <= std::abs(f(bracket.second)) ? bracket.first : bracket.second;
     }
 
@@ -322,6 +341,35 @@ bool family_is_degenerate(const PathFamily& family, const AccessibleInterval& in
     return at_fixed_end(first_upper, z_source) || at_fixed_end(last_upper, z_receiver);
 }
 
+// |cos θ| at z for a ray level, from the level's n − ξ (no cancellation near horizontal).
+double cosine_at(const StratifiedProfile& profile, const RayLevel& level, double z) {
+    const double n = profile.index(z), g = std::max(0.0, profile.gap(level, z));
+    return std::sqrt(g * (n + level.ray_parameter)) / n;
+}
+
+// |∂X/∂ξ|·|cos θ0 cos θr|. Where the path is horizontal at an end (n = ξ there to the last bit) ∂X/∂ξ
+// is infinite and the cosine zero, while the product has a finite limit (1/|dn/dz| per leg
+// touching that end, times the other cosine): take it on the same family a little below ξ, where
+// the error grows like the angle from horizontal (√(2·1e-13) ≈ 5e-7 relative at the first try).
+double derivative_cosines(const StratifiedProfile& profile, const RayLevel& level, const PathFamily& family,
+                          double distance_derivative, double z_source, double z_receiver) {
+    const double direct = std::abs(distance_derivative) * cosine_at(profile, level, z_source) *
+                          cosine_at(profile, level, z_receiver);
+    if (std::isfinite(direct)) return direct;
+    const double xi = level.ray_parameter;
+    for (const double relative : {1e-13, 1e-11, 1e-9}) {
+        const RayLevel nearby = level.anchored
+                                    ? RayLevel::anchored_at(profile, level.anchor_z, level.offset + relative * xi)
+                                    : RayLevel::plain(xi * (1.0 - relative));
+        const auto legs = family_legs(profile, nearby, family, z_source, z_receiver, false);
+        if (!legs) continue;
+        const double product = std::abs(legs->total.distance_derivative) * cosine_at(profile, nearby, z_source) *
+                               cosine_at(profile, nearby, z_receiver);
+        if (std::isfinite(product)) return product;
+    }
+    return 0.0;
+}
+
 StratifiedPath make_path(const StratifiedProfile& profile, const RayLevel& level, const PathFamily& family,
                          const FamilyLegs& legs, double z_source, double z_receiver, double distance) {
     StratifiedPath path;
@@ -338,6 +386,8 @@ StratifiedPath make_path(const StratifiedProfile& profile, const RayLevel& level
         const double n = profile.index(z), g = std::max(0.0, profile.gap(level, z));
         return std::atan2(xi, std::sqrt(g * (n + xi)));
     };
+    path.derivative_cosines = derivative_cosines(profile, level, family, legs.total.distance_derivative, z_source,
+                                                 z_receiver);
     const bool launch_up = family.ends == 0 ? z_receiver > z_source : family.starts_upward;
     const bool arrive_up = family.ends == 0 ? launch_up : !is_upper_end(family, family.ends - 1);
     path.launch_zenith_rad = launch_up ? zenith_up(z_source) : pi - zenith_up(z_source);
@@ -448,13 +498,17 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
 
     const double distance = horizontal_distance_m;
     std::vector<StratifiedPath> paths;
-    // Equal depths where n is exactly constant around them: the horizontal straight line.
+    // Equal depths where n is constant around them: the horizontal straight line.
     if (z_source == z_receiver) {
         const std::size_t cell = profile.cell_at(z_source);
         double n, dn, d2n;
         profile.evaluate(cell, z_source, n, dn, d2n);
-        if (dn == 0.0 && d2n == 0.0 && profile.index_difference(z_source + 1e-3, z_source) == 0.0 &&
-            profile.index_difference(std::max(z_source - 1e-3, floor), z_source) == 0.0) {
+        // Constant to the last bit over the pair (deep ice of a smooth profile, where dn/dz ~ 1e-25
+        // and the refracted path differs from the straight line by nothing a double holds).
+        const double flat = 1e-15 * n, span = std::max(distance, 1.0);
+        if (std::abs(dn) * span <= flat && std::abs(d2n) * span * span <= flat &&
+            std::abs(profile.index_difference(z_source + 1e-3, z_source)) <= flat &&
+            std::abs(profile.index_difference(std::max(z_source - 1e-3, floor), z_source)) <= flat) {
             StratifiedPath path;
             path.family = "direct";
             path.ray_parameter = n;
@@ -462,6 +516,7 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
             path.length_m = distance;
             path.launch_zenith_rad = path.arrival_zenith_rad = pi / 2.0;
             path.distance_derivative = infinity;
+            path.derivative_cosines = distance / n;  // the homogeneous limit: L_eff = n·√((R/ξ)·R/n) = R
             if (options.attenuation) path.attenuation_exponent = distance / options.attenuation->length_m(z_source);
             paths.push_back(path);
         }
@@ -486,8 +541,11 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
                 const auto legs =
                     family_legs(profile, level, family, z_source, z_receiver, true, options.attenuation.get());
                 if (!legs || !std::isfinite(legs->total.optical_path_m)) continue;
-                // A jump of X across R (ξ not resolved by a double there), not a root.
-                if (std::abs(legs->total.distance_m - distance) > 1e-6 * (1.0 + distance)) continue;
+                // A jump of X across R (ξ not resolved by a double there), not a root. The bound
+                // leaves room for rays that turn within micrometres of an end in deep ice, where the
+                // turning depth itself is a double (R then misses by up to ~2e-6 relative; the
+                // time is corrected to first order below, the length is not).
+                if (std::abs(legs->total.distance_m - distance) > stratified_root_residual * (1.0 + distance)) continue;
                 // The family's kinds of ends must be those of the range (a root on its edge may see the next).
                 if (family_is_degenerate(family, legs->interval, z_source, z_receiver, options.bottom_paths)) continue;
                 paths.push_back(make_path(profile, level, family, *legs, z_source, z_receiver, distance));
@@ -507,3 +565,4 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
 }
 
 }  // namespace firnray
+

@@ -68,6 +68,10 @@ struct StratifiedPath {
     double launch_zenith_rad = 0.0;   // direction of travel at the source: 0 up, π/2 horizontal, π down
     double arrival_zenith_rad = 0.0;  // at the receiver
     double distance_derivative = 0.0; // ∂X/∂ξ along the family; infinite where the path is horizontal at an end
+    // |∂X/∂ξ|·|cos θ0·cos θr|, what the spreading needs (paths/amplitude.hpp, RayTube): finite
+    // where the path is horizontal at an end too (the limit, taken on a ray a little less
+    // horizontal); 0 where even that fails (then counted as a caustic).
+    double derivative_cosines = 0.0;
     double attenuation_exponent = 0.0; // Σ ∫ ds/L_α (0 without an attenuation profile)
     std::vector<PathTurn> turns;
 };
@@ -82,6 +86,10 @@ struct StratifiedPathOptions {
     // The field attenuation to integrate along each path (null: none).
     std::shared_ptr<const AttenuationProfile> attenuation;
 };
+
+// The largest relative miss |X − R| / (1 + R) of a path found: beyond it a sign change of X − R is
+// a jump (ξ not resolved by a double), not a root.
+inline constexpr double stratified_root_residual = 1e-5;
 
 // Every path from z_source to z_receiver (both in the ice, z <= 0, not below the floor) whose ends
 // are horizontal_distance_m apart, sorted by time. Empty when there is none (the shadow zone).

@@ -9,6 +9,8 @@
 #include <fmt/format.h>
 
 #include "core/errors.hpp"
+#include "model/model_limits.hpp"
+#include "solver/stratified_intervals.hpp"
 
 namespace firnray {
 
@@ -64,6 +66,17 @@ LegDistance RaySolver::distance_to_turning(double ray_parameter, double z_start)
         out.derivative =
             (-3.0 * out.distance_m + 4.0 * distance_at(ray_parameter + h) - distance_at(ray_parameter + 2.0 * h)) / (2.0 * h);
     return out;
+}
+
+std::shared_ptr<const StratifiedProfile> make_stratified_profile(const FirnModel& model) {
+    std::optional<double> bottom;
+    if (model.bottom) bottom = model.bottom->z_m;
+    return std::make_shared<const StratifiedProfile>(model.index, bottom, model_limits::deepest_depth_m);
+}
+
+const StratifiedProfile& RaySolver::stratified_profile() const {
+    std::call_once(stratified_once_, [this] { stratified_ = make_stratified_profile(*model_); });
+    return *stratified_;
 }
 
 }  // namespace firnray

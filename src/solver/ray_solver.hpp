@@ -6,6 +6,7 @@
 #pragma once
 
 #include <memory>
+#include <mutex>
 #include <optional>
 #include <span>
 #include <string>
@@ -13,6 +14,8 @@
 #include "model/firn_model.hpp"
 
 namespace firnray {
+
+class StratifiedProfile;
 
 // A ray leg that is monotone in z between z_a and z_b (both <= 0). Either end may be the
 // turning point of the ray (n = ξ there); the leg is the same whichever way it is travelled.
@@ -66,9 +69,23 @@ public:
     // turning_z, segment and central differences; the closed form overrides it analytically.
     virtual LegDistance distance_to_turning(double ray_parameter, double z_start) const;
 
+    // The model's profile as the stratified path finder sees it (solver/stratified_intervals.hpp),
+    // down to the model's bottom or to model_limits' deepest depth: find_paths hands it the pairs
+    // this solver's legs cannot resolve (find_paths.hpp). Built on first use, once, whichever
+    // thread asks first; the stratified solver returns its own.
+    virtual const StratifiedProfile& stratified_profile() const;
+
 protected:
     explicit RaySolver(std::shared_ptr<const FirnModel> model) : model_(std::move(model)) {}
     std::shared_ptr<const FirnModel> model_;
+
+private:
+    mutable std::once_flag stratified_once_;
+    mutable std::shared_ptr<const StratifiedProfile> stratified_;
 };
+
+// The stratified analysis of a model's profile as every solver builds it: down to the bottom, or
+// to model_limits' deepest depth when the model has none.
+std::shared_ptr<const StratifiedProfile> make_stratified_profile(const FirnModel& model);
 
 }  // namespace firnray

@@ -16,11 +16,12 @@ namespace firnray {
 
 class StratifiedSolver final : public RaySolver {
 public:
-    // Analyses the model's profile once (cells, monotone runs), down to its bottom if it has one.
+    // Analyses the model's profile once (cells, monotone runs), down to its bottom if it has one
+    // (else to model_limits' deepest depth).
     explicit StratifiedSolver(std::shared_ptr<const FirnModel> model);
 
     std::string name() const override { return "stratified"; }
-    const StratifiedProfile& stratified_profile() const { return profile_; }
+    const StratifiedProfile& stratified_profile() const override { return *profile_; }
 
     // An end where |n − ξ| <= 1e-12·n is the turning point (distance_derivative NaN, as the
     // interface asks). Throws DataInputError for ξ < 0, ends above the surface or non-finite
@@ -34,7 +35,7 @@ private:
     struct Ends;
     Ends classify(double ray_parameter, double z_a, double z_b) const;
 
-    StratifiedProfile profile_;
+    std::shared_ptr<const StratifiedProfile> profile_;
 };
 
 }  // namespace firnray

@@ -47,7 +47,7 @@ std::string pairs_header() { return "name,source_x_m,source_z_m,receiver_x_m,rec
 
 // Every documented member of a path object, with its type.
 void check_path_members(const JsonValue& p) {
-    const std::set<std::string> kinds = {"direct", "refracted", "reflected", "transmitted", "bottom"};
+    const std::set<std::string> kinds = {"direct", "refracted", "reflected", "transmitted", "bottom", "refracted-below", "ducted"};
     CHECK(kinds.count(p["kind"].str()) == 1);
     CHECK(std::isfinite(p["time_ns"].num()));
     CHECK(p["launch_zenith_deg"].num() >= 0.0);
@@ -145,17 +145,22 @@ TEST_CASE("firnray connect --format text: the model named, units in the headings
     const auto lines = lines_of(r.out);
     const auto heading = std::find_if(lines.begin(), lines.end(), [](const auto& l) { return l.rfind("path  kind", 0) == 0; });
     REQUIRE(heading != lines.end());
-    // Each value ends where its heading ends (right-aligned columns, all but the kind); rows end
-    // before "  note".
+    // Each value ends where its heading ends (right-aligned columns, all but the kind, the note and
+    // the events); the events start where their heading starts.
     std::vector<std::size_t> ends;
-    const std::size_t kind_end = heading->find("kind") + 3;
-    for (std::size_t i = 0; i + 2 < heading->size(); ++i)
+    const std::size_t kind_end = heading->find("kind") + 3, note = heading->find("  note");
+    const std::size_t events = heading->find("events (z, x from the source, m)");
+    REQUIRE(note != std::string::npos);
+    REQUIRE(events != std::string::npos);
+    for (std::size_t i = 0; i + 2 < note + 2; ++i)
         if ((*heading)[i] != ' ' && (*heading)[i + 1] == ' ' && (*heading)[i + 2] == ' ' && i != kind_end)
             ends.push_back(i);
     CHECK(ends.size() == 14u);
     int rows = 0;
     for (auto line = heading + 1; line != lines.end() && !line->empty(); ++line, ++rows) {
-        CHECK(line->size() + 6 == heading->size());
+        REQUIRE(line->size() > events);
+        CHECK(line->substr(events - 2, 2) == "  ");
+        CHECK((*line)[events] != ' ');
         for (const std::size_t e : ends) {
             INFO(*line);
             CHECK((*line)[e] != ' ');
@@ -175,7 +180,7 @@ TEST_CASE("firnray connect --format csv: one row per path with named columns", "
         "path", "kind", "time_ns", "launch_zenith_deg", "arrival_zenith_deg", "length_m", "ray_parameter",
         "turning_z_m", "turning_points", "surface_bounces", "bottom_bounces", "horizontal_distance_m", "azimuth_deg",
         "fresnel_s_re", "fresnel_s_im", "fresnel_p_re", "fresnel_p_im", "flux_factor", "spreading_m", "attenuation",
-        "field_s_re", "field_s_im", "field_p_re", "field_p_im", "caustic"};
+        "field_s_re", "field_s_im", "field_p_re", "field_p_im", "caustic", "events"};
     CHECK(table.columns == expected);
     REQUIRE(table.rows.size() == 2u);
     for (const CsvRow& row : table.rows) table.check_row(row);
@@ -484,4 +489,94 @@ TEST_CASE("firnray connect: the README example works and --output writes the sam
     CHECK(help.exit_code == 0);
     CHECK(help.out.find("--pairs") != std::string::npos);
     CHECK(help.out.find("zenith") != std::string::npos);
+}
+
+TEST_CASE("firnray connect and delays on a table model with an inversion list ducted paths with their turns in text, "
+          "CSV and JSON (issue 9 behaviour), and --solver numeric refuses it with exit code 3",
+          "[cli][connect][delays]") {
+    const std::string dir = temp_folder("connect-ducts");
+    // A synthetic log: n falls from 25 m to 30 m depth under a dense layer, a duct around 25 m.
+    const std::string model = write_file(dir + "/lens.toml", R"TOML(name = "synthetic log with a lens (test)"
+[index]
+kind = "table"
+depth_m = [0, 5, 10, 15, 20, 25, 30, 35, 40, 50, 60, 80, 150]
+n = [1.35, 1.42, 1.48, 1.53, 1.57, 1.66, 1.60, 1.62, 1.65, 1.68, 1.71, 1.74, 1.78]
+[air]
+n = 1.0
+)TOML");
+    const std::vector<std::string> pair{"connect", "--model", model, "--source", "0,-24", "--receiver", "200,-27",
+                                        "--max-bounces", "6"};
+    auto with = [&](std::vector<std::string> extra) {
+        std::vector<std::string> args = pair;
+        args.insert(args.end(), extra.begin(), extra.end());
+        return run_firnray(args);
+    };
+    const CliResult text = with({});
+    INFO(text.out << text.err);
+    REQUIRE(text.exit_code == 0);
+    CHECK(text.out.find("solver:   stratified") != std::string::npos);
+    CHECK(text.out.find("ducted") != std::string::npos);
+    CHECK(text.out.find("turning z=-2") != std::string::npos);
+
+    const CliResult csv = with({"--format", "csv"});
+    REQUIRE(csv.exit_code == 0);
+    const CsvTable table = parse_csv(csv.out, "stdout");
+    int ducted = 0;
+    for (const CsvRow& row : table.rows) {
+        table.check_row(row);
+        if (table.text(row, table.column("kind")) != "ducted") continue;
+        ++ducted;
+        // Two or more turns, each with its depth: "turning z=... x=...;turning z=... x=...".
+        const std::string events = table.text(row, table.column("events"));
+        CHECK(std::count(events.begin(), events.end(), ';') + 1 == table.number(row, "turning_points"));
+        CHECK(table.number(row, "turning_points") >= 2);
+    }
+    CHECK(ducted >= 2);
+
+    const JsonValue json = run_json({"--model", model, "--source", "0,-24", "--receiver", "200,-27", "--max-bounces", "6"});
+    int json_ducted = 0;
+    for (const JsonValue& p : json["paths"].array) {
+        check_path_members(p);
+        if (p["kind"].str() != "ducted") continue;
+        ++json_ducted;
+        REQUIRE(p["events"].size() >= 2u);
+        // Two ducted paths differ in their turns: the depths are those of the duct's two ends.
+        const double first = p["events"][0]["z_m"].num(), second = p["events"][1]["z_m"].num();
+        CHECK(first != second);
+        CHECK(std::min(first, second) > -31.0);
+        CHECK(std::max(first, second) < -20.0);
+    }
+    CHECK(json_ducted == ducted);
+
+    const CliResult numeric = with({"--solver", "numeric"});
+    CHECK(numeric.exit_code == 3);
+    CHECK(numeric.err.find("synthetic log with a lens (test)") != std::string::npos);
+    CHECK(numeric.err.find("falls with depth from depth 25 m") != std::string::npos);
+
+    // delays on the same model: a one-string station in the duct, the kinds and turns in the table.
+    const std::string station = write_file(dir + "/station.toml", R"TOML(name = "duct station (test)"
+[[string]]
+name = "A"
+x_m = 0.0
+y_m = 0.0
+[[string.receiver]]
+name = "A1"
+depth_m = 24.0
+[[string.receiver]]
+name = "A2"
+depth_m = 26.0
+)TOML");
+    const std::string sources = write_file(dir + "/sources.csv", "name,x_m,z_m\nfar,200,-27\n");
+    const CliResult delays = run_firnray({"delays", "--model", model, "--station", station, "--sources", sources,
+                                          "--max-bounces", "6", "--quiet"});
+    INFO(delays.out << delays.err);
+    REQUIRE(delays.exit_code == 0);
+    const CsvTable delay_table = parse_csv(delays.out, "stdout");
+    int delay_ducted = 0;
+    for (const CsvRow& row : delay_table.rows)
+        if (delay_table.text(row, delay_table.column("kind")) == "ducted") {
+            ++delay_ducted;
+            CHECK(delay_table.text(row, delay_table.column("events")).find("turning z=") != std::string::npos);
+        }
+    CHECK(delay_ducted >= 2);
 }

@@ -66,7 +66,7 @@ TEST_CASE("delay CSV: a failed channel gets an error row naming its receiver, th
     for (const bool derivatives : {false, true}) {
         const std::string text = delay_table_csv(c.sources, c.delays, c.receivers, options, derivatives);
         const CsvTable table = parse_csv(text, "delays.csv");
-        const std::size_t columns = derivatives ? 15 : 12;
+        const std::size_t columns = derivatives ? 16 : 13;  // with the events column
         REQUIRE(table.columns.size() == columns);
         const std::size_t source = table.column("name"), receiver = table.column("receiver"),
                           kind = table.column("kind"), time = table.column("time_ns"), error = table.column("error");

@@ -149,7 +149,7 @@ TEST_CASE("firnray delays: a source at one receiver's position fails that channe
     CHECK(r.err.find("1 of 40 channels failed") != std::string::npos);
     CHECK(r.err.find("sources failed") == std::string::npos);  // no source failed as a whole
     const std::string text = test::read_file(dir + "/delays.csv");
-    CHECK(text.find("at-A1,2,A1,,,,,,,,,receiver 'A1': ") != std::string::npos);
+    CHECK(text.find("at-A1,2,A1,,,,,,,,,,receiver 'A1': ") != std::string::npos);  // path .. arrival, events empty
     CHECK(text.find("at-A1,2,A2,1,") != std::string::npos);  // the other channels are computed
     CHECK(text.find("near,3,A1,1,") != std::string::npos);
     // JSON: the same count and exit code, the failed channel with its error.

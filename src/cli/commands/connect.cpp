@@ -99,8 +99,9 @@ void add_connect_command(CLI::App& app, CommandSlot& slot) {
         ->type_name("FILE.csv");
     add_solver_option(cmd, args->solver);
     cmd->add_option("--max-bounces", args->max_bounces,
-                    "most turns back at the surface, a turning point or the bottom per path (default 1: direct, "
-                    "refracted or reflected, and one bottom reflection when the model has a bottom)")
+                    "most turns back per path: every turning point, surface reflection and bottom reflection "
+                    "counts one (default 1: direct, refracted or reflected, turning below, and one bottom "
+                    "reflection when the model has a bottom; ducted paths need 2 or more)")
         ->check(CLI::Range(0, 32));
     cmd->add_option("--format", args->format, "text (a table for people), csv (one row per path) or json")
         ->capture_default_str()
@@ -114,9 +115,19 @@ angles of the direction of travel (0 = up, 90 = horizontal, 180 = down); times i
 
 Paths are sorted by arrival time. Their kinds: direct (monotone in depth), refracted (turns below
 the surface), reflected (off the surface), transmitted (through the surface: one end in the air),
-bottom (off the model's bottom). Each has its time (ns), launch and arrival zenith angles (deg),
-arc length (m), ray parameter n sin(zenith), turning z (m), bounces, and amplitude factors: the
-Fresnel factors for s and p, the spreading distance L_eff (m) and the attenuation field factor.
+bottom (off the model's bottom), refracted-below (turns below both ends, where n falls with depth
+under them), ducted (turns two or more times in a duct, never at the bottom). Each has its time
+(ns), launch and arrival zenith angles (deg), arc length (m), ray parameter n sin(zenith), first
+turning z (m), bounces, its events (every turn, reflection and surface crossing with its z and
+offset from the source: what tells two ducted paths apart), and amplitude factors: the Fresnel
+factors for s and p, the spreading distance L_eff (m) and the attenuation field factor.
+
+Solvers (--solver): auto is the closed form on exponential and constant profiles and the
+stratified quadrature on every other; numeric integrates the ray equations (a cross-check; it
+refuses a model whose index falls with depth). Whatever the solver, a pair with both ends in the
+ice goes through the stratified path finder when both ends are at one depth, when the model's
+index falls with depth somewhere, or
+when n_deep - n at the shallower end is below 1e-6 n (deep ice). See docs/connect.md.
 In 3-D (X,Y,Z) the horizontal distance is used and the azimuth (from +x toward +y) reported.
 No path at all means the receiver is in the shadow zone: "paths": [] in JSON, exit code 0.
 

@@ -207,7 +207,8 @@ void add_delays_command(CLI::App& app, CommandSlot& slot) {
     cmd->add_option("--reference", args->reference, "reference channel for the differences (default: the first receiver)")
         ->type_name("NAME");
     cmd->add_flag("--derivatives", args->derivatives, "add dT/dx, dT/dy, dT/dz of each arrival with respect to the source position (ns/m)");
-    cmd->add_option("--max-bounces", args->max_bounces, "most surface/bottom bounces per path (default 1)")->check(CLI::Range(0, 32));
+    cmd->add_option("--max-bounces", args->max_bounces, "most turns back per path: every turning point, surface reflection and bottom reflection counts one "
+                    "(default 1; ducted paths need 2 or more)")->check(CLI::Range(0, 32));
     add_solver_option(cmd, args->solver);
     cmd->add_option("--format", args->format, "csv (long format: one row per source, receiver and path) or json")
         ->capture_default_str()
