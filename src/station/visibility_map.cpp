@@ -135,6 +135,28 @@ double station_boundary(std::span<const Receiver> receivers, std::span<const std
     return boundary;
 }
 
+namespace {
+
+double analysis_depth_for(double deepest_m) {
+    return std::max(StratifiedProfile::default_analysis_depth_m, deepest_m + 100.0);
+}
+
+std::optional<double> bottom_of(const FirnModel& model) {
+    if (model.bottom) return model.bottom->z_m;
+    return std::nullopt;
+}
+
+bool has_inversions(const StratifiedProfile& profile) {
+    return !profile.local_minima_z().empty() || !profile.inversions().empty();
+}
+
+}  // namespace
+
+bool needs_stratified_table(const FirnModel& model, double deepest_m, bool bottom_paths) {
+    if ((model.bottom && bottom_paths) || deepest_m > deep_table_limit_m) return true;
+    return has_inversions(StratifiedProfile(model.index, bottom_of(model), analysis_depth_for(deepest_m)));
+}
+
 VisibilityMap compute_visibility_map(const RaySolver& solver, std::span<const Receiver> receivers, const MapGrid& grid,
                                      const VisibilityOptions& options) {
     grid.validate();
@@ -169,23 +191,19 @@ VisibilityMap compute_visibility_map(const RaySolver& solver, std::span<const Re
     const FirnModel& model = solver.model();
     double deepest = grid.depth_max_m;
     for (const Receiver& r : receivers) deepest = std::max(deepest, -r.z_m);
-    const double analysis_depth =
-        std::max(StratifiedProfile::default_analysis_depth_m, deepest + 100.0);
-    std::optional<double> bottom_z;
-    if (model.bottom) bottom_z = model.bottom->z_m;
-    auto profile = std::make_unique<StratifiedProfile>(model.index, bottom_z, analysis_depth);
-    const bool has_inversions = !profile->local_minima_z().empty() || !profile->inversions().empty();
+    auto profile = std::make_unique<StratifiedProfile>(model.index, bottom_of(model), analysis_depth_for(deepest));
+    const bool inversions = has_inversions(*profile);
     const bool bottom_wanted = model.bottom && options.bottom_paths;
     bool stratified = options.engine == VisibilityOptions::Engine::stratified;
     if (options.engine == VisibilityOptions::Engine::automatic)
-        stratified = has_inversions || bottom_wanted || deepest > deep_table_limit_m;
+        stratified = inversions || bottom_wanted || deepest > deep_table_limit_m;
     map.stratified = stratified;
     if (model.bottom && !options.bottom_paths)
         map.left_out.push_back("paths reflected at the bottom (left out by option)");
     if (stratified && (!profile->ducts().empty() || bottom_wanted))
         map.left_out.push_back(fmt::format(
             "paths with more than {} turns and reflections (--max-bounces {})", options.max_bounces, options.max_bounces));
-    if (!stratified && has_inversions)
+    if (!stratified && inversions)
         map.left_out.push_back("paths through the index inversions (the table for profiles growing with depth was used)");
 
     // One table per distinct receiver depth: receivers in a ring at one depth share it.

@@ -89,6 +89,11 @@ struct VisibilityMap {
 // that are nearly horizontal near n_deep; the stratified table resolves them (RayLevel).
 inline constexpr double deep_table_limit_m = 1000.0;
 
+// Whether compute_visibility_map's automatic engine uses the stratified table for this model:
+// n falls with depth somewhere, a bottom whose paths are wanted, or a depth (receiver or source,
+// m, positive) below deep_table_limit_m.
+bool needs_stratified_table(const FirnModel& model, double deepest_m, bool bottom_paths);
+
 // Receivers must lie in the ice. For one receiver, distances are measured from it; for several,
 // from the mean receiver position along the azimuth. The boundary of each depth row is exact: the
 // largest distance along the map line at which at least min_receivers receivers see the source,
