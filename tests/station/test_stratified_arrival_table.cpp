@@ -62,7 +62,7 @@ Comparison compare(const FirnModel& model, const StratifiedProfile& profile, dou
     const StratifiedArrivalTable table(model, profile, receiver_z, source_z, options);
     StratifiedPathOptions exact_options;
     exact_options.max_bounces = max_bounces;
-    exact_options.scan_samples = 64;
+    exact_options.scan_samples = 32;
     Comparison out;
     std::vector<MapArrival> found;
     for (std::size_t row = 0; row < source_z.size(); ++row)
@@ -130,9 +130,9 @@ TEST_CASE("stratified map table on a ducted n²-linear profile agrees cell by ce
     const auto model = duct_model();
     const StratifiedProfile profile(model->index);
     std::vector<double> source_z;
-    for (double d : spaced(0.0, 150.0, 24)) source_z.push_back(-d);
+    for (double d : spaced(0.0, 150.0, 12)) source_z.push_back(-d);
     for (const double receiver_z : {-40.0, -10.0, -100.0}) {
-        const Comparison c = compare(*model, profile, receiver_z, source_z, spaced(0.0, 800.0, 40), 3);
+        const Comparison c = compare(*model, profile, receiver_z, source_z, spaced(0.0, 800.0, 24), 3);
         INFO("receiver z " << receiver_z << ": " << c.cells << " cells, " << c.seen << " seen, " << c.grazing
                            << " grazing arrivals set apart");
         CHECK(c.seen > 0);
@@ -140,4 +140,141 @@ TEST_CASE("stratified map table on a ducted n²-linear profile agrees cell by ce
         CHECK(c.kind_mismatch == 0);
         CHECK(c.worst_first_time_ns < 0.01);
     }
+}
+
+TEST_CASE("stratified map table with a deep receiver on the exponential profile agrees cell by cell with "
+          "find_stratified_paths (two path finders on the same Snell integrals, common practice)",
+          "[station][stratified-map]") {
+    const FirnModel model = default_model();
+    const StratifiedProfile profile(model.index);
+    std::vector<double> source_z;
+    for (double d : spaced(1000.0, 2000.0, 12)) source_z.push_back(-d);
+    const Comparison c = compare(model, profile, -1500.0, source_z, spaced(0.0, 6000.0, 30), 1);
+    INFO(c.cells << " cells, " << c.seen << " seen");
+    CHECK(c.seen > 100);
+    CHECK(c.count_mismatch == 0);
+    CHECK(c.kind_mismatch == 0);
+    CHECK(c.worst_first_time_ns < 0.01);
+    // The same through the map: a deep receiver no longer fails.
+    const auto shared = std::make_shared<FirnModel>(model);
+    const StratifiedSolver solver(shared);
+    Receiver receiver;
+    receiver.name = "deep";
+    receiver.z_m = -1500.0;
+    MapGrid grid;
+    grid.distance_max_m = 3000.0, grid.distance_cells = 10;
+    grid.depth_min_m = 1000.0, grid.depth_max_m = 2000.0, grid.depth_cells = 5;
+    VisibilityOptions options;
+    const VisibilityMap map = compute_visibility_map(solver, std::span<const Receiver>(&receiver, 1), grid, options);
+    CHECK(map.stratified);
+    CHECK(map.left_out.empty());
+    for (double reach : map.boundary_m) CHECK(reach > 0.0);
+}
+
+TEST_CASE("stratified map table with a reflecting bottom agrees cell by cell with find_stratified_paths, and the "
+          "map shows positions seen only off the bottom (image-source geometry, common practice)",
+          "[station][stratified-map]") {
+    auto model = std::make_shared<FirnModel>(default_model());
+    model->bottom = Bottom{-300.0, 0.5};
+    const StratifiedProfile profile(model->index, model->bottom->z_m);
+    std::vector<double> source_z;
+    for (double d : spaced(0.0, 290.0, 15)) source_z.push_back(-d);
+    const Comparison c = compare(*model, profile, -60.0, source_z, spaced(0.0, 2000.0, 25), 3);
+    INFO(c.cells << " cells, " << c.seen << " seen");
+    CHECK(c.count_mismatch == 0);
+    CHECK(c.kind_mismatch == 0);
+    CHECK(c.worst_first_time_ns < 0.01);
+
+    const StratifiedSolver solver(model);
+    Receiver receiver;
+    receiver.name = "R";
+    receiver.z_m = -60.0;
+    MapGrid grid;
+    grid.distance_max_m = 2000.0, grid.distance_cells = 20;
+    grid.depth_max_m = 290.0, grid.depth_cells = 10;
+    VisibilityOptions options;
+    options.max_bounces = 1;
+    const VisibilityMap map = compute_visibility_map(solver, std::span<const Receiver>(&receiver, 1), grid, options);
+    CHECK(map.stratified);
+    REQUIRE(map.left_out.size() == 1);
+    CHECK(map.left_out[0].find("more than 1 turns") != std::string::npos);
+    int bottom_only = 0;
+    StratifiedPathOptions exact_options;
+    exact_options.max_bounces = 1;
+    for (int j = 0; j < grid.depth_cells; ++j)
+        for (int i = 0; i < grid.distance_cells; ++i) {
+            const MapCell& cell = map.at(j, i);
+            if (cell.kinds != kind_bottom) continue;
+            ++bottom_only;
+            for (const auto& path : find_stratified_paths(profile, -grid.depth_at(j), -60.0, grid.distance_at(i), exact_options))
+                CHECK(path.kind == StratifiedPathKind::bottom);
+        }
+    CHECK(bottom_only > 0);
+    // Without bottom paths the same cells are shadow, and the map says what it left out.
+    options.bottom_paths = false;
+    const VisibilityMap without = compute_visibility_map(solver, std::span<const Receiver>(&receiver, 1), grid, options);
+    CHECK_FALSE(without.stratified);
+    REQUIRE_FALSE(without.left_out.empty());
+    CHECK(without.left_out[0].find("bottom") != std::string::npos);
+    for (std::size_t c = 0; c < map.cells.size(); ++c)
+        if (map.cells[c].kinds == kind_bottom) CHECK(without.cells[c].receivers_seeing == 0);
+}
+
+TEST_CASE("station boundary: the largest distance where enough receivers see a source agrees with brute-force "
+          "sampling of find_stratified_paths along the map line (definition)",
+          "[station][stratified-map][boundary]") {
+    const auto model = duct_model();
+    const StratifiedSolver solver(model);
+    const StratifiedProfile& profile = solver.stratified_profile();
+    std::vector<Receiver> receivers(3);
+    receivers[0] = {"A", "", -40.0, 10.0, -30.0};
+    receivers[1] = {"B", "", 35.0, -20.0, -45.0};
+    receivers[2] = {"C", "", 5.0, 60.0, -10.0};
+    MapGrid grid;
+    grid.distance_max_m = 600.0, grid.distance_cells = 12;
+    grid.depth_min_m = 5.0, grid.depth_max_m = 65.0, grid.depth_cells = 3;
+    VisibilityOptions options;
+    options.min_receivers = 2;
+    options.max_bounces = 1;
+    options.azimuth_deg = 30.0;
+    options.threads = 2;
+    const VisibilityMap map = compute_visibility_map(solver, receivers, grid, options);
+    StratifiedPathOptions exact_options;
+    exact_options.max_bounces = 1;
+    const double ux = std::cos(30.0 * pi / 180.0), uy = std::sin(30.0 * pi / 180.0);
+    auto seeing = [&](double z, double d) {
+        int count = 0;
+        for (const Receiver& r : receivers) {
+            const double rho = std::hypot(map.centre_x_m + d * ux - r.x_m, map.centre_y_m + d * uy - r.y_m);
+            count += !find_stratified_paths(profile, z, r.z_m, rho, exact_options).empty();
+        }
+        return count;
+    };
+    int checked = 0;
+    for (int j = 0; j < grid.depth_cells; ++j) {
+        const double z = -grid.depth_at(j);
+        // Brute force: the last sample (every 4 m to 900 m) seen by two receivers, refined by bisection.
+        double last = -1.0;
+        for (double d = 0.0; d <= 900.0; d += 4.0)
+            if (seeing(z, d) >= 2) last = d;
+        const double boundary = map.boundary_m[j];
+        INFO("depth " << -z << ": map boundary " << boundary << ", brute force " << last);
+        if (last < 0.0) {
+            CHECK(std::isnan(boundary));
+            continue;
+        }
+        if (last >= 896.0) {
+            CHECK(boundary >= 896.0);
+            continue;
+        }
+        double lo = last, hi = last + 4.0;
+        for (int i = 0; i < 24; ++i) {
+            const double mid = 0.5 * (lo + hi);
+            if (seeing(z, mid) >= 2) lo = mid;
+            else hi = mid;
+        }
+        CHECK(boundary == Approx(lo).margin(1e-3));
+        ++checked;
+    }
+    CHECK(checked > 0);
 }
