@@ -22,6 +22,8 @@ namespace {
 constexpr double infinity = std::numeric_limits<double>::infinity();
 constexpr double not_a_number = std::numeric_limits<double>::quiet_NaN();
 constexpr int samples_per_range_minimum = 24;
+// Folds whose extremum lies less than this beyond the sampled one are not refined (see build_row).
+constexpr double fold_refinement_threshold_m = 1e-6;
 
 bool is_upper_end(const PathFamily& family, int j) { return family.starts_upward == (j % 2 == 0); }
 
@@ -285,16 +287,47 @@ double StratifiedArrivalTable::offset_from(double anchor_z, const Point& p) cons
 StratifiedArrivalTable::Point StratifiedArrivalTable::solve_between(const Row& row, int family, double anchor_z,
                                                                     double u_low, double u_high, double distance_m,
                                                                     bool increasing_in_u) const {
-    // Bisection in u = √(n(anchor) − ξ): X changes evenly in u next to a double root or a fold.
-    for (int i = 0; i < 200 && u_high - u_low > 1e-16 * std::max(1.0, u_high); ++i) {
-        const double mid = 0.5 * (u_low + u_high);
-        const Point p = exact_point(row, family, anchor_z, mid * mid);
-        const bool below = p.valid && p.distance < distance_m;
-        if (below == increasing_in_u) u_low = mid;
-        else u_high = mid;
+    // Regula falsi (Illinois) on X − R in u = √(n(anchor) − ξ), or in ln u when the bracket
+    // reaches the anchor itself (a divergent end, where X grows like ln(1/u)); points where X is
+    // not finite count as beyond R (they lie toward the divergent end).
+    const double u_closest = std::sqrt(64.0 * std::numeric_limits<double>::epsilon() * std::max(1.0, row.limit));
+    const bool logarithmic = u_low <= u_closest;
+    if (logarithmic) u_low = std::min(u_closest, 0.5 * u_high);
+    auto to_u = [&](double t) { return logarithmic ? std::exp(t) : t; };
+    const double orientation = increasing_in_u ? 1.0 : -1.0;
+    auto evaluate = [&](double t, Point& p) {
+        const double u = to_u(t);
+        p = exact_point(row, family, anchor_z, u * u);
+        if (!p.valid || !std::isfinite(p.distance)) return infinity;
+        return orientation * (p.distance - distance_m);
+    };
+    double lo = logarithmic ? std::log(u_low) : u_low, hi = logarithmic ? std::log(u_high) : u_high;
+    Point p_lo, p_hi, p;
+    double f_lo = evaluate(lo, p_lo), f_hi = evaluate(hi, p_hi);
+    if (!increasing_in_u) {  // orient the bracket so that f rises from lo to hi
+        std::swap(lo, hi), std::swap(f_lo, f_hi), std::swap(p_lo, p_hi);
     }
-    const double u = 0.5 * (u_low + u_high);
-    return exact_point(row, family, anchor_z, u * u);
+    if (f_lo >= 0.0) return f_lo == 0.0 ? p_lo : Point{};
+    if (!(f_hi >= 0.0)) return {};
+    const double tolerance = 1e-7 * (1.0 + distance_m);
+    int retained = 0;  // +1: lo kept twice in a row, −1: hi kept twice
+    for (int i = 0; i < 100; ++i) {
+        double t = std::isfinite(f_hi) ? (lo * f_hi - hi * f_lo) / (f_hi - f_lo) : 0.5 * (lo + hi);
+        if (!(t > std::min(lo, hi) && t < std::max(lo, hi))) t = 0.5 * (lo + hi);
+        const double f = evaluate(t, p);
+        if (std::abs(f) <= tolerance) return p;
+        if (f < 0.0) {
+            lo = t, f_lo = f, p_lo = p;
+            if (retained == -1 && std::isfinite(f_hi)) f_hi *= 0.5;
+            retained = -1;
+        } else {
+            hi = t, f_hi = f, p_hi = p;
+            if (retained == 1) f_lo *= 0.5;
+            retained = 1;
+        }
+        if (std::abs(hi - lo) <= 1e-15 * std::max(std::abs(lo), std::abs(hi))) break;
+    }
+    return std::abs(f_lo) <= std::abs(f_hi) ? p_lo : p_hi;
 }
 
 void StratifiedArrivalTable::build_row(std::size_t index) {
@@ -377,13 +410,23 @@ void StratifiedArrivalTable::build_row(std::size_t index) {
                     if (e - 1 < end_samples) fold.anchor_z = before.anchor_z;
                     const double u_a = u_of(offset_from(fold.anchor_z, before)),
                                  u_b = u_of(offset_from(fold.anchor_z, after));
+                    // The parabola through the three samples estimates how far the true extremum
+                    // lies beyond the sampled one; a fold that cannot reach a micrometre further is
+                    // left to the interpolation (refining it costs dozens of exact evaluations).
+                    const double curvature = 0.5 * (after.distance + before.distance - 2.0 * points[e].distance);
+                    const double slope = 0.5 * (after.distance - before.distance);
+                    const double excess = curvature != 0.0 ? std::abs(slope * slope / (4.0 * curvature)) : 0.0;
+                    if (!(excess > fold_refinement_threshold_m)) {
+                        p = run.last;
+                        continue;
+                    }
                     const double sign = fold.maximum ? -1.0 : 1.0;
                     auto objective = [&](double u) {
                         const Point q = exact_point(row, f, fold.anchor_z, u * u);
                         return q.valid && std::isfinite(q.distance) ? sign * q.distance : sign * fold.sampled_m;
                     };
                     const auto [u_best, value] =
-                        brent_minimum("the fold of a ray family", objective, std::min(u_a, u_b), std::max(u_a, u_b), 52);
+                        brent_minimum("the fold of a ray family", objective, std::min(u_a, u_b), std::max(u_a, u_b), 30);
                     fold.u_extremum = u_best;
                     fold.exact_m = sign * value;
                     if (fold.maximum ? fold.exact_m > fold.sampled_m : fold.exact_m < fold.sampled_m) {

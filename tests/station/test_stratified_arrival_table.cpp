@@ -7,8 +7,6 @@
 
 #include <algorithm>
 #include <cmath>
-#include <cstdio>
-#include <cstdlib>
 #include <memory>
 #include <string>
 #include <vector>
@@ -89,11 +87,7 @@ Comparison compare(const FirnModel& model, const StratifiedProfile& profile, dou
                 ++out.count_mismatch;
                 UNSCOPED_INFO("row z " << source_z[row] << " distance " << distance << ": table " << found.size()
                                        << " paths, exact " << exact.size());
-                if (std::getenv("DEBUG_MAP")) {
-                    std::printf("zs %g zr %g R %g\n", source_z[row], receiver_z, distance);
-                    for (auto& a : found) std::printf("  T %d xi %.12g t %.9g\n", int(a.kind), a.ray_parameter, a.time_s*1e9);
-                    for (auto& p : exact) std::printf("  E %s %s xi %.12g t %.9g\n", to_string(p.kind), p.family.c_str(), p.ray_parameter, p.time_s*1e9);
-                }
+
                 continue;
             }
             if (exact.empty()) continue;
@@ -102,14 +96,7 @@ Comparison compare(const FirnModel& model, const StratifiedProfile& profile, dou
             for (const auto& p : exact) exact_kinds.push_back(static_cast<int>(arrival_kind_of(p.kind)));
             std::sort(table_kinds.begin(), table_kinds.end());
             std::sort(exact_kinds.begin(), exact_kinds.end());
-            if (table_kinds != exact_kinds) {
-                ++out.kind_mismatch;
-                if (std::getenv("DEBUG_MAP")) {
-                    std::printf("kinds zs %g zr %g R %g\n", source_z[row], receiver_z, distance);
-                    for (auto& a : found) std::printf("  T %d xi %.12g t %.9g\n", int(a.kind), a.ray_parameter, a.time_s*1e9);
-                    for (auto& p : exact) std::printf("  E %s %s xi %.12g t %.9g\n", to_string(p.kind), p.family.c_str(), p.ray_parameter, p.time_s*1e9);
-                }
-            }
+            if (table_kinds != exact_kinds) ++out.kind_mismatch;
             out.worst_first_time_ns =
                 std::max(out.worst_first_time_ns, std::abs(found[0].time_s - exact[0].time_s) * seconds_to_ns);
         }
