@@ -22,6 +22,8 @@ namespace {
 constexpr double infinity = std::numeric_limits<double>::infinity();
 constexpr double not_a_number = std::numeric_limits<double>::quiet_NaN();
 constexpr int samples_per_range_minimum = 24;
+// Extra samples per range between v = 0 and the first uniform step, halving v each time.
+constexpr int divergent_end_samples = 20;
 // Folds whose extremum lies less than this beyond the sampled one are not refined (see build_row).
 constexpr double fold_refinement_threshold_m = 1e-6;
 
@@ -137,8 +139,18 @@ StratifiedArrivalTable::StratifiedArrivalTable(const FirnModel& model, const Str
         range.first = samples_.size();
         range.count = static_cast<std::size_t>(per_range);
         const double span = range.high - range.low;
-        for (int k = 0; k < per_range; ++k) {
-            const double v = static_cast<double>(k) / (per_range - 1);
+        // Uniform in v, with geometric steps toward v = 0 and v = 1 (offsets down to ~1e-12 of the first
+        // step): where the anchor is a local minimum of n, X diverges like ln(1/v) there, and
+        // these samples carry the families out to distances far beyond any map.
+        std::vector<double> vs{0.0};
+        const double first_step = 1.0 / (per_range - 1);
+        for (int j = divergent_end_samples; j >= 1; --j) vs.push_back(first_step * std::ldexp(1.0, -j));
+        for (int k = 1; k + 1 < per_range; ++k) vs.push_back(static_cast<double>(k) / (per_range - 1));
+        // The same toward v = 1, where the range meets the next cut (a local minimum of n too).
+        for (int j = 1; j <= divergent_end_samples; ++j) vs.push_back(1.0 - first_step * std::ldexp(1.0, -j));
+        vs.push_back(1.0);
+        range.count = vs.size();
+        for (const double v : vs) {
             SampleLevel sample;
             sample.offset = span * v * v;
             sample.anchor_z = range.anchor_z;
@@ -360,8 +372,13 @@ void StratifiedArrivalTable::build_row(std::size_t index) {
         // At ξ = limit exactly the ray is horizontal at an end (or grazes a minimum of n between
         // them) and the accessible interval only touches that end: start a few rounding errors below.
         const double u_closest = std::sqrt(64.0 * std::numeric_limits<double>::epsilon() * limit);
-        for (std::size_t i = 0; i < end_samples; ++i)
-            row.end_u.push_back(std::max(u_closest, u_first * static_cast<double>(i) / end_samples));
+        // Uniform in u, and geometric below the first step: X is smooth in u next to a turning end
+        // and grows like ln(1/u) next to a minimum of n between the ends.
+        row.end_u.push_back(u_closest);
+        for (int k = static_cast<int>(end_geometric_samples); k >= 1; --k)
+            row.end_u.push_back(std::max(u_closest, u_first / end_uniform_samples * std::pow(4.0, -k)));
+        for (std::size_t i = 1; i < end_uniform_samples; ++i)
+            row.end_u.push_back(std::max(u_closest, u_first * static_cast<double>(i) / end_uniform_samples));
         for (int f = 0; f < families; ++f) {
             // Only families that exist next to the limit.
             if (!has_sample || !table_point(row, f, first).valid) continue;

@@ -80,7 +80,8 @@ private:
     // Positions along one range for one row: p < end_samples are the row's end points (from ξ =
     // the smallest n between the ends) when that limit falls in this range, p >= end_samples the
     // range's sample first + p − end_samples (+ the samples skipped above the limit there).
-    static constexpr std::size_t end_samples = 6;
+    static constexpr std::size_t end_uniform_samples = 6, end_geometric_samples = 5;
+    static constexpr std::size_t end_samples = 1 + end_geometric_samples + end_uniform_samples - 1;
     struct Run {
         int family = 0;
         std::size_t range = 0, first = 0, last = 0;
