@@ -42,6 +42,16 @@ void add_ray_parameters_option(CLI::App* command, int& count) {
         ->check(CLI::Range(16, 200000));
 }
 
+void add_map_path_options(CLI::App* command, int& max_bounces, bool& no_bottom) {
+    command->add_option("--max-bounces", max_bounces,
+                        "most turns back per path, as in connect: every turning point, surface reflection and bottom "
+                        "reflection counts one (default 4 here; ducted paths need 2 or more; only profiles with ducts "
+                        "or a bottom have such paths, and the outputs say when longer ones are left out)")
+        ->check(CLI::Range(0, 32));
+    command->add_flag("--no-bottom", no_bottom,
+                      "leave out paths reflected at the model's bottom (faster; the outputs say so)");
+}
+
 int RunOptions::thread_count() const {
     if (threads > 0) return threads;
     const unsigned cores = std::thread::hardware_concurrency();

@@ -44,6 +44,8 @@ std::shared_ptr<const FirnModel> load_model_or_default(const std::string& path);
 void add_solver_option(CLI::App* command, std::string& choice);
 // --ray-parameters N: samples per arrival table in maps and scans (accuracy).
 void add_ray_parameters_option(CLI::App* command, int& count);
+// --max-bounces (connect's meaning) and --no-bottom for the map commands (shadow, depths).
+void add_map_path_options(CLI::App* command, int& max_bounces, bool& no_bottom);
 
 // --threads N (default: all cores) and --quiet.
 struct RunOptions {

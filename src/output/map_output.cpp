@@ -31,6 +31,9 @@ std::string kinds_label(std::uint8_t kinds) {
     if (kinds & kind_direct) out += "direct";
     if (kinds & kind_refracted) out += out.empty() ? "refracted" : "+refracted";
     if (kinds & kind_reflected) out += out.empty() ? "reflected" : "+reflected";
+    if (kinds & kind_refracted_below) out += out.empty() ? "refracted-below" : "+refracted-below";
+    if (kinds & kind_ducted) out += out.empty() ? "ducted" : "+ducted";
+    if (kinds & kind_bottom) out += out.empty() ? "bottom" : "+bottom";
     return out.empty() ? "none" : out;
 }
 
@@ -59,13 +62,47 @@ bool has_amplitude(const MapCell& cell) { return cell.receivers_seeing > 0 && !s
 // Times between paths exist only where some cell has two paths.
 bool has_times_between(const DepthScanRow& row) { return row.two_path_volume_m3 > 0.0; }
 
+// What a map or scan left out on purpose (VisibilityMap::left_out), as a comment line before the
+// header, so that a reader of the table sees it; nothing when every path was computed.
+void put_left_out(output::TextSink& out, const std::vector<std::string>& left_out) {
+    if (left_out.empty()) return;
+    out.put("# left out: ");
+    for (std::size_t k = 0; k < left_out.size(); ++k) {
+        if (k > 0) out.put("; ");
+        out.put(left_out[k]);
+    }
+    out.end_row();
+}
+
 // Categories of the "kinds" colouring.
-enum KindCategory { cat_shadow, cat_too_few, cat_direct, cat_direct_refracted, cat_direct_reflected, cat_second_only, cat_three };
+enum KindCategory {
+    cat_shadow,
+    cat_too_few,
+    cat_direct,
+    cat_direct_refracted,
+    cat_direct_reflected,
+    cat_second_only,
+    cat_three,
+    cat_ducted_only,
+    cat_bottom_only,
+    cat_ducted_bottom_only,
+    cat_with_ducted_or_bottom,
+};
 
 int kind_category(const VisibilityMap& map, const MapCell& cell) {
     if (cell.receivers_seeing == 0) return cat_shadow;
     if (!map.visible(cell)) return cat_too_few;
-    switch (cell.kinds) {
+    // Positions that only ducted or only bottom-reflected paths reach: what ducts and the bottom
+    // add to a map.
+    constexpr std::uint8_t trapped = kind_ducted | kind_bottom;
+    if (cell.kinds == kind_ducted) return cat_ducted_only;
+    if (cell.kinds == kind_bottom) return cat_bottom_only;
+    if (cell.kinds == trapped) return cat_ducted_bottom_only;
+    if (cell.kinds & trapped) return cat_with_ducted_or_bottom;
+    // A path turning below its lower end is a refracted path for this colouring.
+    std::uint8_t kinds = cell.kinds;
+    if (kinds & kind_refracted_below) kinds = static_cast<std::uint8_t>((kinds & ~kind_refracted_below) | kind_refracted);
+    switch (kinds) {
         case kind_direct: return cat_direct;
         case kind_direct | kind_refracted: return cat_direct_refracted;
         case kind_direct | kind_reflected: return cat_direct_reflected;
@@ -87,6 +124,7 @@ plot::CellGrid cell_grid(const MapGrid& grid) {
 
 void write_visibility_grid_csv(std::ostream& stream, const VisibilityMap& map) {
     output::TextSink out(stream);
+    put_left_out(out, map.left_out);
     out.put("depth_m,distance_m,paths,kinds,receivers_seeing,visible,first_time_ns,time_between_ns,amplitude_per_m");
     out.end_row();
     for (int j = 0; j < map.grid.depth_cells; ++j) {
@@ -115,6 +153,7 @@ std::string visibility_grid_csv(const VisibilityMap& map) {
 
 void write_visibility_boundary_csv(std::ostream& stream, const VisibilityMap& map) {
     output::TextSink out(stream);
+    put_left_out(out, map.left_out);
     out.put("depth_m,max_visible_distance_m");
     out.end_row();
     for (int j = 0; j < map.grid.depth_cells; ++j) {
@@ -157,7 +196,11 @@ void write_visibility_map_svg(std::ostream& out, const VisibilityMap& map, const
                                            {"direct + refracted", "#2171b5"},
                                            {"direct + surface-reflected", "#41ab5d"},
                                            {"refracted or reflected only", "#fdae6b"},
-                                           {"three kinds", "#d94801"}};
+                                           {"three kinds", "#d94801"},
+                                           {"ducted paths only", "#7b3294"},
+                                           {"bottom-reflected paths only", "#8c510a"},
+                                           {"ducted and bottom-reflected paths only", "#c2a5cf"},
+                                           {"several kinds, with ducted or bottom-reflected", "#dfc27d"}};
         // List only the categories that occur, so the legend explains what is on the map.
         std::vector<bool> present(legend.size(), false);
         for (int c : categories) present[c] = true;
@@ -220,8 +263,10 @@ std::string visibility_map_svg(const VisibilityMap& map, const FirnModel& model,
 
 void write_depth_scan_csv(std::ostream& stream, const DepthScan& scan) {
     output::TextSink out(stream);
+    put_left_out(out, scan.left_out);
     out.put("receiver_depth_m,region_volume_m3,visible_volume_m3,visible_fraction,two_path_volume_m3,"
-            "median_time_between_ns,min_time_between_ns,max_time_between_ns,strong_volume_m3,best");
+            "median_time_between_ns,min_time_between_ns,max_time_between_ns,strong_volume_m3,best,"
+            "ducted_only_volume_m3,bottom_only_volume_m3");
     out.end_row();
     for (std::size_t k = 0; k < scan.rows.size(); ++k) {
         const DepthScanRow& row = scan.rows[k];
@@ -243,7 +288,10 @@ void write_depth_scan_csv(std::ostream& stream, const DepthScan& scan) {
         put_if(out, between, row.max_time_between_ns, "max_time_between_ns", 10);
         out.put(',');
         if (row.strong_volume_m3) put_number(out, *row.strong_volume_m3, "strong_volume_m3", 10);
-        fmt::format_to(fmt::appender(out.buffer()), ",{}", k == scan.best ? 1 : 0);
+        fmt::format_to(fmt::appender(out.buffer()), ",{},", k == scan.best ? 1 : 0);
+        put_number(out, row.ducted_only_volume_m3, "ducted_only_volume_m3", 10);
+        out.put(',');
+        put_number(out, row.bottom_only_volume_m3, "bottom_only_volume_m3", 10);
         out.end_row();
     }
     out.finish();
@@ -263,6 +311,10 @@ void write_depth_scan_json(std::ostream& out, const DepthScan& scan, const FirnM
     json.field("min_depth_m", region.depth_min_m);
     json.field("max_depth_m", region.depth_max_m);
     json.end_object();
+    json.field("max_bounces", scan.max_bounces);
+    json.key("left_out").begin_array();
+    for (const std::string& what : scan.left_out) json.value(what);
+    json.end_array();
     json.key("best_receiver_depth_m");
     if (scan.rows.empty()) json.null();
     else json.value(scan.rows[scan.best].receiver_depth_m);
@@ -278,6 +330,8 @@ void write_depth_scan_json(std::ostream& out, const DepthScan& scan, const FirnM
         json.field("min_time_between_ns", between(row.min_time_between_ns));
         json.field("max_time_between_ns", between(row.max_time_between_ns));
         json.field("strong_volume_m3", row.strong_volume_m3);
+        json.field("ducted_only_volume_m3", row.ducted_only_volume_m3);
+        json.field("bottom_only_volume_m3", row.bottom_only_volume_m3);
         json.end_object();
     }
     json.end_array();

@@ -27,6 +27,9 @@ const char* to_string(ArrivalKind kind) {
         case ArrivalKind::direct: return "direct";
         case ArrivalKind::refracted: return "refracted";
         case ArrivalKind::reflected: return "reflected";
+        case ArrivalKind::bottom: return "bottom";
+        case ArrivalKind::refracted_below: return "refracted-below";
+        case ArrivalKind::ducted: return "ducted";
     }
     return "?";
 }

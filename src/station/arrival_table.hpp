@@ -23,7 +23,9 @@
 
 namespace firnray {
 
-enum class ArrivalKind : unsigned char { direct = 0, refracted = 1, reflected = 2 };
+// The kinds of solver/path_families.hpp (StratifiedPathKind); the first three are all that a
+// profile growing with depth without a bottom has (the only ones ArrivalTable finds).
+enum class ArrivalKind : unsigned char { direct = 0, refracted = 1, reflected = 2, bottom = 3, refracted_below = 4, ducted = 5 };
 const char* to_string(ArrivalKind kind);
 
 struct MapArrival {

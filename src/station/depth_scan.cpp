@@ -25,12 +25,15 @@ DepthScan scan_receiver_depths(const RaySolver& solver, const DepthScanOptions& 
     options.region.validate();
 
     DepthScan scan;
+    scan.max_bounces = options.max_bounces;
     for (double depth : options.receiver_depths_m) {
         Receiver receiver;
         receiver.name = fmt::format("scan at {} m", depth);
         receiver.z_m = -depth;
         VisibilityOptions map_options;
         map_options.ray_parameters = options.ray_parameters;
+        map_options.max_bounces = options.max_bounces;
+        map_options.bottom_paths = options.bottom_paths;
         map_options.threads = options.threads;
         map_options.control.cancel = options.control.cancel;
         const VisibilityMap map = compute_visibility_map(solver, std::span<const Receiver>(&receiver, 1),
@@ -46,6 +49,8 @@ DepthScan scan_receiver_depths(const RaySolver& solver, const DepthScanOptions& 
                 const MapCell& cell = map.at(j, i);
                 if (!map.visible(cell)) continue;
                 row.visible_volume_m3 += volume;
+                if (cell.kinds == kind_ducted) row.ducted_only_volume_m3 += volume;
+                if (cell.kinds == kind_bottom) row.bottom_only_volume_m3 += volume;
                 if (cell.paths >= 2 && (cell.kinds & kind_direct)) {
                     row.two_path_volume_m3 += volume;
                     between.emplace_back(cell.time_between_ns, volume);
@@ -69,6 +74,9 @@ DepthScan scan_receiver_depths(const RaySolver& solver, const DepthScanOptions& 
             }
         }
         scan.rows.push_back(row);
+        for (const std::string& what : map.left_out)
+            if (std::find(scan.left_out.begin(), scan.left_out.end(), what) == scan.left_out.end())
+                scan.left_out.push_back(what);
         if (options.control.progress) options.control.progress(scan.rows.size(), options.receiver_depths_m.size());
     }
     for (std::size_t k = 1; k < scan.rows.size(); ++k) {

@@ -4,6 +4,7 @@
 #pragma once
 
 #include <optional>
+#include <string>
 #include <vector>
 
 #include "station/visibility_map.hpp"
@@ -15,6 +16,8 @@ struct DepthScanOptions {
     MapGrid region;                          // the source region: distance 0..R and a depth range
     std::optional<double> amplitude_threshold_per_m;  // also report the volume above this factor
     int ray_parameters = 1500;
+    int max_bounces = 4;       // as VisibilityOptions::max_bounces
+    bool bottom_paths = true;  // include paths reflected at the model's bottom
     int threads = 1;
     RunControl control;
 };
@@ -27,11 +30,15 @@ struct DepthScanRow {
     double median_time_between_ns = 0.0; // volume-weighted median over two-path cells (NaN if none)
     double min_time_between_ns = 0.0, max_time_between_ns = 0.0;
     std::optional<double> strong_volume_m3;  // cells whose amplitude factor exceeds the threshold
+    double ducted_only_volume_m3 = 0.0;  // visible cells seen only through ducted paths
+    double bottom_only_volume_m3 = 0.0;  // visible cells seen only through bottom-reflected paths
 };
 
 struct DepthScan {
     std::vector<DepthScanRow> rows;
     std::size_t best = 0;  // the row with the largest visible volume (the shallower one on a tie)
+    int max_bounces = 4;
+    std::vector<std::string> left_out;  // as VisibilityMap::left_out (the same for every depth)
 };
 
 // Volume of the cell's ring: π (r2² − r1²) · Δdepth; exact for the cylindrical integral.

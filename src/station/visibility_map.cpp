@@ -4,6 +4,7 @@
 #include <limits>
 #include <map>
 #include <memory>
+#include <optional>
 
 #include <fmt/format.h>
 
@@ -11,6 +12,8 @@
 #include "core/errors.hpp"
 #include "core/parallel.hpp"
 #include "station/arrival_table.hpp"
+#include "station/stratified_arrival_table.hpp"
+#include "solver/stratified_intervals.hpp"
 
 namespace firnray {
 
@@ -25,13 +28,133 @@ void MapGrid::validate() const {
     if (depth_cells < 1 || depth_cells > 20000) bad("the number of depth cells must be 1 to 20000", "depth");
 }
 
-static std::uint8_t flag_of(ArrivalKind kind) {
+namespace {
+
+std::uint8_t flag_of(ArrivalKind kind) {
     switch (kind) {
         case ArrivalKind::direct: return kind_direct;
         case ArrivalKind::refracted: return kind_refracted;
         case ArrivalKind::reflected: return kind_reflected;
+        case ArrivalKind::bottom: return kind_bottom;
+        case ArrivalKind::refracted_below: return kind_refracted_below;
+        case ArrivalKind::ducted: return kind_ducted;
     }
     return 0;
+}
+
+// One receiver depth's table, whichever engine made it.
+class RowTable {
+public:
+    virtual ~RowTable() = default;
+    virtual void arrivals(std::size_t row, double distance_m, std::vector<MapArrival>& out) const = 0;
+    virtual double max_reach_m(std::size_t row) const = 0;
+    // Sorted disjoint closed intervals of the distances at which the row's source is seen.
+    virtual std::vector<std::pair<double, double>> visible_distances(std::size_t row) const = 0;
+};
+
+class MonotoneRowTable final : public RowTable {
+public:
+    MonotoneRowTable(const RaySolver& solver, double receiver_z, std::vector<double> source_z,
+                     const ArrivalTableOptions& options)
+        : table_(solver, receiver_z, std::move(source_z), options) {}
+    void arrivals(std::size_t row, double distance_m, std::vector<MapArrival>& out) const override {
+        table_.arrivals(row, distance_m, out);
+    }
+    double max_reach_m(std::size_t row) const override { return table_.max_reach_m(row); }
+    // On a profile growing with depth the direct family starts at distance 0 (ξ = 0) and the
+    // families reach every distance up to the largest.
+    std::vector<std::pair<double, double>> visible_distances(std::size_t row) const override {
+        return {{0.0, table_.max_reach_m(row)}};
+    }
+
+private:
+    ArrivalTable table_;
+};
+
+class StratifiedRowTable final : public RowTable {
+public:
+    StratifiedRowTable(const FirnModel& model, const StratifiedProfile& profile, double receiver_z,
+                       std::vector<double> source_z, const StratifiedTableOptions& options)
+        : table_(model, profile, receiver_z, std::move(source_z), options) {}
+    void arrivals(std::size_t row, double distance_m, std::vector<MapArrival>& out) const override {
+        table_.arrivals(row, distance_m, out);
+    }
+    double max_reach_m(std::size_t row) const override { return table_.max_reach_m(row); }
+    std::vector<std::pair<double, double>> visible_distances(std::size_t row) const override {
+        return table_.visible_distances(row);
+    }
+
+private:
+    StratifiedArrivalTable table_;
+};
+
+bool seen_at(const std::vector<std::pair<double, double>>& visible, double distance) {
+    for (const auto& [low, high] : visible)
+        if (distance >= low && distance <= high) return true;
+    return false;
+}
+
+}  // namespace
+
+double station_boundary(std::span<const Receiver> receivers, std::span<const std::vector<std::pair<double, double>>> visible,
+                        int min_receivers, double centre_x_m, double centre_y_m, double azimuth_deg) {
+    const double azimuth = deg_to_rad(azimuth_deg);
+    const double ux = std::cos(azimuth), uy = std::sin(azimuth);
+    // Receiver k is at distance √((d − t_k)² + h_k²) from the point d along the line.
+    std::vector<double> along(receivers.size()), across(receivers.size());
+    std::vector<double> candidates{0.0};
+    for (std::size_t k = 0; k < receivers.size(); ++k) {
+        const double dx = receivers[k].x_m - centre_x_m, dy = receivers[k].y_m - centre_y_m;
+        along[k] = dx * ux + dy * uy;
+        across[k] = std::abs(-dx * uy + dy * ux);
+        for (const auto& [low, high] : visible[k])
+            for (const double edge : {low, high}) {
+                if (!std::isfinite(edge) || edge < across[k]) continue;
+                const double half = std::sqrt((edge - across[k]) * (edge + across[k]));
+                for (const double d : {along[k] - half, along[k] + half})
+                    if (d >= 0.0) candidates.push_back(d);
+            }
+    }
+    std::sort(candidates.begin(), candidates.end());
+    candidates.erase(std::unique(candidates.begin(), candidates.end()), candidates.end());
+    auto count_at = [&](double d) {
+        int seeing = 0;
+        for (std::size_t k = 0; k < receivers.size(); ++k)
+            seeing += seen_at(visible[k], std::hypot(d - along[k], across[k]));
+        return seeing;
+    };
+    double boundary = std::numeric_limits<double>::quiet_NaN();
+    for (std::size_t c = 0; c < candidates.size(); ++c) {
+        if (count_at(candidates[c]) >= min_receivers) boundary = candidates[c];
+        const bool last = c + 1 == candidates.size();
+        // Between two edges the count is constant: its value in the middle holds up to the next edge.
+        const double middle = last ? candidates[c] + 1.0 + candidates[c] : 0.5 * (candidates[c] + candidates[c + 1]);
+        if (count_at(middle) >= min_receivers)
+            boundary = last ? std::numeric_limits<double>::infinity() : candidates[c + 1];
+    }
+    return boundary;
+}
+
+namespace {
+
+double analysis_depth_for(double deepest_m) {
+    return std::max(StratifiedProfile::default_analysis_depth_m, deepest_m + 100.0);
+}
+
+std::optional<double> bottom_of(const FirnModel& model) {
+    if (model.bottom) return model.bottom->z_m;
+    return std::nullopt;
+}
+
+bool has_inversions(const StratifiedProfile& profile) {
+    return !profile.local_minima_z().empty() || !profile.inversions().empty();
+}
+
+}  // namespace
+
+bool needs_stratified_table(const FirnModel& model, double deepest_m, bool bottom_paths) {
+    if ((model.bottom && bottom_paths) || deepest_m > deep_table_limit_m) return true;
+    return has_inversions(StratifiedProfile(model.index, bottom_of(model), analysis_depth_for(deepest_m)));
 }
 
 VisibilityMap compute_visibility_map(const RaySolver& solver, std::span<const Receiver> receivers, const MapGrid& grid,
@@ -46,12 +169,16 @@ VisibilityMap compute_visibility_map(const RaySolver& solver, std::span<const Re
         throw DataInputError(fmt::format("min-receivers must be between 1 and the number of receivers ({})",
                                          receivers.size()),
                              {"", 0, "min-receivers"});
+    if (options.max_bounces < 0 || options.max_bounces > 64)
+        throw DataInputError(fmt::format("max-bounces must be between 0 and 64 (got {})", options.max_bounces),
+                             {"", 0, "max-bounces"});
 
     VisibilityMap map;
     map.grid = grid;
     map.receivers = static_cast<int>(receivers.size());
     map.min_receivers = options.min_receivers;
     map.azimuth_deg = options.azimuth_deg;
+    map.max_bounces = options.max_bounces;
     for (const Receiver& r : receivers) {
         map.centre_x_m += r.x_m / static_cast<double>(receivers.size());
         map.centre_y_m += r.y_m / static_cast<double>(receivers.size());
@@ -60,15 +187,45 @@ VisibilityMap compute_visibility_map(const RaySolver& solver, std::span<const Re
     std::vector<double> source_z(grid.depth_cells);
     for (int j = 0; j < grid.depth_cells; ++j) source_z[j] = -grid.depth_at(j);
 
+    // The engine: the fast table where it is exact, the stratified one otherwise.
+    const FirnModel& model = solver.model();
+    double deepest = grid.depth_max_m;
+    for (const Receiver& r : receivers) deepest = std::max(deepest, -r.z_m);
+    auto profile = std::make_unique<StratifiedProfile>(model.index, bottom_of(model), analysis_depth_for(deepest));
+    const bool inversions = has_inversions(*profile);
+    const bool bottom_wanted = model.bottom && options.bottom_paths;
+    bool stratified = options.engine == VisibilityOptions::Engine::stratified;
+    if (options.engine == VisibilityOptions::Engine::automatic)
+        stratified = inversions || bottom_wanted || deepest > deep_table_limit_m;
+    map.stratified = stratified;
+    if (model.bottom && !options.bottom_paths)
+        map.left_out.push_back("paths reflected at the bottom (left out by option)");
+    if (stratified && (!profile->ducts().empty() || bottom_wanted))
+        map.left_out.push_back(fmt::format(
+            "paths with more than {} turns and reflections (--max-bounces {})", options.max_bounces, options.max_bounces));
+    if (!stratified && inversions)
+        map.left_out.push_back("paths through the index inversions (the table for profiles growing with depth was used)");
+
     // One table per distinct receiver depth: receivers in a ring at one depth share it.
     ArrivalTableOptions table_options;
     table_options.ray_parameters = options.ray_parameters;
     table_options.threads = options.threads;
     table_options.control.cancel = options.control.cancel;
-    std::map<double, std::unique_ptr<ArrivalTable>> tables;
-    for (const Receiver& r : receivers)
-        if (!tables.count(r.z_m)) tables[r.z_m] = std::make_unique<ArrivalTable>(solver, r.z_m, source_z, table_options);
-    std::vector<const ArrivalTable*> table_of;
+    StratifiedTableOptions stratified_options;
+    stratified_options.ray_parameters = options.ray_parameters;
+    stratified_options.max_bounces = options.max_bounces;
+    stratified_options.bottom_paths = options.bottom_paths;
+    stratified_options.threads = options.threads;
+    stratified_options.control.cancel = options.control.cancel;
+    std::map<double, std::unique_ptr<RowTable>> tables;
+    for (const Receiver& r : receivers) {
+        if (tables.count(r.z_m)) continue;
+        if (stratified)
+            tables[r.z_m] = std::make_unique<StratifiedRowTable>(model, *profile, r.z_m, source_z, stratified_options);
+        else
+            tables[r.z_m] = std::make_unique<MonotoneRowTable>(solver, r.z_m, source_z, table_options);
+    }
+    std::vector<const RowTable*> table_of;
     for (const Receiver& r : receivers) table_of.push_back(tables.at(r.z_m).get());
 
     const double azimuth = deg_to_rad(options.azimuth_deg);
@@ -110,11 +267,10 @@ VisibilityMap compute_visibility_map(const RaySolver& solver, std::span<const Re
             map.boundary_m[j] = table_of[0]->max_reach_m(j);
             continue;
         }
-        for (int i = grid.distance_cells - 1; i >= 0; --i)
-            if (map.visible(map.at(j, i))) {
-                map.boundary_m[j] = grid.distance_at(i);
-                break;
-            }
+        std::vector<std::vector<std::pair<double, double>>> visible;
+        for (std::size_t k = 0; k < receivers.size(); ++k) visible.push_back(table_of[k]->visible_distances(j));
+        map.boundary_m[j] = station_boundary(receivers, visible, options.min_receivers, map.centre_x_m, map.centre_y_m,
+                                             options.azimuth_deg);
     }
     return map;
 }

@@ -6,6 +6,8 @@
 #include <cmath>
 #include <cstdint>
 #include <span>
+#include <string>
+#include <utility>
 #include <vector>
 
 #include "core/cancel.hpp"
@@ -30,8 +32,15 @@ struct MapGrid {
     void validate() const;  // throws DataInputError naming the bad field
 };
 
-// Path-kind flags of a cell.
-enum PathKindFlag : std::uint8_t { kind_direct = 1, kind_refracted = 2, kind_reflected = 4 };
+// Path-kind flags of a cell, one per ArrivalKind (StratifiedPathKind of solver/path_families.hpp).
+enum PathKindFlag : std::uint8_t {
+    kind_direct = 1,
+    kind_refracted = 2,
+    kind_reflected = 4,
+    kind_bottom = 8,
+    kind_refracted_below = 16,
+    kind_ducted = 32,
+};
 
 struct MapCell {
     std::uint8_t paths = 0;             // paths to the (first seeing) receiver
@@ -47,6 +56,14 @@ struct VisibilityOptions {
     int min_receivers = 1;          // a cell is visible when at least this many receivers see it
     double azimuth_deg = 0.0;       // direction of the map plane from the station centre (0 = +x, 90 = +y)
     int ray_parameters = 1500;      // samples per arrival table (see ArrivalTable)
+    // The most ends (turning points, surface and bottom reflections, each counting one) a path
+    // may meet: the meaning of connect's --max-bounces. Only profiles with ducts or a bottom have
+    // paths with more than one end.
+    int max_bounces = 4;
+    bool bottom_paths = true;       // include paths reflected at the model's bottom
+    // automatic: the fast table (ArrivalTable) where it is exact (a profile growing with depth, no
+    // bottom wanted, every depth above deep_table_limit_m), the stratified table otherwise.
+    enum class Engine { automatic, monotone, stratified } engine = Engine::automatic;
     int threads = 1;
     RunControl control;
 };
@@ -59,15 +76,37 @@ struct VisibilityMap {
     int min_receivers = 1;
     double centre_x_m = 0.0, centre_y_m = 0.0;  // the map's distance origin
     double azimuth_deg = 0.0;                   // direction of the map plane from the origin
+    bool stratified = false;                    // made with StratifiedArrivalTable (else ArrivalTable)
+    int max_bounces = 4;
+    // What was left out on purpose, one plain sentence each (empty: every path was computed).
+    std::vector<std::string> left_out;
 
     const MapCell& at(int row, int column) const { return cells[static_cast<std::size_t>(row) * grid.distance_cells + column]; }
     bool visible(const MapCell& cell) const { return cell.receivers_seeing >= min_receivers; }
 };
 
-// Receivers must lie in the ice. For one receiver, distances are measured from it and the
-// boundary is the exact largest reach of its arrival table; for several, distances are measured
-// from the mean receiver position along the azimuth and the boundary is read from the grid.
+// Below this depth (m) ArrivalTable's single integration down from the surface loses the rays
+// that are nearly horizontal near n_deep; the stratified table resolves them (RayLevel).
+inline constexpr double deep_table_limit_m = 1000.0;
+
+// Whether compute_visibility_map's automatic engine uses the stratified table for this model:
+// n falls with depth somewhere, a bottom whose paths are wanted, or a depth (receiver or source,
+// m, positive) below deep_table_limit_m.
+bool needs_stratified_table(const FirnModel& model, double deepest_m, bool bottom_paths);
+
+// Receivers must lie in the ice. For one receiver, distances are measured from it; for several,
+// from the mean receiver position along the azimuth. The boundary of each depth row is exact: the
+// largest distance along the map line at which at least min_receivers receivers see the source,
+// from each receiver's visible distances (its table's exact reach, and the gaps between ducts).
 VisibilityMap compute_visibility_map(const RaySolver& solver, std::span<const Receiver> receivers, const MapGrid& grid,
                                      const VisibilityOptions& options);
+
+// The largest distance d >= 0 along the line from (centre_x_m, centre_y_m) at azimuth_deg at
+// which at least min_receivers receivers see a source: receiver k sees it when its horizontal
+// distance lies in one of visible[k] (sorted disjoint closed intervals). Solves
+// |centre + d·u − receiver_k| = each interval edge, so the result is exact, not a grid cell.
+// NaN when no point qualifies, +inf when every far enough point does.
+double station_boundary(std::span<const Receiver> receivers, std::span<const std::vector<std::pair<double, double>>> visible,
+                        int min_receivers, double centre_x_m, double centre_y_m, double azimuth_deg);
 
 }  // namespace firnray

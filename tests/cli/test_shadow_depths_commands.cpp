@@ -2,6 +2,8 @@
 // SVGs rendered with rsvg-convert (librsvg, Debian package librsvg2-bin) to prove they parse.
 #include <catch2/catch.hpp>
 
+#include <algorithm>
+
 #include <cstdlib>
 #include <filesystem>
 #include <sstream>
@@ -98,11 +100,14 @@ TEST_CASE("firnray depths: one row per candidate depth, the best flagged once, a
     const auto rows = csv_rows(r.out);
     REQUIRE(rows.size() == 4);
     int best = 0;
+    const auto best_column = static_cast<std::size_t>(
+        std::find(rows[0].begin(), rows[0].end(), "best") - rows[0].begin());
+    REQUIRE(best_column < rows[0].size());
     for (std::size_t i = 1; i < rows.size(); ++i) {
         const double region = std::stod(rows[i][1]), visible = std::stod(rows[i][2]);
         CHECK(region == Approx(3.14159265358979 * 800.0 * 800.0 * 200.0).epsilon(1e-9));  // π R² H
         CHECK(visible <= region);
-        best += rows[i].back() == "1";
+        best += rows[i][best_column] == "1";
     }
     CHECK(best == 1);
     require_svg_renders(dir + "/depths.svg");
@@ -111,4 +116,62 @@ TEST_CASE("firnray depths: one row per candidate depth, the best flagged once, a
     CHECK(json.exit_code == 0);
     CHECK(json.out.find("\"best_receiver_depth_m\": 50") != std::string::npos);
     CHECK(run_firnray({"depths", "--depths", "-5"}).exit_code == 2);
+}
+
+TEST_CASE("firnray shadow: a deep receiver on the built-in model gives a map and a finite boundary (issue 9)",
+          "[cli][shadow]") {
+    const auto r = run_firnray({"shadow", "--receiver", "0,-1500", "--source-distance", "0:3000", "--source-depth",
+                                "1000:2000", "--distance-cells", "12", "--depth-cells", "6", "--quiet"});
+    INFO(r.err);
+    REQUIRE(r.exit_code == 0);
+    const auto rows = csv_rows(r.out);
+    REQUIRE(rows.size() == 1 + 12 * 6);
+    CHECK(rows[0][0] == "depth_m");  // nothing is left out on this model: no comment line
+    int visible = 0;
+    for (std::size_t i = 1; i < rows.size(); ++i) visible += rows[i][5] == "1";
+    CHECK(visible > 0);
+}
+
+TEST_CASE("firnray shadow and depths on a model with a bottom: bottom-reflected paths are in the map, and what "
+          "--max-bounces or --no-bottom leave out is said on a comment line and in --help",
+          "[cli][shadow][depths]") {
+    const std::string model = source_path("models/demo-site.toml");
+    const std::vector<std::string> small{"--model", model, "--receiver", "0,-60", "--source-distance", "0:1500",
+                                         "--source-depth", "0:300", "--distance-cells", "15", "--depth-cells", "6",
+                                         "--ray-parameters", "400", "--quiet"};
+    auto with = [&](std::vector<std::string> extra) {
+        std::vector<std::string> args{"shadow"};
+        args.insert(args.end(), small.begin(), small.end());
+        args.insert(args.end(), extra.begin(), extra.end());
+        return run_firnray(args);
+    };
+    const auto r = with({"--max-bounces", "1"});
+    INFO(r.err);
+    REQUIRE(r.exit_code == 0);
+    auto rows = csv_rows(r.out);
+    REQUIRE(rows.size() == 2 + 15 * 6);
+    CHECK(rows[0][0].find("# left out: paths with more than 1 turns and reflections (--max-bounces 1)") == 0);
+    int bottom = 0;
+    for (std::size_t i = 2; i < rows.size(); ++i) bottom += rows[i][3].find("bottom") != std::string::npos;
+    CHECK(bottom > 0);
+
+    const auto no_bottom = with({"--no-bottom"});
+    REQUIRE(no_bottom.exit_code == 0);
+    rows = csv_rows(no_bottom.out);
+    CHECK(rows[0][0].find("# left out: paths reflected at the bottom") == 0);
+    for (std::size_t i = 2; i < rows.size(); ++i) CHECK(rows[i][3].find("bottom") == std::string::npos);
+
+    const auto help = run_firnray({"shadow", "--help"});
+    CHECK(help.out.find("--max-bounces") != std::string::npos);
+    CHECK(help.out.find("--no-bottom") != std::string::npos);
+    CHECK(help.out.find("left out") != std::string::npos);
+
+    const auto scan = run_firnray({"depths", "--model", model, "--depths", "60", "--source-distance", "0:1500",
+                                   "--source-depth", "0:300", "--distance-cells", "15", "--depth-cells", "6",
+                                   "--ray-parameters", "400", "--max-bounces", "1", "--format", "json", "--quiet"});
+    INFO(scan.err);
+    REQUIRE(scan.exit_code == 0);
+    CHECK(scan.out.find("\"left_out\"") != std::string::npos);
+    CHECK(scan.out.find("\"bottom_only_volume_m3\"") != std::string::npos);
+    CHECK(scan.out.find("\"max_bounces\": 1") != std::string::npos);
 }

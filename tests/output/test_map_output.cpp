@@ -94,8 +94,8 @@ TEST_CASE("depth scan CSV and JSON: times between paths are absent where no cell
     scan.rows = {none, seen};
     scan.best = 1;
     const std::string csv = depth_scan_csv(scan);
-    CHECK(csv.find("\n10,1000,0,0,0,,,,,0\n") != std::string::npos);
-    CHECK(csv.find("\n40,1000,250,0.25,100,55.5,10,90,,1\n") != std::string::npos);
+    CHECK(csv.find("\n10,1000,0,0,0,,,,,0,0,0\n") != std::string::npos);
+    CHECK(csv.find("\n40,1000,250,0.25,100,55.5,10,90,,1,0,0\n") != std::string::npos);
     const FirnModel model = default_model();
     MapGrid region;
     const std::string json = depth_scan_json(scan, model, region);

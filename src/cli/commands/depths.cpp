@@ -22,6 +22,8 @@ struct DepthsArguments {
     double amplitude_threshold = 0.0;
     std::string solver = "auto", format = "csv", output = "-", plot_path;
     int ray_parameters = 1500;
+    int max_bounces = DepthScanOptions{}.max_bounces;
+    bool no_bottom = false;
     double memory_limit_mb = default_memory_limit_mb;
     RunOptions run;
 };
@@ -61,6 +63,8 @@ int run_depths(const DepthsArguments& args) {
     const auto solver = make_solver(model, parse_solver_choice(args.solver));
     if (args.amplitude_threshold > 0.0) options.amplitude_threshold_per_m = args.amplitude_threshold;
     options.ray_parameters = args.ray_parameters;
+    options.max_bounces = args.max_bounces;
+    options.bottom_paths = !args.no_bottom;
     options.threads = args.run.thread_count();
     options.control = make_run_control(args.run, "depth scan");
     const DepthScan scan = scan_receiver_depths(*solver, options);
@@ -104,6 +108,7 @@ void add_depths_command(CLI::App& app, CommandSlot& slot) {
         ->check(finite_positive());
     add_solver_option(cmd, args->solver);
     add_ray_parameters_option(cmd, args->ray_parameters);
+    add_map_path_options(cmd, args->max_bounces, args->no_bottom);
     cmd->add_option("--format", args->format, "csv or json")->capture_default_str()->check(one_of({"csv", "json"}));
     add_memory_limit_option(cmd, args->memory_limit_mb);
     cmd->add_option("--output,-o", args->output, "table, written whole or not at all (default: stdout)")->type_name("FILE");
@@ -114,6 +119,9 @@ The region is a cylinder (or a ring) around the receiver: horizontal distances -
 and depths --source-depth. Volumes are the cylindrical integral over visible cells (m^3); the best
 depth is the one whose receiver sees the largest volume (the shallower on a tie). The median
 time between paths is weighted by volume over the cells that have a direct and a second path.
+Every path kind counts (ducted and bottom-reflected included, up to --max-bounces turns); the
+volumes seen only through ducted or only through bottom-reflected paths have columns of their
+own, and what is left out on purpose is named on a '# left out:' line (JSON: "left_out").
 
 Example: receivers from 20 to 200 m, sources within 1.5 km and 300 m deep
   firnray depths --depths 20:200:10 --source-distance 0:1500 --source-depth 0:300 --plot depths.svg)");

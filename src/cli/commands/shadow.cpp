@@ -27,6 +27,8 @@ struct ShadowArguments {
     double azimuth_deg = 0.0;
     std::string solver = "auto";
     int ray_parameters = 1500;
+    int max_bounces = VisibilityOptions{}.max_bounces;
+    bool no_bottom = false;
     std::string grid_path = "-", boundary_path, plot_path, colour_by = "auto";
     double memory_limit_mb = default_memory_limit_mb;
     RunOptions run;
@@ -36,15 +38,20 @@ struct ShadowArguments {
 // runs of equal cells make it smaller).
 constexpr double grid_csv_bytes_per_cell = 70.0;
 constexpr double arrival_bytes_per_ray_parameter = 200.0;
+// The stratified table keeps cumulative legs per source depth and ray parameter.
+constexpr double stratified_bytes_per_entry = 48.0;
 constexpr double svg_bytes_per_cell = 60.0;
 // The grid CSV goes out through the output layer's buffer of this size (output/text_sink.hpp),
 // so that a large grid is never held as text.
 constexpr double csv_buffer_bytes = 1 << 16;
 
-void check_memory(const ShadowArguments& args, const MapGrid& grid, std::size_t receivers) {
+void check_memory(const ShadowArguments& args, const MapGrid& grid, std::size_t receivers, bool stratified) {
     const double cells = static_cast<double>(grid.cells());
     const double memory = cells * sizeof(MapCell) + grid.depth_cells * sizeof(double) +
                           static_cast<double>(receivers) * args.ray_parameters * arrival_bytes_per_ray_parameter +
+                          (stratified ? static_cast<double>(receivers) * (grid.depth_cells + 1.0) *
+                                            args.ray_parameters * stratified_bytes_per_entry
+                                      : 0.0) +
                           (args.plot_path.empty() ? 0.0 : cells * svg_bytes_per_cell) +
                           csv_buffer_bytes;
     check_memory_estimate(fmt::format("a shadow map of {} x {} cells", grid.distance_cells, grid.depth_cells), memory,
@@ -73,14 +80,18 @@ int run_shadow(const ShadowArguments& args) {
     if (static_cast<std::size_t>(args.min_receivers) > receivers.size())
         throw UsageError("--min-receivers", fmt::format("{} is more receivers than there are ({})", args.min_receivers,
                                                         receivers.size()));
-    check_memory(args, grid, receivers.size());
     const auto model = load_model_or_default(args.model_path);
+    double deepest = grid.depth_max_m;
+    for (const Receiver& r : receivers) deepest = std::max(deepest, -r.z_m);
+    check_memory(args, grid, receivers.size(), needs_stratified_table(*model, deepest, !args.no_bottom));
     const auto solver = make_solver(model, parse_solver_choice(args.solver));
 
     VisibilityOptions options;
     options.min_receivers = args.min_receivers;
     options.azimuth_deg = args.azimuth_deg;
     options.ray_parameters = args.ray_parameters;
+    options.max_bounces = args.max_bounces;
+    options.bottom_paths = !args.no_bottom;
     options.threads = args.run.thread_count();
     options.control = make_run_control(args.run, "shadow map");
     const VisibilityMap map = compute_visibility_map(*solver, receivers, grid, options);
@@ -131,6 +142,7 @@ void add_shadow_command(CLI::App& app, CommandSlot& slot) {
     add_deprecated_option(cmd, "--depth", depth, [args](const std::string& v) { args->depth_range = v; });
     add_solver_option(cmd, args->solver);
     add_ray_parameters_option(cmd, args->ray_parameters);
+    add_map_path_options(cmd, args->max_bounces, args->no_bottom);
     add_memory_limit_option(cmd, args->memory_limit_mb);
     cmd->add_option("--output,-o", args->grid_path, "grid CSV, one row per cell (default: stdout)")->type_name("FILE.csv");
     cmd->add_option("--boundary", args->boundary_path, "shadow boundary CSV: largest visible distance per source depth")
@@ -148,6 +160,11 @@ from the mean receiver position along --azimuth-deg); depths are positive, down.
 the number and kinds of paths, the first-arrival time, the time between the first two paths and
 a received amplitude factor (|Fresnel| x attenuation / spreading distance, per metre, for a unit
 source). Cells beyond every path are the shadow zone. Outputs are written whole or not at all.
+Path kinds: direct, refracted, reflected, refracted-below, ducted (two or more turns in a duct),
+bottom (off the model's bottom); the kinds map shows positions seen only through ducted or only
+through bottom-reflected paths. What is left out on purpose (--max-bounces, --no-bottom) is
+named on a '# left out:' line before the CSV header. The boundary is each depth's exact largest
+reach (for a station: where at least --min-receivers receivers still see the source).
 
 Example: the shadow zone of a receiver at 60 m depth, with its boundary and a map
   firnray shadow --receiver 0,-60 --source-distance 0:1500 --source-depth 0:300 \

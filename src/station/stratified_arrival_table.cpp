@@ -1,0 +1,620 @@
+#include "station/stratified_arrival_table.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <complex>
+#include <limits>
+
+#include <fmt/format.h>
+
+#include "core/constants.hpp"
+#include "core/errors.hpp"
+#include "core/parallel.hpp"
+#include "core/text.hpp"
+#include "paths/amplitude.hpp"
+#include "trace/bracketed_root.hpp"
+#include "trace/fresnel.hpp"
+
+namespace firnray {
+
+namespace {
+
+constexpr double infinity = std::numeric_limits<double>::infinity();
+constexpr double not_a_number = std::numeric_limits<double>::quiet_NaN();
+constexpr int samples_per_range_minimum = 24;
+// Extra samples per range between v = 0 and the first uniform step, halving v each time.
+constexpr int divergent_end_samples = 20;
+// Folds whose extremum lies less than this beyond the sampled one are not refined (see build_row).
+constexpr double fold_refinement_threshold_m = 1e-6;
+
+bool is_upper_end(const PathFamily& family, int j) { return family.starts_upward == (j % 2 == 0); }
+
+// The kind of a family in an interval, as find_stratified_paths names it.
+StratifiedPathKind kind_of(const PathFamily& family, const AccessibleInterval& interval) {
+    if (family.ends == 0) return StratifiedPathKind::direct;
+    const bool meets_lower = family.ends >= 2 || !family.starts_upward;
+    if (meets_lower && interval.lower_kind == LowerEndKind::bottom) return StratifiedPathKind::bottom;
+    if (family.ends >= 2) return StratifiedPathKind::ducted;
+    if (!family.starts_upward) return StratifiedPathKind::refracted_below;
+    return interval.upper_kind == UpperEndKind::turning ? StratifiedPathKind::refracted : StratifiedPathKind::reflected;
+}
+
+// Whether a family exists in an interval for a source and a receiver: a lower end must bound it
+// (and be wanted, for the bottom), and a reflection at the point where the path starts or ends
+// is no reflection.
+bool family_exists(const PathFamily& family, const AccessibleInterval& interval, double z_source, double z_receiver,
+                   bool bottom_paths) {
+    if (family.ends == 0) return true;
+    const bool meets_lower = family.ends >= 2 || !family.starts_upward;
+    if (meets_lower && interval.lower_kind == LowerEndKind::unbounded) return false;
+    if (meets_lower && interval.lower_kind == LowerEndKind::bottom && !bottom_paths) return false;
+    auto at_fixed_end = [&](bool upper, double z) {
+        return upper ? interval.upper_kind == UpperEndKind::surface && z == interval.upper_z
+                     : interval.lower_kind == LowerEndKind::bottom && z == interval.lower_z;
+    };
+    return !at_fixed_end(family.starts_upward, z_source) && !at_fixed_end(is_upper_end(family, family.ends - 1), z_receiver);
+}
+
+void count_reflections(const PathFamily& family, const AccessibleInterval& interval, int& surface, int& bottom) {
+    surface = bottom = 0;
+    for (int j = 0; j < family.ends; ++j) {
+        if (is_upper_end(family, j)) surface += interval.upper_kind == UpperEndKind::surface;
+        else bottom += interval.lower_kind == LowerEndKind::bottom;
+    }
+}
+
+ArrivalKind arrival_kind(StratifiedPathKind kind) {
+    switch (kind) {
+        case StratifiedPathKind::direct: return ArrivalKind::direct;
+        case StratifiedPathKind::refracted: return ArrivalKind::refracted;
+        case StratifiedPathKind::reflected: return ArrivalKind::reflected;
+        case StratifiedPathKind::bottom: return ArrivalKind::bottom;
+        case StratifiedPathKind::refracted_below: return ArrivalKind::refracted_below;
+        case StratifiedPathKind::ducted: return ArrivalKind::ducted;
+    }
+    return ArrivalKind::direct;
+}
+
+}  // namespace
+
+StratifiedArrivalTable::StratifiedArrivalTable(const FirnModel& model, const StratifiedProfile& profile,
+                                               double receiver_z, std::vector<double> source_z,
+                                               const StratifiedTableOptions& options)
+    : model_(&model), profile_(&profile), receiver_z_(receiver_z), source_z_(std::move(source_z)) {
+    const double floor = profile.floor_z();
+    auto check_depth = [&](double z, const char* what) {
+        if (!(z <= 0.0 && z >= floor))
+            throw DataInputError(fmt::format("the {} must be in the ice, between {} m and the surface, not at z = {} m",
+                                             what, number_for_message(floor), number_for_message(z)));
+    };
+    check_depth(receiver_z_, "receiver");
+    for (double z : source_z_) check_depth(z, "source");
+    if (options.ray_parameters < 16) throw DataInputError("at least 16 ray parameters are needed for a table");
+    if (options.max_bounces < 0 || options.max_bounces > 64)
+        throw DataInputError(fmt::format("max_bounces must be between 0 and 64 (got {})", options.max_bounces),
+                             {"", 0, "max-bounces"});
+    max_bounces_ = options.max_bounces;
+    bottom_paths_ = options.bottom_paths;
+    n_surface_ = profile.index(0.0);
+
+    levels_ = source_z_;
+    levels_.push_back(receiver_z_);
+    std::sort(levels_.begin(), levels_.end(), std::greater<>());
+    levels_.erase(std::unique(levels_.begin(), levels_.end()), levels_.end());
+    auto level_of = [&](double z) {
+        return static_cast<std::size_t>(std::lower_bound(levels_.begin(), levels_.end(), z, std::greater<>()) -
+                                        levels_.begin());
+    };
+    receiver_level_ = level_of(receiver_z_);
+
+    families_.push_back({true, 0});
+    for (int ends = 1; ends <= max_bounces_; ++ends)
+        for (bool upward : {true, false}) families_.push_back({upward, ends});
+
+    // The ranges of ξ: cut at every n where an accessible interval can change its kinds of ends
+    // (each local minimum of n, the surface, the bottom or floor), below the largest n of a level.
+    double top = 0.0, top_z = 0.0;
+    for (double z : levels_) {
+        const double n = profile.index(z);
+        if (n > top) top = n, top_z = z;
+    }
+    std::vector<std::pair<double, double>> cuts{{top, top_z}};  // (ξ, anchor z)
+    auto consider = [&](double z) {
+        const double n = profile.index(z);
+        if (n < top && n > 0.0) cuts.emplace_back(n, z);
+    };
+    for (double z : profile.local_minima_z()) consider(z);
+    consider(0.0);
+    consider(profile.bottom_z() ? *profile.bottom_z() : profile.floor_z());
+    std::sort(cuts.begin(), cuts.end(), [](const auto& a, const auto& b) { return a.first > b.first; });
+    cuts.erase(std::unique(cuts.begin(), cuts.end(), [](const auto& a, const auto& b) { return a.first == b.first; }),
+               cuts.end());
+    const int per_range = std::max(samples_per_range_minimum,
+                                   options.ray_parameters / static_cast<int>(cuts.size()));
+    for (std::size_t i = 0; i < cuts.size(); ++i) {
+        Range range;
+        range.high = cuts[i].first;
+        range.low = i + 1 < cuts.size() ? cuts[i + 1].first : 0.0;
+        range.anchor_z = cuts[i].second;
+        range.first = samples_.size();
+        range.count = static_cast<std::size_t>(per_range);
+        const double span = range.high - range.low;
+        // Uniform in v, with geometric steps toward v = 0 and v = 1 (offsets down to ~1e-12 of the first
+        // step): where the anchor is a local minimum of n, X diverges like ln(1/v) there, and
+        // these samples carry the families out to distances far beyond any map.
+        std::vector<double> vs{0.0};
+        const double first_step = 1.0 / (per_range - 1);
+        for (int j = divergent_end_samples; j >= 1; --j) vs.push_back(first_step * std::ldexp(1.0, -j));
+        for (int k = 1; k + 1 < per_range; ++k) vs.push_back(static_cast<double>(k) / (per_range - 1));
+        // The same toward v = 1, where the range meets the next cut (a local minimum of n too).
+        for (int j = 1; j <= divergent_end_samples; ++j) vs.push_back(1.0 - first_step * std::ldexp(1.0, -j));
+        vs.push_back(1.0);
+        range.count = vs.size();
+        for (const double v : vs) {
+            SampleLevel sample;
+            sample.offset = span * v * v;
+            sample.anchor_z = range.anchor_z;
+            sample.ray_parameter = range.high - sample.offset;
+            sample.range = ranges_.size();
+            samples_.push_back(sample);
+        }
+        ranges_.push_back(range);
+    }
+
+    // Cumulative legs per ξ sample, from each interval's upper end down through its levels.
+    const std::size_t samples = samples_.size(), levels = levels_.size();
+    interval_of_.assign(levels * samples, -1);
+    distance_.assign(levels * samples, not_a_number);
+    time_.assign(levels * samples, not_a_number);
+    attenuation_.assign(levels * samples, not_a_number);
+    length_.assign(levels * samples, not_a_number);
+    intervals_.assign(samples, {});
+    const AttenuationProfile* attenuation = model.attenuation.get();
+    parallel_for(samples, options.threads, options.control, [&](std::size_t k) {
+        const SampleLevel& sample = samples_[k];
+        const RayLevel level = RayLevel::anchored_at(profile, sample.anchor_z, sample.offset);
+        std::vector<IntervalLegs>& found = intervals_[k];
+        std::size_t l = 0;
+        for (const AccessibleInterval& interval : profile.intervals(level)) {
+            IntervalLegs legs;
+            legs.interval = interval;
+            legs.has_lower = interval.lower_kind != LowerEndKind::unbounded;
+            const auto id = static_cast<std::int32_t>(found.size());
+            LegEndpoint previous{interval.upper_z,
+                                 interval.upper_kind == UpperEndKind::turning ? LegEnd::turning : LegEnd::fixed};
+            double x = 0.0, t = 0.0, a = 0.0, s = 0.0;
+            auto accumulate = [&](LegEndpoint next) {
+                if (next.z == previous.z) return;
+                const LegIntegrals leg = leg_integrals(profile, level, previous, next, true, false, attenuation);
+                x += leg.distance_m;
+                t += leg.optical_path_m / speed_of_light;
+                a += leg.attenuation_exponent;
+                s += leg.length_m;
+                previous = next;
+            };
+            while (l < levels && levels_[l] > interval.upper_z) ++l;
+            for (; l < levels && levels_[l] >= interval.lower_z; ++l) {
+                const double z = levels_[l];
+                if (!(profile.gap(level, z) > 0.0)) continue;  // a level at a turning end: see the row's end point
+                accumulate({z, LegEnd::fixed});
+                const std::size_t at = l * samples + k;
+                interval_of_[at] = id;
+                distance_[at] = x, time_[at] = t, attenuation_[at] = a, length_[at] = s;
+            }
+            if (legs.has_lower)
+                accumulate({interval.lower_z,
+                            interval.lower_kind == LowerEndKind::turning ? LegEnd::turning : LegEnd::fixed});
+            legs.distance = x, legs.time = t, legs.attenuation = a, legs.length = s;
+            found.push_back(legs);
+        }
+    });
+
+    rows_.resize(source_z_.size());
+    for (std::size_t j = 0; j < rows_.size(); ++j) rows_[j].source_level = level_of(source_z_[j]);
+    parallel_for(rows_.size(), options.threads, options.control, [&](std::size_t j) { build_row(j); });
+}
+
+StratifiedArrivalTable::Point StratifiedArrivalTable::table_point(const Row& row, int family_index,
+                                                                  std::size_t k) const {
+    Point p;
+    const std::size_t samples = samples_.size();
+    const std::size_t s = row.source_level * samples + k, r = receiver_level_ * samples + k;
+    const std::int32_t id = interval_of_[s];
+    if (id < 0 || id != interval_of_[r]) return p;
+    const IntervalLegs& legs = intervals_[k][static_cast<std::size_t>(id)];
+    const PathFamily& family = families_[static_cast<std::size_t>(family_index)];
+    const double z_source = source_z_[&row - rows_.data()];
+    if (!family_exists(family, legs.interval, z_source, receiver_z_, bottom_paths_)) return p;
+    if (family.ends == 0) {
+        p.distance = std::abs(distance_[s] - distance_[r]);
+        p.time = std::abs(time_[s] - time_[r]);
+        p.attenuation = std::abs(attenuation_[s] - attenuation_[r]);
+        p.length = std::abs(length_[s] - length_[r]);
+    } else {
+        // First leg from the source to its first end, last leg from the last end to the receiver,
+        // and a full traversal of the interval between any two ends.
+        auto leg = [&](std::size_t at, bool upper, const std::vector<double>& cumulative, double total) {
+            return upper ? cumulative[at] : total - cumulative[at];
+        };
+        const bool last_upper = is_upper_end(family, family.ends - 1);
+        const double traversals = family.ends - 1;
+        p.distance = leg(s, family.starts_upward, distance_, legs.distance) + leg(r, last_upper, distance_, legs.distance) +
+                     traversals * legs.distance;
+        p.time = leg(s, family.starts_upward, time_, legs.time) + leg(r, last_upper, time_, legs.time) +
+                 traversals * legs.time;
+        p.attenuation = leg(s, family.starts_upward, attenuation_, legs.attenuation) +
+                        leg(r, last_upper, attenuation_, legs.attenuation) + traversals * legs.attenuation;
+        p.length = leg(s, family.starts_upward, length_, legs.length) + leg(r, last_upper, length_, legs.length) +
+                   traversals * legs.length;
+    }
+    p.valid = !std::isnan(p.distance);
+    p.ray_parameter = samples_[k].ray_parameter;
+    p.anchor_z = samples_[k].anchor_z;
+    p.offset = samples_[k].offset;
+    p.kind = kind_of(family, legs.interval);
+    count_reflections(family, legs.interval, p.surface_reflections, p.bottom_reflections);
+    return p;
+}
+
+StratifiedArrivalTable::Point StratifiedArrivalTable::point_at(const Row& row, int family, std::size_t range,
+                                                               std::size_t position) const {
+    if (position < end_samples) {
+        if (row.has_end && row.limit_range == range) return row.end_points[static_cast<std::size_t>(family)][position];
+        return {};
+    }
+    const std::size_t skipped = row.has_end && row.limit_range == range ? row.skipped : 0;
+    return table_point(row, family, ranges_[range].first + skipped + position - end_samples);
+}
+
+StratifiedArrivalTable::Point StratifiedArrivalTable::exact_point(const Row& row, int family_index, double anchor_z,
+                                                                  double offset) const {
+    Point p;
+    const PathFamily& family = families_[static_cast<std::size_t>(family_index)];
+    const double z_source = source_z_[&row - rows_.data()];
+    try {
+        const RayLevel level = RayLevel::anchored_at(*profile_, anchor_z, offset);
+        const auto legs = family_legs(*profile_, level, family, z_source, receiver_z_, true, model_->attenuation.get());
+        if (!legs || !family_exists(family, legs->interval, z_source, receiver_z_, bottom_paths_)) return p;
+        p.valid = !std::isnan(legs->total.distance_m);
+        p.distance = legs->total.distance_m;
+        p.time = legs->total.optical_path_m / speed_of_light;
+        p.attenuation = legs->total.attenuation_exponent;
+        p.length = legs->total.length_m;
+        p.ray_parameter = level.ray_parameter;
+        p.anchor_z = anchor_z;
+        p.offset = offset;
+        p.kind = kind_of(family, legs->interval);
+        count_reflections(family, legs->interval, p.surface_reflections, p.bottom_reflections);
+    } catch (const NumericalError&) {
+        p.valid = false;  // a ray the quadrature cannot resolve: no path from this ξ
+    }
+    return p;
+}
+
+double StratifiedArrivalTable::offset_from(double anchor_z, const Point& p) const {
+    if (anchor_z == p.anchor_z) return p.offset;
+    return std::max(0.0, profile_->index_difference(anchor_z, p.anchor_z) + p.offset);
+}
+
+StratifiedArrivalTable::Point StratifiedArrivalTable::solve_between(const Row& row, int family, double anchor_z,
+                                                                    double u_low, double u_high, double distance_m,
+                                                                    bool increasing_in_u) const {
+    // Regula falsi (Illinois) on X − R in u = √(n(anchor) − ξ), or in ln u when the bracket
+    // reaches the anchor itself (a divergent end, where X grows like ln(1/u)); points where X is
+    // not finite count as beyond R (they lie toward the divergent end).
+    const double u_closest = std::sqrt(64.0 * std::numeric_limits<double>::epsilon() * std::max(1.0, row.limit));
+    const bool logarithmic = u_low <= u_closest;
+    if (logarithmic) u_low = std::min(u_closest, 0.5 * u_high);
+    auto to_u = [&](double t) { return logarithmic ? std::exp(t) : t; };
+    const double orientation = increasing_in_u ? 1.0 : -1.0;
+    auto evaluate = [&](double t, Point& p) {
+        const double u = to_u(t);
+        p = exact_point(row, family, anchor_z, u * u);
+        if (!p.valid || !std::isfinite(p.distance)) return infinity;
+        return orientation * (p.distance - distance_m);
+    };
+    double lo = logarithmic ? std::log(u_low) : u_low, hi = logarithmic ? std::log(u_high) : u_high;
+    Point p_lo, p_hi, p;
+    double f_lo = evaluate(lo, p_lo), f_hi = evaluate(hi, p_hi);
+    if (!increasing_in_u) {  // orient the bracket so that f rises from lo to hi
+        std::swap(lo, hi), std::swap(f_lo, f_hi), std::swap(p_lo, p_hi);
+    }
+    if (f_lo >= 0.0) return f_lo == 0.0 ? p_lo : Point{};
+    if (!(f_hi >= 0.0)) return {};
+    const double tolerance = 1e-7 * (1.0 + distance_m);
+    int retained = 0;  // +1: lo kept twice in a row, −1: hi kept twice
+    for (int i = 0; i < 100; ++i) {
+        double t = std::isfinite(f_hi) ? (lo * f_hi - hi * f_lo) / (f_hi - f_lo) : 0.5 * (lo + hi);
+        if (!(t > std::min(lo, hi) && t < std::max(lo, hi))) t = 0.5 * (lo + hi);
+        const double f = evaluate(t, p);
+        if (std::abs(f) <= tolerance) return p;
+        if (f < 0.0) {
+            lo = t, f_lo = f, p_lo = p;
+            if (retained == -1 && std::isfinite(f_hi)) f_hi *= 0.5;
+            retained = -1;
+        } else {
+            hi = t, f_hi = f, p_hi = p;
+            if (retained == 1) f_lo *= 0.5;
+            retained = 1;
+        }
+        if (std::abs(hi - lo) <= 1e-15 * std::max(std::abs(lo), std::abs(hi))) break;
+    }
+    return std::abs(f_lo) <= std::abs(f_hi) ? p_lo : p_hi;
+}
+
+void StratifiedArrivalTable::build_row(std::size_t index) {
+    Row& row = rows_[index];
+    const double z_source = source_z_[index];
+    const double z_low = std::min(z_source, receiver_z_), z_high = std::max(z_source, receiver_z_);
+    const auto [limit, limit_z] = profile_->minimum_index(z_low, z_high);
+    row.limit = limit;
+    row.limit_z = limit_z;
+    for (std::size_t r = 0; r < ranges_.size(); ++r)
+        if (limit <= ranges_[r].high && limit > ranges_[r].low) {
+            row.limit_range = r;
+            row.has_end = true;
+            while (row.skipped < ranges_[r].count && samples_[ranges_[r].first + row.skipped].ray_parameter >= limit)
+                ++row.skipped;
+        }
+    const int families = static_cast<int>(families_.size());
+    row.end_points.assign(families_.size(), std::vector<Point>(end_samples));
+    if (row.has_end) {
+        // From the limit to the first table sample below it, evenly in u = √(limit − ξ).
+        const std::size_t first = ranges_[row.limit_range].first + row.skipped;
+        const bool has_sample = row.skipped < ranges_[row.limit_range].count;
+        double u_first = 0.0;
+        if (has_sample) {
+            Point sample;
+            sample.anchor_z = samples_[first].anchor_z;
+            sample.offset = samples_[first].offset;
+            u_first = std::sqrt(offset_from(limit_z, sample));
+        }
+        // At ξ = limit exactly the ray is horizontal at an end (or grazes a minimum of n between
+        // them) and the accessible interval only touches that end: start a few rounding errors below.
+        const double u_closest = std::sqrt(64.0 * std::numeric_limits<double>::epsilon() * limit);
+        // Uniform in u, and geometric below the first step: X is smooth in u next to a turning end
+        // and grows like ln(1/u) next to a minimum of n between the ends.
+        row.end_u.push_back(u_closest);
+        for (int k = static_cast<int>(end_geometric_samples); k >= 1; --k)
+            row.end_u.push_back(std::max(u_closest, u_first / end_uniform_samples * std::pow(4.0, -k)));
+        for (std::size_t i = 1; i < end_uniform_samples; ++i)
+            row.end_u.push_back(std::max(u_closest, u_first * static_cast<double>(i) / end_uniform_samples));
+        for (int f = 0; f < families; ++f) {
+            // Only families that exist next to the limit.
+            if (!has_sample || !table_point(row, f, first).valid) continue;
+            for (std::size_t i = 0; i < end_samples; ++i)
+                row.end_points[f][i] = exact_point(row, f, limit_z, row.end_u[i] * row.end_u[i]);
+        }
+    }
+
+    std::vector<std::pair<double, double>> visible;
+    auto u_of = [](double offset) { return std::sqrt(std::max(0.0, offset)); };
+    for (int f = 0; f < families; ++f) {
+        if (f == 0 && z_source == receiver_z_) continue;  // at equal depths no path is monotone in z
+        for (std::size_t r = 0; r < ranges_.size(); ++r) {
+            const std::size_t positions =
+                ranges_[r].count + end_samples - (row.has_end && row.limit_range == r ? row.skipped : 0);
+            std::vector<Point> points(positions);
+            for (std::size_t p = 0; p < positions; ++p) points[p] = point_at(row, f, r, p);
+            auto finite = [&](std::size_t p) { return points[p].valid && std::isfinite(points[p].distance); };
+            // Monotone runs of finite points.
+            std::size_t p = 0;
+            while (p < positions) {
+                if (!finite(p) || p + 1 >= positions || !finite(p + 1)) {
+                    ++p;
+                    continue;
+                }
+                Run run{f, r, p, p + 1, points[p + 1].distance >= points[p].distance};
+                while (run.last + 1 < positions && finite(run.last + 1) &&
+                       (points[run.last + 1].distance >= points[run.last].distance) == run.increasing)
+                    ++run.last;
+                row.runs.push_back(run);
+                visible.emplace_back(std::min(points[run.first].distance, points[run.last].distance),
+                                     std::max(points[run.first].distance, points[run.last].distance));
+                // A fold at the run's last point when the next run turns back.
+                const std::size_t e = run.last;
+                if (e + 1 < positions && finite(e + 1)) {
+                    const Point& before = points[e - 1];
+                    const Point& after = points[e + 1];
+                    Exact fold;
+                    fold.family = f;
+                    fold.range = r;
+                    fold.a = e - 1;
+                    fold.b = e + 1;
+                    fold.maximum = run.increasing;
+                    fold.sampled_m = points[e].distance;
+                    fold.anchor_z = before.offset <= after.offset ? before.anchor_z : after.anchor_z;
+                    if (e - 1 < end_samples) fold.anchor_z = before.anchor_z;
+                    const double u_a = u_of(offset_from(fold.anchor_z, before)),
+                                 u_b = u_of(offset_from(fold.anchor_z, after));
+                    // The parabola through the three samples estimates how far the true extremum
+                    // lies beyond the sampled one; a fold that cannot reach a micrometre further is
+                    // left to the interpolation (refining it costs dozens of exact evaluations).
+                    const double curvature = 0.5 * (after.distance + before.distance - 2.0 * points[e].distance);
+                    const double slope = 0.5 * (after.distance - before.distance);
+                    const double excess = curvature != 0.0 ? std::abs(slope * slope / (4.0 * curvature)) : 0.0;
+                    if (!(excess > fold_refinement_threshold_m)) {
+                        p = run.last;
+                        continue;
+                    }
+                    const double sign = fold.maximum ? -1.0 : 1.0;
+                    auto objective = [&](double u) {
+                        const Point q = exact_point(row, f, fold.anchor_z, u * u);
+                        return q.valid && std::isfinite(q.distance) ? sign * q.distance : sign * fold.sampled_m;
+                    };
+                    const auto [u_best, value] =
+                        brent_minimum("the fold of a ray family", objective, std::min(u_a, u_b), std::max(u_a, u_b), 30);
+                    fold.u_extremum = u_best;
+                    fold.exact_m = sign * value;
+                    if (fold.maximum ? fold.exact_m > fold.sampled_m : fold.exact_m < fold.sampled_m) {
+                        visible.emplace_back(std::min(fold.sampled_m, fold.exact_m), std::max(fold.sampled_m, fold.exact_m));
+                        row.exact.push_back(fold);
+                    }
+                }
+                p = run.last;
+            }
+            // Divergent ends: a finite point next to one where X is infinite, or next to the row's
+            // end point when that is not a path (a local minimum of n between the ends).
+            for (std::size_t q = 0; q < positions; ++q) {
+                if (!finite(q)) continue;
+                for (const std::size_t b : {q - 1, q + 1}) {
+                    if (b >= positions) continue;
+                    const bool diverges = points[b].valid && std::isinf(points[b].distance);
+                    const bool limit_end = b < end_samples && b < q && row.has_end && row.limit_range == r && !points[b].valid;
+                    if (!diverges && !limit_end) continue;
+                    Exact tail;
+                    tail.family = f;
+                    tail.range = r;
+                    tail.a = q;
+                    tail.b = b;
+                    tail.tail = true;
+                    tail.sampled_m = points[q].distance;
+                    tail.exact_m = infinity;
+                    tail.anchor_z = limit_end ? row.limit_z : points[b].anchor_z;
+                    row.exact.push_back(tail);
+                    visible.emplace_back(tail.sampled_m, infinity);
+                }
+            }
+        }
+    }
+    std::sort(visible.begin(), visible.end());
+    for (const auto& span : visible) {
+        if (!row.visible.empty() && span.first <= row.visible.back().second)
+            row.visible.back().second = std::max(row.visible.back().second, span.second);
+        else
+            row.visible.push_back(span);
+    }
+    row.max_reach_m = row.visible.empty() ? not_a_number : row.visible.back().second;
+}
+
+void StratifiedArrivalTable::add_arrival(const Row& row, const Point& a, const Point& b, double distance_m,
+                                         std::vector<MapArrival>& out) const {
+    const double dx = b.distance - a.distance;
+    const double w = dx != 0.0 ? (distance_m - a.distance) / dx : 0.0;
+    const double xi0 = a.ray_parameter, xi1 = b.ray_parameter;
+    // Cubic Hermite in distance with slopes dT/dX = ξ/c.
+    const double h = dx, s = w, s2 = s * s, s3 = s2 * s;
+    const double time = (2 * s3 - 3 * s2 + 1) * a.time + (s3 - 2 * s2 + s) * h * xi0 / speed_of_light +
+                        (-2 * s3 + 3 * s2) * b.time + (s3 - s2) * h * xi1 / speed_of_light;
+    const double xi = xi0 + w * (xi1 - xi0);
+    const double attenuation = a.attenuation + w * (b.attenuation - a.attenuation);
+    const double length = a.length + w * (b.length - a.length);
+
+    MapArrival arrival;
+    arrival.time_s = time;
+    arrival.ray_parameter = xi;
+    arrival.kind = arrival_kind(a.kind);
+    // Refracted and reflected meet at ξ = n(0) (a ray grazing the surface): name an arrival
+    // interpolated next to that edge after the side its ξ falls on, as find_stratified_paths does.
+    if (arrival.kind == ArrivalKind::refracted && xi < n_surface_) arrival.kind = ArrivalKind::reflected;
+    else if (arrival.kind == ArrivalKind::reflected && xi >= n_surface_) arrival.kind = ArrivalKind::refracted;
+    int surface_reflections = a.surface_reflections;
+    if (a.kind == StratifiedPathKind::refracted && arrival.kind == ArrivalKind::reflected) surface_reflections = 1;
+    if (a.kind == StratifiedPathKind::reflected && arrival.kind == ArrivalKind::refracted) surface_reflections = 0;
+    std::complex<double> interface_s{1.0, 0.0}, interface_p{1.0, 0.0};
+    if (surface_reflections > 0) {
+        const auto f = fresnel(n_surface_, model_->n_air, cos_from_ray_parameter(n_surface_, std::min(xi, n_surface_)));
+        interface_s = std::pow(f.r_s, surface_reflections);
+        interface_p = std::pow(f.r_p, surface_reflections);
+    }
+    if (a.bottom_reflections > 0 && model_->bottom) {
+        const double factor = std::pow(std::sqrt(model_->bottom->power_reflectivity), a.bottom_reflections);
+        interface_s *= factor;
+        interface_p *= factor;
+    }
+    RayTube tube;
+    tube.n_source = profile_->index(source_z_[&row - rows_.data()]);
+    tube.n_receiver = profile_->index(receiver_z_);
+    tube.horizontal_distance_m = distance_m;
+    tube.ray_parameter = xi;
+    const double dxi = xi1 - xi0;
+    tube.distance_derivative = dxi != 0.0 ? std::abs(dx / dxi) : infinity;
+    tube.derivative_cosines = tube.distance_derivative * cos_from_ray_parameter(tube.n_source, std::min(xi, tube.n_source)) *
+                              cos_from_ray_parameter(tube.n_receiver, std::min(xi, tube.n_receiver));
+    tube.length_m = length;
+    const PathAmplitude amplitude = path_amplitude(interface_s, interface_p, 1.0, attenuation, tube);
+    arrival.caustic = amplitude.caustic;
+    arrival.amplitude_per_m = mean_field_magnitude(amplitude);
+    out.push_back(arrival);
+}
+
+void StratifiedArrivalTable::add_exact_arrival(const Row& row, int family, const Point& root, double anchor_z,
+                                               double distance_m, std::vector<MapArrival>& out) const {
+    if (!root.valid || !std::isfinite(root.distance)) return;
+    // A jump of X across R (ξ not resolved by a double there) is not a root.
+    if (std::abs(root.distance - distance_m) > 1e-6 * (1.0 + distance_m)) return;
+    Point corrected = root;
+    // First-order correction for the root's residual: dT/dR = ξ/c along a family.
+    corrected.time += root.ray_parameter * (distance_m - root.distance) / speed_of_light;
+    corrected.distance = distance_m;
+    const double offset = offset_from(anchor_z, root);
+    Point neighbour = exact_point(row, family, anchor_z, offset * (1.0 + 1e-7) + 1e-15);
+    if (!neighbour.valid || !std::isfinite(neighbour.distance) || neighbour.distance == root.distance) neighbour = corrected;
+    std::vector<MapArrival> one;
+    add_arrival(row, corrected, neighbour, distance_m, one);
+    // The time and ray parameter are those of the root itself.
+    one.front().time_s = corrected.time;
+    one.front().ray_parameter = root.ray_parameter;
+    out.push_back(one.front());
+}
+
+void StratifiedArrivalTable::arrivals(std::size_t index, double distance_m, std::vector<MapArrival>& out) const {
+    out.clear();
+    const Row& row = rows_[index];
+    if (!(distance_m <= row.max_reach_m)) return;
+    for (const Run& run : row.runs) {
+        auto at = [&](std::size_t p) { return point_at(row, run.family, run.range, p); };
+        const Point first = at(run.first), last = at(run.last);
+        const double lo_x = std::min(first.distance, last.distance), hi_x = std::max(first.distance, last.distance);
+        if (distance_m < lo_x || distance_m >= hi_x) continue;
+        std::size_t lo = run.first, hi = run.last;
+        while (hi - lo > 1) {
+            const std::size_t mid = (lo + hi) / 2;
+            if ((at(mid).distance <= distance_m) == run.increasing) lo = mid;
+            else hi = mid;
+        }
+        const Point a = at(lo), b = at(hi);
+        // The end point (ξ = the limit) sits on the edge of the family: name the path after the other.
+        if (lo == 0 && row.has_end && row.limit_range == run.range) {
+            Point named = a;
+            named.kind = b.kind;
+            named.surface_reflections = b.surface_reflections;
+            named.bottom_reflections = b.bottom_reflections;
+            add_arrival(row, named, b, distance_m, out);
+        } else {
+            add_arrival(row, a, b, distance_m, out);
+        }
+    }
+    for (const Exact& exact : row.exact) {
+        const Point a = point_at(row, exact.family, exact.range, exact.a);
+        const Point b = point_at(row, exact.family, exact.range, exact.b);
+        const double u_a = std::sqrt(offset_from(exact.anchor_z, a));
+        if (exact.tail) {
+            if (distance_m <= exact.sampled_m) continue;
+            // u of the divergent end: the anchor itself for the row's end point, else b's sample.
+            const double u_b = exact.b < end_samples && !b.valid ? row.end_u[exact.b] : std::sqrt(offset_from(exact.anchor_z, b));
+            const bool increasing = u_b > u_a;
+            const Point root = solve_between(row, exact.family, exact.anchor_z, std::min(u_a, u_b), std::max(u_a, u_b),
+                                             distance_m, increasing);
+            add_exact_arrival(row, exact.family, root, exact.anchor_z, distance_m, out);
+            continue;
+        }
+        const bool inside = exact.maximum ? distance_m > exact.sampled_m && distance_m <= exact.exact_m
+                                          : distance_m < exact.sampled_m && distance_m >= exact.exact_m;
+        if (!inside) continue;
+        const double u_b = std::sqrt(offset_from(exact.anchor_z, b));
+        const double u_e = exact.u_extremum;
+        // On each side of the extremum X is monotone in u: toward the extremum it rises (a
+        // maximum) or falls (a minimum).
+        for (const double u_end : {u_a, u_b}) {
+            const bool toward_extremum_up = u_end < u_e;  // u grows from the end to the extremum
+            const bool increasing = toward_extremum_up == exact.maximum;
+            const Point root = solve_between(row, exact.family, exact.anchor_z, std::min(u_end, u_e), std::max(u_end, u_e),
+                                             distance_m, increasing);
+            add_exact_arrival(row, exact.family, root, exact.anchor_z, distance_m, out);
+        }
+    }
+    std::sort(out.begin(), out.end(), [](const MapArrival& a, const MapArrival& b) { return a.time_s < b.time_s; });
+}
+
+}  // namespace firnray

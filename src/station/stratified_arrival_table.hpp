@@ -1,0 +1,147 @@
+// The map table for any stratified profile (docs/physics.md §8): for one receiver depth and the
+// map's source depths, every path family (direct, refracted, reflected, refracted below, ducted,
+// bottom-reflected) tabulated over ξ, per range of ξ in which the accessible interval keeps its
+// kinds of ends, so that the paths to any source distance are found by interpolation.
+//
+// Per ξ sample the legs from each accessible interval's upper end down to every level of the map
+// (and on to its lower end) are integrated once (solver/snell_integrals.hpp); any family between
+// any two levels of one interval is a sum of those cumulative legs. Arrivals are interpolated with
+// cubic Hermite polynomials in distance whose slopes are dT/dX = ξ/c, as in ArrivalTable; at folds
+// of X(ξ) and where X diverges (ξ next to a local minimum of n) they are solved exactly with
+// family_legs. Ranges are parametrised ξ = n(anchor) − span·v² (anchor: the range's top), which
+// resolves rays near a local minimum of n or near n_deep without cancellation.
+#pragma once
+
+#include <cstddef>
+#include <cstdint>
+#include <utility>
+#include <vector>
+
+#include "core/cancel.hpp"
+#include "model/firn_model.hpp"
+#include "solver/path_families.hpp"
+#include "station/arrival_table.hpp"
+
+namespace firnray {
+
+struct StratifiedTableOptions {
+    int ray_parameters = 1500;  // samples of ξ over all ranges together (at least 24 per range)
+    int max_bounces = 4;        // the most ends (turns and reflections, each counts one) a path may meet
+    bool bottom_paths = true;   // include paths reflected at the bottom (when the profile has one)
+    int threads = 1;
+    RunControl control;
+};
+
+class StratifiedArrivalTable {
+public:
+    // receiver_z and every source_z must be in the ice and above the profile's floor. The model
+    // gives n_air (surface Fresnel factors), the bottom's reflectivity and the attenuation.
+    StratifiedArrivalTable(const FirnModel& model, const StratifiedProfile& profile, double receiver_z,
+                           std::vector<double> source_z, const StratifiedTableOptions& options = {});
+
+    std::size_t rows() const { return source_z_.size(); }
+    double receiver_z() const { return receiver_z_; }
+    double source_z(std::size_t row) const { return source_z_[row]; }
+    std::size_t ray_parameter_samples() const { return samples_.size(); }
+
+    // The largest horizontal distance any path reaches at this row (+inf when a family diverges).
+    double max_reach_m(std::size_t row) const { return rows_[row].max_reach_m; }
+    // The distances at which a source at this row is seen, as sorted disjoint closed intervals
+    // (the last may end at +inf). With ducts or a bottom they need not be one interval.
+    const std::vector<std::pair<double, double>>& visible_distances(std::size_t row) const {
+        return rows_[row].visible;
+    }
+
+    // Every arrival from a source at `row` and horizontal distance `distance_m`, sorted by time.
+    void arrivals(std::size_t row, double distance_m, std::vector<MapArrival>& out) const;
+
+private:
+    struct Range {
+        double high = 0.0, low = 0.0, anchor_z = 0.0;
+        std::size_t first = 0, count = 0;  // its samples: first .. first + count − 1, ξ decreasing
+    };
+    struct IntervalLegs {  // one accessible interval of one ξ sample
+        AccessibleInterval interval;
+        bool has_lower = false;
+        double distance = 0.0, time = 0.0, attenuation = 0.0, length = 0.0;  // upper end to lower end
+    };
+    struct SampleLevel {
+        double ray_parameter = 0.0, anchor_z = 0.0, offset = 0.0;
+        std::size_t range = 0;
+    };
+    // A family's value at one ξ: distance, time, attenuation exponent, length, and its kind.
+    struct Point {
+        bool valid = false;
+        double distance = 0.0, time = 0.0, attenuation = 0.0, length = 0.0;
+        double ray_parameter = 0.0, anchor_z = 0.0, offset = 0.0;
+        StratifiedPathKind kind = StratifiedPathKind::direct;
+        int surface_reflections = 0, bottom_reflections = 0;
+    };
+    // Positions along one range for one row: p < end_samples are the row's end points (from ξ =
+    // the smallest n between the ends) when that limit falls in this range, p >= end_samples the
+    // range's sample first + p − end_samples (+ the samples skipped above the limit there).
+    static constexpr std::size_t end_uniform_samples = 6, end_geometric_samples = 5;
+    static constexpr std::size_t end_samples = 1 + end_geometric_samples + end_uniform_samples - 1;
+    struct Run {
+        int family = 0;
+        std::size_t range = 0, first = 0, last = 0;
+        bool increasing = true;
+    };
+    struct Exact {  // a fold or a divergent end, solved with family_legs
+        int family = 0;
+        std::size_t range = 0;
+        std::size_t a = 0, b = 0;         // the bracketing positions (b: the divergent one for a tail)
+        bool tail = false;                // X grows without bound from a toward b
+        bool maximum = true;              // for a fold: X has a maximum (else a minimum) inside
+        double sampled_m = 0.0;           // X at the sampled extremum (or at a, for a tail)
+        double exact_m = 0.0;             // the refined extremum (+inf for a tail)
+        double anchor_z = 0.0, u_extremum = 0.0;
+    };
+    struct Row {
+        std::size_t source_level = 0;
+        double limit = 0.0, limit_z = 0.0;  // ξ must stay below n between the ends
+        std::size_t limit_range = 0;
+        std::size_t skipped = 0;            // samples of the limit range at or above the limit
+        bool has_end = false;
+        // Per family, end_samples points from ξ = limit (i = 0) toward the first table sample,
+        // evenly in u = √(limit − ξ), where X changes like √(limit − ξ) next to a turning end.
+        std::vector<std::vector<Point>> end_points;
+        std::vector<double> end_u;
+        std::vector<Run> runs;
+        std::vector<Exact> exact;
+        double max_reach_m = 0.0;
+        std::vector<std::pair<double, double>> visible;
+    };
+
+    Point table_point(const Row& row, int family, std::size_t sample) const;
+    Point point_at(const Row& row, int family, std::size_t range, std::size_t position) const;
+    Point exact_point(const Row& row, int family, double anchor_z, double offset) const;
+    double offset_from(double anchor_z, const Point& p) const;
+    Point solve_between(const Row& row, int family, double anchor_z, double u_low, double u_high, double distance_m,
+                        bool increasing_in_u) const;
+    void add_arrival(const Row& row, const Point& a, const Point& b, double distance_m, std::vector<MapArrival>& out) const;
+    void add_exact_arrival(const Row& row, int family, const Point& root, double anchor_z, double distance_m,
+                           std::vector<MapArrival>& out) const;
+    void build_row(std::size_t index);
+
+    const FirnModel* model_;
+    const StratifiedProfile* profile_;
+    double receiver_z_;
+    std::vector<double> source_z_;
+    std::vector<double> levels_;  // distinct depths, highest first
+    std::size_t receiver_level_ = 0;
+    std::vector<PathFamily> families_;
+    int max_bounces_ = 4;
+    bool bottom_paths_ = true;
+    std::vector<Range> ranges_;
+    std::vector<SampleLevel> samples_;
+    // Per [level][sample]: the interval holding the level (−1: none) and the cumulative legs from
+    // that interval's upper end down to the level.
+    std::vector<std::int32_t> interval_of_;
+    std::vector<double> distance_, time_, attenuation_, length_;
+    std::vector<std::vector<IntervalLegs>> intervals_;  // per sample
+    std::vector<Row> rows_;
+    double n_surface_ = 1.0;
+};
+
+}  // namespace firnray

@@ -1,0 +1,267 @@
+// The stratified map table (station/stratified_arrival_table.hpp) against cell-by-cell path
+// finding with find_stratified_paths (two independent uses of the Snell integrals: one tabulated
+// and interpolated, one solved per pair), on a ducted profile whose n² is linear in z between
+// knots (the linear layer: Budden, The Propagation of Radio Waves, 1985), on the exponential
+// profile with a deep receiver, and on a model with a reflecting bottom.
+#include <catch2/catch.hpp>
+
+#include <algorithm>
+#include <cmath>
+#include <memory>
+#include <string>
+#include <vector>
+
+#include "core/constants.hpp"
+#include "model/model_file.hpp"
+#include "solver/path_families.hpp"
+#include "solver/stratified_solver.hpp"
+#include "station/stratified_arrival_table.hpp"
+#include "station/visibility_map.hpp"
+#include "support/square_linear_profile.hpp"
+
+using namespace firnray;
+
+namespace {
+
+std::shared_ptr<FirnModel> duct_model() {
+    auto model = std::make_shared<FirnModel>();
+    model->name = "duct";
+    model->index = std::make_shared<test::SquareLinearProfile>(std::vector<double>{0.0, -20.0, -60.0, -200.0},
+                                                               std::vector<double>{1.80, 3.10, 2.60, 3.16});
+    return model;
+}
+
+ArrivalKind arrival_kind_of(StratifiedPathKind kind) {
+    switch (kind) {
+        case StratifiedPathKind::direct: return ArrivalKind::direct;
+        case StratifiedPathKind::refracted: return ArrivalKind::refracted;
+        case StratifiedPathKind::reflected: return ArrivalKind::reflected;
+        case StratifiedPathKind::bottom: return ArrivalKind::bottom;
+        case StratifiedPathKind::refracted_below: return ArrivalKind::refracted_below;
+        case StratifiedPathKind::ducted: return ArrivalKind::ducted;
+    }
+    return ArrivalKind::direct;
+}
+
+struct Comparison {
+    int cells = 0, seen = 0, count_mismatch = 0, kind_mismatch = 0, grazing = 0;
+    double worst_first_time_ns = 0.0;
+};
+
+// Every cell of a grid: the table's arrivals against find_stratified_paths. Cells whose exact
+// paths come within `fold_margin_m` of a fold (two paths merging) may differ by that pair.
+Comparison compare(const FirnModel& model, const StratifiedProfile& profile, double receiver_z,
+                   const std::vector<double>& source_z, const std::vector<double>& distances, int max_bounces,
+                   int ray_parameters = 1500) {
+    StratifiedTableOptions options;
+    options.max_bounces = max_bounces;
+    options.ray_parameters = ray_parameters;
+    options.threads = 2;
+    const StratifiedArrivalTable table(model, profile, receiver_z, source_z, options);
+    StratifiedPathOptions exact_options;
+    exact_options.max_bounces = max_bounces;
+    exact_options.scan_samples = 32;
+    Comparison out;
+    std::vector<MapArrival> found;
+    for (std::size_t row = 0; row < source_z.size(); ++row)
+        for (double distance : distances) {
+            ++out.cells;
+            table.arrivals(row, distance, found);
+            auto exact = find_stratified_paths(profile, source_z[row], receiver_z, distance, exact_options);
+            // Rays that graze a local minimum of n (ξ within 1e-6 of it) stay beside it for a
+            // distance that grows like log(1/(ξ − n_min)): the reference resolves that limit only
+            // on one side of n_min, so both lists are compared without them (counted apart).
+            auto grazing = [&](double xi) {
+                for (double z : profile.local_minima_z())
+                    if (std::abs(xi - profile.index(z)) < 1e-6) return true;
+                return false;
+            };
+            const auto before = found.size() + exact.size();
+            found.erase(std::remove_if(found.begin(), found.end(), [&](const MapArrival& a) { return grazing(a.ray_parameter); }),
+                        found.end());
+            exact.erase(std::remove_if(exact.begin(), exact.end(), [&](const StratifiedPath& p) { return grazing(p.ray_parameter); }),
+                        exact.end());
+            out.grazing += static_cast<int>(before - found.size() - exact.size());
+            if (!exact.empty()) ++out.seen;
+            if (found.size() != exact.size()) {
+                ++out.count_mismatch;
+                UNSCOPED_INFO("row z " << source_z[row] << " distance " << distance << ": table " << found.size()
+                                       << " paths, exact " << exact.size());
+
+                continue;
+            }
+            if (exact.empty()) continue;
+            std::vector<int> table_kinds, exact_kinds;
+            for (const auto& a : found) table_kinds.push_back(static_cast<int>(a.kind));
+            for (const auto& p : exact) exact_kinds.push_back(static_cast<int>(arrival_kind_of(p.kind)));
+            std::sort(table_kinds.begin(), table_kinds.end());
+            std::sort(exact_kinds.begin(), exact_kinds.end());
+            if (table_kinds != exact_kinds) ++out.kind_mismatch;
+            out.worst_first_time_ns =
+                std::max(out.worst_first_time_ns, std::abs(found[0].time_s - exact[0].time_s) * seconds_to_ns);
+        }
+    return out;
+}
+
+std::vector<double> spaced(double first, double last, int count) {
+    std::vector<double> out;
+    for (int i = 0; i < count; ++i) out.push_back(first + (last - first) * (i + 0.5) / count);
+    return out;
+}
+
+}  // namespace
+
+TEST_CASE("stratified map table on a ducted n²-linear profile agrees cell by cell with find_stratified_paths "
+          "(linear layer, Budden 1985)",
+          "[station][stratified-map]") {
+    const auto model = duct_model();
+    const StratifiedProfile profile(model->index);
+    std::vector<double> source_z;
+    for (double d : spaced(0.0, 150.0, 12)) source_z.push_back(-d);
+    for (const double receiver_z : {-40.0, -10.0, -100.0}) {
+        const Comparison c = compare(*model, profile, receiver_z, source_z, spaced(0.0, 800.0, 24), 3);
+        INFO("receiver z " << receiver_z << ": " << c.cells << " cells, " << c.seen << " seen, " << c.grazing
+                           << " grazing arrivals set apart");
+        CHECK(c.seen > 0);
+        CHECK(c.count_mismatch == 0);
+        CHECK(c.kind_mismatch == 0);
+        CHECK(c.worst_first_time_ns < 0.01);
+    }
+}
+
+TEST_CASE("stratified map table with a deep receiver on the exponential profile agrees cell by cell with "
+          "find_stratified_paths (two path finders on the same Snell integrals, common practice)",
+          "[station][stratified-map]") {
+    const FirnModel model = default_model();
+    const StratifiedProfile profile(model.index);
+    std::vector<double> source_z;
+    for (double d : spaced(1000.0, 2000.0, 12)) source_z.push_back(-d);
+    const Comparison c = compare(model, profile, -1500.0, source_z, spaced(0.0, 6000.0, 30), 1);
+    INFO(c.cells << " cells, " << c.seen << " seen");
+    CHECK(c.seen > 100);
+    CHECK(c.count_mismatch == 0);
+    CHECK(c.kind_mismatch == 0);
+    CHECK(c.worst_first_time_ns < 0.01);
+    // The same through the map: a deep receiver no longer fails.
+    const auto shared = std::make_shared<FirnModel>(model);
+    const StratifiedSolver solver(shared);
+    Receiver receiver;
+    receiver.name = "deep";
+    receiver.z_m = -1500.0;
+    MapGrid grid;
+    grid.distance_max_m = 3000.0, grid.distance_cells = 10;
+    grid.depth_min_m = 1000.0, grid.depth_max_m = 2000.0, grid.depth_cells = 5;
+    VisibilityOptions options;
+    const VisibilityMap map = compute_visibility_map(solver, std::span<const Receiver>(&receiver, 1), grid, options);
+    CHECK(map.stratified);
+    CHECK(map.left_out.empty());
+    for (double reach : map.boundary_m) CHECK(reach > 0.0);
+}
+
+TEST_CASE("stratified map table with a reflecting bottom agrees cell by cell with find_stratified_paths, and the "
+          "map shows positions seen only off the bottom (image-source geometry, common practice)",
+          "[station][stratified-map]") {
+    auto model = std::make_shared<FirnModel>(default_model());
+    model->bottom = Bottom{-300.0, 0.5};
+    const StratifiedProfile profile(model->index, model->bottom->z_m);
+    std::vector<double> source_z;
+    for (double d : spaced(0.0, 290.0, 15)) source_z.push_back(-d);
+    const Comparison c = compare(*model, profile, -60.0, source_z, spaced(0.0, 2000.0, 25), 3);
+    INFO(c.cells << " cells, " << c.seen << " seen");
+    CHECK(c.count_mismatch == 0);
+    CHECK(c.kind_mismatch == 0);
+    CHECK(c.worst_first_time_ns < 0.01);
+
+    const StratifiedSolver solver(model);
+    Receiver receiver;
+    receiver.name = "R";
+    receiver.z_m = -60.0;
+    MapGrid grid;
+    grid.distance_max_m = 2000.0, grid.distance_cells = 20;
+    grid.depth_max_m = 290.0, grid.depth_cells = 10;
+    VisibilityOptions options;
+    options.max_bounces = 1;
+    const VisibilityMap map = compute_visibility_map(solver, std::span<const Receiver>(&receiver, 1), grid, options);
+    CHECK(map.stratified);
+    REQUIRE(map.left_out.size() == 1);
+    CHECK(map.left_out[0].find("more than 1 turns") != std::string::npos);
+    int bottom_only = 0;
+    StratifiedPathOptions exact_options;
+    exact_options.max_bounces = 1;
+    for (int j = 0; j < grid.depth_cells; ++j)
+        for (int i = 0; i < grid.distance_cells; ++i) {
+            const MapCell& cell = map.at(j, i);
+            if (cell.kinds != kind_bottom) continue;
+            ++bottom_only;
+            for (const auto& path : find_stratified_paths(profile, -grid.depth_at(j), -60.0, grid.distance_at(i), exact_options))
+                CHECK(path.kind == StratifiedPathKind::bottom);
+        }
+    CHECK(bottom_only > 0);
+    // Without bottom paths the same cells are shadow, and the map says what it left out.
+    options.bottom_paths = false;
+    const VisibilityMap without = compute_visibility_map(solver, std::span<const Receiver>(&receiver, 1), grid, options);
+    CHECK_FALSE(without.stratified);
+    REQUIRE_FALSE(without.left_out.empty());
+    CHECK(without.left_out[0].find("bottom") != std::string::npos);
+    for (std::size_t c = 0; c < map.cells.size(); ++c)
+        if (map.cells[c].kinds == kind_bottom) CHECK(without.cells[c].receivers_seeing == 0);
+}
+
+TEST_CASE("station boundary: the largest distance where enough receivers see a source agrees with brute-force "
+          "sampling of find_stratified_paths along the map line (definition)",
+          "[station][stratified-map][boundary]") {
+    const auto model = duct_model();
+    const StratifiedSolver solver(model);
+    const StratifiedProfile& profile = solver.stratified_profile();
+    std::vector<Receiver> receivers(3);
+    receivers[0] = {"A", "", -40.0, 10.0, -30.0};
+    receivers[1] = {"B", "", 35.0, -20.0, -45.0};
+    receivers[2] = {"C", "", 5.0, 60.0, -10.0};
+    MapGrid grid;
+    grid.distance_max_m = 600.0, grid.distance_cells = 12;
+    grid.depth_min_m = 5.0, grid.depth_max_m = 65.0, grid.depth_cells = 3;
+    VisibilityOptions options;
+    options.min_receivers = 2;
+    options.max_bounces = 1;
+    options.azimuth_deg = 30.0;
+    options.threads = 2;
+    const VisibilityMap map = compute_visibility_map(solver, receivers, grid, options);
+    StratifiedPathOptions exact_options;
+    exact_options.max_bounces = 1;
+    const double ux = std::cos(30.0 * pi / 180.0), uy = std::sin(30.0 * pi / 180.0);
+    auto seeing = [&](double z, double d) {
+        int count = 0;
+        for (const Receiver& r : receivers) {
+            const double rho = std::hypot(map.centre_x_m + d * ux - r.x_m, map.centre_y_m + d * uy - r.y_m);
+            count += !find_stratified_paths(profile, z, r.z_m, rho, exact_options).empty();
+        }
+        return count;
+    };
+    int checked = 0;
+    for (int j = 0; j < grid.depth_cells; ++j) {
+        const double z = -grid.depth_at(j);
+        // Brute force: the last sample (every 4 m to 900 m) seen by two receivers, refined by bisection.
+        double last = -1.0;
+        for (double d = 0.0; d <= 900.0; d += 4.0)
+            if (seeing(z, d) >= 2) last = d;
+        const double boundary = map.boundary_m[j];
+        INFO("depth " << -z << ": map boundary " << boundary << ", brute force " << last);
+        if (last < 0.0) {
+            CHECK(std::isnan(boundary));
+            continue;
+        }
+        if (last >= 896.0) {
+            CHECK(boundary >= 896.0);
+            continue;
+        }
+        double lo = last, hi = last + 4.0;
+        for (int i = 0; i < 24; ++i) {
+            const double mid = 0.5 * (lo + hi);
+            if (seeing(z, mid) >= 2) lo = mid;
+            else hi = mid;
+        }
+        CHECK(boundary == Approx(lo).margin(1e-3));
+        ++checked;
+    }
+    CHECK(checked > 0);
+}
