@@ -12,14 +12,14 @@ models="$demo/../models"
 mkdir -p "$out"
 echo "firnray demo: writing outputs and plots to $out/"
 
-echo "  1/7 index profile"
+echo "  1/9 index profile"
 "$firnray" profile --depths 0:200:1 -o "$out/profile.csv" --plot "$out/profile.svg"
 
-echo "  2/7 ray fan from a transmitter 60 m deep"
+echo "  2/9 ray fan from a transmitter 60 m deep"
 "$firnray" trace --from 0,-60 --zenith-range 20:160:5 --max-distance 1200 --floor-depth 400 \
     -o "$out/ray-fan.csv" --plot "$out/ray-fan.svg"
 
-echo "  3/7 shadow maps for three candidate receiver depths"
+echo "  3/9 shadow maps for three candidate receiver depths"
 for depth in 40 100 200; do
   "$firnray" shadow --receiver "0,-$depth" --source-distance 0:1500 --source-depth 0:300 --quiet \
       -o "$out/shadow-${depth}m.csv" --boundary "$out/shadow-boundary-${depth}m.csv" \
@@ -28,15 +28,15 @@ done
 "$firnray" shadow --station "$demo/station.toml" --min-receivers 6 --source-distance 0:1500 --source-depth 0:300 --quiet \
     -o "$out/station-visibility.csv" --plot "$out/station-visibility.svg"
 
-echo "  4/7 receiver-depth scan"
+echo "  4/9 receiver-depth scan"
 "$firnray" depths --depths 20:200:10 --source-distance 0:1500 --source-depth 0:300 --quiet \
     -o "$out/depth-scan.csv" --plot "$out/depth-scan.svg"
 
-echo "  5/7 delays of the calibration pulsers at every channel"
+echo "  5/9 delays of the calibration pulsers at every channel"
 "$firnray" delays --station "$demo/station.toml" --sources "$demo/calibration-sources.csv" \
     --reference A1 --derivatives --quiet -o "$out/calibration-delays.csv"
 
-echo "  6/7 a measured-style density log (synthetic) against its smooth exponential fit"
+echo "  6/9 a measured-style density log (synthetic) against its smooth exponential fit"
 # The log is taken as it is: its inversions and ducts are listed in the profile's # lines, and the
 # loader warns about the ice lens on stderr. Every step must succeed: a failure stops the demo
 # with a message, never a summary made of missing numbers.
@@ -57,7 +57,30 @@ for kind in fit log; do
   [ "$cells" -eq 20000 ] || fail "shadow-log-$kind.csv has $cells cells, not 200 x 100"
 done
 
-echo "  7/7 summary"
+# ---- Source reconstruction and resolution (docs/locate.md) -------------------------------------
+# demo/locate-events.csv holds arrival times of the calibration pulsers made by the path finder
+# with 0.5 ns of noise (fixed seed). The far pulser is seen by only 3 channels: its events are
+# reported as errors, which makes locate exit with 7 (some events failed); that is expected here.
+echo "  7/9 locate: the calibration pulsers from their noisy arrival times, and a resolution map"
+"$firnray" locate --station "$demo/station.toml" --arrivals "$demo/locate-events.csv" --format csv --quiet \
+    -o "$out/locate.csv" 2> "$out/locate.log" || [ $? -eq 7 ]
+"$firnray" resolution --station "$demo/station.toml" --source-distance 0:1500 --source-depth 0:300 \
+    --distance-cells 100 --depth-cells 40 --timing-sigma-ns 0.5 --quiet \
+    -o "$out/resolution.csv" --plot "$out/resolution.svg"
+
+# --- Phased-array trigger beams (issue 12): the fictional string PA of demo/station.toml ------------
+echo "  8/9 beams of the phased-array string PA: delays, coverage map and depth scan"
+"$firnray" beams --station "$demo/station.toml" --string PA --beam-count 8 --zenith-range 60:120 \
+    --sample-rate-ghz 1.5 --format json -o "$out/beams.json" --plot "$out/beams-array-factor.svg"
+"$firnray" beams --station "$demo/station.toml" --string PA --beam-count 8 --zenith-range 60:120 \
+    --source-distance 0:1500 --source-depth 0:300 --distance-cells 300 --depth-cells 120 --threshold 0.7 \
+    --quiet -o "$out/beams.txt" --map "$out/beams-coverage.csv" --map-plot "$out/beams-coverage.svg"
+"$firnray" beams --station "$demo/station.toml" --string PA --beam-count 8 --zenith-range 60:120 \
+    --source-distance 0:1500 --source-depth 0:300 --distance-cells 150 --depth-cells 60 --threshold 0.7 \
+    --scan depth --scan-values 40:200:20 --quiet -o /dev/null \
+    --scan-output "$out/beams-depth-scan.csv" --scan-plot "$out/beams-depth-scan.svg"
+
+echo "  9/9 summary"
 {
   echo "# What the demo shows (fictional Kestrel Station, generic polar firn model)"
   echo
@@ -108,39 +131,11 @@ echo "  7/7 summary"
   echo "  Maps: shadow-log-fit.svg and shadow-log-log.svg. Ray theory has no diffraction, and thin layers and"
   echo "  roughness scatter energy into any shadow: the boundary is a model prediction, not a wall."
   echo
-  echo "A deeper receiver sees more of the region and farther, at the price of a deeper borehole;"
-  echo "sources shallower than a few tens of metres are seen only from close by, whatever the depth."
-  echo "These are model predictions: check them against measurements at the site before drilling."
+  echo "## Reconstructing the calibration pulsers (locate; times made by the path finder with 0.5 ns of noise)"
+  awk -F, 'NR > 1 && $25 == "" { printf "- %s: x %.1f, y %.1f, z %.1f m (1 sigma %.1f, %.1f, %.1f m), chi2 %.1f / %d\n", $1, $3, $4, $5, sqrt($17), sqrt($20), sqrt($22), $7, $8 }
+           NR > 1 && $25 != "" { printf "- %s: not fitted (%s)\n", $1, ($25 ~ /at least 4/ ? "fewer than 4 pulses" : "see locate.csv") }' "$out/locate.csv"
+  echo "  Resolution map of the station (Cramer-Rao bound, 0.5 ns timing): resolution.svg."
 } > "$out/summary.md"
-cat "$out/summary.md"
-echo "firnray demo: done; plots are the .svg files in $out/"
-
-# ---- Source reconstruction and resolution (docs/locate.md) -------------------------------------
-# demo/locate-events.csv holds arrival times of the calibration pulsers made by the path finder
-# with 0.5 ns of noise (fixed seed). The far pulser is seen by only 3 channels: its events are
-# reported as errors, which makes locate exit with 7 (some events failed); that is expected here.
-echo "  locate: the calibration pulsers from their noisy arrival times"
-"$firnray" locate --station "$demo/station.toml" --arrivals "$demo/locate-events.csv" --format csv --quiet \
-    -o "$out/locate.csv" 2> "$out/locate.log" || [ $? -eq 7 ]
-awk -F, 'NR > 1 && $25 == "" { printf "    %s: x %.1f, y %.1f, z %.1f m (1 sigma %.1f, %.1f, %.1f m), chi2 %.1f / %d\n", $1, $3, $4, $5, sqrt($17), sqrt($20), sqrt($22), $7, $8 }
-         NR > 1 && $25 != "" { printf "    %s: not fitted (%s)\n", $1, ($25 ~ /at least 4/ ? "fewer than 4 pulses" : "see locate.csv") }' "$out/locate.csv"
-echo "  resolution map of the station (1 sigma of distance, depth, zenith, azimuth)"
-"$firnray" resolution --station "$demo/station.toml" --source-distance 0:1500 --source-depth 0:300 \
-    --distance-cells 100 --depth-cells 40 --timing-sigma-ns 0.5 --quiet \
-    -o "$out/resolution.csv" --plot "$out/resolution.svg"
-echo "firnray demo: reconstruction in $out/locate.csv, resolution map in $out/resolution.svg"
-
-# --- Phased-array trigger beams (issue 12): the fictional string PA of demo/station.toml ------------
-echo "  beams: trigger beams of the phased-array string PA, coverage map and depth scan"
-"$firnray" beams --station "$demo/station.toml" --string PA --beam-count 8 --zenith-range 60:120 \
-    --sample-rate-ghz 1.5 --format json -o "$out/beams.json" --plot "$out/beams-array-factor.svg"
-"$firnray" beams --station "$demo/station.toml" --string PA --beam-count 8 --zenith-range 60:120 \
-    --source-distance 0:1500 --source-depth 0:300 --distance-cells 300 --depth-cells 120 --threshold 0.7 \
-    --quiet -o "$out/beams.txt" --map "$out/beams-coverage.csv" --map-plot "$out/beams-coverage.svg"
-"$firnray" beams --station "$demo/station.toml" --string PA --beam-count 8 --zenith-range 60:120 \
-    --source-distance 0:1500 --source-depth 0:300 --distance-cells 150 --depth-cells 60 --threshold 0.7 \
-    --scan depth --scan-values 40:200:20 --quiet -o /dev/null \
-    --scan-output "$out/beams-depth-scan.csv" --scan-plot "$out/beams-depth-scan.svg"
 {
   echo
   echo "## Phased-array trigger (string PA: 8 antennas 1 m apart, 180-187 m deep; 8 beams, 60-120 deg)"
@@ -152,5 +147,10 @@ echo "  beams: trigger beams of the phased-array string PA, coverage map and dep
       "$out/beams-depth-scan.csv"
   echo "The beams' delays come from the model's vertical slowness integral, not the uniform-ice formula;"
   echo "near sources and second arrivals lose part of the coherent gain (beams-coverage.svg)."
+  echo
+  echo "A deeper receiver sees more of the region and farther, at the price of a deeper borehole;"
+  echo "sources shallower than a few tens of metres are seen only from close by, whatever the depth."
+  echo "These are model predictions: check them against measurements at the site before drilling."
 } >> "$out/summary.md"
-sed -n '/^## Phased-array trigger/,$p' "$out/summary.md"
+cat "$out/summary.md"
+echo "firnray demo: done; plots are the .svg files in $out/"
