@@ -629,8 +629,10 @@ void PathFinder::solve_transmitted(const Family& family, const std::vector<Term>
         return;
     }
     const double f1 = f(theta_high);
-    if (f1 < 0.0) return;
-    const double theta = f1 == 0.0 ? theta_high : bracketed_root(f, 0.0, theta_high, -r_, f1);
+    // An ice end on the surface has no ice leg: the air leg alone reaches R at θ_high, and f1 is
+    // zero up to the rounding of tan(atan2(R, h)); that is the path, not a miss.
+    if (f1 < 0.0 && -f1 > root_residual(r_)) return;
+    const double theta = f1 <= 0.0 ? theta_high : bracketed_root(f, 0.0, theta_high, -r_, f1);
     add_path(family, n_air_ * std::sin(theta), false);
 }
 

@@ -208,6 +208,15 @@ TEST_CASE("ends on and just above the surface: the straight air line from a sour
         const double launch = std::asin(std::sin(std::atan2(100.0, 10.0)) / 1.35);
         CHECK(std::abs(deg(up[0].launch_zenith_rad) - deg(launch)) <= angle_tolerance_deg);
         CHECK(std::abs(deg(up[0].arrival_zenith_rad) - deg(std::atan2(100.0, 10.0))) <= angle_tolerance_deg);
+        // Other heights and distances, where tan(atan2(R, h))·h rounds below R: still the air line.
+        for (const auto& [r, h] : {std::pair{50.0, 10.0}, std::pair{3.0, 7.0}, std::pair{1000.0, 1.0},
+                                   std::pair{37.3, 12.9}, std::pair{0.001, 25.0}}) {
+            INFO("receiver in the air at r " << r << " m, height " << h << " m");
+            const auto line = find_paths(*solver, {0.0, 0.0, 0.0}, {r, 0.0, h});
+            REQUIRE(line.size() == 1u);
+            CHECK(std::abs(ns(line[0].time_s) - ns(std::hypot(r, h) / speed_of_light)) <= time_tolerance_ns);
+            CHECK(std::abs(deg(line[0].arrival_zenith_rad) - deg(std::atan2(r, h))) <= angle_tolerance_deg);
+        }
         // A source 1e-6 m above the surface reaches an ice receiver as a source on the surface does
         // (the 1e-6 m of air add 3e-6 ns), also where its air leg must graze the surface.
         for (const auto& [r, z] : {std::pair{20.0, -50.0}, std::pair{10.0, -5.0}, std::pair{100.0, -50.0}}) {
