@@ -142,17 +142,32 @@ StratifiedArrivalTable::StratifiedArrivalTable(const FirnModel& model, const Str
         // Uniform in v, with geometric steps toward v = 0 and v = 1 (offsets down to ~1e-12 of the first
         // step): where the anchor is a local minimum of n, X diverges like ln(1/v) there, and
         // these samples carry the families out to distances far beyond any map.
-        std::vector<double> vs{0.0};
+        std::vector<double> offsets{0.0};
         const double first_step = 1.0 / (per_range - 1);
-        for (int j = divergent_end_samples; j >= 1; --j) vs.push_back(first_step * std::ldexp(1.0, -j));
-        for (int k = 1; k + 1 < per_range; ++k) vs.push_back(static_cast<double>(k) / (per_range - 1));
-        // The same toward v = 1, where the range meets the next cut (a local minimum of n too).
-        for (int j = 1; j <= divergent_end_samples; ++j) vs.push_back(1.0 - first_step * std::ldexp(1.0, -j));
-        vs.push_back(1.0);
-        range.count = vs.size();
-        for (const double v : vs) {
+        for (int j = divergent_end_samples; j >= 1; --j) {
+            const double v = first_step * std::ldexp(1.0, -j);
+            offsets.push_back(span * v * v);
+        }
+        for (int k = 1; k + 1 < per_range; ++k) {
+            const double v = static_cast<double>(k) / (per_range - 1);
+            offsets.push_back(span * v * v);
+        }
+        // The same toward v = 1, where the range meets the next cut (a local minimum of n too) from
+        // above: there X diverges like ln(1/(ξ − n_min)) and the roots of a map lie down to
+        // ξ − n_min of a few rounding errors of ξ, so the steps go on until ξ − n_min (computed
+        // directly, not as 1 − v, which would stop at 1e-16 of v) reaches that resolution.
+        const double resolution = 32.0 * std::numeric_limits<double>::epsilon() * range.high;
+        for (int j = 1; j <= 64; ++j) {
+            const double w = first_step * std::ldexp(1.0, -j);  // 1 − v
+            const double above_low = span * w * (2.0 - w);      // span (1 − v²)
+            if (j > divergent_end_samples && above_low < resolution) break;
+            offsets.push_back(span - above_low);
+        }
+        offsets.push_back(span);
+        range.count = offsets.size();
+        for (const double offset : offsets) {
             SampleLevel sample;
-            sample.offset = span * v * v;
+            sample.offset = offset;
             sample.anchor_z = range.anchor_z;
             sample.ray_parameter = range.high - sample.offset;
             sample.range = ranges_.size();
