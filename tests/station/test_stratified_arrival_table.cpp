@@ -364,3 +364,44 @@ TEST_CASE("stratified map table on a measured-like log with inversions (trend, s
     CHECK(c.kind_mismatch == 0);
     CHECK(c.worst_first_time_ns < 0.01);
 }
+
+TEST_CASE("positions inside a duct below an ice lens, beyond the reach of every path with fewer than two turns, are "
+          "mapped as seen only through ducted paths (ducting under a high-index layer, Budden 1985 linear layer)",
+          "[station][stratified-map][ducted]") {
+    // n² linear between knots: a lens of high index at 20 m above a low-index layer at 60 m, so
+    // rays with n(60 m) < ξ < n(20 m) starting near 60 m oscillate between two turning points.
+    const auto model = duct_model();
+    const StratifiedSolver solver(model);
+    const StratifiedProfile& profile = solver.stratified_profile();
+    Receiver receiver;
+    receiver.name = "in the duct";
+    receiver.z_m = -45.0;
+    MapGrid grid;
+    grid.distance_max_m = 1500.0, grid.distance_cells = 30;
+    grid.depth_min_m = 30.0, grid.depth_max_m = 110.0, grid.depth_cells = 8;
+    VisibilityOptions options;
+    options.max_bounces = 4;
+    options.threads = 2;
+    const VisibilityMap map = compute_visibility_map(solver, std::span<const Receiver>(&receiver, 1), grid, options);
+    REQUIRE(map.stratified);
+    StratifiedPathOptions exact_options;
+    exact_options.max_bounces = 4;
+    int ducted_only = 0;
+    for (int j = 0; j < grid.depth_cells; ++j)
+        for (int i = 0; i < grid.distance_cells; ++i) {
+            const MapCell& cell = map.at(j, i);
+            if (cell.kinds != kind_ducted) continue;
+            ++ducted_only;
+            // The reference finds paths there, and every one of them has two turns or more.
+            const auto paths = find_stratified_paths(profile, -grid.depth_at(j), -45.0, grid.distance_at(i), exact_options);
+            INFO("depth " << grid.depth_at(j) << " m, distance " << grid.distance_at(i) << " m");
+            CHECK_FALSE(paths.empty());
+            for (const auto& path : paths) CHECK(path.kind == StratifiedPathKind::ducted);
+        }
+    CHECK(ducted_only > 0);
+    // With at most one turn the same cells are shadow.
+    options.max_bounces = 1;
+    const VisibilityMap one_turn = compute_visibility_map(solver, std::span<const Receiver>(&receiver, 1), grid, options);
+    for (std::size_t c = 0; c < map.cells.size(); ++c)
+        if (map.cells[c].kinds == kind_ducted) CHECK(one_turn.cells[c].receivers_seeing == 0);
+}
