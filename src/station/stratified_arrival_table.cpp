@@ -229,6 +229,27 @@ StratifiedArrivalTable::StratifiedArrivalTable(const FirnModel& model, const Str
     parallel_for(rows_.size(), options.threads, options.control, [&](std::size_t j) { build_row(j); });
 }
 
+double StratifiedArrivalTable::memory_estimate_bytes(const StratifiedProfile& profile, std::size_t source_rows,
+                                                    const StratifiedTableOptions& options) {
+    // As the constructor: a range per local minimum of n, the top, the surface and the floor;
+    // per range the uniform samples, the geometric ones toward v = 0 and at most 64 toward v = 1.
+    const double ranges = static_cast<double>(profile.local_minima_z().size()) + 3.0;
+    const double per_range = std::max<double>(samples_per_range_minimum, options.ray_parameters / ranges);
+    const double samples = ranges * (per_range + divergent_end_samples + 64.0 + 1.0);
+    const double levels = static_cast<double>(source_rows) + 1.0;
+    const double families = 1.0 + 2.0 * std::max(0, options.max_bounces);
+    // Per level and sample: the interval index and four cumulative legs.
+    const double legs = levels * samples * (sizeof(std::int32_t) + 4 * sizeof(double));
+    // Per sample: its level and about one accessible interval per duct, plus the outer one.
+    const double per_sample = samples * (sizeof(SampleLevel) + (ranges / 2.0 + 1.0) * sizeof(IntervalLegs));
+    // Per row: the end points of every family, and a run and a refined fold or tail per family
+    // and range at most, each with its bracketing points.
+    const double per_row = static_cast<double>(source_rows) *
+                           (sizeof(Row) + families * end_samples * sizeof(Point) +
+                            families * ranges * (sizeof(Run) + sizeof(Exact) + 2 * sizeof(double) * 2));
+    return legs + per_sample + per_row;
+}
+
 StratifiedArrivalTable::Point StratifiedArrivalTable::table_point(const Row& row, int family_index,
                                                                   std::size_t k) const {
     Point p;

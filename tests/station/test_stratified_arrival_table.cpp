@@ -405,3 +405,24 @@ TEST_CASE("positions inside a duct below an ice lens, beyond the reach of every 
     for (std::size_t c = 0; c < map.cells.size(); ++c)
         if (map.cells[c].kinds == kind_ducted) CHECK(one_turn.cells[c].receivers_seeing == 0);
 }
+
+TEST_CASE("the memory estimate of the stratified table covers its cumulative legs, and is zero where maps use the "
+          "fast table (definition)",
+          "[station][stratified-map][memory]") {
+    const auto log = synthetic_log_model(200);
+    const StratifiedProfile profile(log->index);
+    std::vector<double> source_z;
+    for (double d : spaced(0.0, 190.0, 50)) source_z.push_back(-d);
+    StratifiedTableOptions options;
+    options.threads = 2;
+    const StratifiedArrivalTable table(*log, profile, -60.0, source_z, options);
+    const double legs_bytes = static_cast<double>(table.ray_parameter_samples()) * (source_z.size() + 1.0) *
+                              (sizeof(std::int32_t) + 4 * sizeof(double));
+    const double estimate = StratifiedArrivalTable::memory_estimate_bytes(profile, source_z.size(), options);
+    CHECK(estimate >= legs_bytes);
+    CHECK(estimate < 4.0 * legs_bytes);
+    // Through the map commands' entry point: a log needs the table, the shallow exponential model does not.
+    CHECK(stratified_map_memory_bytes(*log, 190.0, true, 500, 1500, 4) > 0.0);
+    CHECK(stratified_map_memory_bytes(*log, 190.0, true, 1000, 1500, 4) > stratified_map_memory_bytes(*log, 190.0, true, 500, 1500, 4));
+    CHECK(stratified_map_memory_bytes(default_model(), 500.0, true, 500, 1500, 4) == 0.0);
+}
