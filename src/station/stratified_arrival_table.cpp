@@ -444,9 +444,10 @@ void StratifiedArrivalTable::build_row(std::size_t index) {
                 while (run.last + 1 < positions && finite(run.last + 1) &&
                        (points[run.last + 1].distance >= points[run.last].distance) == run.increasing)
                     ++run.last;
+                run.low_m = std::min(points[run.first].distance, points[run.last].distance);
+                run.high_m = std::max(points[run.first].distance, points[run.last].distance);
                 row.runs.push_back(run);
-                visible.emplace_back(std::min(points[run.first].distance, points[run.last].distance),
-                                     std::max(points[run.first].distance, points[run.last].distance));
+                visible.emplace_back(run.low_m, run.high_m);
                 // A fold at the run's last point when the next run turns back.
                 const std::size_t e = run.last;
                 if (e + 1 < positions && finite(e + 1)) {
@@ -599,10 +600,8 @@ void StratifiedArrivalTable::arrivals(std::size_t index, double distance_m, std:
     const Row& row = rows_[index];
     if (!(distance_m <= row.max_reach_m)) return;
     for (const Run& run : row.runs) {
+        if (distance_m < run.low_m || distance_m >= run.high_m) continue;
         auto at = [&](std::size_t p) { return point_at(row, run.family, run.range, p); };
-        const Point first = at(run.first), last = at(run.last);
-        const double lo_x = std::min(first.distance, last.distance), hi_x = std::max(first.distance, last.distance);
-        if (distance_m < lo_x || distance_m >= hi_x) continue;
         std::size_t lo = run.first, hi = run.last;
         while (hi - lo > 1) {
             const std::size_t mid = (lo + hi) / 2;

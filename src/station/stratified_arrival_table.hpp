@@ -92,6 +92,7 @@ private:
         int family = 0;
         std::size_t range = 0, first = 0, last = 0;
         bool increasing = true;
+        double low_m = 0.0, high_m = 0.0;  // the distances it spans, so that a cell skips it cheaply
     };
     struct Exact {  // a fold or a divergent end, solved with family_legs
         int family = 0;

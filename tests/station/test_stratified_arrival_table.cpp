@@ -426,3 +426,4 @@ TEST_CASE("the memory estimate of the stratified table covers its cumulative leg
     CHECK(stratified_map_memory_bytes(*log, 190.0, true, 1000, 1500, 4) > stratified_map_memory_bytes(*log, 190.0, true, 500, 1500, 4));
     CHECK(stratified_map_memory_bytes(default_model(), 500.0, true, 500, 1500, 4) == 0.0);
 }
+
