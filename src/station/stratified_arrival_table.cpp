@@ -142,17 +142,32 @@ StratifiedArrivalTable::StratifiedArrivalTable(const FirnModel& model, const Str
         // Uniform in v, with geometric steps toward v = 0 and v = 1 (offsets down to ~1e-12 of the first
         // step): where the anchor is a local minimum of n, X diverges like ln(1/v) there, and
         // these samples carry the families out to distances far beyond any map.
-        std::vector<double> vs{0.0};
+        std::vector<double> offsets{0.0};
         const double first_step = 1.0 / (per_range - 1);
-        for (int j = divergent_end_samples; j >= 1; --j) vs.push_back(first_step * std::ldexp(1.0, -j));
-        for (int k = 1; k + 1 < per_range; ++k) vs.push_back(static_cast<double>(k) / (per_range - 1));
-        // The same toward v = 1, where the range meets the next cut (a local minimum of n too).
-        for (int j = 1; j <= divergent_end_samples; ++j) vs.push_back(1.0 - first_step * std::ldexp(1.0, -j));
-        vs.push_back(1.0);
-        range.count = vs.size();
-        for (const double v : vs) {
+        for (int j = divergent_end_samples; j >= 1; --j) {
+            const double v = first_step * std::ldexp(1.0, -j);
+            offsets.push_back(span * v * v);
+        }
+        for (int k = 1; k + 1 < per_range; ++k) {
+            const double v = static_cast<double>(k) / (per_range - 1);
+            offsets.push_back(span * v * v);
+        }
+        // The same toward v = 1, where the range meets the next cut (a local minimum of n too) from
+        // above: there X diverges like ln(1/(ξ − n_min)) and the roots of a map lie down to
+        // ξ − n_min of a few rounding errors of ξ, so the steps go on until ξ − n_min (computed
+        // directly, not as 1 − v, which would stop at 1e-16 of v) reaches that resolution.
+        const double resolution = 32.0 * std::numeric_limits<double>::epsilon() * range.high;
+        for (int j = 1; j <= 64; ++j) {
+            const double w = first_step * std::ldexp(1.0, -j);  // 1 − v
+            const double above_low = span * w * (2.0 - w);      // span (1 − v²)
+            if (j > divergent_end_samples && above_low < resolution) break;
+            offsets.push_back(span - above_low);
+        }
+        offsets.push_back(span);
+        range.count = offsets.size();
+        for (const double offset : offsets) {
             SampleLevel sample;
-            sample.offset = span * v * v;
+            sample.offset = offset;
             sample.anchor_z = range.anchor_z;
             sample.ray_parameter = range.high - sample.offset;
             sample.range = ranges_.size();
@@ -212,6 +227,27 @@ StratifiedArrivalTable::StratifiedArrivalTable(const FirnModel& model, const Str
     rows_.resize(source_z_.size());
     for (std::size_t j = 0; j < rows_.size(); ++j) rows_[j].source_level = level_of(source_z_[j]);
     parallel_for(rows_.size(), options.threads, options.control, [&](std::size_t j) { build_row(j); });
+}
+
+double StratifiedArrivalTable::memory_estimate_bytes(const StratifiedProfile& profile, std::size_t source_rows,
+                                                    const StratifiedTableOptions& options) {
+    // As the constructor: a range per local minimum of n, the top, the surface and the floor;
+    // per range the uniform samples, the geometric ones toward v = 0 and at most 64 toward v = 1.
+    const double ranges = static_cast<double>(profile.local_minima_z().size()) + 3.0;
+    const double per_range = std::max<double>(samples_per_range_minimum, options.ray_parameters / ranges);
+    const double samples = ranges * (per_range + divergent_end_samples + 64.0 + 1.0);
+    const double levels = static_cast<double>(source_rows) + 1.0;
+    const double families = 1.0 + 2.0 * std::max(0, options.max_bounces);
+    // Per level and sample: the interval index and four cumulative legs.
+    const double legs = levels * samples * (sizeof(std::int32_t) + 4 * sizeof(double));
+    // Per sample: its level and about one accessible interval per duct, plus the outer one.
+    const double per_sample = samples * (sizeof(SampleLevel) + (ranges / 2.0 + 1.0) * sizeof(IntervalLegs));
+    // Per row: the end points of every family, and a run and a refined fold or tail per family
+    // and range at most, each with its bracketing points.
+    const double per_row = static_cast<double>(source_rows) *
+                           (sizeof(Row) + families * end_samples * sizeof(Point) +
+                            families * ranges * (sizeof(Run) + sizeof(Exact) + 2 * sizeof(double) * 2));
+    return legs + per_sample + per_row;
 }
 
 StratifiedArrivalTable::Point StratifiedArrivalTable::table_point(const Row& row, int family_index,
@@ -408,9 +444,10 @@ void StratifiedArrivalTable::build_row(std::size_t index) {
                 while (run.last + 1 < positions && finite(run.last + 1) &&
                        (points[run.last + 1].distance >= points[run.last].distance) == run.increasing)
                     ++run.last;
+                run.low_m = std::min(points[run.first].distance, points[run.last].distance);
+                run.high_m = std::max(points[run.first].distance, points[run.last].distance);
                 row.runs.push_back(run);
-                visible.emplace_back(std::min(points[run.first].distance, points[run.last].distance),
-                                     std::max(points[run.first].distance, points[run.last].distance));
+                visible.emplace_back(run.low_m, run.high_m);
                 // A fold at the run's last point when the next run turns back.
                 const std::size_t e = run.last;
                 if (e + 1 < positions && finite(e + 1)) {
@@ -563,10 +600,8 @@ void StratifiedArrivalTable::arrivals(std::size_t index, double distance_m, std:
     const Row& row = rows_[index];
     if (!(distance_m <= row.max_reach_m)) return;
     for (const Run& run : row.runs) {
+        if (distance_m < run.low_m || distance_m >= run.high_m) continue;
         auto at = [&](std::size_t p) { return point_at(row, run.family, run.range, p); };
-        const Point first = at(run.first), last = at(run.last);
-        const double lo_x = std::min(first.distance, last.distance), hi_x = std::max(first.distance, last.distance);
-        if (distance_m < lo_x || distance_m >= hi_x) continue;
         std::size_t lo = run.first, hi = run.last;
         while (hi - lo > 1) {
             const std::size_t mid = (lo + hi) / 2;

@@ -34,6 +34,12 @@ struct StratifiedTableOptions {
 
 class StratifiedArrivalTable {
 public:
+    // An upper estimate of the memory (bytes) a table for this profile, `source_rows` source
+    // depths and these options holds: the cumulative legs per depth and ξ sample, the intervals
+    // per sample and each row's end points, runs and refined folds. For the commands' memory checks.
+    static double memory_estimate_bytes(const StratifiedProfile& profile, std::size_t source_rows,
+                                        const StratifiedTableOptions& options);
+
     // receiver_z and every source_z must be in the ice and above the profile's floor. The model
     // gives n_air (surface Fresnel factors), the bottom's reflectivity and the attenuation.
     StratifiedArrivalTable(const FirnModel& model, const StratifiedProfile& profile, double receiver_z,
@@ -86,6 +92,7 @@ private:
         int family = 0;
         std::size_t range = 0, first = 0, last = 0;
         bool increasing = true;
+        double low_m = 0.0, high_m = 0.0;  // the distances it spans, so that a cell skips it cheaply
     };
     struct Exact {  // a fold or a divergent end, solved with family_legs
         int family = 0;

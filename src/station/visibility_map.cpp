@@ -157,6 +157,16 @@ bool needs_stratified_table(const FirnModel& model, double deepest_m, bool botto
     return has_inversions(StratifiedProfile(model.index, bottom_of(model), analysis_depth_for(deepest_m)));
 }
 
+double stratified_map_memory_bytes(const FirnModel& model, double deepest_m, bool bottom_paths, std::size_t depth_rows,
+                                   int ray_parameters, int max_bounces) {
+    if (!needs_stratified_table(model, deepest_m, bottom_paths)) return 0.0;
+    const StratifiedProfile profile(model.index, bottom_of(model), analysis_depth_for(deepest_m));
+    StratifiedTableOptions options;
+    options.ray_parameters = ray_parameters;
+    options.max_bounces = max_bounces;
+    return StratifiedArrivalTable::memory_estimate_bytes(profile, depth_rows, options);
+}
+
 VisibilityMap compute_visibility_map(const RaySolver& solver, std::span<const Receiver> receivers, const MapGrid& grid,
                                      const VisibilityOptions& options) {
     grid.validate();

@@ -94,6 +94,12 @@ inline constexpr double deep_table_limit_m = 1000.0;
 // m, positive) below deep_table_limit_m.
 bool needs_stratified_table(const FirnModel& model, double deepest_m, bool bottom_paths);
 
+// The memory (bytes) of the stratified table one receiver's map holds for `depth_rows` source
+// depths (StratifiedArrivalTable::memory_estimate_bytes), or 0 when needs_stratified_table says
+// the map uses the fast table. For the memory checks of the map commands.
+double stratified_map_memory_bytes(const FirnModel& model, double deepest_m, bool bottom_paths, std::size_t depth_rows,
+                                   int ray_parameters, int max_bounces);
+
 // Receivers must lie in the ice. For one receiver, distances are measured from it; for several,
 // from the mean receiver position along the azimuth. The boundary of each depth row is exact: the
 // largest distance along the map line at which at least min_receivers receivers see the source,

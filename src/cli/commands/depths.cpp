@@ -1,5 +1,7 @@
 // firnray depths: scan candidate receiver depths and report, for a cylindrical source region,
 // how much of it one receiver sees, how much by two paths, and how far apart those arrive.
+#include <algorithm>
+
 #include <fmt/format.h>
 
 #include "cli/commands.hpp"
@@ -55,11 +57,17 @@ int run_depths(const DepthsArguments& args) {
                                                        number_for_message(options.region.depth_min_m)));
     options.region.depth_cells = args.depth_cells;
     const double rows = static_cast<double>(options.receiver_depths_m.size());
+    const auto model = load_model_or_default(args.model_path);
+    // One receiver depth at a time: at most one stratified table (logs, bottoms, deep ice) at once.
+    double deepest = options.region.depth_max_m;
+    for (double d : options.receiver_depths_m) deepest = std::max(deepest, d);
     check_memory_estimate(fmt::format("a depth scan over {} x {} cells", args.distance_cells, args.depth_cells),
                           static_cast<double>(options.region.cells()) * bytes_per_cell +
-                              args.ray_parameters * arrival_bytes_per_ray_parameter + rows * bytes_per_row,
+                              args.ray_parameters * arrival_bytes_per_ray_parameter + rows * bytes_per_row +
+                              stratified_map_memory_bytes(*model, deepest, !args.no_bottom,
+                                                          static_cast<std::size_t>(args.depth_cells), args.ray_parameters,
+                                                          args.max_bounces),
                           rows * bytes_per_row, args.memory_limit_mb);
-    const auto model = load_model_or_default(args.model_path);
     const auto solver = make_solver(model, parse_solver_choice(args.solver));
     if (args.amplitude_threshold > 0.0) options.amplitude_threshold_per_m = args.amplitude_threshold;
     options.ray_parameters = args.ray_parameters;
