@@ -10,7 +10,7 @@
 #include "core/errors.hpp"
 #include "core/parallel.hpp"
 #include "core/text.hpp"
-#include "station/arrival_table.hpp"
+#include "station/map_tables.hpp"
 #include "station/depth_scan.hpp"
 
 namespace firnray {
@@ -121,13 +121,18 @@ BeamCoverage compute_beam_coverage(const RaySolver& solver, const PhasedArray& a
 
     std::vector<double> source_z(static_cast<std::size_t>(grid.depth_cells));
     for (int j = 0; j < grid.depth_cells; ++j) source_z[static_cast<std::size_t>(j)] = -grid.depth_at(j);
-    ArrivalTableOptions table_options;
+    // The tables of the shadow maps (the engine that is exact for the model: ducts, bottom, deep ice).
+    MapTableOptions table_options;
     table_options.ray_parameters = options.ray_parameters;
+    table_options.max_bounces = options.max_bounces;
+    table_options.bottom_paths = options.bottom_paths;
     table_options.threads = options.threads;
     table_options.control.cancel = options.control.cancel;
-    std::vector<std::unique_ptr<ArrivalTable>> tables;
-    for (const Receiver& antenna : array.antennas)
-        tables.push_back(std::make_unique<ArrivalTable>(solver, antenna.z_m, source_z, table_options));
+    std::vector<double> antenna_z;
+    for (const Receiver& antenna : array.antennas) antenna_z.push_back(antenna.z_m);
+    const MapTables map_tables(solver, antenna_z, source_z, table_options);
+    std::vector<const ReceiverDepthTable*> tables;
+    for (const Receiver& antenna : array.antennas) tables.push_back(&map_tables.at(antenna.z_m));
 
     const Receiver& top = array.antennas.front();
     const double azimuth = deg_to_rad(options.azimuth_deg);

@@ -21,7 +21,11 @@ struct CoverageOptions {
     PulseShape pulse;
     std::optional<double> threshold;   // efficiency in (0, 1]: the trigger sees a cell at or above it
     double azimuth_deg = 0.0;          // direction of the map plane from the string (0 = +x, 90 = +y)
-    int ray_parameters = 1500;         // samples per arrival table (station/arrival_table.hpp)
+    int ray_parameters = 1500;         // samples per arrival table (station/map_tables.hpp)
+    // As in the shadow maps: the most turns and reflections per path (each counts one), and
+    // whether paths reflected at the model's bottom count.
+    int max_bounces = 4;
+    bool bottom_paths = true;
     int threads = 1;
     RunControl control;
 };

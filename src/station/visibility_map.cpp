@@ -11,9 +11,7 @@
 #include "core/constants.hpp"
 #include "core/errors.hpp"
 #include "core/parallel.hpp"
-#include "station/arrival_table.hpp"
-#include "station/stratified_arrival_table.hpp"
-#include "solver/stratified_intervals.hpp"
+#include "station/map_tables.hpp"
 
 namespace firnray {
 
@@ -41,52 +39,6 @@ std::uint8_t flag_of(ArrivalKind kind) {
     }
     return 0;
 }
-
-// One receiver depth's table, whichever engine made it.
-class RowTable {
-public:
-    virtual ~RowTable() = default;
-    virtual void arrivals(std::size_t row, double distance_m, std::vector<MapArrival>& out) const = 0;
-    virtual double max_reach_m(std::size_t row) const = 0;
-    // Sorted disjoint closed intervals of the distances at which the row's source is seen.
-    virtual std::vector<std::pair<double, double>> visible_distances(std::size_t row) const = 0;
-};
-
-class MonotoneRowTable final : public RowTable {
-public:
-    MonotoneRowTable(const RaySolver& solver, double receiver_z, std::vector<double> source_z,
-                     const ArrivalTableOptions& options)
-        : table_(solver, receiver_z, std::move(source_z), options) {}
-    void arrivals(std::size_t row, double distance_m, std::vector<MapArrival>& out) const override {
-        table_.arrivals(row, distance_m, out);
-    }
-    double max_reach_m(std::size_t row) const override { return table_.max_reach_m(row); }
-    // On a profile growing with depth the direct family starts at distance 0 (ξ = 0) and the
-    // families reach every distance up to the largest.
-    std::vector<std::pair<double, double>> visible_distances(std::size_t row) const override {
-        return {{0.0, table_.max_reach_m(row)}};
-    }
-
-private:
-    ArrivalTable table_;
-};
-
-class StratifiedRowTable final : public RowTable {
-public:
-    StratifiedRowTable(const FirnModel& model, const StratifiedProfile& profile, double receiver_z,
-                       std::vector<double> source_z, const StratifiedTableOptions& options)
-        : table_(model, profile, receiver_z, std::move(source_z), options) {}
-    void arrivals(std::size_t row, double distance_m, std::vector<MapArrival>& out) const override {
-        table_.arrivals(row, distance_m, out);
-    }
-    double max_reach_m(std::size_t row) const override { return table_.max_reach_m(row); }
-    std::vector<std::pair<double, double>> visible_distances(std::size_t row) const override {
-        return table_.visible_distances(row);
-    }
-
-private:
-    StratifiedArrivalTable table_;
-};
 
 bool seen_at(const std::vector<std::pair<double, double>>& visible, double distance) {
     for (const auto& [low, high] : visible)
@@ -135,38 +87,6 @@ double station_boundary(std::span<const Receiver> receivers, std::span<const std
     return boundary;
 }
 
-namespace {
-
-double analysis_depth_for(double deepest_m) {
-    return std::max(StratifiedProfile::default_analysis_depth_m, deepest_m + 100.0);
-}
-
-std::optional<double> bottom_of(const FirnModel& model) {
-    if (model.bottom) return model.bottom->z_m;
-    return std::nullopt;
-}
-
-bool has_inversions(const StratifiedProfile& profile) {
-    return !profile.local_minima_z().empty() || !profile.inversions().empty();
-}
-
-}  // namespace
-
-bool needs_stratified_table(const FirnModel& model, double deepest_m, bool bottom_paths) {
-    if ((model.bottom && bottom_paths) || deepest_m > deep_table_limit_m) return true;
-    return has_inversions(StratifiedProfile(model.index, bottom_of(model), analysis_depth_for(deepest_m)));
-}
-
-double stratified_map_memory_bytes(const FirnModel& model, double deepest_m, bool bottom_paths, std::size_t depth_rows,
-                                   int ray_parameters, int max_bounces) {
-    if (!needs_stratified_table(model, deepest_m, bottom_paths)) return 0.0;
-    const StratifiedProfile profile(model.index, bottom_of(model), analysis_depth_for(deepest_m));
-    StratifiedTableOptions options;
-    options.ray_parameters = ray_parameters;
-    options.max_bounces = max_bounces;
-    return StratifiedArrivalTable::memory_estimate_bytes(profile, depth_rows, options);
-}
-
 VisibilityMap compute_visibility_map(const RaySolver& solver, std::span<const Receiver> receivers, const MapGrid& grid,
                                      const VisibilityOptions& options) {
     grid.validate();
@@ -197,46 +117,21 @@ VisibilityMap compute_visibility_map(const RaySolver& solver, std::span<const Re
     std::vector<double> source_z(grid.depth_cells);
     for (int j = 0; j < grid.depth_cells; ++j) source_z[j] = -grid.depth_at(j);
 
-    // The engine: the fast table where it is exact, the stratified one otherwise.
-    const FirnModel& model = solver.model();
-    double deepest = grid.depth_max_m;
-    for (const Receiver& r : receivers) deepest = std::max(deepest, -r.z_m);
-    auto profile = std::make_unique<StratifiedProfile>(model.index, bottom_of(model), analysis_depth_for(deepest));
-    const bool inversions = has_inversions(*profile);
-    const bool bottom_wanted = model.bottom && options.bottom_paths;
-    bool stratified = options.engine == VisibilityOptions::Engine::stratified;
-    if (options.engine == VisibilityOptions::Engine::automatic)
-        stratified = inversions || bottom_wanted || deepest > deep_table_limit_m;
-    map.stratified = stratified;
-    if (model.bottom && !options.bottom_paths)
-        map.left_out.push_back("paths reflected at the bottom (left out by option)");
-    if (stratified && (!profile->ducts().empty() || bottom_wanted))
-        map.left_out.push_back(fmt::format(
-            "paths with more than {} turns and reflections (--max-bounces {})", options.max_bounces, options.max_bounces));
-    if (!stratified && inversions)
-        map.left_out.push_back("paths through the index inversions (the table for profiles growing with depth was used)");
-
-    // One table per distinct receiver depth: receivers in a ring at one depth share it.
-    ArrivalTableOptions table_options;
+    // One table per distinct receiver depth, from the engine that is exact for this model.
+    MapTableOptions table_options;
     table_options.ray_parameters = options.ray_parameters;
+    table_options.max_bounces = options.max_bounces;
+    table_options.bottom_paths = options.bottom_paths;
+    table_options.engine = options.engine;
     table_options.threads = options.threads;
     table_options.control.cancel = options.control.cancel;
-    StratifiedTableOptions stratified_options;
-    stratified_options.ray_parameters = options.ray_parameters;
-    stratified_options.max_bounces = options.max_bounces;
-    stratified_options.bottom_paths = options.bottom_paths;
-    stratified_options.threads = options.threads;
-    stratified_options.control.cancel = options.control.cancel;
-    std::map<double, std::unique_ptr<RowTable>> tables;
-    for (const Receiver& r : receivers) {
-        if (tables.count(r.z_m)) continue;
-        if (stratified)
-            tables[r.z_m] = std::make_unique<StratifiedRowTable>(model, *profile, r.z_m, source_z, stratified_options);
-        else
-            tables[r.z_m] = std::make_unique<MonotoneRowTable>(solver, r.z_m, source_z, table_options);
-    }
-    std::vector<const RowTable*> table_of;
-    for (const Receiver& r : receivers) table_of.push_back(tables.at(r.z_m).get());
+    std::vector<double> receiver_z;
+    for (const Receiver& r : receivers) receiver_z.push_back(r.z_m);
+    const MapTables tables(solver, receiver_z, source_z, table_options);
+    map.stratified = tables.stratified();
+    map.left_out = tables.left_out();
+    std::vector<const ReceiverDepthTable*> table_of;
+    for (const Receiver& r : receivers) table_of.push_back(&tables.at(r.z_m));
 
     const double azimuth = deg_to_rad(options.azimuth_deg);
     const double ux = std::cos(azimuth), uy = std::sin(azimuth);

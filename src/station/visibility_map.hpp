@@ -12,6 +12,7 @@
 
 #include "core/cancel.hpp"
 #include "solver/ray_solver.hpp"
+#include "station/map_tables.hpp"
 #include "station/station.hpp"
 
 namespace firnray {
@@ -63,7 +64,8 @@ struct VisibilityOptions {
     bool bottom_paths = true;       // include paths reflected at the model's bottom
     // automatic: the fast table (ArrivalTable) where it is exact (a profile growing with depth, no
     // bottom wanted, every depth above deep_table_limit_m), the stratified table otherwise.
-    enum class Engine { automatic, monotone, stratified } engine = Engine::automatic;
+    using Engine = MapTableOptions::Engine;
+    Engine engine = Engine::automatic;
     int threads = 1;
     RunControl control;
 };
@@ -84,21 +86,6 @@ struct VisibilityMap {
     const MapCell& at(int row, int column) const { return cells[static_cast<std::size_t>(row) * grid.distance_cells + column]; }
     bool visible(const MapCell& cell) const { return cell.receivers_seeing >= min_receivers; }
 };
-
-// Below this depth (m) ArrivalTable's single integration down from the surface loses the rays
-// that are nearly horizontal near n_deep; the stratified table resolves them (RayLevel).
-inline constexpr double deep_table_limit_m = 1000.0;
-
-// Whether compute_visibility_map's automatic engine uses the stratified table for this model:
-// n falls with depth somewhere, a bottom whose paths are wanted, or a depth (receiver or source,
-// m, positive) below deep_table_limit_m.
-bool needs_stratified_table(const FirnModel& model, double deepest_m, bool bottom_paths);
-
-// The memory (bytes) of the stratified table one receiver's map holds for `depth_rows` source
-// depths (StratifiedArrivalTable::memory_estimate_bytes), or 0 when needs_stratified_table says
-// the map uses the fast table. For the memory checks of the map commands.
-double stratified_map_memory_bytes(const FirnModel& model, double deepest_m, bool bottom_paths, std::size_t depth_rows,
-                                   int ray_parameters, int max_bounces);
 
 // Receivers must lie in the ice. For one receiver, distances are measured from it; for several,
 // from the mean receiver position along the azimuth. The boundary of each depth row is exact: the

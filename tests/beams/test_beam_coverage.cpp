@@ -11,6 +11,9 @@
 #include "core/errors.hpp"
 #include "model/firn_model.hpp"
 #include "model/index_profile.hpp"
+#include "model/table_profile.hpp"
+#include "paths/find_paths.hpp"
+#include "solver/make_solver.hpp"
 #include "solver/closed_form_solver.hpp"
 #include "solver/snell_integrals.hpp"
 #include "station/arrival_table.hpp"
@@ -176,4 +179,43 @@ TEST_CASE("coverage map and design scan: bad thresholds and values are refused, 
     scan_options.values = {0.0};
     CHECK_THROWS_AS(scan_array_design(solver, profile, array, scan_options), DataInputError);
     CHECK_THROWS_WITH(parse_design_parameter("spaceing"), Catch::Contains("spacing"));
+}
+
+TEST_CASE("coverage map on a profile whose index falls with depth: the antennas that see each source are those that "
+          "find_paths joins to it (cell by cell, Snell's law in a stratified medium)",
+          "[beams][coverage]") {
+    // A firn table with an ice lens at 22 m: n falls from 1.70 to 1.58 below it (a duct).
+    auto model = std::make_shared<FirnModel>();
+    model->name = "table with a lens";
+    model->index = std::make_shared<TableProfile>(std::vector<double>{0, 10, 20, 22, 24, 40, 80, 150, 300},
+                                                  std::vector<double>{1.35, 1.50, 1.60, 1.70, 1.58, 1.66, 1.74, 1.78, 1.78},
+                                                  TableInterpolation::monotone);
+    const auto solver = make_solver(model, SolverChoice::automatic);
+    const StratifiedProfile profile(model->index);
+    const PhasedArray array = test_array(30.0);
+    std::vector<PlaneWaveOffsets> beams;
+    for (double zenith : evenly_spaced_zeniths(6, 50.0, 130.0)) beams.push_back(plane_wave_offsets(profile, array, zenith));
+    MapGrid grid;
+    grid.distance_max_m = 400.0;
+    grid.distance_cells = 8;
+    grid.depth_max_m = 100.0;
+    grid.depth_cells = 10;
+    CoverageOptions options;
+    options.ray_parameters = 600;
+    options.max_bounces = 1;
+    const BeamCoverage coverage = compute_beam_coverage(*solver, array, beams, grid, options);
+    PathOptions path_options;
+    path_options.max_bounces = 1;
+    int seen_cells = 0;
+    for (int j = 0; j < grid.depth_cells; ++j)
+        for (int i = 0; i < grid.distance_cells; ++i) {
+            const Point source{grid.distance_at(i), 0.0, -grid.depth_at(j)};
+            int seeing = 0;
+            for (const Receiver& r : array.antennas)
+                seeing += find_paths(*solver, source, Point{r.x_m, r.y_m, r.z_m}, path_options).empty() ? 0 : 1;
+            INFO("source at distance " << source.x << " m, z " << source.z << " m");
+            CHECK(coverage.at(j, i).antennas_first == seeing);
+            seen_cells += seeing > 0;
+        }
+    CHECK(seen_cells > 0);
 }

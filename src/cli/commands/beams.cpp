@@ -36,6 +36,8 @@ struct BeamsArguments {
     std::string scan, scan_values, scan_output, scan_plot;
     std::string solver = "auto";
     int ray_parameters = 1500;
+    int max_bounces = CoverageOptions{}.max_bounces;
+    bool no_bottom = false;
     double memory_limit_mb = default_memory_limit_mb;
     RunOptions run;
 };
@@ -166,6 +168,8 @@ int run_beams(const BeamsArguments& args) {
     if (args.threshold > 0.0) coverage_options.threshold = args.threshold;
     coverage_options.azimuth_deg = args.azimuth_deg;
     coverage_options.ray_parameters = args.ray_parameters;
+    coverage_options.max_bounces = args.max_bounces;
+    coverage_options.bottom_paths = !args.no_bottom;
     coverage_options.threads = args.run.thread_count();
     std::unique_ptr<RaySolver> solver;
     if (with_map || with_scan) solver = make_solver(model, parse_solver_choice(args.solver));
@@ -281,6 +285,7 @@ void add_beams_command(CLI::App& app, CommandSlot& slot) {
     cmd->add_option("--scan-plot", args->scan_plot, "design scan SVG")->type_name("FILE.svg");
     add_solver_option(cmd, args->solver);
     add_ray_parameters_option(cmd, args->ray_parameters);
+    add_map_path_options(cmd, args->max_bounces, args->no_bottom);
     add_memory_limit_option(cmd, args->memory_limit_mb);
     add_run_options(cmd, args->run);
     cmd->footer(R"(
