@@ -55,6 +55,10 @@ void require(bool ok, const std::string& message, const char* key) {
 struct RayParameterRange {
     double high = 0.0, low = 0.0;
     double anchor_z = 0.0;
+    // `high` is n at a cut (a local minimum of n, the surface or the bottom), not the smallest n
+    // between the ends: at ξ = high exactly the pair's interval is that of the range above (a ray
+    // turning at the minimum instead of crossing it), so v = 0 itself does not belong to this range.
+    bool high_is_cut = false;
 };
 
 struct Sample {
@@ -186,6 +190,14 @@ public:
     std::vector<double> roots() {
         std::vector<Sample> samples;
         for (int i = 0; i <= samples_; ++i) samples.push_back(evaluate(static_cast<double>(i) / samples_));
+        // Where v = 0 is a cut (ξ at a local minimum of n), the range's own limit there is taken a
+        // few rounding errors of ξ inside: X may tend to a value (a kink of n) or diverge (a smooth
+        // minimum, X ~ log) on this side, while at the cut itself it is the other range's.
+        if (range_.high_is_cut) {
+            const double span = range_.high - range_.low;
+            const double v = std::sqrt(closest_offset() / span);
+            if (v < 1.0 / samples_) samples.front() = evaluate(v);
+        }
         approach_end(samples, true);
         approach_end(samples, false);
         std::sort(samples.begin(), samples.end(), [](const Sample& a, const Sample& b) { return a.v < b.v; });
@@ -225,7 +237,7 @@ private:
         // No closer to the end than a few rounding errors of ξ: rays whose ξ lies within that of a
         // double root (a local minimum of n) are not resolved by a double ξ anyway.
         const double spacing = 1.0 / samples_, span = range_.high - range_.low;
-        const double closest = 4.0 * std::numeric_limits<double>::epsilon() * range_.high;
+        const double closest = closest_offset();
         for (int j = 1; j <= 200; ++j) {
             const double step = spacing * std::ldexp(1.0, -j);
             const double v = at_zero ? step : 1.0 - step;
@@ -238,6 +250,10 @@ private:
             if (std::isfinite(s.f) && s.f > 0.0 && growing_toward_end) break;
         }
     }
+
+    // The closest to an end of the range that ξ is taken: a few rounding errors of ξ (rays whose ξ
+    // lies within that of a double root, a local minimum of n, are not resolved by a double ξ).
+    double closest_offset() const { return 4.0 * std::numeric_limits<double>::epsilon() * range_.high; }
 
     double root_between(const Sample& a, const Sample& b) const {
         auto f = [&](double v) {
@@ -321,7 +337,7 @@ std::vector<RayParameterRange> ray_parameter_ranges(const StratifiedProfile& pro
     std::vector<RayParameterRange> ranges;
     for (std::size_t i = 0; i < cuts.size(); ++i) {
         const double low = i + 1 < cuts.size() ? cuts[i + 1].first : 0.0;
-        if (cuts[i].first > low) ranges.push_back({cuts[i].first, low, cuts[i].second});
+        if (cuts[i].first > low) ranges.push_back({cuts[i].first, low, cuts[i].second, i > 0});
     }
     return ranges;
 }
