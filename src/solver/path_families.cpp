@@ -190,14 +190,12 @@ public:
     std::vector<double> roots() {
         std::vector<Sample> samples;
         for (int i = 0; i <= samples_; ++i) samples.push_back(evaluate(static_cast<double>(i) / samples_));
-        // Where v = 0 is a cut (ξ at a local minimum of n), the range's own limit there is taken a
-        // few rounding errors of ξ inside: X may tend to a value (a kink of n) or diverge (a smooth
-        // minimum, X ~ log) on this side, while at the cut itself it is the other range's.
-        if (range_.high_is_cut) {
-            const double span = range_.high - range_.low;
-            const double v = std::sqrt(closest_offset() / span);
-            if (v < 1.0 / samples_) samples.front() = evaluate(v);
-        }
+        // Where v = 0 is a cut (ξ at a local minimum of n), the range's own limit there is taken
+        // just inside, far below a rounding error of ξ (the anchored level resolves n − ξ there):
+        // X may tend to a value (a kink of n) or diverge (a smooth minimum, X ~ log) on this side,
+        // while at the cut itself it is the other range's. root_between closes in on a root
+        // between it and the first sample geometrically, as from v = 0.
+        if (range_.high_is_cut) samples.front() = evaluate(cut_limit_v);
         approach_end(samples, true);
         approach_end(samples, false);
         std::sort(samples.begin(), samples.end(), [](const Sample& a, const Sample& b) { return a.v < b.v; });
@@ -254,6 +252,8 @@ private:
     // The closest to an end of the range that ξ is taken: a few rounding errors of ξ (rays whose ξ
     // lies within that of a double root, a local minimum of n, are not resolved by a double ξ).
     double closest_offset() const { return 4.0 * std::numeric_limits<double>::epsilon() * range_.high; }
+    // The first sample of a range whose v = 0 is a cut: n − ξ = span·1e-120 there.
+    static constexpr double cut_limit_v = 1e-60;
 
     double root_between(const Sample& a, const Sample& b) const {
         auto f = [&](double v) {
@@ -267,10 +267,10 @@ private:
         // A root next to v = 0 can lie many decades below the first sample (equal depths in deep
         // ice: n − ξ ~ 1e-19 where X = R, X ∝ v there): close in on it geometrically first, which
         // keeps TOMS748 within its iterations.
-        if (va == 0.0) {
+        if (va == 0.0 || va == cut_limit_v) {
             for (int k = 0; k < 120; ++k) {
                 const double vm = 0.25 * vb;
-                if (!(vm > 0.0)) break;
+                if (!(vm > va)) break;
                 const double fm = f(vm);
                 if (fm == 0.0) return vm;
                 if ((fm < 0.0) == (fa < 0.0)) {
