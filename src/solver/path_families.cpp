@@ -55,6 +55,10 @@ void require(bool ok, const std::string& message, const char* key) {
 struct RayParameterRange {
     double high = 0.0, low = 0.0;
     double anchor_z = 0.0;
+    // `high` is n at a local minimum of n beyond the ends: at ξ = high exactly the pair's interval is
+    // that of the range above (a ray turning at the minimum instead of crossing it), so v = 0
+    // itself does not belong to this range. (At n of the surface or the bottom both sides agree.)
+    bool high_is_cut = false;
 };
 
 struct Sample {
@@ -186,6 +190,12 @@ public:
     std::vector<double> roots() {
         std::vector<Sample> samples;
         for (int i = 0; i <= samples_; ++i) samples.push_back(evaluate(static_cast<double>(i) / samples_));
+        // Where v = 0 is a local minimum of n, the range's own limit there is taken
+        // just inside, far below a rounding error of ξ (the anchored level resolves n − ξ there):
+        // X may tend to a value (a kink of n) or diverge (a smooth minimum, X ~ log) on this side,
+        // while at the cut itself it is the other range's. root_between closes in on a root
+        // between it and the first sample geometrically, as from v = 0.
+        if (range_.high_is_cut) samples.front() = evaluate(cut_limit_v);
         approach_end(samples, true);
         approach_end(samples, false);
         std::sort(samples.begin(), samples.end(), [](const Sample& a, const Sample& b) { return a.v < b.v; });
@@ -225,7 +235,7 @@ private:
         // No closer to the end than a few rounding errors of ξ: rays whose ξ lies within that of a
         // double root (a local minimum of n) are not resolved by a double ξ anyway.
         const double spacing = 1.0 / samples_, span = range_.high - range_.low;
-        const double closest = 4.0 * std::numeric_limits<double>::epsilon() * range_.high;
+        const double closest = closest_offset();
         for (int j = 1; j <= 200; ++j) {
             const double step = spacing * std::ldexp(1.0, -j);
             const double v = at_zero ? step : 1.0 - step;
@@ -239,6 +249,12 @@ private:
         }
     }
 
+    // The closest to an end of the range that ξ is taken: a few rounding errors of ξ (rays whose ξ
+    // lies within that of a double root, a local minimum of n, are not resolved by a double ξ).
+    double closest_offset() const { return 4.0 * std::numeric_limits<double>::epsilon() * range_.high; }
+    // The first sample of a range whose v = 0 is a cut: n − ξ = span·1e-24 there.
+    static constexpr double cut_limit_v = 1e-12;
+
     double root_between(const Sample& a, const Sample& b) const {
         auto f = [&](double v) {
             const Sample s = evaluate(v);
@@ -251,10 +267,10 @@ private:
         // A root next to v = 0 can lie many decades below the first sample (equal depths in deep
         // ice: n − ξ ~ 1e-19 where X = R, X ∝ v there): close in on it geometrically first, which
         // keeps TOMS748 within its iterations.
-        if (va == 0.0) {
+        if (va == 0.0 || va == cut_limit_v) {
             for (int k = 0; k < 120; ++k) {
                 const double vm = 0.25 * vb;
-                if (!(vm > 0.0)) break;
+                if (!(vm > va)) break;
                 const double fm = f(vm);
                 if (fm == 0.0) return vm;
                 if ((fm < 0.0) == (fa < 0.0)) {
@@ -300,28 +316,33 @@ private:
 // when they are such record lows.
 std::vector<RayParameterRange> ray_parameter_ranges(const StratifiedProfile& profile, double z_low, double z_high) {
     const auto [top, top_z] = profile.minimum_index(z_low, z_high);
-    std::vector<std::pair<double, double>> cuts{{top, top_z}};  // (ξ, anchor z)
+    struct Cut {
+        double ray_parameter, anchor_z;
+        bool at_minimum;  // n of a local minimum (not of the surface, the bottom or between the ends)
+    };
+    std::vector<Cut> cuts{{top, top_z, false}};
     const auto& minima = profile.local_minima_z();  // from the surface down
     double lowest = top;
-    auto consider = [&](double z) {
+    auto consider = [&](double z, bool at_minimum) {
         const double n = profile.index(z);
         if (n < lowest && n > 0.0) {
-            cuts.emplace_back(n, z);
+            cuts.push_back({n, z, at_minimum});
             lowest = n;
         }
     };
     for (auto it = minima.rbegin(); it != minima.rend(); ++it)
-        if (*it > z_high) consider(*it);
-    consider(0.0);
+        if (*it > z_high) consider(*it, true);
+    consider(0.0, false);
     lowest = top;
     for (double z : minima)
-        if (z < z_low) consider(z);
-    consider(profile.bottom_z() ? *profile.bottom_z() : profile.floor_z());
-    std::sort(cuts.begin(), cuts.end(), [](const auto& a, const auto& b) { return a.first > b.first; });
+        if (z < z_low) consider(z, true);
+    consider(profile.bottom_z() ? *profile.bottom_z() : profile.floor_z(), false);
+    std::sort(cuts.begin(), cuts.end(), [](const Cut& a, const Cut& b) { return a.ray_parameter > b.ray_parameter; });
     std::vector<RayParameterRange> ranges;
     for (std::size_t i = 0; i < cuts.size(); ++i) {
-        const double low = i + 1 < cuts.size() ? cuts[i + 1].first : 0.0;
-        if (cuts[i].first > low) ranges.push_back({cuts[i].first, low, cuts[i].second});
+        const double low = i + 1 < cuts.size() ? cuts[i + 1].ray_parameter : 0.0;
+        if (cuts[i].ray_parameter > low)
+            ranges.push_back({cuts[i].ray_parameter, low, cuts[i].anchor_z, i > 0 && cuts[i].at_minimum});
     }
     return ranges;
 }

@@ -486,9 +486,18 @@ std::optional<LegIntegrals> horizontal_limit(const StratifiedProfile& profile, c
     double n, dn, d2n;
     profile.evaluate(cell, fixed_end.z, n, dn, d2n);
     const double xi = level.ray_parameter;
-    const double curvature_length = d2n == 0.0 ? infinity : std::abs(dn / d2n);
+    // The length on which the linear (or parabolic) model of n stops holding: n′/n″, and also
+    // √(n′/n‴) and n/n′, because n″ alone vanishes at an inflection point inside a cell (the middle
+    // of a table's piece between a maximum and a minimum), where it would call every leg from there
+    // "horizontal"; the cell's length when nothing else bounds it.
+    const double third = profile.third_derivative(cell, fixed_end.z);
+    double variation_length = dn == 0.0 ? infinity : std::abs(n / dn);
+    if (d2n != 0.0) variation_length = std::min(variation_length, std::abs(dn / d2n));
+    if (third != 0.0) variation_length = std::min(variation_length, std::sqrt(std::abs(dn / third)));
+    if (d2n == 0.0 && third == 0.0)
+        variation_length = std::min(variation_length, profile.cell_top(cell) - profile.cell_bottom(cell));
     const double resolution = 256.0 * std::numeric_limits<double>::epsilon() * std::max(1.0, std::abs(fixed_end.z));
-    if (height > std::max(resolution, 1e-10 * curvature_length)) return std::nullopt;
+    if (height > std::max(resolution, 1e-10 * variation_length)) return std::nullopt;
     LegIntegrals out;
     if (turning_ends == 1) {
         const double g0 = std::max(0.0, profile.gap(level, fixed_end.z));

@@ -5,6 +5,7 @@
 // has a duct: n² rises with depth to z = −20 m, falls to z = −60 m and rises again.
 #include <catch2/catch.hpp>
 
+#include <algorithm>
 #include <cmath>
 #include <map>
 #include <memory>
@@ -215,4 +216,38 @@ TEST_CASE("stratified paths in a duct: every ducted path, its number per family 
         WARN("R " << distance << " m: " << paths.size() << " paths, largest time error " << worst_time * 1e9
                   << " ns, launch angle " << rad_to_deg(worst_angle) << " deg");
     }
+}
+
+TEST_CASE("stratified paths grazing the duct's minimum of n from both sides (ξ within 1e-3 to 1e-12 of it) are "
+          "all found, with the times of the parabolic closed form of the linear layer (Budden 1985)",
+          "[solver][stratified]") {
+    // Below the minimum at −60 m a ray turns just under it (ξ above n_min) or crosses it nearly
+    // horizontally into the duct and turns near the surface (ξ below n_min): X jumps there, and
+    // the samples at the cut itself belong to the other side.
+    const auto p = duct_profile();
+    const StratifiedProfile profile(p);
+    const double n_min = std::sqrt(2.60), zs = -65.6, zr = -100.0;
+    int checked = 0;
+    for (double offset : {1e-3, 1e-5, 1.6e-8, 1e-10, 1e-12}) {
+        for (double side : {1.0, -1.0}) {
+            const double xi = n_min + side * offset;
+            for (bool upward : {false, true}) {
+                const auto ref = closed_family(*p, xi, upward, upward ? 1 : 0, zs, zr);
+                REQUIRE(ref);
+                const double distance = ref->distance;
+                const auto paths = find_stratified_paths(profile, zs, zr, distance);
+                const std::string label = upward ? "U" : "direct";
+                INFO("ξ − n_min " << side * offset << ", family " << label << ", R " << distance << " m");
+                auto found = std::find_if(paths.begin(), paths.end(), [&](const StratifiedPath& path) {
+                    // ξ to what 1e-11 of R says about it (X is steep here: ∂X/∂ξ ~ 1e4 m).
+                    return path.family == label &&
+                           std::abs(path.ray_parameter - xi) <= 1e-11 * distance / std::abs(path.distance_derivative) + 1e-15;
+                });
+                REQUIRE(found != paths.end());
+                CHECK(found->time_s == Approx(ref->optical / speed_of_light).epsilon(1e-12));
+                ++checked;
+            }
+        }
+    }
+    CHECK(checked == 20);
 }
