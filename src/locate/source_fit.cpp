@@ -28,8 +28,8 @@ constexpr double converged_chi2_decrease = 1e-9;
 // Rounds of matching and emission time per position of the coarse search: enough to find the
 // basin, which the refinement then settles with the full alternation.
 constexpr int coarse_rounds = 2;
-// The first stage of the coarse search looks at every coarse_stride-th azimuth and distance of
-// the search grid: a quarter of its positions (docs/locate.md).
+// The first stage of the coarse search looks at every coarse_stride-th azimuth, distance and
+// level of the search grid: an eighth of its positions (docs/locate.md).
 constexpr int coarse_stride = 2;
 // Paths of one channel whose match costs assign_pulses keeps on the stack (more go to the heap).
 constexpr int stack_paths = 8;
@@ -459,7 +459,7 @@ EventFit SourceLocator::fit(const ArrivalEvent& event) const {
     for (std::size_t c : prepared.channels) event_receivers.push_back(station_.receivers[c]);
 
     // Coarse search, coarse to fine: χ² (with the best assignment there) first on every
-    // coarse_stride-th azimuth and distance of the search grid (every level), then, from the best
+    // coarse_stride-th azimuth, distance and level of the search grid, then, from the best
     // local minima of that sub-grid, a descent on the full grid to its local minimum. χ² of the
     // full grid is computed only where the descent looks (NaN: not computed yet).
     const SearchTable& t = *table_;
@@ -480,7 +480,7 @@ EventFit SourceLocator::fit(const ArrivalEvent& event) const {
         chi2[p] = assignment.unmatched == 0 ? assignment.chi2 : infinite_chi2;
         return chi2[p];
     };
-    // Is p lower than every neighbour at the given azimuth and distance stride (levels ±1)?
+    // Is p lower than every neighbour at the given stride in azimuth, distance and level?
     // Ties go to the lower index, so that a flat region yields one minimum.
     const auto local_minimum = [&](int a, int d, int l, int stride) {
         const std::size_t p = t.index(a, d, l);
@@ -488,7 +488,7 @@ EventFit SourceLocator::fit(const ArrivalEvent& event) const {
         if (!std::isfinite(here)) return false;
         for (int da = -stride; da <= stride; da += stride)
             for (int dd = -stride; dd <= stride; dd += stride)
-                for (int dl = -1; dl <= 1; ++dl) {
+                for (int dl = -stride; dl <= stride; dl += stride) {
                     const int nd = d + dd, nl = l + dl;
                     if (nd < 0 || nd >= t.distances || nl < 0 || nl >= t.levels) continue;
                     const std::size_t q = t.index(((a + da) % t.azimuths + t.azimuths) % t.azimuths, nd, nl);
@@ -498,11 +498,14 @@ EventFit SourceLocator::fit(const ArrivalEvent& event) const {
                 }
         return true;
     };
-    const int stride = (t.azimuths % coarse_stride == 0 && t.distances > 2 * coarse_stride) ? coarse_stride : 1;
+    // A grid too small to thin (or whose azimuths would not close the circle) is searched whole.
+    const int stride =
+        (t.azimuths % coarse_stride == 0 && t.distances > 2 * coarse_stride && t.levels > 2 * coarse_stride) ? coarse_stride
+                                                                                                            : 1;
     std::vector<std::size_t> coarse_minima;
     for (int a = 0; a < t.azimuths; a += stride)
         for (int d = 0; d < t.distances; d += stride)
-            for (int l = 0; l < t.levels; ++l)
+            for (int l = 0; l < t.levels; l += stride)
                 if (local_minimum(a, d, l, stride)) coarse_minima.push_back(t.index(a, d, l));
     std::sort(coarse_minima.begin(), coarse_minima.end(), [&](std::size_t x, std::size_t y) { return chi2[x] < chi2[y]; });
     if (coarse_minima.size() > static_cast<std::size_t>(options_.candidates))
