@@ -81,7 +81,8 @@ int run_depths(const DepthsArguments& args) {
     finish_progress(args.run);
 
     // The same region, seen from the station centre, on a grid of its own: every cell costs a
-    // path search per receiver, so the visibility grid would be far too fine.
+    // path search per receiver, so the visibility grid would be far too fine. One map is held at
+    // a time, at most 500 x 500 cells (the options' caps), so it needs no memory check of its own.
     std::optional<DepthResolutionScan> resolution;
     if (resolution_station) {
         MapGrid grid = options.region;
@@ -149,12 +150,12 @@ void add_depths_command(CLI::App& app, CommandSlot& slot) {
     cmd->add_option("--resolution-distance-cells", args->resolution_distance_cells,
                     "with --resolution: distance columns of its grid over the region")
         ->capture_default_str()
-        ->check(CLI::Range(1, 2000))
+        ->check(CLI::Range(1, 500))
         ->needs(resolution);
     cmd->add_option("--resolution-depth-cells", args->resolution_depth_cells,
                     "with --resolution: depth rows of its grid over the region")
         ->capture_default_str()
-        ->check(CLI::Range(1, 2000))
+        ->check(CLI::Range(1, 500))
         ->needs(resolution);
     cmd->add_option("--timing-sigma-ns", args->timing_sigma_ns, "with --resolution: 1σ timing uncertainty of every pulse (ns)")
         ->capture_default_str()
