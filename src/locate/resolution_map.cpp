@@ -1,5 +1,6 @@
 #include "locate/resolution_map.hpp"
 
+#include <algorithm>
 #include <cmath>
 
 #include <Eigen/Dense>
@@ -102,6 +103,62 @@ ResolutionMap compute_resolution_map(const RaySolver& solver, std::span<const Re
         map.cells[cell] = cramer_rao_bound(solver, receivers, source, map.centre, options.fisher);
     });
     return map;
+}
+
+ResolutionSummary summarize_resolution(const ResolutionMap& map) {
+    ResolutionSummary summary;
+    summary.cells = map.cells.size();
+    std::vector<double> distance, depth;
+    for (const CramerRao& cell : map.cells) {
+        if (!cell.resolved) continue;
+        distance.push_back(cell.view.sigma_distance_m);
+        depth.push_back(cell.view.sigma_depth_m);
+    }
+    summary.resolved_cells = distance.size();
+    summary.unresolved_fraction =
+        summary.cells == 0 ? 1.0 : 1.0 - static_cast<double>(summary.resolved_cells) / static_cast<double>(summary.cells);
+    // The median of an even count is the mean of the two middle values.
+    const auto median = [](std::vector<double>& values) -> std::optional<double> {
+        if (values.empty()) return std::nullopt;
+        std::sort(values.begin(), values.end());
+        const std::size_t half = values.size() / 2;
+        return values.size() % 2 == 1 ? values[half] : 0.5 * (values[half - 1] + values[half]);
+    };
+    summary.median_sigma_distance_m = median(distance);
+    summary.median_sigma_depth_m = median(depth);
+    return summary;
+}
+
+std::vector<Receiver> receivers_at_depth(std::span<const Receiver> receivers, double top_depth_m) {
+    if (receivers.empty()) throw DataInputError("the station has no receivers to move to a depth");
+    if (!(std::isfinite(top_depth_m) && top_depth_m >= 0.0))
+        throw DataInputError(fmt::format("{} is not a receiver depth (m, positive down, >= 0)", number_for_message(top_depth_m)),
+                             {"", 0, "depth"});
+    double top_z = receivers.front().z_m;
+    for (const Receiver& r : receivers) top_z = std::max(top_z, r.z_m);
+    const double shift = -top_depth_m - top_z;
+    std::vector<Receiver> moved(receivers.begin(), receivers.end());
+    for (Receiver& r : moved) {
+        r.z_m += shift;
+        r.in_air = false;  // the shallowest is at or below the surface, so every one is
+    }
+    return moved;
+}
+
+DepthResolutionScan scan_resolution_by_depth(const RaySolver& solver, const Station& station,
+                                             std::span<const double> top_depths_m, const MapGrid& grid,
+                                             const ResolutionOptions& options) {
+    DepthResolutionScan scan;
+    scan.station = station.name;
+    scan.grid = grid;
+    scan.azimuth_deg = options.azimuth_deg;
+    scan.timing_sigma_ns = options.fisher.timing_sigma_ns;
+    for (double depth : top_depths_m) {
+        options.control.throw_if_cancelled();
+        const std::vector<Receiver> moved = receivers_at_depth(station.receivers, depth);
+        scan.rows.push_back(summarize_resolution(compute_resolution_map(solver, moved, grid, options)));
+    }
+    return scan;
 }
 
 }  // namespace firnray

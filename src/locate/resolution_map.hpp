@@ -4,6 +4,7 @@
 #pragma once
 
 #include <cstddef>
+#include <optional>
 #include <span>
 #include <string>
 #include <vector>
@@ -62,5 +63,33 @@ struct ResolutionMap {
 // The bound at every cell of the grid (sources in the ice, at the cell centres).
 ResolutionMap compute_resolution_map(const RaySolver& solver, std::span<const Receiver> receivers, const MapGrid& grid,
                                      const ResolutionOptions& options);
+
+// A resolution map in three figures: what `depths --resolution` reports per candidate depth.
+struct ResolutionSummary {
+    std::size_t cells = 0, resolved_cells = 0;
+    double unresolved_fraction = 1.0;  // share of the map's cells (by count) that are not resolved
+    // Medians of the 1σ over the resolved cells; empty when no cell is resolved.
+    std::optional<double> median_sigma_distance_m, median_sigma_depth_m;
+};
+
+ResolutionSummary summarize_resolution(const ResolutionMap& map);
+
+// The receivers moved vertically, together, so that the shallowest sits top_depth_m (>= 0) below
+// the surface: the strings keep their layout and spacing. Throws DataInputError for no receivers
+// or a depth that is negative or not finite.
+std::vector<Receiver> receivers_at_depth(std::span<const Receiver> receivers, double top_depth_m);
+
+// The resolution of a station lowered to each candidate depth (its shallowest receiver there), on
+// one distance × depth grid seen from the station centre: the `--resolution` option of `depths`.
+struct DepthResolutionScan {
+    std::string station;  // the station's name
+    MapGrid grid;
+    double azimuth_deg = 0.0, timing_sigma_ns = 0.0;
+    std::vector<ResolutionSummary> rows;  // one per candidate depth, in the order given
+};
+
+DepthResolutionScan scan_resolution_by_depth(const RaySolver& solver, const Station& station,
+                                             std::span<const double> top_depths_m, const MapGrid& grid,
+                                             const ResolutionOptions& options);
 
 }  // namespace firnray

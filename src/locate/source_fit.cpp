@@ -28,6 +28,11 @@ constexpr double converged_chi2_decrease = 1e-9;
 // Rounds of matching and emission time per position of the coarse search: enough to find the
 // basin, which the refinement then settles with the full alternation.
 constexpr int coarse_rounds = 2;
+// The first stage of the coarse search looks at every coarse_stride-th azimuth, distance and
+// level of the search grid: an eighth of its positions (docs/locate.md).
+constexpr int coarse_stride = 2;
+// Paths of one channel whose match costs assign_pulses keeps on the stack (more go to the heap).
+constexpr int stack_paths = 8;
 // What a pulse that no predicted path explains adds to χ²: a 5σ miss (docs/locate.md).
 constexpr double unmatched_pulse_chi2 = 25.0;
 
@@ -88,6 +93,7 @@ struct Assignment {
 template <class TimesOf>
 void assign_pulses(const PreparedEvent& event, TimesOf&& times_of, Assignment& a, int rounds = 8) {
     const std::size_t pulses = event.time_ns.size();
+    std::vector<double> heap_cost;
     a.path_of_pulse.assign(pulses, -1);
     a.valid = false;
     a.chi2 = infinite_chi2;
@@ -121,29 +127,39 @@ void assign_pulses(const PreparedEvent& event, TimesOf&& times_of, Assignment& a
             const auto& times = times_of(g);
             const int paths = static_cast<int>(times.size());
             const auto& group = event.pulses_of[g];
-            const auto cost = [&](int pulse, int path) {
-                if (path < 0) return unmatched_pulse_chi2;
-                const auto k = static_cast<std::size_t>(pulse);
-                const double r = event.time_ns[k] - a.t0_ns - times[static_cast<std::size_t>(path)];
-                return event.weight[k] * r * r;
-            };
+            // cost[k * (paths + 1) + path + 1]: χ² of the channel's k-th pulse on that path (slot 0:
+            // unmatched), computed once per round rather than once per match tried; on the stack
+            // unless a channel has many paths (ducts).
+            const int count = group[1] < 0 ? 1 : 2;
+            const auto width = static_cast<std::size_t>(paths + 1);
+            std::array<double, 2 * (stack_paths + 1)> stack_cost;
+            if (paths > stack_paths) heap_cost.resize(2 * width);
+            double* cost = paths > stack_paths ? heap_cost.data() : stack_cost.data();
+            for (int k = 0; k < count; ++k) {
+                const auto pulse = static_cast<std::size_t>(group[static_cast<std::size_t>(k)]);
+                double* row = cost + static_cast<std::size_t>(k) * width;
+                row[0] = unmatched_pulse_chi2;
+                for (int path = 0; path < paths; ++path) {
+                    const double r = event.time_ns[pulse] - a.t0_ns - times[static_cast<std::size_t>(path)];
+                    row[path + 1] = event.weight[pulse] * r * r;
+                }
+            }
             // Every order-keeping match: path −1 is "unmatched"; a later pulse takes a later path.
             int best_first = -1, best_second = -1;
             double best_cost = infinite_chi2;
             // A pulse stays unmatched only when its channel has fewer paths than pulses.
-            const int count = group[1] < 0 ? 1 : 2;
             const int must_match = std::min(count, paths);
             for (int i = -1; i < paths; ++i) {
                 if (count == 1) {
                     if ((i >= 0) != (must_match == 1)) continue;
-                    const double c = cost(group[0], i);
+                    const double c = cost[i + 1];
                     if (c < best_cost) best_cost = c, best_first = i;
                     continue;
                 }
                 for (int j = -1; j < paths; ++j) {
                     if (i >= 0 && j >= 0 && j <= i) continue;
                     if ((i >= 0) + (j >= 0) != must_match) continue;
-                    const double c = cost(group[0], i) + cost(group[1], j);
+                    const double c = cost[i + 1] + cost[width + static_cast<std::size_t>(j + 1)];
                     if (c < best_cost) best_cost = c, best_first = i, best_second = j;
                 }
             }
@@ -442,12 +458,16 @@ EventFit SourceLocator::fit(const ArrivalEvent& event) const {
     std::vector<Receiver> event_receivers;
     for (std::size_t c : prepared.channels) event_receivers.push_back(station_.receivers[c]);
 
-    // Coarse search: χ² at every search position with the best assignment there.
+    // Coarse search, coarse to fine: χ² (with the best assignment there) first on every
+    // coarse_stride-th azimuth, distance and level of the search grid, then, from the best
+    // local minima of that sub-grid, a descent on the full grid to its local minimum. χ² of the
+    // full grid is computed only where the descent looks (NaN: not computed yet).
     const SearchTable& t = *table_;
     const std::size_t receivers = station_.receivers.size();
-    std::vector<double> chi2(t.positions.size(), infinite_chi2);
+    std::vector<double> chi2(t.positions.size(), std::numeric_limits<double>::quiet_NaN());
     Assignment assignment;
-    for (std::size_t p = 0; p < t.positions.size(); ++p) {
+    const auto chi2_at = [&](std::size_t p) {
+        if (!std::isnan(chi2[p])) return chi2[p];
         assign_pulses(
             prepared,
             [&](std::size_t g) {
@@ -458,26 +478,62 @@ EventFit SourceLocator::fit(const ArrivalEvent& event) const {
         // The coarse search keeps only positions that explain every pulse: there a missing path
         // is not a small penalty but a sign of the wrong region.
         chi2[p] = assignment.unmatched == 0 ? assignment.chi2 : infinite_chi2;
-    }
-    // Candidates: the local minima of the search (each basin once: mirror positions, other
-    // assignments), best first.
+        return chi2[p];
+    };
+    // Is p lower than every neighbour at the given stride in azimuth, distance and level?
+    // Ties go to the lower index, so that a flat region yields one minimum.
+    const auto local_minimum = [&](int a, int d, int l, int stride) {
+        const std::size_t p = t.index(a, d, l);
+        const double here = chi2_at(p);
+        if (!std::isfinite(here)) return false;
+        for (int da = -stride; da <= stride; da += stride)
+            for (int dd = -stride; dd <= stride; dd += stride)
+                for (int dl = -stride; dl <= stride; dl += stride) {
+                    const int nd = d + dd, nl = l + dl;
+                    if (nd < 0 || nd >= t.distances || nl < 0 || nl >= t.levels) continue;
+                    const std::size_t q = t.index(((a + da) % t.azimuths + t.azimuths) % t.azimuths, nd, nl);
+                    if (q == p) continue;
+                    const double there = chi2_at(q);
+                    if (there < here || (there == here && q < p)) return false;
+                }
+        return true;
+    };
+    // A grid too small to thin (or whose azimuths would not close the circle) is searched whole.
+    const int stride =
+        (t.azimuths % coarse_stride == 0 && t.distances > 2 * coarse_stride && t.levels > 2 * coarse_stride) ? coarse_stride
+                                                                                                            : 1;
+    std::vector<std::size_t> coarse_minima;
+    for (int a = 0; a < t.azimuths; a += stride)
+        for (int d = 0; d < t.distances; d += stride)
+            for (int l = 0; l < t.levels; l += stride)
+                if (local_minimum(a, d, l, stride)) coarse_minima.push_back(t.index(a, d, l));
+    std::sort(coarse_minima.begin(), coarse_minima.end(), [&](std::size_t x, std::size_t y) { return chi2[x] < chi2[y]; });
+    if (coarse_minima.size() > static_cast<std::size_t>(options_.candidates))
+        coarse_minima.resize(static_cast<std::size_t>(options_.candidates));
+    // Candidates: the full grid's local minima reached from those (each basin once: mirror
+    // positions, other assignments), best first.
     std::vector<std::size_t> minima;
-    for (int a = 0; a < t.azimuths; ++a)
-        for (int d = 0; d < t.distances; ++d)
-            for (int l = 0; l < t.levels; ++l) {
-                const std::size_t p = t.index(a, d, l);
-                if (!std::isfinite(chi2[p])) continue;
-                bool lowest = true;
-                for (int da = -1; da <= 1 && lowest; ++da)
-                    for (int dd = -1; dd <= 1 && lowest; ++dd)
-                        for (int dl = -1; dl <= 1 && lowest; ++dl) {
-                            const int nd = d + dd, nl = l + dl;
-                            if (nd < 0 || nd >= t.distances || nl < 0 || nl >= t.levels) continue;
-                            const std::size_t q = t.index((a + da + t.azimuths) % t.azimuths, nd, nl);
-                            if (q != p && (chi2[q] < chi2[p] || (chi2[q] == chi2[p] && q < p))) lowest = false;
-                        }
-                if (lowest) minima.push_back(p);
-            }
+    for (std::size_t start : coarse_minima) {
+        std::size_t p = start;
+        for (;;) {  // steepest descent over the 26 neighbours; χ² falls at every move, so it ends
+            const int a = static_cast<int>(p / (static_cast<std::size_t>(t.distances) * t.levels));
+            const int d = static_cast<int>(p / static_cast<std::size_t>(t.levels) % static_cast<std::size_t>(t.distances));
+            const int l = static_cast<int>(p % static_cast<std::size_t>(t.levels));
+            std::size_t best = p;
+            for (int da = -1; da <= 1; ++da)
+                for (int dd = -1; dd <= 1; ++dd)
+                    for (int dl = -1; dl <= 1; ++dl) {
+                        const int nd = d + dd, nl = l + dl;
+                        if (nd < 0 || nd >= t.distances || nl < 0 || nl >= t.levels) continue;
+                        const std::size_t q = t.index((a + da + t.azimuths) % t.azimuths, nd, nl);
+                        const double there = chi2_at(q);
+                        if (there < chi2[best] || (there == chi2[best] && q < best)) best = q;
+                    }
+            if (best == p) break;
+            p = best;
+        }
+        if (std::find(minima.begin(), minima.end(), p) == minima.end()) minima.push_back(p);
+    }
     std::sort(minima.begin(), minima.end(), [&](std::size_t x, std::size_t y) { return chi2[x] < chi2[y]; });
     if (minima.size() > static_cast<std::size_t>(options_.candidates)) minima.resize(static_cast<std::size_t>(options_.candidates));
     if (minima.empty()) {

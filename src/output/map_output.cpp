@@ -261,12 +261,27 @@ std::string visibility_map_svg(const VisibilityMap& map, const FirnModel& model,
     return render_to_string([&](std::ostream& out) { write_visibility_map_svg(out, map, model, receivers, colouring); });
 }
 
-void write_depth_scan_csv(std::ostream& stream, const DepthScan& scan) {
+namespace {
+
+// The resolution scan must have a row per depth of the scan: a mismatch is a caller's bug that
+// would otherwise pair the figures with the wrong depths.
+void check_resolution_rows(const DepthScan& scan, const DepthResolutionScan* resolution) {
+    if (resolution != nullptr && resolution->rows.size() != scan.rows.size())
+        throw OutputError(fmt::format("the resolution scan has {} rows for {} receiver depths", resolution->rows.size(),
+                                      scan.rows.size()));
+}
+
+}  // namespace
+
+void write_depth_scan_csv(std::ostream& stream, const DepthScan& scan, const DepthResolutionScan* resolution) {
+    check_resolution_rows(scan, resolution);
     output::TextSink out(stream);
     put_left_out(out, scan.left_out);
     out.put("receiver_depth_m,region_volume_m3,visible_volume_m3,visible_fraction,two_path_volume_m3,"
             "median_time_between_ns,min_time_between_ns,max_time_between_ns,strong_volume_m3,best,"
             "ducted_only_volume_m3,bottom_only_volume_m3");
+    if (resolution != nullptr)
+        out.put(",resolution_median_sigma_distance_m,resolution_median_sigma_depth_m,resolution_unresolved_fraction");
     out.end_row();
     for (std::size_t k = 0; k < scan.rows.size(); ++k) {
         const DepthScanRow& row = scan.rows[k];
@@ -292,16 +307,27 @@ void write_depth_scan_csv(std::ostream& stream, const DepthScan& scan) {
         put_number(out, row.ducted_only_volume_m3, "ducted_only_volume_m3", 10);
         out.put(',');
         put_number(out, row.bottom_only_volume_m3, "bottom_only_volume_m3", 10);
+        if (resolution != nullptr) {
+            const ResolutionSummary& r = resolution->rows[k];
+            out.put(',');
+            if (r.median_sigma_distance_m) put_number(out, *r.median_sigma_distance_m, "resolution_median_sigma_distance_m");
+            out.put(',');
+            if (r.median_sigma_depth_m) put_number(out, *r.median_sigma_depth_m, "resolution_median_sigma_depth_m");
+            out.put(',');
+            put_number(out, r.unresolved_fraction, "resolution_unresolved_fraction");
+        }
         out.end_row();
     }
     out.finish();
 }
 
-std::string depth_scan_csv(const DepthScan& scan) {
-    return render_to_string([&](std::ostream& out) { write_depth_scan_csv(out, scan); });
+std::string depth_scan_csv(const DepthScan& scan, const DepthResolutionScan* resolution) {
+    return render_to_string([&](std::ostream& out) { write_depth_scan_csv(out, scan, resolution); });
 }
 
-void write_depth_scan_json(std::ostream& out, const DepthScan& scan, const FirnModel& model, const MapGrid& region) {
+void write_depth_scan_json(std::ostream& out, const DepthScan& scan, const FirnModel& model, const MapGrid& region,
+                           const DepthResolutionScan* resolution) {
+    check_resolution_rows(scan, resolution);
     JsonWriter json(out);
     json.begin_object();
     json.key("model");
@@ -318,8 +344,22 @@ void write_depth_scan_json(std::ostream& out, const DepthScan& scan, const FirnM
     json.key("best_receiver_depth_m");
     if (scan.rows.empty()) json.null();
     else json.value(scan.rows[scan.best].receiver_depth_m);
+    if (resolution != nullptr) {
+        json.key("resolution").begin_object();
+        json.field("station", resolution->station);
+        json.field("azimuth_deg", resolution->azimuth_deg);
+        json.field("timing_sigma_ns", resolution->timing_sigma_ns);
+        json.field("min_distance_m", resolution->grid.distance_min_m);
+        json.field("max_distance_m", resolution->grid.distance_max_m);
+        json.field("distance_cells", resolution->grid.distance_cells);
+        json.field("min_depth_m", resolution->grid.depth_min_m);
+        json.field("max_depth_m", resolution->grid.depth_max_m);
+        json.field("depth_cells", resolution->grid.depth_cells);
+        json.end_object();
+    }
     json.key("depths").begin_array();
-    for (const DepthScanRow& row : scan.rows) {
+    for (std::size_t k = 0; k < scan.rows.size(); ++k) {
+        const DepthScanRow& row = scan.rows[k];
         const auto between = [&](double value) { return has_times_between(row) ? std::optional(value) : std::nullopt; };
         json.begin_object();
         json.field("receiver_depth_m", row.receiver_depth_m);
@@ -332,6 +372,16 @@ void write_depth_scan_json(std::ostream& out, const DepthScan& scan, const FirnM
         json.field("strong_volume_m3", row.strong_volume_m3);
         json.field("ducted_only_volume_m3", row.ducted_only_volume_m3);
         json.field("bottom_only_volume_m3", row.bottom_only_volume_m3);
+        if (resolution != nullptr) {
+            const ResolutionSummary& r = resolution->rows[k];
+            json.key("resolution").begin_object();
+            json.field("median_sigma_distance_m", r.median_sigma_distance_m);
+            json.field("median_sigma_depth_m", r.median_sigma_depth_m);
+            json.field("unresolved_fraction", r.unresolved_fraction);
+            json.field("resolved_cells", r.resolved_cells);
+            json.field("cells", r.cells);
+            json.end_object();
+        }
         json.end_object();
     }
     json.end_array();
@@ -340,8 +390,9 @@ void write_depth_scan_json(std::ostream& out, const DepthScan& scan, const FirnM
     out << '\n';
 }
 
-std::string depth_scan_json(const DepthScan& scan, const FirnModel& model, const MapGrid& region) {
-    return render_to_string([&](std::ostream& out) { write_depth_scan_json(out, scan, model, region); });
+std::string depth_scan_json(const DepthScan& scan, const FirnModel& model, const MapGrid& region,
+                            const DepthResolutionScan* resolution) {
+    return render_to_string([&](std::ostream& out) { write_depth_scan_json(out, scan, model, region, resolution); });
 }
 
 void write_depth_scan_svg(std::ostream& out, const DepthScan& scan, const FirnModel& model, const MapGrid& region) {

@@ -8,6 +8,7 @@
 #include <string>
 #include <vector>
 
+#include "locate/resolution_map.hpp"
 #include "model/firn_model.hpp"
 #include "station/depth_scan.hpp"
 #include "station/station.hpp"
@@ -37,11 +38,16 @@ std::string visibility_map_svg(const VisibilityMap& map, const FirnModel& model,
                                MapColouring colouring);
 
 // One row per candidate depth with every metric of DepthScanRow, and the best depth flagged. The
-// times between paths are empty (JSON: null) for a depth with no two-path cell.
-void write_depth_scan_csv(std::ostream& out, const DepthScan& scan);
-std::string depth_scan_csv(const DepthScan& scan);
-void write_depth_scan_json(std::ostream& out, const DepthScan& scan, const FirnModel& model, const MapGrid& region);
-std::string depth_scan_json(const DepthScan& scan, const FirnModel& model, const MapGrid& region);
+// times between paths are empty (JSON: null) for a depth with no two-path cell. With a
+// resolution scan (`depths --resolution`, one row per depth of the scan) the resolution columns
+// follow (JSON: a "resolution" member per depth and one describing the scan); medians are empty
+// (null) at a depth where no cell is resolved.
+void write_depth_scan_csv(std::ostream& out, const DepthScan& scan, const DepthResolutionScan* resolution = nullptr);
+std::string depth_scan_csv(const DepthScan& scan, const DepthResolutionScan* resolution = nullptr);
+void write_depth_scan_json(std::ostream& out, const DepthScan& scan, const FirnModel& model, const MapGrid& region,
+                           const DepthResolutionScan* resolution = nullptr);
+std::string depth_scan_json(const DepthScan& scan, const FirnModel& model, const MapGrid& region,
+                            const DepthResolutionScan* resolution = nullptr);
 void write_depth_scan_svg(std::ostream& out, const DepthScan& scan, const FirnModel& model, const MapGrid& region);
 std::string depth_scan_svg(const DepthScan& scan, const FirnModel& model, const MapGrid& region);
 

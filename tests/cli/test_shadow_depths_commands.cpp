@@ -175,3 +175,70 @@ TEST_CASE("firnray shadow and depths on a model with a bottom: bottom-reflected 
     CHECK(scan.out.find("\"bottom_only_volume_m3\"") != std::string::npos);
     CHECK(scan.out.find("\"max_bounces\": 1") != std::string::npos);
 }
+
+TEST_CASE("firnray depths --resolution: per depth the median 1 sigma and the unresolved share of the resolution "
+          "map of the station lowered there (Cramer-Rao bound, as firnray resolution computes it)",
+          "[cli][depths][resolution]") {
+    const std::string dir = temp_folder("depths-resolution");
+    const std::string station = source_path("demo/station.toml");
+    // The demo station's shallowest receivers hang at 40 m: at that candidate depth the station
+    // is where its file puts it, so the figures must be those of `firnray resolution` on it.
+    const auto r = run_firnray({"depths", "--depths", "40,120", "--source-distance", "0:800", "--source-depth",
+                                "0:200", "--distance-cells", "20", "--depth-cells", "10", "--max-bounces", "1",
+                                "--resolution", station, "--resolution-distance-cells", "8",
+                                "--resolution-depth-cells", "5", "--quiet"});
+    INFO(r.err);
+    REQUIRE(r.exit_code == 0);
+    const auto rows = csv_rows(r.out);
+    REQUIRE(rows.size() == 3);
+    const auto column = [&](const std::string& name) {
+        const auto at = static_cast<std::size_t>(std::find(rows[0].begin(), rows[0].end(), name) - rows[0].begin());
+        REQUIRE(at < rows[0].size());
+        return at;
+    };
+    const std::size_t distance = column("resolution_median_sigma_distance_m"),
+                      depth = column("resolution_median_sigma_depth_m"),
+                      unresolved = column("resolution_unresolved_fraction");
+
+    const auto map = run_firnray({"resolution", "--station", station, "--source-distance", "0:800", "--source-depth",
+                                  "0:200", "--distance-cells", "8", "--depth-cells", "5", "--max-bounces", "1"});
+    INFO(map.err);
+    REQUIRE(map.exit_code == 0);
+    const auto cells = csv_rows(map.out);
+    REQUIRE(cells.size() == 41);
+    std::vector<double> sigma_distance, sigma_depth;
+    for (std::size_t i = 1; i < cells.size(); ++i)
+        if (cells[i][3] == "1") {
+            sigma_distance.push_back(std::stod(cells[i][4]));
+            sigma_depth.push_back(std::stod(cells[i][5]));
+        }
+    REQUIRE(!sigma_distance.empty());
+    const auto median = [](std::vector<double> v) {
+        std::sort(v.begin(), v.end());
+        const std::size_t h = v.size() / 2;
+        return v.size() % 2 == 1 ? v[h] : 0.5 * (v[h - 1] + v[h]);
+    };
+    CHECK(std::stod(rows[1][distance]) == Approx(median(sigma_distance)).epsilon(1e-5));
+    CHECK(std::stod(rows[1][depth]) == Approx(median(sigma_depth)).epsilon(1e-5));
+    CHECK(std::stod(rows[1][unresolved]) == Approx(1.0 - sigma_distance.size() / 40.0).epsilon(1e-5));
+    for (std::size_t i = 1; i < rows.size(); ++i) {
+        const double share = std::stod(rows[i][unresolved]);
+        CHECK(share >= 0.0);
+        CHECK(share <= 1.0);
+    }
+
+    const auto json = run_firnray({"depths", "--depths", "60", "--distance-cells", "10", "--depth-cells", "10",
+                                   "--resolution", station, "--resolution-distance-cells", "4",
+                                   "--resolution-depth-cells", "3", "--format", "json", "--quiet"});
+    CHECK(json.exit_code == 0);
+    CHECK(json.out.find("\"median_sigma_distance_m\"") != std::string::npos);
+    CHECK(json.out.find("\"unresolved_fraction\"") != std::string::npos);
+    CHECK(json.out.find("\"station\": \"Kestrel Station (fictional)\"") != std::string::npos);
+    // Without --resolution the table is unchanged, and its options alone are a usage error.
+    const auto plain = run_firnray({"depths", "--depths", "60", "--distance-cells", "10", "--depth-cells", "10"});
+    CHECK(plain.out.find("resolution") == std::string::npos);
+    CHECK(run_firnray({"depths", "--depths", "60", "--timing-sigma-ns", "1"}).exit_code == 2);
+    const auto missing = run_firnray({"depths", "--depths", "60", "--resolution", dir + "/no-such-station.toml"});
+    CHECK(missing.exit_code != 0);
+    CHECK(missing.err.find("no-such-station.toml") != std::string::npos);
+}

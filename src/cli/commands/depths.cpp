@@ -1,6 +1,7 @@
 // firnray depths: scan candidate receiver depths and report, for a cylindrical source region,
 // how much of it one receiver sees, how much by two paths, and how far apart those arrive.
 #include <algorithm>
+#include <optional>
 
 #include <fmt/format.h>
 
@@ -9,6 +10,7 @@
 #include "cli/output_set.hpp"
 #include "core/errors.hpp"
 #include "core/text.hpp"
+#include "locate/resolution_map.hpp"
 #include "solver/make_solver.hpp"
 #include "station/depth_scan.hpp"
 #include "output/map_output.hpp"
@@ -27,6 +29,10 @@ struct DepthsArguments {
     int max_bounces = DepthScanOptions{}.max_bounces;
     bool no_bottom = false;
     double memory_limit_mb = default_memory_limit_mb;
+    // --resolution: the station lowered to each candidate depth, its Cramér–Rao figures per depth.
+    std::string resolution_station;
+    int resolution_distance_cells = 30, resolution_depth_cells = 20;
+    double resolution_azimuth_deg = 0.0, timing_sigma_ns = 0.5;
     RunOptions run;
 };
 
@@ -75,12 +81,35 @@ int run_depths(const DepthsArguments& args) {
     options.bottom_paths = !args.no_bottom;
     options.threads = args.run.thread_count();
     options.control = make_run_control(args.run, "depth scan");
+    // Read before the scan, so that a bad station file fails at once.
+    std::optional<Station> resolution_station;
+    if (!args.resolution_station.empty()) resolution_station = load_station_file(args.resolution_station);
     const DepthScan scan = scan_receiver_depths(*solver, options);
     finish_progress(args.run);
 
+    // The same region, seen from the station centre, on a grid of its own: every cell costs a
+    // path search per receiver, so the visibility grid would be far too fine. One map is held at
+    // a time, at most 500 x 500 cells (the options' caps), so it needs no memory check of its own.
+    std::optional<DepthResolutionScan> resolution;
+    if (resolution_station) {
+        MapGrid grid = options.region;
+        grid.distance_cells = args.resolution_distance_cells;
+        grid.depth_cells = args.resolution_depth_cells;
+        ResolutionOptions resolution_options;
+        resolution_options.fisher.paths.max_bounces = args.max_bounces;
+        resolution_options.fisher.paths.bottom_paths = !args.no_bottom;
+        resolution_options.fisher.timing_sigma_ns = args.timing_sigma_ns;
+        resolution_options.azimuth_deg = args.resolution_azimuth_deg;
+        resolution_options.threads = args.run.thread_count();
+        resolution_options.control = make_run_control(args.run, "resolution by depth");
+        resolution = scan_resolution_by_depth(*solver, *resolution_station, options.receiver_depths_m, grid, resolution_options);
+        finish_progress(args.run);
+    }
+    const DepthResolutionScan* resolution_rows = resolution ? &*resolution : nullptr;
+
     outputs.set_writer(args.output, [&](std::ostream& out) {
-        if (args.format == "json") write_depth_scan_json(out, scan, *model, options.region);
-        else write_depth_scan_csv(out, scan);
+        if (args.format == "json") write_depth_scan_json(out, scan, *model, options.region, resolution_rows);
+        else write_depth_scan_csv(out, scan, resolution_rows);
     });
     outputs.set_writer(args.plot_path, [&](std::ostream& out) { write_depth_scan_svg(out, scan, *model, options.region); });
     outputs.write_all();
@@ -117,6 +146,28 @@ void add_depths_command(CLI::App& app, CommandSlot& slot) {
     add_solver_option(cmd, args->solver);
     add_ray_parameters_option(cmd, args->ray_parameters);
     add_map_path_options(cmd, args->max_bounces, args->no_bottom);
+    auto* resolution = cmd->add_option("--resolution", args->resolution_station,
+                                       "also report, per depth, the Cramér–Rao resolution of this station lowered "
+                                       "so that its shallowest receiver is at that depth")
+                           ->type_name("STATION.toml");
+    cmd->add_option("--resolution-azimuth-deg", args->resolution_azimuth_deg,
+                    "with --resolution: direction of the source plane from the station centre, degrees from +x toward +y (default 0)")
+        ->check(finite_in_range(-360.0, 360.0))
+        ->needs(resolution);
+    cmd->add_option("--resolution-distance-cells", args->resolution_distance_cells,
+                    "with --resolution: distance columns of its grid over the region")
+        ->capture_default_str()
+        ->check(CLI::Range(1, 500))
+        ->needs(resolution);
+    cmd->add_option("--resolution-depth-cells", args->resolution_depth_cells,
+                    "with --resolution: depth rows of its grid over the region")
+        ->capture_default_str()
+        ->check(CLI::Range(1, 500))
+        ->needs(resolution);
+    cmd->add_option("--timing-sigma-ns", args->timing_sigma_ns, "with --resolution: 1σ timing uncertainty of every pulse (ns)")
+        ->capture_default_str()
+        ->check(finite_positive())
+        ->needs(resolution);
     cmd->add_option("--format", args->format, "csv or json")->capture_default_str()->check(one_of({"csv", "json"}));
     add_memory_limit_option(cmd, args->memory_limit_mb);
     cmd->add_option("--output,-o", args->output, "table, written whole or not at all (default: stdout)")->type_name("FILE");
@@ -131,8 +182,19 @@ Every path kind counts (ducted and bottom-reflected included, up to --max-bounce
 volumes seen only through ducted or only through bottom-reflected paths have columns of their
 own, and what is left out on purpose is named on a '# left out:' line (JSON: "left_out").
 
+--resolution STATION.toml adds, per candidate depth, how well that station would reconstruct a
+source in the region (docs/locate.md): the station is lowered as a whole so that its shallowest
+receiver sits at the depth, and the Cramér–Rao bound of every path each receiver sees (two
+pulses per channel) is computed on a coarser grid of the same region, seen from the station
+centre in the plane at --resolution-azimuth-deg. Three columns follow (JSON: "resolution"):
+resolution_median_sigma_distance_m and resolution_median_sigma_depth_m, the median 1σ over the
+resolved cells (empty where none is), and resolution_unresolved_fraction, the share of cells
+that fewer than 4 pulses see or that the pulses leave free.
+
 Example: receivers from 20 to 200 m, sources within 1.5 km and 300 m deep
-  firnray depths --depths 20:200:10 --source-distance 0:1500 --source-depth 0:300 --plot depths.svg)");
+  firnray depths --depths 20:200:10 --source-distance 0:1500 --source-depth 0:300 --plot depths.svg
+The same with the resolution of a station's layout at each depth
+  firnray depths --depths 20:200:20 --source-distance 0:1500 --source-depth 0:300 --resolution station.toml)");
     cmd->callback([args, &slot] { slot.run = [args] { return run_depths(*args); }; });
 }
 
