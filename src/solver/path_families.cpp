@@ -255,39 +255,75 @@ private:
     // The first sample of a range whose v = 0 is a cut: n − ξ = span·1e-24 there.
     static constexpr double cut_limit_v = 1e-12;
 
+    // X − R with a divergent X taken as just above R (its slope then unknown).
+    Sample finite(Sample s) const {
+        if (!std::isfinite(s.f)) {
+            s.f = distance_ + 1.0;
+            s.slope = not_a_number;
+        }
+        return s;
+    }
+
     double root_between(const Sample& a, const Sample& b) const {
-        auto f = [&](double v) {
-            const Sample s = evaluate(v);
-            return std::isfinite(s.f) ? s.f : distance_ + 1.0;
-        };
-        double fa = std::isfinite(a.f) ? a.f : distance_ + 1.0, fb = std::isfinite(b.f) ? b.f : distance_ + 1.0;
-        if (fa == 0.0) return a.v;
-        if (fb == 0.0) return b.v;
-        double va = a.v, vb = b.v;
+        Sample low = finite(a), high = finite(b);
+        if (low.f == 0.0) return low.v;
+        if (high.f == 0.0) return high.v;
         // A root next to v = 0 can lie many decades below the first sample (equal depths in deep
         // ice: n − ξ ~ 1e-19 where X = R, X ∝ v there): close in on it geometrically first, which
-        // keeps TOMS748 within its iterations.
-        if (va == 0.0 || va == cut_limit_v) {
+        // keeps the refinement below within its iterations.
+        if (low.v == 0.0 || low.v == cut_limit_v) {
             for (int k = 0; k < 120; ++k) {
-                const double vm = 0.25 * vb;
-                if (!(vm > va)) break;
-                const double fm = f(vm);
-                if (fm == 0.0) return vm;
-                if ((fm < 0.0) == (fa < 0.0)) {
-                    va = vm;
-                    fa = fm;
+                const double vm = 0.25 * high.v;
+                if (!(vm > low.v)) break;
+                const Sample m = finite(evaluate(vm));
+                if (m.f == 0.0) return vm;
+                if ((m.f < 0.0) == (low.f < 0.0)) {
+                    low = m;
                     break;
                 }
-                vb = vm;
-                fb = fm;
+                high = m;
             }
         }
-        std::uintmax_t iterations = 100;
-        auto tolerance = [](double lo, double hi) {
-            return std::abs(hi - lo) <= 2.0 * std::numeric_limits<double>::epsilon() * std::max(std::abs(lo), std::abs(hi));
-        };
-        const auto bracket = boost::math::tools::toms748_solve(f, va, vb, fa, fb, tolerance, iterations);
-        return std::abs(f(bracket.first)) <= std::abs(f(bracket.second)) ? bracket.first : bracket.second;
+        return refine_root(low, high);
+    }
+
+    // The root of X − R between two samples of opposite signs, to two ulps of v (the tolerance
+    // TOMS748 was given here before). Each evaluation already returns dX/dv, so Newton steps from
+    // the better end of the bracket cost one evaluation each where TOMS748 spent about twenty per
+    // root on this problem; safeguarded as in rtsafe (Numerical Recipes, common practice): a step
+    // that leaves the bracket or does not at least halve the step before the last one is replaced
+    // by bisection, so it never does worse than bisection. A Newton step below the tolerance ends
+    // the search only where X − R is already within 1e-9 of R (an inaccurate slope, e.g. next to a
+    // turning end, cannot stop it early); the end with the smaller |X − R| is returned, as before.
+    double refine_root(Sample low, Sample high) const {
+        const double eps = std::numeric_limits<double>::epsilon();
+        auto close = [&](double lo, double hi) { return std::abs(hi - lo) <= 2.0 * eps * std::max(std::abs(lo), std::abs(hi)); };
+        auto better = [](const Sample& x, const Sample& y) { return std::abs(x.f) <= std::abs(y.f) ? x : y; };
+        double step_before_last = std::abs(high.v - low.v), last_step = step_before_last;
+        for (int iteration = 0; iteration < 200 && !close(low.v, high.v); ++iteration) {
+            const Sample best = better(low, high);
+            double v = 0.5 * (low.v + high.v);
+            double step = v - best.v;
+            if (std::isfinite(best.slope) && best.slope != 0.0) {
+                const double newton = -best.f / best.slope;
+                const double target = best.v + newton;
+                const bool inside = target > std::min(low.v, high.v) && target < std::max(low.v, high.v);
+                if (std::abs(newton) <= eps * std::abs(best.v) && std::abs(best.f) <= 1e-9 * (1.0 + distance_))
+                    return best.v;
+                if (inside && std::abs(newton) <= 0.5 * step_before_last) {
+                    v = target;
+                    step = newton;
+                }
+            }
+            step_before_last = last_step;
+            last_step = std::abs(step);
+            if (!(v > std::min(low.v, high.v) && v < std::max(low.v, high.v))) break;
+            const Sample s = finite(evaluate(v));
+            if (s.f == 0.0) return v;
+            if ((s.f < 0.0) == (low.f < 0.0)) low = s;
+            else high = s;
+        }
+        return better(low, high).v;
     }
 
     Sample extremum_between(const Sample& a, const Sample& b) const {
