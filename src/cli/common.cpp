@@ -176,6 +176,22 @@ std::pair<double, double> parse_span(const std::string& text, const std::string&
     return {low, high};
 }
 
+MapGrid parse_source_region(const std::string& distance_range, const std::string& depth_range, int distance_cells,
+                            int depth_cells, const std::string& distance_origin) {
+    MapGrid grid;
+    std::tie(grid.distance_min_m, grid.distance_max_m) = parse_span(distance_range, "--source-distance");
+    std::tie(grid.depth_min_m, grid.depth_max_m) = parse_span(depth_range, "--source-depth");
+    if (grid.distance_min_m < 0.0)
+        throw UsageError("--source-distance", fmt::format("distances are >= 0 (m from {}), not {}", distance_origin,
+                                                          number_for_message(grid.distance_min_m)));
+    if (grid.depth_min_m < 0.0)
+        throw UsageError("--source-depth", fmt::format("depths are >= 0 (m, positive down), not {}",
+                                                       number_for_message(grid.depth_min_m)));
+    grid.distance_cells = distance_cells;
+    grid.depth_cells = depth_cells;
+    return grid;
+}
+
 std::vector<Receiver> select_receivers(const std::string& station_path, const std::string& point_text,
                                        const std::string& subset, const std::string& point_option) {
     if (station_path.empty() == point_text.empty())

@@ -15,6 +15,7 @@
 #include "model/firn_model.hpp"
 #include "paths/find_paths.hpp"  // Point (moving to core/point.hpp)
 #include "station/station.hpp"
+#include "station/visibility_map.hpp"
 
 namespace firnray::cli {
 
@@ -71,6 +72,10 @@ double parse_number(const std::string& text, const std::string& option);
 void require_in_range(double value, double low, double high, const std::string& option, const std::string& what);
 // "MIN:MAX" with MIN < MAX.
 std::pair<double, double> parse_span(const std::string& text, const std::string& option);
+// The source region of a map from --source-distance MIN:MAX, --source-depth MIN:MAX and the cell
+// counts; `distance_origin` says what distances are measured from ("the receiver", "the string").
+MapGrid parse_source_region(const std::string& distance_range, const std::string& depth_range, int distance_cells,
+                            int depth_cells, const std::string& distance_origin);
 
 // A list "a,b,c"; a range "start:stop:step" (inclusive of stop within rounding); or either.
 std::vector<double> parse_list(const std::string& text, const std::string& option);

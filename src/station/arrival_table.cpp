@@ -22,6 +22,22 @@ constexpr double nan = std::numeric_limits<double>::quiet_NaN();
 
 }  // namespace
 
+InterpolatedArrival interpolate_arrival(const TableSample& a, const TableSample& b, double distance_m) {
+    const double dx = b.distance_m - a.distance_m;
+    const double w = dx != 0.0 ? (distance_m - a.distance_m) / dx : 0.0;
+    const double xi0 = a.ray_parameter, xi1 = b.ray_parameter;
+    const double h = dx, s = w, s2 = s * s, s3 = s2 * s;
+    InterpolatedArrival out;
+    out.time_s = (2 * s3 - 3 * s2 + 1) * a.time_s + (s3 - 2 * s2 + s) * h * xi0 / speed_of_light +
+                 (-2 * s3 + 3 * s2) * b.time_s + (s3 - s2) * h * xi1 / speed_of_light;
+    out.ray_parameter = xi0 + w * (xi1 - xi0);
+    out.attenuation = a.attenuation + w * (b.attenuation - a.attenuation);
+    out.length_m = a.length_m + w * (b.length_m - a.length_m);
+    const double dxi = xi1 - xi0;
+    out.distance_derivative = dxi != 0.0 ? dx / dxi : std::numeric_limits<double>::infinity();
+    return out;
+}
+
 const char* to_string(ArrivalKind kind) {
     switch (kind) {
         case ArrivalKind::direct: return "direct";
@@ -246,20 +262,13 @@ void ArrivalTable::add_exact_peak_arrivals(const Row& row, double distance_m, st
 void ArrivalTable::add_arrival(const Row& row, ArrivalKind family, const Sample& a, const Sample& b, double distance_m,
                                std::vector<MapArrival>& out) const {
     const FirnModel& model = solver_->model();
-    const double dx = b.distance_m - a.distance_m;
-    const double w = dx != 0.0 ? (distance_m - a.distance_m) / dx : 0.0;
-    const double xi0 = a.ray_parameter, xi1 = b.ray_parameter;
-    // Cubic Hermite in distance with slopes dT/dX = ξ/c.
-    const double h = dx, s = w, s2 = s * s, s3 = s2 * s;
-    const double time = (2 * s3 - 3 * s2 + 1) * a.time_s + (s3 - 2 * s2 + s) * h * xi0 / speed_of_light +
-                        (-2 * s3 + 3 * s2) * b.time_s + (s3 - s2) * h * xi1 / speed_of_light;
-    const double xi = xi0 + w * (xi1 - xi0);
-    const double attenuation = a.attenuation + w * (b.attenuation - a.attenuation);
-
-    const double length = a.length_m + w * (b.length_m - a.length_m);
+    const InterpolatedArrival at = interpolate_arrival({a.distance_m, a.time_s, a.ray_parameter, a.attenuation, a.length_m},
+                                                       {b.distance_m, b.time_s, b.ray_parameter, b.attenuation, b.length_m},
+                                                       distance_m);
+    const double xi = at.ray_parameter, attenuation = at.attenuation, length = at.length_m;
 
     MapArrival arrival;
-    arrival.time_s = time;
+    arrival.time_s = at.time_s;
     arrival.ray_parameter = xi;
     std::complex<double> interface_s{1.0, 0.0}, interface_p{1.0, 0.0};
     if (family == ArrivalKind::direct) {
@@ -278,8 +287,7 @@ void ArrivalTable::add_arrival(const Row& row, ArrivalKind family, const Sample&
     tube.n_receiver = model.index->index(receiver_z_);
     tube.horizontal_distance_m = distance_m;
     tube.ray_parameter = xi;
-    const double dxi = xi1 - xi0;
-    tube.distance_derivative = dxi != 0.0 ? dx / dxi : std::numeric_limits<double>::infinity();
+    tube.distance_derivative = at.distance_derivative;
     tube.derivative_cosines = std::abs(tube.distance_derivative) * cos_from_ray_parameter(tube.n_source, xi) *
                               cos_from_ray_parameter(tube.n_receiver, xi);
     tube.length_m = length;

@@ -38,6 +38,18 @@ struct MapArrival {
     bool caustic = false;          // L_eff <= caustic_fraction × the path length (paths/amplitude.hpp)
 };
 
+// One arrival between two samples of a family that bracket distance_m (both map tables): the
+// time by a cubic Hermite polynomial in distance with slopes dT/dX = ξ/c, and ξ, the attenuation
+// exponent and the length linearly; ∂X/∂ξ from the two samples (infinite when their ξ is equal).
+struct TableSample {
+    double distance_m = 0.0, time_s = 0.0, ray_parameter = 0.0, attenuation = 0.0, length_m = 0.0;
+};
+struct InterpolatedArrival {
+    double time_s = 0.0, ray_parameter = 0.0, attenuation = 0.0, length_m = 0.0;
+    double distance_derivative = 0.0;  // (X_b − X_a) / (ξ_b − ξ_a)
+};
+InterpolatedArrival interpolate_arrival(const TableSample& a, const TableSample& b, double distance_m);
+
 struct ArrivalTableOptions {
     int ray_parameters = 1500;  // samples of ξ; denser near grazing
     int threads = 1;

@@ -526,19 +526,13 @@ void StratifiedArrivalTable::build_row(std::size_t index) {
 
 void StratifiedArrivalTable::add_arrival(const Row& row, const Point& a, const Point& b, double distance_m,
                                          std::vector<MapArrival>& out) const {
-    const double dx = b.distance - a.distance;
-    const double w = dx != 0.0 ? (distance_m - a.distance) / dx : 0.0;
-    const double xi0 = a.ray_parameter, xi1 = b.ray_parameter;
-    // Cubic Hermite in distance with slopes dT/dX = ξ/c.
-    const double h = dx, s = w, s2 = s * s, s3 = s2 * s;
-    const double time = (2 * s3 - 3 * s2 + 1) * a.time + (s3 - 2 * s2 + s) * h * xi0 / speed_of_light +
-                        (-2 * s3 + 3 * s2) * b.time + (s3 - s2) * h * xi1 / speed_of_light;
-    const double xi = xi0 + w * (xi1 - xi0);
-    const double attenuation = a.attenuation + w * (b.attenuation - a.attenuation);
-    const double length = a.length + w * (b.length - a.length);
+    const InterpolatedArrival at = interpolate_arrival({a.distance, a.time, a.ray_parameter, a.attenuation, a.length},
+                                                       {b.distance, b.time, b.ray_parameter, b.attenuation, b.length},
+                                                       distance_m);
+    const double xi = at.ray_parameter, attenuation = at.attenuation, length = at.length_m;
 
     MapArrival arrival;
-    arrival.time_s = time;
+    arrival.time_s = at.time_s;
     arrival.ray_parameter = xi;
     arrival.kind = arrival_kind(a.kind);
     // Refracted and reflected meet at ξ = n(0) (a ray grazing the surface): name an arrival
@@ -564,8 +558,7 @@ void StratifiedArrivalTable::add_arrival(const Row& row, const Point& a, const P
     tube.n_receiver = profile_->index(receiver_z_);
     tube.horizontal_distance_m = distance_m;
     tube.ray_parameter = xi;
-    const double dxi = xi1 - xi0;
-    tube.distance_derivative = dxi != 0.0 ? std::abs(dx / dxi) : infinity;
+    tube.distance_derivative = std::abs(at.distance_derivative);
     tube.derivative_cosines = tube.distance_derivative * cos_from_ray_parameter(tube.n_source, std::min(xi, tube.n_source)) *
                               cos_from_ray_parameter(tube.n_receiver, std::min(xi, tube.n_receiver));
     tube.length_m = length;

@@ -97,18 +97,8 @@ PhasedArray array_of(const BeamsArguments& args) {
 }
 
 MapGrid region_of(const BeamsArguments& args) {
-    MapGrid grid;
-    std::tie(grid.distance_min_m, grid.distance_max_m) = parse_span(args.distance_range, "--source-distance");
-    std::tie(grid.depth_min_m, grid.depth_max_m) = parse_span(args.depth_range, "--source-depth");
-    if (grid.distance_min_m < 0.0)
-        throw UsageError("--source-distance", fmt::format("distances are >= 0 (m from the string), not {}",
-                                                          number_for_message(grid.distance_min_m)));
-    if (grid.depth_min_m < 0.0)
-        throw UsageError("--source-depth", fmt::format("depths are >= 0 (m, positive down), not {}",
-                                                       number_for_message(grid.depth_min_m)));
-    grid.distance_cells = args.distance_cells;
-    grid.depth_cells = args.depth_cells;
-    return grid;
+    return parse_source_region(args.distance_range, args.depth_range, args.distance_cells, args.depth_cells,
+                               "the string");
 }
 
 int run_beams(const BeamsArguments& args) {

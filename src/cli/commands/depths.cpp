@@ -51,17 +51,8 @@ int run_depths(const DepthsArguments& args) {
     for (double d : options.receiver_depths_m)
         if (d < 0.0)
             throw UsageError("--depths", fmt::format("{} is not a depth: depths are positive, down", number_for_message(d)));
-    std::tie(options.region.distance_min_m, options.region.distance_max_m) =
-        parse_span(args.source_distance, "--source-distance");
-    if (options.region.distance_min_m < 0.0)
-        throw UsageError("--source-distance", fmt::format("distances are >= 0 (m from the receiver), not {}",
-                                                          number_for_message(options.region.distance_min_m)));
-    options.region.distance_cells = args.distance_cells;
-    std::tie(options.region.depth_min_m, options.region.depth_max_m) = parse_span(args.source_depth, "--source-depth");
-    if (options.region.depth_min_m < 0.0)
-        throw UsageError("--source-depth", fmt::format("depths are >= 0 (m, positive down), not {}",
-                                                       number_for_message(options.region.depth_min_m)));
-    options.region.depth_cells = args.depth_cells;
+    options.region = parse_source_region(args.source_distance, args.source_depth, args.distance_cells, args.depth_cells,
+                                         "the receiver");
     const double rows = static_cast<double>(options.receiver_depths_m.size());
     const auto model = load_model_or_default(args.model_path);
     // One receiver depth at a time: at most one stratified table (logs, bottoms, deep ice) at once.

@@ -38,17 +38,8 @@ int run_resolution(const ResolutionArguments& args) {
     outputs.declare("--plot", args.plot_path, OutputFormat::svg);
     outputs.declare("--output", args.grid_path, OutputFormat::csv);
 
-    MapGrid grid;
-    std::tie(grid.distance_min_m, grid.distance_max_m) = parse_span(args.distance_range, "--source-distance");
-    std::tie(grid.depth_min_m, grid.depth_max_m) = parse_span(args.depth_range, "--source-depth");
-    if (grid.distance_min_m < 0.0)
-        throw UsageError("--source-distance", fmt::format("distances are >= 0 (m from the station centre), not {}",
-                                                          number_for_message(grid.distance_min_m)));
-    if (grid.depth_min_m < 0.0)
-        throw UsageError("--source-depth", fmt::format("depths are >= 0 (m, positive down), not {}",
-                                                       number_for_message(grid.depth_min_m)));
-    grid.distance_cells = args.distance_cells;
-    grid.depth_cells = args.depth_cells;
+    const MapGrid grid = parse_source_region(args.distance_range, args.depth_range, args.distance_cells,
+                                             args.depth_cells, "the station centre");
     const double cells = static_cast<double>(grid.cells());
     check_memory_estimate(fmt::format("a resolution map of {} x {} cells", grid.distance_cells, grid.depth_cells),
                           cells * (cell_bytes + (args.plot_path.empty() ? 0.0 : svg_bytes_per_cell)),
