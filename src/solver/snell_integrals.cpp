@@ -679,22 +679,30 @@ std::shared_ptr<SnellCellTables> make_snell_cell_tables(const StratifiedProfile&
     return tables;
 }
 
+namespace {
+
+// The piece in `slot`, built by `build` on first use. Two threads may build the same piece; the
+// first to publish it wins and the other's is dropped.
+template <class Piece, class Build>
+Piece* published(std::atomic<Piece*>& slot, Build build) {
+    Piece* found = slot.load(std::memory_order_acquire);
+    if (found) return found;
+    std::unique_ptr<Piece> fresh = build();
+    Piece* expected = nullptr;
+    if (slot.compare_exchange_strong(expected, fresh.get(), std::memory_order_acq_rel, std::memory_order_acquire))
+        return fresh.release();
+    return expected;
+}
+
+}  // namespace
+
 const SnellCellTables::Piece* SnellCellTables::piece(const StratifiedProfile& profile, std::size_t level,
                                                      const Block& block, double w_squared) {
     const int above_base = std::ilogb(w_squared) - block.w0_exponent;
     const std::size_t index = above_base < 0 ? 0 : static_cast<std::size_t>(above_base) + 1;
     if (index >= block.piece_count || (index == 0 && block.direct_base)) return nullptr;
-    std::atomic<Piece*>& slot = pieces[block.first_piece + index];
-    Piece* found = slot.load(std::memory_order_acquire);
-    if (!found) {
-        // Two threads may build the same piece; the first to publish wins, the other's is dropped.
-        std::unique_ptr<Piece> fresh = build(profile, level, block, index);
-        Piece* expected = nullptr;
-        if (slot.compare_exchange_strong(expected, fresh.get(), std::memory_order_acq_rel, std::memory_order_acquire))
-            found = fresh.release();
-        else
-            found = expected;
-    }
+    const Piece* found =
+        published(pieces[block.first_piece + index], [&] { return build(profile, level, block, index); });
     return found->tabulated ? found : nullptr;
 }
 
@@ -787,16 +795,8 @@ const SnellCellTables::Piece* SnellCellTables::turn_piece(const StratifiedProfil
     if (!near_high && turn.low_double_root && level >= 12) return nullptr;
     const std::size_t index = static_cast<std::size_t>(near_high ? level : turn_levels + level);
     variable = std::log(near_high ? sigma : rho);
-    std::atomic<Piece*>& slot = turn_pieces[turn.first_piece + index];
-    Piece* found = slot.load(std::memory_order_acquire);
-    if (!found) {
-        std::unique_ptr<Piece> fresh = build_turn(profile, cell, turn, index);
-        Piece* expected = nullptr;
-        if (slot.compare_exchange_strong(expected, fresh.get(), std::memory_order_acq_rel, std::memory_order_acquire))
-            found = fresh.release();
-        else
-            found = expected;
-    }
+    const Piece* found =
+        published(turn_pieces[turn.first_piece + index], [&] { return build_turn(profile, cell, turn, index); });
     return found->tabulated ? found : nullptr;
 }
 
