@@ -134,6 +134,11 @@ int TomlTable::line() const { return line_of(table_of(table_)); }
 
 bool TomlTable::has(std::string_view key) const { return table_of(table_).get(key) != nullptr; }
 
+bool TomlTable::holds_array(std::string_view key) const {
+    const toml::node* node = table_of(table_).get(key);
+    return node != nullptr && node->is_array();
+}
+
 InputLocation TomlTable::where(std::string_view key) const {
     const toml::node* node = table_of(table_).get(key);
     return {origin(), node ? line_of(*node) : line(), key_path(key)};
@@ -206,6 +211,52 @@ std::vector<LocatedNumber> TomlTable::numbers(std::string_view key) const {
         InputLocation at{origin(), line_of(element), element_key};
         at.column = std::max(0, static_cast<int>(element.source().begin.column));
         out.push_back({number_of(element, origin(), element_key), std::move(at)});
+    }
+    return out;
+}
+
+std::vector<std::vector<LocatedNumber>> TomlTable::number_rows(std::string_view key) const {
+    const toml::node* node = table_of(table_).get(key);
+    if (node == nullptr) fail(key, "missing: give an array of rows, each an array of numbers");
+    const auto* array = node->as_array();
+    if (array == nullptr) fail(key, "must be an array of rows (arrays of numbers), but is " + type_name(*node));
+    std::vector<std::vector<LocatedNumber>> rows;
+    rows.reserve(array->size());
+    for (std::size_t r = 0; r < array->size(); ++r) {
+        const toml::node& row_node = *array->get(r);
+        const std::string row_key = fmt::format("{}[{}]", key_path(key), r);
+        const auto* row = row_node.as_array();
+        if (row == nullptr)
+            throw ModelInputError(fmt::format("must be an array of numbers (one row), but is {}", type_name(row_node)),
+                                  InputLocation{origin(), line_of(row_node), row_key});
+        std::vector<LocatedNumber> out;
+        out.reserve(row->size());
+        for (std::size_t i = 0; i < row->size(); ++i) {
+            const toml::node& element = *row->get(i);
+            const std::string element_key = fmt::format("{}[{}]", row_key, i);
+            InputLocation at{origin(), line_of(element), element_key};
+            at.column = std::max(0, static_cast<int>(element.source().begin.column));
+            out.push_back({number_of(element, origin(), element_key), std::move(at)});
+        }
+        rows.push_back(std::move(out));
+    }
+    return rows;
+}
+
+std::vector<LocatedText> TomlTable::texts(std::string_view key) const {
+    const toml::node* node = table_of(table_).get(key);
+    if (node == nullptr) fail(key, "missing: give an array of strings");
+    const auto* array = node->as_array();
+    if (array == nullptr) fail(key, "must be an array of strings, but is " + type_name(*node));
+    std::vector<LocatedText> out;
+    for (std::size_t i = 0; i < array->size(); ++i) {
+        const toml::node& element = *array->get(i);
+        const std::string element_key = fmt::format("{}[{}]", key_path(key), i);
+        InputLocation at{origin(), line_of(element), element_key};
+        at.column = std::max(0, static_cast<int>(element.source().begin.column));
+        const auto* s = element.as_string();
+        if (s == nullptr) throw ModelInputError("must be a string in quotes, but is " + type_name(element), at);
+        out.push_back({s->get(), std::move(at)});
     }
     return out;
 }

@@ -29,6 +29,12 @@ struct LocatedNumber {
     InputLocation where;
 };
 
+// A string read from a file together with where it was.
+struct LocatedText {
+    std::string value;
+    InputLocation where;
+};
+
 class TomlTable;
 struct TomlData;  // the parsed tree, defined where it is read (toml++ stays out of this header)
 
@@ -60,6 +66,7 @@ public:
     std::string key_path(std::string_view key) const;
     int line() const;  // line of the table's header (1 for the top level)
     bool has(std::string_view key) const;
+    bool holds_array(std::string_view key) const;  // the key is present and holds an array
     // Where a key is (its line when given, the table's line when not).
     InputLocation where(std::string_view key) const;
     // The location of a path relative to this table ("layer[1].n_deep"), at the line of the
@@ -80,6 +87,12 @@ public:
     std::optional<double> optional_number(std::string_view key, const NumberRange& range) const;
     // An array of finite numbers, each with its location ("index.depth_m[3]").
     std::vector<LocatedNumber> numbers(std::string_view key) const;
+
+    // An array of arrays of finite numbers (a matrix written row by row), each number with its
+    // location ("uncertainty.covariance[1][2]"). Rows may differ in length: the caller checks.
+    std::vector<std::vector<LocatedNumber>> number_rows(std::string_view key) const;
+    // An array of strings, each with its location ("uncertainty.parameters[0]").
+    std::vector<LocatedText> texts(std::string_view key) const;
 
     std::string text(std::string_view key, const std::string& what) const;
     std::optional<std::string> optional_text(std::string_view key) const;

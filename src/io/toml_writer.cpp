@@ -78,4 +78,22 @@ TomlWriter& TomlWriter::value(std::string_view key, const std::vector<double>& n
     return *this;
 }
 
+TomlWriter& TomlWriter::value(std::string_view key, const std::vector<std::string>& texts) {
+    std::string out;
+    for (std::size_t i = 0; i < texts.size(); ++i) out += (i == 0 ? "" : ", ") + toml_string(texts[i]);
+    text_ += fmt::format("{} = [{}]\n", key, out);
+    return *this;
+}
+
+TomlWriter& TomlWriter::value(std::string_view key, const std::vector<std::vector<double>>& rows) {
+    std::string out = "[";
+    for (const auto& row : rows) {
+        out += "\n    [";
+        for (std::size_t i = 0; i < row.size(); ++i) out += (i == 0 ? "" : ", ") + toml_number(row[i]);
+        out += "],";
+    }
+    text_ += fmt::format("{} = {}\n]\n", key, out);
+    return *this;
+}
+
 }  // namespace firnray

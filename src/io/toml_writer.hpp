@@ -30,6 +30,10 @@ public:
     TomlWriter& value(std::string_view key, const char* text) { return value(key, std::string_view(text)); }
     // An array of numbers over several lines, eight to a line, with a trailing comma.
     TomlWriter& value(std::string_view key, const std::vector<double>& numbers);
+    // An array of strings on one line.
+    TomlWriter& value(std::string_view key, const std::vector<std::string>& texts);
+    // A matrix as an array of rows, one row per line.
+    TomlWriter& value(std::string_view key, const std::vector<std::vector<double>>& rows);
 
     const std::string& text() const { return text_; }
 

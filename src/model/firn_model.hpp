@@ -45,6 +45,25 @@ struct ModelWarning {
     }
 };
 
+// What is known of how uncertain a model is (docs/uncertainty.md): the covariance of some of its
+// profile's parameters (named as in model/model_parameters.hpp), and, for a table profile, a 1σ
+// of n at each point with a correlation length. Model files hold it in [uncertainty].
+struct ParameterCovariance {
+    std::vector<std::string> names;           // parameters of the profile, no repeats
+    std::vector<std::vector<double>> matrix;  // names.size() square, symmetric positive semi-definite
+};
+
+struct IndexUncertainty {
+    std::vector<double> sigma_n;        // 1σ of n at each point of the table, in its order
+    double correlation_length_m = 0.0;  // points d apart correlate as exp(-d²/(2ℓ²)); 0: independent
+};
+
+struct ModelUncertainty {
+    std::optional<ParameterCovariance> parameters;
+    std::optional<IndexUncertainty> index;  // table profiles only
+    InputLocation where;                    // the [uncertainty] table, for messages
+};
+
 struct FirnModel {
     std::string name;                               // from the file, or the built-in name
     std::string origin;                             // file path, or "built-in"
@@ -53,6 +72,7 @@ struct FirnModel {
     std::optional<Bottom> bottom;
     std::shared_ptr<const AttenuationProfile> attenuation;  // null: no attenuation (factor 1)
     std::vector<ModelWarning> warnings;             // from the file; empty for a model made in code
+    std::optional<ModelUncertainty> uncertainty;    // from [uncertainty]; none: the model is taken as exact
 
     // n at z: the profile in the ice (z <= 0), n_air above.
     double index_at(double z) const { return z > 0.0 ? n_air : index->index(z); }

@@ -10,6 +10,7 @@
 #include "model/model_limits.hpp"
 #include "model/point_table.hpp"
 #include "model/profile_kinds.hpp"
+#include "model/uncertainty_section.hpp"
 
 namespace firnray {
 
@@ -63,7 +64,7 @@ FirnModel read_model(const TomlDocument& document) {
     const std::string& origin = document.origin();
     ModelFileContext context(origin);
     const TomlTable top = document.root();
-    top.allow_only({"name", "index", "air", "attenuation", "bottom"}, "at the top level");
+    top.allow_only({"name", "index", "air", "attenuation", "bottom", "uncertainty"}, "at the top level");
 
     FirnModel model;
     model.origin = origin;
@@ -77,6 +78,8 @@ FirnModel read_model(const TomlDocument& document) {
     if (const auto attenuation = top.optional_table("attenuation"))
         model.attenuation = read_attenuation_profile(*attenuation, context);
     if (const auto bottom = top.optional_table("bottom")) model.bottom = read_bottom(*bottom, context);
+    if (const auto uncertainty = top.optional_table("uncertainty"))
+        model.uncertainty = read_uncertainty_section(*uncertainty, *model.index);
     context.check_vertical_convention();
     model.warnings = std::move(context.warnings);
     return model;
@@ -113,6 +116,7 @@ std::string model_to_toml(const FirnModel& model, const std::string& comment) {
         out.table("bottom");
         out.value("depth_m", -model.bottom->z_m).value("power_reflectivity", model.bottom->power_reflectivity);
     }
+    if (model.uncertainty) write_uncertainty_section(*model.uncertainty, out);
     return out.text();
 }
 
