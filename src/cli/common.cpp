@@ -6,7 +6,7 @@
 #include <sstream>
 #include <thread>
 
-#include <fmt/core.h>
+#include <fmt/format.h>
 
 #include "cli/interrupt.hpp"
 #include "core/errors.hpp"
@@ -62,6 +62,34 @@ void add_run_options(CLI::App* command, RunOptions& options) {
     command->add_option("--threads", options.threads, "worker threads (default: all cores); results do not depend on it")
         ->check(CLI::Range(1, 1024));
     command->add_flag("--quiet,-q", options.quiet, "no progress display on stderr");
+}
+
+void add_uncertainty_options(CLI::App* command, UncertaintyArguments& arguments) {
+    auto* linear = command->add_flag(
+        "--uncertainty", arguments.linearised,
+        "carry the model's [uncertainty] into the results, linearised (central differences along each component of "
+        "the covariance; docs/uncertainty.md)");
+    auto* samples = command->add_option("--uncertainty-samples", arguments.samples,
+                                        "carry the model's [uncertainty] into the results by Monte Carlo over N "
+                                        "profiles drawn from it")
+                        ->type_name("N")
+                        ->check(CLI::Range(2, 100000));
+    linear->excludes(samples);
+    command->add_option("--seed", arguments.seed,
+                        fmt::format("seed of the Monte Carlo draws (default {}); the same seed gives the same output "
+                                    "for any --threads",
+                                    PropagationOptions{}.seed))
+        ->needs(samples);
+}
+
+std::optional<PropagationOptions> propagation_options(const UncertaintyArguments& arguments, const RunOptions& run) {
+    if (!arguments.requested()) return std::nullopt;
+    PropagationOptions options;
+    options.method = arguments.linearised ? PropagationMethod::linearised : PropagationMethod::monte_carlo;
+    options.samples = arguments.samples;
+    options.seed = arguments.seed;
+    options.threads = run.thread_count();
+    return options;
 }
 
 RunControl make_run_control(const RunOptions& options, const std::string& label) {

@@ -12,6 +12,7 @@
 #include <CLI/CLI.hpp>
 
 #include "core/cancel.hpp"
+#include "uncertainty/propagation.hpp"
 #include "model/firn_model.hpp"
 #include "paths/find_paths.hpp"  // Point (moving to core/point.hpp)
 #include "station/station.hpp"
@@ -55,6 +56,18 @@ struct RunOptions {
     int thread_count() const;
 };
 void add_run_options(CLI::App* command, RunOptions& options);
+
+// --uncertainty, --uncertainty-samples N and --seed S (docs/uncertainty.md): how the model's
+// [uncertainty] is carried into a command's results. Neither option: no propagation.
+struct UncertaintyArguments {
+    bool linearised = false;
+    int samples = 0;                                       // Monte Carlo draws; 0: none
+    std::uint64_t seed = PropagationOptions{}.seed;
+    bool requested() const { return linearised || samples > 0; }
+};
+void add_uncertainty_options(CLI::App* command, UncertaintyArguments& arguments);
+// The propagation the options ask for (threads from --threads), or nothing when none is asked.
+std::optional<PropagationOptions> propagation_options(const UncertaintyArguments& arguments, const RunOptions& run);
 
 // Progress on stderr when stderr is a terminal and --quiet is not given; quiet otherwise.
 // The returned control also carries the Ctrl-C flag.
