@@ -1,0 +1,205 @@
+// The model's uncertainty carried into the maps: the boundary-only computation against the whole
+// map, the boundary's derivative against finite differences of the plain map at two profiles,
+// linearised against Monte Carlo propagation for a boundary distance and a visible volume, and
+// reproducibility of the draws.
+#include <cmath>
+#include <memory>
+
+#include <catch2/catch.hpp>
+
+#include "core/errors.hpp"
+#include "model/model_file.hpp"
+#include "solver/make_solver.hpp"
+#include "station/depth_scan.hpp"
+#include "station/visibility_map.hpp"
+#include "uncertainty/map_uncertainty.hpp"
+
+using namespace firnray;
+
+namespace {
+
+// An exponential profile with a fitted-looking covariance (n_surface and scale_depth_m correlated).
+FirnModel fitted_exponential(double scale_depth_m = 37.0, const std::string& uncertainty =
+                                                              "[uncertainty]\nparameters = [\"n_surface\", "
+                                                              "\"scale_depth_m\", \"n_deep\"]\n"
+                                                              "covariance = [[4e-4, 0.012, 0], [0.012, 4.0, 0], "
+                                                              "[0, 0, 1e-6]]\n") {
+    return parse_model("[index]\nkind = \"exponential\"\nn_deep = 1.78\nn_surface = 1.35\nscale_depth_m = " +
+                           std::to_string(scale_depth_m) + "\n" + uncertainty,
+                       "fitted.toml");
+}
+
+std::unique_ptr<RaySolver> solver_of(const FirnModel& model) {
+    return make_solver(std::make_shared<const FirnModel>(model), SolverChoice::automatic);
+}
+
+MapGrid coarse_grid() {
+    MapGrid grid;
+    grid.distance_min_m = 0.0;
+    grid.distance_max_m = 1500.0;
+    grid.distance_cells = 30;
+    grid.depth_min_m = 100.0;
+    grid.depth_max_m = 400.0;
+    grid.depth_cells = 6;
+    return grid;
+}
+
+VisibilityOptions coarse_options() {
+    VisibilityOptions options;
+    options.ray_parameters = 400;
+    return options;
+}
+
+std::vector<Receiver> one_receiver() {
+    Receiver r;
+    r.name = "rx";
+    r.z_m = -60.0;
+    return {r};
+}
+
+std::vector<Receiver> three_receivers() {
+    std::vector<Receiver> out(3);
+    out[0].name = "a", out[0].x_m = 0.0, out[0].z_m = -40.0;
+    out[1].name = "b", out[1].x_m = 30.0, out[1].y_m = 10.0, out[1].z_m = -80.0;
+    out[2].name = "c", out[2].x_m = -20.0, out[2].y_m = -25.0, out[2].z_m = -60.0;
+    return out;
+}
+
+}  // namespace
+
+TEST_CASE("The boundary alone equals the boundary of the whole map, receiver and station (common practice)",
+          "[uncertainty][map]") {
+    const FirnModel model = fitted_exponential();
+    const auto solver = solver_of(model);
+    const MapGrid grid = coarse_grid();
+    for (const auto& receivers : {one_receiver(), three_receivers()}) {
+        VisibilityOptions options = coarse_options();
+        options.min_receivers = receivers.size() == 1 ? 1 : 2;
+        options.azimuth_deg = 30.0;
+        const VisibilityMap map = compute_visibility_map(*solver, receivers, grid, options);
+        const std::vector<double> boundary = compute_visibility_boundary(*solver, receivers, grid, options);
+        REQUIRE(boundary.size() == map.boundary_m.size());
+        for (std::size_t j = 0; j < boundary.size(); ++j) {
+            INFO("row " << j << " with " << receivers.size() << " receivers");
+            CHECK(std::isfinite(boundary[j]));
+            CHECK(boundary[j] == map.boundary_m[j]);  // the same numbers, not just close
+        }
+    }
+}
+
+TEST_CASE("The linearised boundary sigma matches finite differences of the plain map at two profiles "
+          "(GUM, JCGM 100 2008, law of propagation for one parameter)",
+          "[uncertainty][map]") {
+    // One uncertain parameter: σ_b = |db/dθ| σ_θ. The derivative is taken independently, by the
+    // whole map (compute_visibility_map) at two models written out with θ ± 0.05 m.
+    const double sigma_scale = 2.0;
+    const FirnModel model =
+        fitted_exponential(37.0, "[uncertainty]\nparameters = [\"scale_depth_m\"]\ncovariance = [[4.0]]\n");
+    const ModelPerturbation perturbation(model);
+    const MapGrid grid = coarse_grid();
+    for (const auto& receivers : {one_receiver(), three_receivers()}) {
+        VisibilityOptions options = coarse_options();
+        options.min_receivers = receivers.size() == 1 ? 1 : 3;
+        const BoundaryUncertainty result = propagate_boundary_uncertainty(
+            perturbation, SolverChoice::automatic, receivers, grid, options, PropagationOptions{});
+        const double h = 0.05;
+        const auto low_solver = solver_of(fitted_exponential(37.0 - h, ""));
+        const auto high_solver = solver_of(fitted_exponential(37.0 + h, ""));
+        const VisibilityMap low = compute_visibility_map(*low_solver, receivers, grid, options);
+        const VisibilityMap high = compute_visibility_map(*high_solver, receivers, grid, options);
+        for (int j = 0; j < grid.depth_cells; ++j) {
+            const double derivative = (high.boundary_m[j] - low.boundary_m[j]) / (2.0 * h);
+            INFO("depth " << grid.depth_at(j) << " m, " << receivers.size() << " receivers, db/dθ = " << derivative);
+            REQUIRE(std::isfinite(derivative));
+            CHECK(std::abs(derivative) > 0.1);  // the boundary does move with the scale depth
+            CHECK(result.sigma_m[j] == Approx(std::abs(derivative) * sigma_scale).epsilon(0.02));
+            CHECK(result.without_boundary[j] == 0);
+            CHECK(result.unbounded[j] == 0);
+        }
+    }
+}
+
+TEST_CASE("Linearised and Monte Carlo boundary sigma agree within 10 percent (JCGM 101 2008 against JCGM 100 2008)",
+          "[uncertainty][map]") {
+    const ModelPerturbation perturbation(fitted_exponential());
+    const MapGrid grid = coarse_grid();
+    const auto receivers = one_receiver();
+    PropagationOptions linear;
+    PropagationOptions monte_carlo;
+    monte_carlo.method = PropagationMethod::monte_carlo;
+    monte_carlo.samples = 400;
+    monte_carlo.threads = 2;
+    const auto a = propagate_boundary_uncertainty(perturbation, SolverChoice::automatic, receivers, grid,
+                                                  coarse_options(), linear);
+    const auto b = propagate_boundary_uncertainty(perturbation, SolverChoice::automatic, receivers, grid,
+                                                  coarse_options(), monte_carlo);
+    CHECK(b.summary.models == 401);
+    CHECK(a.summary.models == 7);
+    CHECK(a.nominal_m == b.nominal_m);
+    for (int j = 0; j < grid.depth_cells; ++j) {
+        INFO("depth " << grid.depth_at(j) << " m: linearised " << a.sigma_m[j] << " m, Monte Carlo " << b.sigma_m[j]);
+        REQUIRE(a.sigma_m[j] > 1.0);
+        CHECK(b.sigma_m[j] == Approx(a.sigma_m[j]).epsilon(0.10));
+    }
+}
+
+TEST_CASE("Linearised and Monte Carlo visible-volume sigma agree within 10 percent (JCGM 101 2008 against JCGM 100 2008)",
+          "[uncertainty][map]") {
+    const ModelPerturbation perturbation(fitted_exponential());
+    DepthScanOptions options;
+    options.receiver_depths_m = {60.0, 120.0};
+    options.region.distance_min_m = 0.0;
+    options.region.distance_max_m = 1500.0;
+    options.region.distance_cells = 60;
+    options.region.depth_min_m = 0.0;
+    options.region.depth_max_m = 300.0;
+    options.region.depth_cells = 30;
+    options.ray_parameters = 300;
+    PropagationOptions linear;
+    linear.threads = 2;
+    PropagationOptions monte_carlo = linear;
+    monte_carlo.method = PropagationMethod::monte_carlo;
+    monte_carlo.samples = 300;
+    const auto a = propagate_depth_scan_uncertainty(perturbation, SolverChoice::automatic, options, linear);
+    const auto b = propagate_depth_scan_uncertainty(perturbation, SolverChoice::automatic, options, monte_carlo);
+    REQUIRE(a.rows.size() == 2);
+    REQUIRE(b.rows.size() == 2);
+    for (std::size_t k = 0; k < 2; ++k) {
+        INFO("receiver at " << options.receiver_depths_m[k] << " m: linearised " << a.rows[k].visible_volume_sigma_m3
+                            << " m3, Monte Carlo " << b.rows[k].visible_volume_sigma_m3);
+        REQUIRE(a.rows[k].visible_volume_sigma_m3 > 0.0);
+        CHECK(b.rows[k].visible_volume_sigma_m3 == Approx(a.rows[k].visible_volume_sigma_m3).epsilon(0.10));
+        CHECK(!a.rows[k].strong_volume_sigma_m3.has_value());
+        CHECK(a.rows[k].ducted_only_volume_sigma_m3 == 0.0);  // no duct in an exponential profile
+    }
+}
+
+TEST_CASE("Monte Carlo boundary draws are the same for any thread count and change with the seed (common practice)",
+          "[uncertainty][map]") {
+    const ModelPerturbation perturbation(fitted_exponential());
+    const MapGrid grid = coarse_grid();
+    const auto receivers = three_receivers();
+    VisibilityOptions options = coarse_options();
+    options.min_receivers = 2;
+    PropagationOptions propagation;
+    propagation.method = PropagationMethod::monte_carlo;
+    propagation.samples = 12;
+    propagation.threads = 1;
+    const auto one = propagate_boundary_uncertainty(perturbation, SolverChoice::automatic, receivers, grid, options,
+                                                    propagation);
+    propagation.threads = 2;
+    const auto two = propagate_boundary_uncertainty(perturbation, SolverChoice::automatic, receivers, grid, options,
+                                                    propagation);
+    propagation.seed += 1;
+    const auto other = propagate_boundary_uncertainty(perturbation, SolverChoice::automatic, receivers, grid, options,
+                                                      propagation);
+    CHECK(one.sigma_m == two.sigma_m);
+    CHECK(one.sigma_m != other.sigma_m);
+    CHECK(one.summary.seed + 1 == other.summary.seed);
+}
+
+TEST_CASE("A model without an uncertainty table is refused with a message naming it (common practice)",
+          "[uncertainty][map]") {
+    const FirnModel model = fitted_exponential(37.0, "");
+    CHECK_THROWS_AS(ModelPerturbation(model), ModelInputError);
+}
