@@ -65,6 +65,12 @@ BoundaryUncertainty propagate_boundary_uncertainty(const ModelPerturbation& pert
         if (std::isfinite(result.nominal_m[j])) result.sigma_m[j] = values.sigma[j];
         result.unbounded[j] = values.absent[rows + j];
         result.without_boundary[j] = values.absent[j] >= result.unbounded[j] ? values.absent[j] - result.unbounded[j] : 0;
+        // A linearised derivative is a central difference that does not look at the nominal
+        // model: its flags say whether a step model lacks the output, so add the nominal's own.
+        if (propagation.method == PropagationMethod::linearised) {
+            if (std::isinf(result.nominal_m[j])) result.unbounded[j] = 1;
+            if (std::isnan(result.nominal_m[j])) result.without_boundary[j] = 1;
+        }
     }
     return result;
 }

@@ -8,6 +8,7 @@
 #include <catch2/catch.hpp>
 
 #include "core/errors.hpp"
+#include "model/firn_model.hpp"
 #include "model/model_file.hpp"
 #include "solver/make_solver.hpp"
 #include "station/depth_scan.hpp"
@@ -202,4 +203,56 @@ TEST_CASE("A model without an uncertainty table is refused with a message naming
           "[uncertainty][map]") {
     const FirnModel model = fitted_exponential(37.0, "");
     CHECK_THROWS_AS(ModelPerturbation(model), ModelInputError);
+    CHECK_THROWS_WITH(ModelPerturbation(model), Catch::Contains("[uncertainty]") && Catch::Contains("fitted"));
+}
+
+TEST_CASE("In uniform ice every draw reaches every distance so the boundary has no sigma and every model counts as "
+          "unbounded (straight rays, common practice)",
+          "[uncertainty][map]") {
+    const FirnModel model = parse_model("[index]\nkind = \"constant\"\nn = 1.78\n"
+                                        "[uncertainty]\nparameters = [\"n\"]\ncovariance = [[1e-4]]\n",
+                                        "uniform.toml");
+    const ModelPerturbation perturbation(model);
+    const MapGrid grid = coarse_grid();
+    PropagationOptions monte_carlo;
+    monte_carlo.method = PropagationMethod::monte_carlo;
+    monte_carlo.samples = 5;
+    for (const PropagationOptions& propagation : {PropagationOptions{}, monte_carlo}) {
+        const auto result = propagate_boundary_uncertainty(perturbation, SolverChoice::automatic, one_receiver(), grid,
+                                                           coarse_options(), propagation);
+        const std::size_t expected = propagation.method == PropagationMethod::monte_carlo ? 5 : 1;
+        for (int j = 0; j < grid.depth_cells; ++j) {
+            CHECK(std::isinf(result.nominal_m[j]));
+            CHECK(std::isnan(result.sigma_m[j]));
+            CHECK(result.unbounded[j] == expected);
+            CHECK(result.without_boundary[j] == 0);
+        }
+    }
+}
+
+TEST_CASE("A table's per-point index uncertainty moves the boundary of every row (Karhunen-Loeve components, "
+          "common practice)",
+          "[uncertainty][map]") {
+    std::string depth = "[", n = "[";
+    for (int i = 0; i < 60; ++i) {
+        depth += std::to_string(i * 2.5) + ",";
+        n += std::to_string(1.78 - 0.43 * std::exp(-i * 2.5 / 37.0)) + ",";
+    }
+    const FirnModel model = parse_model("[index]\nkind = \"table\"\ndepth_m = " + depth + "]\nn = " + n +
+                                            "]\n[uncertainty]\nindex_sigma = 0.01\ncorrelation_length_m = 10\n",
+                                        "table.toml");
+    const ModelPerturbation perturbation(model);
+    MapGrid grid = coarse_grid();
+    grid.depth_cells = 3;
+    PropagationOptions propagation;
+    propagation.threads = 2;
+    const auto result = propagate_boundary_uncertainty(perturbation, SolverChoice::automatic, one_receiver(), grid,
+                                                       coarse_options(), propagation);
+    CHECK(result.summary.models == 2 * perturbation.dimension() + 1);
+    for (int j = 0; j < grid.depth_cells; ++j) {
+        INFO("depth " << grid.depth_at(j) << " m: boundary " << result.nominal_m[j] << " ± " << result.sigma_m[j]);
+        CHECK(std::isfinite(result.nominal_m[j]));
+        CHECK(result.sigma_m[j] > 0.5);
+        CHECK(result.sigma_m[j] < 0.2 * result.nominal_m[j]);
+    }
 }
