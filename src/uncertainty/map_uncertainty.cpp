@@ -1,5 +1,7 @@
 #include "uncertainty/map_uncertainty.hpp"
 
+#include <algorithm>
+#include <atomic>
 #include <cmath>
 #include <limits>
 #include <memory>
@@ -24,6 +26,35 @@ PropagationSummary summary_of(const ModelPerturbation& perturbation, const Propa
     return summary;
 }
 
+// Models a propagation evaluates: the nominal one, then 2K steps or N draws.
+std::size_t models_to_evaluate(const ModelPerturbation& perturbation, const PropagationOptions& propagation) {
+    return 1 + (propagation.method == PropagationMethod::monte_carlo ? static_cast<std::size_t>(propagation.samples)
+                                                                      : 2 * perturbation.dimension());
+}
+
+// Progress over every model's work: each model adds `steps` when done (or step by step), so that
+// a long propagation reports more often than once per batch of models. Thread-safe.
+class ModelProgress {
+public:
+    ModelProgress(const RunControl& control, std::size_t total) : control_(control), total_(total) {}
+    void step() const {
+        const std::size_t done = ++done_;
+        if (control_.progress) control_.progress(std::min(done, total_), total_);
+    }
+
+private:
+    const RunControl& control_;
+    std::size_t total_;
+    mutable std::atomic<std::size_t> done_{0};
+};
+
+// The control passed to propagate_uncertainty: cancellation only, progress comes from ModelProgress.
+RunControl cancel_only(const RunControl& control) {
+    RunControl out;
+    out.cancel = control.cancel;
+    return out;
+}
+
 std::unique_ptr<RaySolver> solver_for(const FirnModel& model, SolverChoice choice) {
     return make_solver(std::make_shared<const FirnModel>(model), choice);
 }
@@ -39,6 +70,7 @@ BoundaryUncertainty propagate_boundary_uncertainty(const ModelPerturbation& pert
     one_model.control = {};
     one_model.control.cancel = control.cancel;
     const std::size_t rows = static_cast<std::size_t>(grid.depth_cells);
+    const ModelProgress progress(control, models_to_evaluate(perturbation, propagation));
     // Two outputs per row: the boundary where it is finite, and a marker that is absent exactly
     // where the boundary is unbounded, so that the absent counts tell "none" from "unbounded".
     const auto evaluate = [&](const FirnModel& model) {
@@ -49,9 +81,10 @@ BoundaryUncertainty propagate_boundary_uncertainty(const ModelPerturbation& pert
             out[j] = std::isfinite(boundary[j]) ? boundary[j] : absent_value;
             out[rows + j] = std::isinf(boundary[j]) ? absent_value : 0.0;
         }
+        progress.step();
         return out;
     };
-    const PropagatedValues values = propagate_uncertainty(perturbation, evaluate, propagation, control);
+    const PropagatedValues values = propagate_uncertainty(perturbation, evaluate, propagation, cancel_only(control));
 
     // The nominal boundary once more, unsplit (+inf and NaN told apart).
     const auto nominal_solver = solver_for(perturbation.nominal(), solver);
@@ -83,6 +116,9 @@ DepthScanUncertainty propagate_depth_scan_uncertainty(const ModelPerturbation& p
     one_model.control = {};
     one_model.control.cancel = control.cancel;
     const std::size_t depths = options.receiver_depths_m.size();
+    // Progress per scanned depth of every model.
+    const ModelProgress progress(control, depths * models_to_evaluate(perturbation, propagation));
+    one_model.control.progress = [&progress](std::size_t, std::size_t) { progress.step(); };
     constexpr std::size_t per_depth = 5;  // visible, two-path, ducted only, bottom only, strong
     const bool strong = options.amplitude_threshold_per_m.has_value();
     const auto evaluate = [&](const FirnModel& model) {
@@ -99,7 +135,7 @@ DepthScanUncertainty propagate_depth_scan_uncertainty(const ModelPerturbation& p
         }
         return out;
     };
-    const PropagatedValues values = propagate_uncertainty(perturbation, evaluate, propagation, control);
+    const PropagatedValues values = propagate_uncertainty(perturbation, evaluate, propagation, cancel_only(control));
     DepthScanUncertainty result;
     result.summary = summary_of(perturbation, propagation, values);
     for (std::size_t k = 0; k < depths; ++k) {

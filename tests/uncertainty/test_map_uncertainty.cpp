@@ -3,7 +3,9 @@
 // linearised against Monte Carlo propagation for a boundary distance and a visible volume, and
 // reproducibility of the draws.
 #include <cmath>
+#include <algorithm>
 #include <memory>
+#include <mutex>
 
 #include <catch2/catch.hpp>
 
@@ -255,4 +257,25 @@ TEST_CASE("A table's per-point index uncertainty moves the boundary of every row
         CHECK(result.sigma_m[j] > 0.5);
         CHECK(result.sigma_m[j] < 0.2 * result.nominal_m[j]);
     }
+}
+
+TEST_CASE("Progress of a boundary propagation counts every model and ends at the total (common practice)",
+          "[uncertainty][map]") {
+    const ModelPerturbation perturbation(fitted_exponential());
+    std::mutex mutex;
+    std::size_t calls = 0, last_done = 0, last_total = 0;
+    RunControl control;
+    control.progress = [&](std::size_t done, std::size_t total) {
+        const std::lock_guard<std::mutex> lock(mutex);
+        ++calls;
+        last_done = std::max(last_done, done);
+        last_total = total;
+    };
+    PropagationOptions propagation;
+    propagation.threads = 2;
+    propagate_boundary_uncertainty(perturbation, SolverChoice::automatic, one_receiver(), coarse_grid(),
+                                   coarse_options(), propagation, control);
+    CHECK(calls == 7);  // the nominal model and 2 steps along each of 3 components
+    CHECK(last_done == 7);
+    CHECK(last_total == 7);
 }
