@@ -125,7 +125,7 @@ TEST_CASE("firnray shadow --uncertainty with a station and min-receivers", "[cli
     require_svg_renders(dir + "/map.svg");
 }
 
-TEST_CASE("firnray shadow and depths refuse --uncertainty without an uncertainty table (exit 3) and --seed alone (exit 2)",
+TEST_CASE("firnray shadow and depths refuse --uncertainty without an uncertainty table (exit 3), --seed alone and a covariance too large for memory (exit 2)",
           "[cli][shadow][depths][uncertainty]") {
     const std::string dir = temp_folder("unc-bad");
     const std::string plain = write_file(dir + "/plain.toml", plain_model);
@@ -149,6 +149,13 @@ TEST_CASE("firnray shadow and depths refuse --uncertainty without an uncertainty
     CHECK(seed.err.find("--seed") != std::string::npos);
     const auto depths_seed = run_firnray({"depths", "--model", fitted, "--depths", "60", "--seed", "5", "--quiet"});
     CHECK(depths_seed.exit_code == 2);
+
+    // The covariance of two outputs per depth row is counted by the memory check.
+    const auto too_big = run_firnray({"shadow", "--model", fitted, "--receiver", "0,-60", "--depth-cells", "20000",
+                                      "--distance-cells", "10", "--uncertainty-samples", "100", "--boundary",
+                                      dir + "/b.csv", "-o", dir + "/g.csv", "--quiet"});
+    CHECK(too_big.exit_code == 2);
+    CHECK(too_big.err.find("with its boundary's uncertainty") != std::string::npos);
 
     auto both = shadow_args(fitted, dir + "/b.csv");
     both.insert(both.end(), {"--uncertainty", "--uncertainty-samples", "10"});

@@ -49,15 +49,16 @@ constexpr double svg_bytes_per_cell = 60.0;
 constexpr double csv_buffer_bytes = 1 << 16;
 
 // A propagation of the boundary's uncertainty holds two outputs per depth row for every model
-// (Monte Carlo: every draw) and their covariance (propagate_uncertainty).
-double uncertainty_bytes(const ShadowArguments& args, const MapGrid& grid) {
-    if (!args.uncertainty.requested()) return 0.0;
+// (the draws, or the 2K difference steps) and their covariance (propagate_uncertainty).
+double uncertainty_bytes(const ShadowArguments& args, const MapGrid& grid, const ModelPerturbation* perturbation) {
+    if (perturbation == nullptr) return 0.0;
     const double outputs = 2.0 * grid.depth_cells;
-    const double models = args.uncertainty.samples > 0 ? args.uncertainty.samples : 2.0 * 64;
+    const double models = args.uncertainty.samples > 0 ? args.uncertainty.samples : 2.0 * perturbation->dimension();
     return (outputs * outputs + models * outputs) * sizeof(double);
 }
 
-void check_memory(const ShadowArguments& args, const MapGrid& grid, std::size_t receivers, bool stratified) {
+void check_memory(const ShadowArguments& args, const MapGrid& grid, std::size_t receivers, bool stratified,
+                  const ModelPerturbation* perturbation) {
     const double cells = static_cast<double>(grid.cells());
     const double memory = cells * sizeof(MapCell) + grid.depth_cells * sizeof(double) +
                           static_cast<double>(receivers) * args.ray_parameters * arrival_bytes_per_ray_parameter +
@@ -65,8 +66,10 @@ void check_memory(const ShadowArguments& args, const MapGrid& grid, std::size_t 
                                             args.ray_parameters * stratified_bytes_per_entry
                                       : 0.0) +
                           (args.plot_path.empty() ? 0.0 : cells * svg_bytes_per_cell) +
-                          csv_buffer_bytes + uncertainty_bytes(args, grid);
-    check_memory_estimate(fmt::format("a shadow map of {} x {} cells", grid.distance_cells, grid.depth_cells), memory,
+                          csv_buffer_bytes + uncertainty_bytes(args, grid, perturbation);
+    const std::string what = fmt::format("a shadow map of {} x {} cells{}", grid.distance_cells, grid.depth_cells,
+                                         perturbation ? " with its boundary's uncertainty" : "");
+    check_memory_estimate(what, memory,
                           cells * grid_csv_bytes_per_cell, args.memory_limit_mb);
 }
 
@@ -86,13 +89,14 @@ int run_shadow(const ShadowArguments& args) {
     const auto model = load_model_or_default(args.model_path);
     double deepest = grid.depth_max_m;
     for (const Receiver& r : receivers) deepest = std::max(deepest, -r.z_m);
-    check_memory(args, grid, receivers.size(), needs_stratified_table(*model, deepest, !args.no_bottom));
-    const SolverChoice solver_choice = parse_solver_choice(args.solver);
-    const auto solver = make_solver(model, solver_choice);
     // Before the map, so that a model without [uncertainty] fails at once (exit 3).
     const auto propagation = propagation_options(args.uncertainty, args.run);
     std::optional<ModelPerturbation> perturbation;
     if (propagation) perturbation.emplace(*model);
+    check_memory(args, grid, receivers.size(), needs_stratified_table(*model, deepest, !args.no_bottom),
+                 perturbation ? &*perturbation : nullptr);
+    const SolverChoice solver_choice = parse_solver_choice(args.solver);
+    const auto solver = make_solver(model, solver_choice);
 
     VisibilityOptions options;
     options.min_receivers = args.min_receivers;
