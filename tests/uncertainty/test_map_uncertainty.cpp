@@ -279,3 +279,31 @@ TEST_CASE("Progress of a boundary propagation counts every model and ends at the
     CHECK(last_done == 7);
     CHECK(last_total == 7);
 }
+
+TEST_CASE("A station's boundary sigma follows from one receiver's reach sigma by the straight-line geometry "
+          "d = sqrt(R^2 - h^2) (Pythagoras, GUM JCGM 100 2008 law of propagation)",
+          "[uncertainty][map]") {
+    // Two receivers at the same depth, 50 m apart across the map line: the map's origin is
+    // between them, each is h = 25 m off the line, and both see a source at d when
+    // d² + h² <= R², R the reach of that depth. So d = √(R² − h²) and σ_d = R σ_R / d.
+    const FirnModel model =
+        fitted_exponential(37.0, "[uncertainty]\nparameters = [\"scale_depth_m\"]\ncovariance = [[4.0]]\n");
+    const ModelPerturbation perturbation(model);
+    const MapGrid grid = coarse_grid();
+    std::vector<Receiver> pair(2);
+    pair[0].name = "a", pair[0].y_m = -25.0, pair[0].z_m = -60.0;
+    pair[1].name = "b", pair[1].y_m = 25.0, pair[1].z_m = -60.0;
+    VisibilityOptions options = coarse_options();
+    options.min_receivers = 2;
+    const auto station = propagate_boundary_uncertainty(perturbation, SolverChoice::automatic, pair, grid, options,
+                                                        PropagationOptions{});
+    const auto single = propagate_boundary_uncertainty(perturbation, SolverChoice::automatic, one_receiver(), grid,
+                                                       coarse_options(), PropagationOptions{});
+    for (int j = 0; j < grid.depth_cells; ++j) {
+        const double reach = single.nominal_m[j];
+        const double d = std::sqrt(reach * reach - 25.0 * 25.0);
+        INFO("depth " << grid.depth_at(j) << " m: reach " << reach << " ± " << single.sigma_m[j]);
+        CHECK(station.nominal_m[j] == Approx(d).epsilon(1e-9));
+        CHECK(station.sigma_m[j] == Approx(reach / d * single.sigma_m[j]).epsilon(0.01));
+    }
+}
