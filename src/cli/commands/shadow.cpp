@@ -165,7 +165,7 @@ void add_shadow_command(CLI::App& app, CommandSlot& slot) {
     add_memory_limit_option(cmd, args->memory_limit_mb);
     add_uncertainty_options(cmd, args->uncertainty);
     cmd->add_option("--output,-o", args->grid_path, "grid CSV, one row per cell (default: stdout)")->type_name("FILE.csv");
-    cmd->add_option("--boundary", args->boundary_path, "shadow boundary CSV: largest visible distance per source depth")
+    cmd->add_option("--boundary", args->boundary_path, "shadow boundary CSV: largest visible distance per source depth (with its 1σ under --uncertainty)")
         ->type_name("FILE.csv");
     cmd->add_option("--plot", args->plot_path, "SVG map")->type_name("FILE.svg");
     cmd->add_option("--colour-by", args->colour_by,
@@ -188,12 +188,13 @@ reach (for a station: where at least --min-receivers receivers still see the sou
 
 --uncertainty (linearised) or --uncertainty-samples N (Monte Carlo, --seed S) carries the
 model's [uncertainty] table into the boundary (docs/uncertainty.md): only the boundary is
-recomputed for each model, from the receivers' exact reach. The boundary CSV then starts with a
-'# uncertainty:' line (method, draws, seed, what the uncertainty is) and gains the columns
-max_visible_distance_sigma_m (1σ; empty where the nominal boundary is not finite or no 1σ can be
-given), models_without_boundary and models_unbounded (Monte Carlo: how many draws had no visible
-distance at that depth, or an unbounded one; linearised: 1 when a difference step did); the map
-draws the boundary inside its ± 1σ band. A model without [uncertainty] is refused (exit 3).
+recomputed for each model, from the receivers' exact reach. The boundary CSV then gains a
+'# uncertainty:' line before its header (method, draws, seed, what the uncertainty is) and the
+columns max_visible_distance_sigma_m (1σ; empty where the nominal boundary is not finite or no
+1σ can be given), models_without_boundary and models_unbounded (Monte Carlo: how many draws had
+no visible distance at that depth, or an unbounded one; linearised: 1 when the nominal model or
+a difference step does). The map draws the boundary inside its ± 1σ band. A model without
+[uncertainty] is refused (exit 3).
 
 Example: the shadow zone of a receiver at 60 m depth, with its boundary and a map
   firnray shadow --receiver 0,-60 --source-distance 0:1500 --source-depth 0:300 \
