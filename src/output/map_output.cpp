@@ -122,12 +122,12 @@ plot::CellGrid cell_grid(const MapGrid& grid) {
     return cells;
 }
 
-// "Monte Carlo, 100 draws, seed 20261203" or "linearised": for legends, where the whole summary
-// would not fit.
+// "Monte Carlo, 100 draws, seed 20261203; 3 parameters (…)" or "linearised; …": for legends,
+// where the whole summary would not fit.
 std::string summary_method_label(const PropagationSummary& summary) {
     if (summary.method == PropagationMethod::monte_carlo)
-        return fmt::format("Monte Carlo, {} draws, seed {}", summary.samples, summary.seed);
-    return "linearised";
+        return fmt::format("Monte Carlo, {} draws, seed {}; {}", summary.samples, summary.seed, summary.uncertainty);
+    return "linearised; " + summary.uncertainty;
 }
 
 // How the uncertainty was propagated, as a comment line before a table's header.

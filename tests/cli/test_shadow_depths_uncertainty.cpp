@@ -74,7 +74,7 @@ TEST_CASE("firnray shadow --uncertainty: boundary sigma columns, the method line
         CHECK(unbounded == "0");
     }
     const std::string svg = read_file(dir + "/map.svg");
-    CHECK(svg.find("boundary ± 1σ (linearised)") != std::string::npos);
+    CHECK(svg.find("boundary ± 1σ (linearised; 3 parameters (n_surface, scale_depth_m, n_deep))") != std::string::npos);
     require_svg_renders(dir + "/map.svg");
 
     // Without the options, the boundary CSV is what it always was.
@@ -181,7 +181,7 @@ TEST_CASE("firnray depths --uncertainty: sigma columns, JSON sigma members and b
                         "two_path_volume_sigma_m3,strong_volume_sigma_m3,ducted_only_volume_sigma_m3,"
                         "bottom_only_volume_sigma_m3") != std::string::npos);
     require_svg_renders(dir + "/d.svg");
-    CHECK(read_file(dir + "/d.svg").find("visible ± 1σ (linearised)") != std::string::npos);
+    CHECK(read_file(dir + "/d.svg").find("visible ± 1σ (linearised; 3 parameters (n_surface, scale_depth_m, n_deep))") != std::string::npos);
 
     auto json_args = base;
     json_args.insert(json_args.end(), {"--uncertainty-samples", "6", "--format", "json", "--threads", "2"});
