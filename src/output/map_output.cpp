@@ -1,6 +1,8 @@
 #include "output/map_output.hpp"
 
+#include <algorithm>
 #include <cmath>
+#include <span>
 #include <iterator>
 #include <limits>
 #include <optional>
@@ -120,7 +122,53 @@ plot::CellGrid cell_grid(const MapGrid& grid) {
     return cells;
 }
 
+// "Monte Carlo, 100 draws, seed 20261203; 3 parameters (…)" or "linearised; …": for legends,
+// where the whole summary would not fit.
+std::string summary_method_label(const PropagationSummary& summary) {
+    if (summary.method == PropagationMethod::monte_carlo)
+        return fmt::format("Monte Carlo, {} draws, seed {}; {}", summary.samples, summary.seed, summary.uncertainty);
+    return "linearised; " + summary.uncertainty;
+}
+
+// How the uncertainty was propagated, as a comment line before a table's header.
+void put_uncertainty(output::TextSink& out, const PropagationSummary* summary) {
+    if (summary == nullptr) return;
+    out.put("# uncertainty: ");
+    out.put(propagation_summary_text(*summary));
+    out.end_row();
+}
+
+// A 1σ that can be given: finite (a propagation marks the others NaN).
+bool has_sigma(double sigma) { return std::isfinite(sigma); }
+
+// A band drawn as short segments between low[k] and high[k] (one per row of a map, or one per
+// point of a curve): wide strokes of one opaque colour, so that neighbouring segments merge into
+// a band without darkening where they overlap. Points where either end is NaN are left out.
+void add_segments(plot::Figure& figure, std::span<const double> x_low, std::span<const double> x_high,
+                  std::span<const double> y_low, std::span<const double> y_high, const plot::LineStyle& style) {
+    std::vector<double> x, y;
+    for (std::size_t k = 0; k < x_low.size(); ++k) {
+        if (std::isnan(x_low[k]) || std::isnan(x_high[k]) || std::isnan(y_low[k]) || std::isnan(y_high[k])) continue;
+        x.insert(x.end(), {x_low[k], x_high[k], std::numeric_limits<double>::quiet_NaN()});
+        y.insert(y.end(), {y_low[k], y_high[k], std::numeric_limits<double>::quiet_NaN()});
+    }
+    if (!x.empty()) figure.add_line(x, y, style);
+}
+
 }  // namespace
+
+std::string propagation_summary_text(const PropagationSummary& summary) {
+    std::string text;
+    if (summary.method == PropagationMethod::monte_carlo) {
+        text = fmt::format("Monte Carlo, {} draws, seed {}", summary.samples, summary.seed);
+        if (summary.rejected > 0) text += fmt::format(" ({} made no valid profile and were left out)", summary.rejected);
+    } else {
+        text = "linearised (central differences along each component)";
+        if (summary.rejected > 0)
+            text += fmt::format(" ({} step models made no valid profile: one-sided differences there)", summary.rejected);
+    }
+    return text + fmt::format(", {} models; {}", summary.models, summary.uncertainty);
+}
 
 void write_visibility_grid_csv(std::ostream& stream, const VisibilityMap& map) {
     output::TextSink out(stream);
@@ -151,10 +199,16 @@ std::string visibility_grid_csv(const VisibilityMap& map) {
     return render_to_string([&](std::ostream& out) { write_visibility_grid_csv(out, map); });
 }
 
-void write_visibility_boundary_csv(std::ostream& stream, const VisibilityMap& map) {
+void write_visibility_boundary_csv(std::ostream& stream, const VisibilityMap& map,
+                                   const BoundaryUncertainty* uncertainty) {
+    if (uncertainty != nullptr && uncertainty->sigma_m.size() != map.boundary_m.size())
+        throw OutputError(fmt::format("the boundary uncertainty has {} rows for {} depth rows",
+                                      uncertainty->sigma_m.size(), map.boundary_m.size()));
     output::TextSink out(stream);
     put_left_out(out, map.left_out);
+    put_uncertainty(out, uncertainty ? &uncertainty->summary : nullptr);
     out.put("depth_m,max_visible_distance_m");
+    if (uncertainty != nullptr) out.put(",max_visible_distance_sigma_m,models_without_boundary,models_unbounded");
     out.end_row();
     for (int j = 0; j < map.grid.depth_cells; ++j) {
         put_number(out, map.grid.depth_at(j), "depth_m");
@@ -163,17 +217,28 @@ void write_visibility_boundary_csv(std::ostream& stream, const VisibilityMap& ma
         const double boundary = map.boundary_m[j];
         if (boundary == std::numeric_limits<double>::infinity()) out.put("inf");
         else if (!std::isnan(boundary)) put_number(out, boundary, "max_visible_distance_m");
+        if (uncertainty != nullptr) {
+            out.put(',');
+            put_if(out, std::isfinite(boundary) && has_sigma(uncertainty->sigma_m[j]), uncertainty->sigma_m[j],
+                   "max_visible_distance_sigma_m");
+            fmt::format_to(fmt::appender(out.buffer()), ",{},{}", uncertainty->without_boundary[j],
+                           uncertainty->unbounded[j]);
+        }
         out.end_row();
     }
     out.finish();
 }
 
-std::string visibility_boundary_csv(const VisibilityMap& map) {
-    return render_to_string([&](std::ostream& out) { write_visibility_boundary_csv(out, map); });
+std::string visibility_boundary_csv(const VisibilityMap& map, const BoundaryUncertainty* uncertainty) {
+    return render_to_string([&](std::ostream& out) { write_visibility_boundary_csv(out, map, uncertainty); });
 }
 
 void write_visibility_map_svg(std::ostream& out, const VisibilityMap& map, const FirnModel& model,
-                              const std::vector<Receiver>& receivers, MapColouring colouring) {
+                              const std::vector<Receiver>& receivers, MapColouring colouring,
+                              const BoundaryUncertainty* uncertainty) {
+    if (uncertainty != nullptr && uncertainty->sigma_m.size() != map.boundary_m.size())
+        throw OutputError(fmt::format("the boundary uncertainty has {} rows for {} depth rows",
+                                      uncertainty->sigma_m.size(), map.boundary_m.size()));
     plot::Figure figure(1000, 620);
     const std::string who = receivers.size() == 1
                                 ? fmt::format("receiver at {:g} m depth", require_finite(-receivers[0].z_m, "receiver depth"))
@@ -235,6 +300,25 @@ void write_visibility_map_svg(std::ostream& out, const VisibilityMap& map, const
         figure.value_map(grid, std::move(values), scale);
     }
 
+    // The band of ± 1σ under the boundary: one horizontal stroke per depth row, as thick as a
+    // row is tall on the axes (about 75 % of the figure's height), so the strokes merge.
+    if (uncertainty != nullptr) {
+        const double nan = std::numeric_limits<double>::quiet_NaN();
+        std::vector<double> low, high, depth;
+        for (int j = 0; j < map.grid.depth_cells; ++j) {
+            const double b = map.boundary_m[j], sigma = uncertainty->sigma_m[j];
+            const bool shown = std::isfinite(b) && has_sigma(sigma);
+            low.push_back(shown ? std::clamp(b - sigma, map.grid.distance_min_m, map.grid.distance_max_m) : nan);
+            high.push_back(shown ? std::clamp(b + sigma, map.grid.distance_min_m, map.grid.distance_max_m) : nan);
+            depth.push_back(map.grid.depth_at(j));
+        }
+        const double row_px = std::max(1.0, 0.75 * 620.0 / map.grid.depth_cells);
+        add_segments(figure, low, high, depth, depth, plot::LineStyle{"#fcae91", row_px, "", 1.0});
+        figure.add_line(low, depth, plot::LineStyle{"#fb6a4a", 1.0, "4 3", 1.0},
+                        fmt::format("boundary ± 1σ ({})", summary_method_label(uncertainty->summary)));
+        figure.add_line(high, depth, plot::LineStyle{"#fb6a4a", 1.0, "4 3", 1.0});
+    }
+
     // The shadow boundary as a curve (distance against depth).
     std::vector<double> bx, by;
     for (int j = 0; j < map.grid.depth_cells; ++j) {
@@ -257,8 +341,9 @@ void write_visibility_map_svg(std::ostream& out, const VisibilityMap& map, const
 }
 
 std::string visibility_map_svg(const VisibilityMap& map, const FirnModel& model, const std::vector<Receiver>& receivers,
-                               MapColouring colouring) {
-    return render_to_string([&](std::ostream& out) { write_visibility_map_svg(out, map, model, receivers, colouring); });
+                               MapColouring colouring, const BoundaryUncertainty* uncertainty) {
+    return render_to_string(
+        [&](std::ostream& out) { write_visibility_map_svg(out, map, model, receivers, colouring, uncertainty); });
 }
 
 namespace {
@@ -271,17 +356,35 @@ void check_resolution_rows(const DepthScan& scan, const DepthResolutionScan* res
                                       scan.rows.size()));
 }
 
+// Likewise for the uncertainty of the volumes.
+void check_uncertainty_rows(const DepthScan& scan, const DepthScanUncertainty* uncertainty) {
+    if (uncertainty != nullptr && uncertainty->rows.size() != scan.rows.size())
+        throw OutputError(fmt::format("the volume uncertainty has {} rows for {} receiver depths",
+                                      uncertainty->rows.size(), scan.rows.size()));
+}
+
+std::optional<double> sigma_if_given(double sigma) { return has_sigma(sigma) ? std::optional(sigma) : std::nullopt; }
+std::optional<double> sigma_if_given(std::optional<double> sigma) {
+    return sigma && has_sigma(*sigma) ? sigma : std::nullopt;
+}
+
 }  // namespace
 
-void write_depth_scan_csv(std::ostream& stream, const DepthScan& scan, const DepthResolutionScan* resolution) {
+void write_depth_scan_csv(std::ostream& stream, const DepthScan& scan, const DepthResolutionScan* resolution,
+                          const DepthScanUncertainty* uncertainty) {
     check_resolution_rows(scan, resolution);
+    check_uncertainty_rows(scan, uncertainty);
     output::TextSink out(stream);
     put_left_out(out, scan.left_out);
+    put_uncertainty(out, uncertainty ? &uncertainty->summary : nullptr);
     out.put("receiver_depth_m,region_volume_m3,visible_volume_m3,visible_fraction,two_path_volume_m3,"
             "median_time_between_ns,min_time_between_ns,max_time_between_ns,strong_volume_m3,best,"
             "ducted_only_volume_m3,bottom_only_volume_m3");
     if (resolution != nullptr)
         out.put(",resolution_median_sigma_distance_m,resolution_median_sigma_depth_m,resolution_unresolved_fraction");
+    if (uncertainty != nullptr)
+        out.put(",visible_volume_sigma_m3,visible_fraction_sigma,two_path_volume_sigma_m3,strong_volume_sigma_m3,"
+                "ducted_only_volume_sigma_m3,bottom_only_volume_sigma_m3");
     out.end_row();
     for (std::size_t k = 0; k < scan.rows.size(); ++k) {
         const DepthScanRow& row = scan.rows[k];
@@ -316,18 +419,34 @@ void write_depth_scan_csv(std::ostream& stream, const DepthScan& scan, const Dep
             out.put(',');
             put_number(out, r.unresolved_fraction, "resolution_unresolved_fraction");
         }
+        if (uncertainty != nullptr) {
+            const DepthScanUncertaintyRow& u = uncertainty->rows[k];
+            const auto put_sigma = [&](std::optional<double> sigma, std::string_view column) {
+                out.put(',');
+                if (sigma) put_number(out, *sigma, column, 10);
+            };
+            const auto visible = sigma_if_given(u.visible_volume_sigma_m3);
+            put_sigma(visible, "visible_volume_sigma_m3");
+            put_sigma(visible ? std::optional(*visible / row.region_volume_m3) : std::nullopt, "visible_fraction_sigma");
+            put_sigma(sigma_if_given(u.two_path_volume_sigma_m3), "two_path_volume_sigma_m3");
+            put_sigma(sigma_if_given(u.strong_volume_sigma_m3), "strong_volume_sigma_m3");
+            put_sigma(sigma_if_given(u.ducted_only_volume_sigma_m3), "ducted_only_volume_sigma_m3");
+            put_sigma(sigma_if_given(u.bottom_only_volume_sigma_m3), "bottom_only_volume_sigma_m3");
+        }
         out.end_row();
     }
     out.finish();
 }
 
-std::string depth_scan_csv(const DepthScan& scan, const DepthResolutionScan* resolution) {
-    return render_to_string([&](std::ostream& out) { write_depth_scan_csv(out, scan, resolution); });
+std::string depth_scan_csv(const DepthScan& scan, const DepthResolutionScan* resolution,
+                           const DepthScanUncertainty* uncertainty) {
+    return render_to_string([&](std::ostream& out) { write_depth_scan_csv(out, scan, resolution, uncertainty); });
 }
 
 void write_depth_scan_json(std::ostream& out, const DepthScan& scan, const FirnModel& model, const MapGrid& region,
-                           const DepthResolutionScan* resolution) {
+                           const DepthResolutionScan* resolution, const DepthScanUncertainty* uncertainty) {
     check_resolution_rows(scan, resolution);
+    check_uncertainty_rows(scan, uncertainty);
     JsonWriter json(out);
     json.begin_object();
     json.key("model");
@@ -357,6 +476,19 @@ void write_depth_scan_json(std::ostream& out, const DepthScan& scan, const FirnM
         json.field("depth_cells", resolution->grid.depth_cells);
         json.end_object();
     }
+    if (uncertainty != nullptr) {
+        const PropagationSummary& u = uncertainty->summary;
+        json.key("uncertainty").begin_object();
+        json.field("method", u.method == PropagationMethod::monte_carlo ? "monte-carlo" : "linearised");
+        if (u.method == PropagationMethod::monte_carlo) {
+            json.field("samples", u.samples);
+            json.field("seed", static_cast<unsigned long>(u.seed));
+        }
+        json.field("models", static_cast<unsigned long>(u.models));
+        json.field("rejected", static_cast<unsigned long>(u.rejected));
+        json.field("uncertainty", u.uncertainty);
+        json.end_object();
+    }
     json.key("depths").begin_array();
     for (std::size_t k = 0; k < scan.rows.size(); ++k) {
         const DepthScanRow& row = scan.rows[k];
@@ -382,6 +514,18 @@ void write_depth_scan_json(std::ostream& out, const DepthScan& scan, const FirnM
             json.field("cells", r.cells);
             json.end_object();
         }
+        if (uncertainty != nullptr) {
+            const DepthScanUncertaintyRow& u = uncertainty->rows[k];
+            const auto visible = sigma_if_given(u.visible_volume_sigma_m3);
+            json.key("sigma").begin_object();
+            json.field("visible_volume_m3", visible);
+            json.field("visible_fraction", visible ? std::optional(*visible / row.region_volume_m3) : std::nullopt);
+            json.field("two_path_volume_m3", sigma_if_given(u.two_path_volume_sigma_m3));
+            json.field("strong_volume_m3", sigma_if_given(u.strong_volume_sigma_m3));
+            json.field("ducted_only_volume_m3", sigma_if_given(u.ducted_only_volume_sigma_m3));
+            json.field("bottom_only_volume_m3", sigma_if_given(u.bottom_only_volume_sigma_m3));
+            json.end_object();
+        }
         json.end_object();
     }
     json.end_array();
@@ -391,11 +535,14 @@ void write_depth_scan_json(std::ostream& out, const DepthScan& scan, const FirnM
 }
 
 std::string depth_scan_json(const DepthScan& scan, const FirnModel& model, const MapGrid& region,
-                            const DepthResolutionScan* resolution) {
-    return render_to_string([&](std::ostream& out) { write_depth_scan_json(out, scan, model, region, resolution); });
+                            const DepthResolutionScan* resolution, const DepthScanUncertainty* uncertainty) {
+    return render_to_string(
+        [&](std::ostream& out) { write_depth_scan_json(out, scan, model, region, resolution, uncertainty); });
 }
 
-void write_depth_scan_svg(std::ostream& out, const DepthScan& scan, const FirnModel& model, const MapGrid& region) {
+void write_depth_scan_svg(std::ostream& out, const DepthScan& scan, const FirnModel& model, const MapGrid& region,
+                          const DepthScanUncertainty* uncertainty) {
+    check_uncertainty_rows(scan, uncertainty);
     std::vector<double> depth, visible, two, median, low, high, strong;
     for (const auto& row : scan.rows) {
         depth.push_back(row.receiver_depth_m);
@@ -417,6 +564,28 @@ void write_depth_scan_svg(std::ostream& out, const DepthScan& scan, const FirnMo
     volumes.title("Share of the source region seen by the receiver");
     volumes.x_label("receiver depth (m)");
     volumes.y_label("share of the region volume (%)");
+    // The ± 1σ bands under the two curves: a bar at each depth and the band's edges.
+    if (uncertainty != nullptr) {
+        const double nan = std::numeric_limits<double>::quiet_NaN();
+        const auto band = [&](const std::vector<double>& share, auto sigma_of, const std::string& fill,
+                              const std::string& edge, const std::string& legend) {
+            std::vector<double> low, high;
+            for (std::size_t k = 0; k < scan.rows.size(); ++k) {
+                const double sigma = sigma_of(uncertainty->rows[k]);
+                const double sigma_share = 100.0 * sigma / scan.rows[k].region_volume_m3;
+                low.push_back(has_sigma(sigma) ? share[k] - sigma_share : nan);
+                high.push_back(has_sigma(sigma) ? share[k] + sigma_share : nan);
+            }
+            add_segments(volumes, depth, depth, low, high, plot::LineStyle{fill, 6.0, "", 1.0});
+            volumes.add_line(depth, low, plot::LineStyle{edge, 1.0, "4 3", 1.0}, legend);
+            volumes.add_line(depth, high, plot::LineStyle{edge, 1.0, "4 3", 1.0});
+        };
+        const std::string method = summary_method_label(uncertainty->summary);
+        band(visible, [](const DepthScanUncertaintyRow& u) { return u.visible_volume_sigma_m3; }, "#c6dbef", "#6baed6",
+             fmt::format("visible ± 1σ ({})", method));
+        band(two, [](const DepthScanUncertaintyRow& u) { return u.two_path_volume_sigma_m3; }, "#c7e9c0", "#74c476",
+             "direct and a second path ± 1σ");
+    }
     volumes.add_line(depth, visible, plot::LineStyle{"#2171b5", 2.0, "", 1.0}, "visible (at least one path)");
     volumes.add_markers(depth, visible, plot::MarkerStyle{"#2171b5", 3.0, "circle"});
     volumes.add_line(depth, two, plot::LineStyle{"#41ab5d", 2.0, "", 1.0}, "direct and a second path");
@@ -439,8 +608,9 @@ void write_depth_scan_svg(std::ostream& out, const DepthScan& scan, const FirnMo
                                              model.name, region.distance_max_m, region.depth_min_m, region.depth_max_m));
 }
 
-std::string depth_scan_svg(const DepthScan& scan, const FirnModel& model, const MapGrid& region) {
-    return render_to_string([&](std::ostream& out) { write_depth_scan_svg(out, scan, model, region); });
+std::string depth_scan_svg(const DepthScan& scan, const FirnModel& model, const MapGrid& region,
+                           const DepthScanUncertainty* uncertainty) {
+    return render_to_string([&](std::ostream& out) { write_depth_scan_svg(out, scan, model, region, uncertainty); });
 }
 
 }  // namespace firnray

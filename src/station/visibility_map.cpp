@@ -5,6 +5,7 @@
 #include <map>
 #include <memory>
 #include <optional>
+#include <tuple>
 
 #include <fmt/format.h>
 
@@ -87,8 +88,10 @@ double station_boundary(std::span<const Receiver> receivers, std::span<const std
     return boundary;
 }
 
-VisibilityMap compute_visibility_map(const RaySolver& solver, std::span<const Receiver> receivers, const MapGrid& grid,
-                                     const VisibilityOptions& options) {
+namespace {
+
+// The checks shared by the map and its boundary alone.
+void check_map_inputs(std::span<const Receiver> receivers, const MapGrid& grid, const VisibilityOptions& options) {
     grid.validate();
     if (receivers.empty()) throw DataInputError("a map needs at least one receiver");
     for (const Receiver& r : receivers)
@@ -102,21 +105,22 @@ VisibilityMap compute_visibility_map(const RaySolver& solver, std::span<const Re
     if (options.max_bounces < 0 || options.max_bounces > 64)
         throw DataInputError(fmt::format("max-bounces must be between 0 and 64 (got {})", options.max_bounces),
                              {"", 0, "max-bounces"});
+}
 
-    VisibilityMap map;
-    map.grid = grid;
-    map.receivers = static_cast<int>(receivers.size());
-    map.min_receivers = options.min_receivers;
-    map.azimuth_deg = options.azimuth_deg;
-    map.max_bounces = options.max_bounces;
+// The map's distance origin: the mean receiver position.
+std::pair<double, double> map_centre(std::span<const Receiver> receivers) {
+    double x = 0.0, y = 0.0;
     for (const Receiver& r : receivers) {
-        map.centre_x_m += r.x_m / static_cast<double>(receivers.size());
-        map.centre_y_m += r.y_m / static_cast<double>(receivers.size());
+        x += r.x_m / static_cast<double>(receivers.size());
+        y += r.y_m / static_cast<double>(receivers.size());
     }
+    return {x, y};
+}
 
+std::unique_ptr<MapTables> make_map_tables(const RaySolver& solver, std::span<const Receiver> receivers,
+                                           const MapGrid& grid, const VisibilityOptions& options) {
     std::vector<double> source_z(grid.depth_cells);
     for (int j = 0; j < grid.depth_cells; ++j) source_z[j] = -grid.depth_at(j);
-
     // One table per distinct receiver depth, from the engine that is exact for this model.
     MapTableOptions table_options;
     table_options.ray_parameters = options.ray_parameters;
@@ -127,7 +131,49 @@ VisibilityMap compute_visibility_map(const RaySolver& solver, std::span<const Re
     table_options.control.cancel = options.control.cancel;
     std::vector<double> receiver_z;
     for (const Receiver& r : receivers) receiver_z.push_back(r.z_m);
-    const MapTables tables(solver, receiver_z, source_z, table_options);
+    return std::make_unique<MapTables>(solver, receiver_z, source_z, table_options);
+}
+
+// Each depth row's exact boundary from the receivers' tables (see VisibilityMap::boundary_m).
+std::vector<double> boundary_from_tables(std::span<const Receiver> receivers, const MapTables& tables, int depth_cells,
+                                         const VisibilityOptions& options, double centre_x_m, double centre_y_m) {
+    std::vector<double> boundary(depth_cells, std::numeric_limits<double>::quiet_NaN());
+    for (int j = 0; j < depth_cells; ++j) {
+        if (receivers.size() == 1) {
+            boundary[j] = tables.at(receivers[0].z_m).max_reach_m(j);
+            continue;
+        }
+        std::vector<std::vector<std::pair<double, double>>> visible;
+        for (const Receiver& r : receivers) visible.push_back(tables.at(r.z_m).visible_distances(j));
+        boundary[j] = station_boundary(receivers, visible, options.min_receivers, centre_x_m, centre_y_m,
+                                       options.azimuth_deg);
+    }
+    return boundary;
+}
+
+}  // namespace
+
+std::vector<double> compute_visibility_boundary(const RaySolver& solver, std::span<const Receiver> receivers,
+                                                const MapGrid& grid, const VisibilityOptions& options) {
+    check_map_inputs(receivers, grid, options);
+    const auto [centre_x, centre_y] = map_centre(receivers);
+    const auto tables = make_map_tables(solver, receivers, grid, options);
+    return boundary_from_tables(receivers, *tables, grid.depth_cells, options, centre_x, centre_y);
+}
+
+VisibilityMap compute_visibility_map(const RaySolver& solver, std::span<const Receiver> receivers, const MapGrid& grid,
+                                     const VisibilityOptions& options) {
+    check_map_inputs(receivers, grid, options);
+
+    VisibilityMap map;
+    map.grid = grid;
+    map.receivers = static_cast<int>(receivers.size());
+    map.min_receivers = options.min_receivers;
+    map.azimuth_deg = options.azimuth_deg;
+    map.max_bounces = options.max_bounces;
+    std::tie(map.centre_x_m, map.centre_y_m) = map_centre(receivers);
+    const auto tables_owner = make_map_tables(solver, receivers, grid, options);
+    const MapTables& tables = *tables_owner;
     map.stratified = tables.stratified();
     map.left_out = tables.left_out();
     std::vector<const ReceiverDepthTable*> table_of;
@@ -166,17 +212,7 @@ VisibilityMap compute_visibility_map(const RaySolver& solver, std::span<const Re
         }
     });
 
-    map.boundary_m.assign(grid.depth_cells, std::numeric_limits<double>::quiet_NaN());
-    for (int j = 0; j < grid.depth_cells; ++j) {
-        if (receivers.size() == 1) {
-            map.boundary_m[j] = table_of[0]->max_reach_m(j);
-            continue;
-        }
-        std::vector<std::vector<std::pair<double, double>>> visible;
-        for (std::size_t k = 0; k < receivers.size(); ++k) visible.push_back(table_of[k]->visible_distances(j));
-        map.boundary_m[j] = station_boundary(receivers, visible, options.min_receivers, map.centre_x_m, map.centre_y_m,
-                                             options.azimuth_deg);
-    }
+    map.boundary_m = boundary_from_tables(receivers, tables, grid.depth_cells, options, map.centre_x_m, map.centre_y_m);
     return map;
 }
 

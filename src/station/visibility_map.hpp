@@ -94,6 +94,12 @@ struct VisibilityMap {
 VisibilityMap compute_visibility_map(const RaySolver& solver, std::span<const Receiver> receivers, const MapGrid& grid,
                                      const VisibilityOptions& options);
 
+// The boundary alone (VisibilityMap::boundary_m, the same numbers), from the receivers' tables
+// without filling the grid of cells: what a propagation of the model's uncertainty computes per
+// model (uncertainty/map_uncertainty.hpp). Same checks and errors as compute_visibility_map.
+std::vector<double> compute_visibility_boundary(const RaySolver& solver, std::span<const Receiver> receivers,
+                                                const MapGrid& grid, const VisibilityOptions& options);
+
 // The largest distance d >= 0 along the line from (centre_x_m, centre_y_m) at azimuth_deg at
 // which at least min_receivers receivers see a source: receiver k sees it when its horizontal
 // distance lies in one of visible[k] (sorted disjoint closed intervals). Solves

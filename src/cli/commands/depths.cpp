@@ -14,6 +14,7 @@
 #include "solver/make_solver.hpp"
 #include "station/depth_scan.hpp"
 #include "output/map_output.hpp"
+#include "uncertainty/map_uncertainty.hpp"
 
 namespace firnray::cli {
 
@@ -33,6 +34,7 @@ struct DepthsArguments {
     std::string resolution_station;
     int resolution_distance_cells = 30, resolution_depth_cells = 20;
     double resolution_azimuth_deg = 0.0, timing_sigma_ns = 0.5;
+    UncertaintyArguments uncertainty;
     RunOptions run;
 };
 
@@ -65,7 +67,12 @@ int run_depths(const DepthsArguments& args) {
                                                           static_cast<std::size_t>(args.depth_cells), args.ray_parameters,
                                                           args.max_bounces),
                           rows * bytes_per_row, args.memory_limit_mb);
-    const auto solver = make_solver(model, parse_solver_choice(args.solver));
+    const SolverChoice solver_choice = parse_solver_choice(args.solver);
+    const auto solver = make_solver(model, solver_choice);
+    // Before the scan, so that a model without [uncertainty] fails at once (exit 3).
+    const auto propagation = propagation_options(args.uncertainty, args.run);
+    std::optional<ModelPerturbation> perturbation;
+    if (propagation) perturbation.emplace(*model);
     if (args.amplitude_threshold > 0.0) options.amplitude_threshold_per_m = args.amplitude_threshold;
     options.ray_parameters = args.ray_parameters;
     options.max_bounces = args.max_bounces;
@@ -77,6 +84,14 @@ int run_depths(const DepthsArguments& args) {
     if (!args.resolution_station.empty()) resolution_station = load_station_file(args.resolution_station);
     const DepthScan scan = scan_receiver_depths(*solver, options);
     finish_progress(args.run);
+    // Every model of the propagation is scanned whole on the same grid, one at a time per thread.
+    std::optional<DepthScanUncertainty> uncertainty;
+    if (perturbation) {
+        uncertainty = propagate_depth_scan_uncertainty(*perturbation, solver_choice, options, *propagation,
+                                                       make_run_control(args.run, "volume uncertainty"));
+        finish_progress(args.run);
+    }
+    const DepthScanUncertainty* volume_uncertainty = uncertainty ? &*uncertainty : nullptr;
 
     // The same region, seen from the station centre, on a grid of its own: every cell costs a
     // path search per receiver, so the visibility grid would be far too fine. One map is held at
@@ -99,10 +114,13 @@ int run_depths(const DepthsArguments& args) {
     const DepthResolutionScan* resolution_rows = resolution ? &*resolution : nullptr;
 
     outputs.set_writer(args.output, [&](std::ostream& out) {
-        if (args.format == "json") write_depth_scan_json(out, scan, *model, options.region, resolution_rows);
-        else write_depth_scan_csv(out, scan, resolution_rows);
+        if (args.format == "json")
+            write_depth_scan_json(out, scan, *model, options.region, resolution_rows, volume_uncertainty);
+        else write_depth_scan_csv(out, scan, resolution_rows, volume_uncertainty);
     });
-    outputs.set_writer(args.plot_path, [&](std::ostream& out) { write_depth_scan_svg(out, scan, *model, options.region); });
+    outputs.set_writer(args.plot_path, [&](std::ostream& out) {
+        write_depth_scan_svg(out, scan, *model, options.region, volume_uncertainty);
+    });
     outputs.write_all();
     return 0;
 }
@@ -161,6 +179,7 @@ void add_depths_command(CLI::App& app, CommandSlot& slot) {
         ->needs(resolution);
     cmd->add_option("--format", args->format, "csv or json")->capture_default_str()->check(one_of({"csv", "json"}));
     add_memory_limit_option(cmd, args->memory_limit_mb);
+    add_uncertainty_options(cmd, args->uncertainty);
     cmd->add_option("--output,-o", args->output, "table, written whole or not at all (default: stdout)")->type_name("FILE");
     cmd->add_option("--plot", args->plot_path, "SVG of each metric against depth, with the best depth marked")->type_name("FILE.svg");
     add_run_options(cmd, args->run);
@@ -182,10 +201,21 @@ resolution_median_sigma_distance_m and resolution_median_sigma_depth_m, the medi
 resolved cells (empty where none is), and resolution_unresolved_fraction, the share of cells
 that fewer than 4 pulses see or that the pulses leave free.
 
+--uncertainty (linearised) or --uncertainty-samples N (Monte Carlo, --seed S) carries the
+model's [uncertainty] table into the volumes (docs/uncertainty.md): each model is scanned whole
+on the same grid, so this costs one scan per model (7 for a linearised 3-parameter model, N+1
+for Monte Carlo). A '# uncertainty:' line (JSON: "uncertainty") says how, and the 1σ columns
+come last: visible_volume_sigma_m3, visible_fraction_sigma, two_path_volume_sigma_m3,
+strong_volume_sigma_m3, ducted_only_volume_sigma_m3, bottom_only_volume_sigma_m3 (JSON: "sigma"
+per depth); the plot draws the visible and two-path shares with ± 1σ bands. A model without
+[uncertainty] is refused (exit 3).
+
 Example: receivers from 20 to 200 m, sources within 1.5 km and 300 m deep
   firnray depths --depths 20:200:10 --source-distance 0:1500 --source-depth 0:300 --plot depths.svg
 The same with the resolution of a station's layout at each depth
-  firnray depths --depths 20:200:20 --source-distance 0:1500 --source-depth 0:300 --resolution station.toml)");
+  firnray depths --depths 20:200:20 --source-distance 0:1500 --source-depth 0:300 --resolution station.toml
+The volumes' 1σ, linearised, for a model with an [uncertainty] table
+  firnray depths --model fitted.toml --depths 20:200:20 --uncertainty --plot depths-band.svg)");
     cmd->callback([args, &slot] { slot.run = [args] { return run_depths(*args); }; });
 }
 

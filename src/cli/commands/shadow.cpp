@@ -2,6 +2,7 @@
 // distance × depth, with the shadow boundary, as CSV tables and an SVG map.
 #include <algorithm>
 #include <cmath>
+#include <optional>
 #include <sstream>
 
 #include <fmt/format.h>
@@ -14,6 +15,7 @@
 #include "solver/make_solver.hpp"
 #include "output/map_output.hpp"
 #include "station/visibility_map.hpp"
+#include "uncertainty/map_uncertainty.hpp"
 
 namespace firnray::cli {
 
@@ -31,6 +33,7 @@ struct ShadowArguments {
     bool no_bottom = false;
     std::string grid_path = "-", boundary_path, plot_path, colour_by = "auto";
     double memory_limit_mb = default_memory_limit_mb;
+    UncertaintyArguments uncertainty;
     RunOptions run;
 };
 
@@ -45,7 +48,17 @@ constexpr double svg_bytes_per_cell = 60.0;
 // so that a large grid is never held as text.
 constexpr double csv_buffer_bytes = 1 << 16;
 
-void check_memory(const ShadowArguments& args, const MapGrid& grid, std::size_t receivers, bool stratified) {
+// A propagation of the boundary's uncertainty holds two outputs per depth row for every model
+// (the draws, or the 2K difference steps) and their covariance (propagate_uncertainty).
+double uncertainty_bytes(const ShadowArguments& args, const MapGrid& grid, const ModelPerturbation* perturbation) {
+    if (perturbation == nullptr) return 0.0;
+    const double outputs = 2.0 * grid.depth_cells;
+    const double models = args.uncertainty.samples > 0 ? args.uncertainty.samples : 2.0 * perturbation->dimension();
+    return (outputs * outputs + models * outputs) * sizeof(double);
+}
+
+void check_memory(const ShadowArguments& args, const MapGrid& grid, std::size_t receivers, bool stratified,
+                  const ModelPerturbation* perturbation) {
     const double cells = static_cast<double>(grid.cells());
     const double memory = cells * sizeof(MapCell) + grid.depth_cells * sizeof(double) +
                           static_cast<double>(receivers) * args.ray_parameters * arrival_bytes_per_ray_parameter +
@@ -53,8 +66,10 @@ void check_memory(const ShadowArguments& args, const MapGrid& grid, std::size_t 
                                             args.ray_parameters * stratified_bytes_per_entry
                                       : 0.0) +
                           (args.plot_path.empty() ? 0.0 : cells * svg_bytes_per_cell) +
-                          csv_buffer_bytes;
-    check_memory_estimate(fmt::format("a shadow map of {} x {} cells", grid.distance_cells, grid.depth_cells), memory,
+                          csv_buffer_bytes + uncertainty_bytes(args, grid, perturbation);
+    const std::string what = fmt::format("a shadow map of {} x {} cells{}", grid.distance_cells, grid.depth_cells,
+                                         perturbation ? " with its boundary's uncertainty" : "");
+    check_memory_estimate(what, memory,
                           cells * grid_csv_bytes_per_cell, args.memory_limit_mb);
 }
 
@@ -74,8 +89,14 @@ int run_shadow(const ShadowArguments& args) {
     const auto model = load_model_or_default(args.model_path);
     double deepest = grid.depth_max_m;
     for (const Receiver& r : receivers) deepest = std::max(deepest, -r.z_m);
-    check_memory(args, grid, receivers.size(), needs_stratified_table(*model, deepest, !args.no_bottom));
-    const auto solver = make_solver(model, parse_solver_choice(args.solver));
+    // Before the map, so that a model without [uncertainty] fails at once (exit 3).
+    const auto propagation = propagation_options(args.uncertainty, args.run);
+    std::optional<ModelPerturbation> perturbation;
+    if (propagation) perturbation.emplace(*model);
+    check_memory(args, grid, receivers.size(), needs_stratified_table(*model, deepest, !args.no_bottom),
+                 perturbation ? &*perturbation : nullptr);
+    const SolverChoice solver_choice = parse_solver_choice(args.solver);
+    const auto solver = make_solver(model, solver_choice);
 
     VisibilityOptions options;
     options.min_receivers = args.min_receivers;
@@ -87,14 +108,21 @@ int run_shadow(const ShadowArguments& args) {
     options.control = make_run_control(args.run, "shadow map");
     const VisibilityMap map = compute_visibility_map(*solver, receivers, grid, options);
     finish_progress(args.run);
+    std::optional<BoundaryUncertainty> uncertainty;
+    if (perturbation) {
+        uncertainty = propagate_boundary_uncertainty(*perturbation, solver_choice, receivers, grid, options, *propagation,
+                                                     make_run_control(args.run, "boundary uncertainty"));
+        finish_progress(args.run);
+    }
+    const BoundaryUncertainty* boundary_uncertainty = uncertainty ? &*uncertainty : nullptr;
 
     outputs.set_writer(args.grid_path, [&](std::ostream& out) { write_visibility_grid_csv(out, map); });
-    outputs.set_writer(args.boundary_path, [&](std::ostream& out) { write_visibility_boundary_csv(out, map); });
+    outputs.set_writer(args.boundary_path, [&](std::ostream& out) { write_visibility_boundary_csv(out, map, boundary_uncertainty); });
     outputs.set_writer(args.plot_path, [&](std::ostream& out) {
         const std::string colouring = args.colour_by != "auto" ? args.colour_by
                                       : receivers.size() == 1  ? "kinds"
                                                                : "receivers";
-        write_visibility_map_svg(out, map, *model, receivers, parse_map_colouring(colouring));
+        write_visibility_map_svg(out, map, *model, receivers, parse_map_colouring(colouring), boundary_uncertainty);
     });
     outputs.write_all();
     return 0;
@@ -135,8 +163,9 @@ void add_shadow_command(CLI::App& app, CommandSlot& slot) {
     add_ray_parameters_option(cmd, args->ray_parameters);
     add_map_path_options(cmd, args->max_bounces, args->no_bottom);
     add_memory_limit_option(cmd, args->memory_limit_mb);
+    add_uncertainty_options(cmd, args->uncertainty);
     cmd->add_option("--output,-o", args->grid_path, "grid CSV, one row per cell (default: stdout)")->type_name("FILE.csv");
-    cmd->add_option("--boundary", args->boundary_path, "shadow boundary CSV: largest visible distance per source depth")
+    cmd->add_option("--boundary", args->boundary_path, "shadow boundary CSV: largest visible distance per source depth (with its 1σ under --uncertainty)")
         ->type_name("FILE.csv");
     cmd->add_option("--plot", args->plot_path, "SVG map")->type_name("FILE.svg");
     cmd->add_option("--colour-by", args->colour_by,
@@ -157,11 +186,23 @@ through bottom-reflected paths. What is left out on purpose (--max-bounces, --no
 named on a '# left out:' line before the CSV header. The boundary is each depth's exact largest
 reach (for a station: where at least --min-receivers receivers still see the source).
 
+--uncertainty (linearised) or --uncertainty-samples N (Monte Carlo, --seed S) carries the
+model's [uncertainty] table into the boundary (docs/uncertainty.md): only the boundary is
+recomputed for each model, from the receivers' exact reach. The boundary CSV then gains a
+'# uncertainty:' line before its header (method, draws, seed, what the uncertainty is) and the
+columns max_visible_distance_sigma_m (1σ; empty where the nominal boundary is not finite or no
+1σ can be given), models_without_boundary and models_unbounded (Monte Carlo: how many draws had
+no visible distance at that depth, or an unbounded one; linearised: 1 when the nominal model or
+a difference step does). The map draws the boundary inside its ± 1σ band. A model without
+[uncertainty] is refused (exit 3).
+
 Example: the shadow zone of a receiver at 60 m depth, with its boundary and a map
   firnray shadow --receiver 0,-60 --source-distance 0:1500 --source-depth 0:300 \
       --output grid.csv --boundary boundary.csv --plot shadow.svg
 Example: where at least 3 receivers of a station see a source
-  firnray shadow --station demo/station.toml --min-receivers 3 --colour-by receivers --plot st.svg -o st.csv)");
+  firnray shadow --station demo/station.toml --min-receivers 3 --colour-by receivers --plot st.svg -o st.csv
+Example: the boundary's 1σ band from 100 profiles drawn from a fitted model's covariance
+  firnray shadow --model fitted.toml --receiver 0,-60 --uncertainty-samples 100 --boundary b.csv --plot band.svg)");
     cmd->callback([args, &slot] { slot.run = [args] { return run_shadow(*args); }; });
 }
 
