@@ -105,8 +105,10 @@ void OutputSet::declare(const std::string& option, const std::string& path, Outp
 
 void OutputSet::set_writer(const std::string& path, std::function<void(std::ostream&)> writer) {
     if (path.empty()) return;
+    // Writers are given in the order the outputs were declared, so that two outputs on one
+    // shareable path (/dev/null) each get their own.
     for (Output& output : outputs_)
-        if (output.path == path) {
+        if (output.path == path && !output.writer) {
             output.writer = std::move(writer);
             return;
         }

@@ -33,7 +33,8 @@ public:
     // Declares an output asked for by `option` (an empty path: not asked for, ignored). Throws
     // UsageError (exit 2) for a second output on the same file or an extension naming another format.
     void declare(const std::string& option, const std::string& path, OutputFormat format);
-    // The writer of a declared output (ignored for an empty path).
+    // The writer of a declared output (ignored for an empty path); for two outputs on one
+    // shareable path (/dev/null), the first call gives the first declared its writer.
     void set_writer(const std::string& path, std::function<void(std::ostream&)> writer);
     // Runs the writers: files first (into temporaries), standard output and devices last, then
     // puts every file in place. Throws OutputError or Cancelled; nothing of the run is left then.

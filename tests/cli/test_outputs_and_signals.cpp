@@ -89,6 +89,10 @@ TEST_CASE("outputs: a character device made with mknod, /dev/null and a FIFO sta
     struct stat info {};
     REQUIRE(::stat("/dev/null", &info) == 0);
     CHECK(S_ISCHR(info.st_mode));
+    // Two outputs of one run may both go to /dev/null (each gets its own writer).
+    const auto both_null = run_firnray(with(small_shadow, {"-o", "/dev/null", "--boundary", "/dev/null"}));
+    INFO(both_null.err);
+    CHECK(both_null.exit_code == 0);
 
     const std::string device = dir + "/device";
     if (::mknod(device.c_str(), S_IFCHR | 0666, makedev(1, 3)) == 0) {
