@@ -46,7 +46,9 @@ struct PathSolverSetup {
 };
 
 // The path of `candidates` that has the kind of nominal[index] and the same rank among the paths
-// of that kind (the second refracted path matches the second refracted path), or nothing.
+// of that kind (the second refracted path matches the second refracted path), or nothing. Direct
+// and refracted count as one kind here: a small change of the profile turns one into the other
+// continuously (the turning point crosses the depth of the shallower end).
 std::optional<std::size_t> matching_path(const std::vector<ConnectedPath>& candidates,
                                          const std::vector<ConnectedPath>& nominal, std::size_t index);
 
