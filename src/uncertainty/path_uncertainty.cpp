@@ -18,28 +18,26 @@ constexpr double absent_value = std::numeric_limits<double>::quiet_NaN();
 // The perturbed models that made a valid profile (the nominal one not counted).
 std::size_t valid_perturbed_models(const PropagatedValues& values) { return values.models - 1 - values.rejected; }
 
-// The kinds that one path keeps under a small change of the profile. A direct path becomes a
-// refracted one, continuously in time and angles, when a steeper profile bends it back just
-// before the shallower end (its turning point crosses that end's depth): the two count as one.
-bool same_kind(PathKind a, PathKind b) {
-    const auto through_firn = [](PathKind k) { return k == PathKind::direct || k == PathKind::refracted; };
-    return a == b || (through_firn(a) && through_firn(b));
-}
 
 // The time (s) of the path of `kind` with rank `rank` (0-based) among the paths of that kind.
 std::optional<double> time_of_kind(const std::vector<ConnectedPath>& paths, PathKind kind, std::size_t rank) {
     for (const ConnectedPath& p : paths)
-        if (same_kind(p.kind, kind) && rank-- == 0) return p.time_s;
+        if (same_path_kind(p.kind, kind) && rank-- == 0) return p.time_s;
     return std::nullopt;
 }
 
 std::size_t rank_within_kind(const std::vector<ConnectedPath>& paths, std::size_t index) {
     std::size_t rank = 0;
-    for (std::size_t k = 0; k < index; ++k) rank += same_kind(paths[k].kind, paths[index].kind);
+    for (std::size_t k = 0; k < index; ++k) rank += same_path_kind(paths[k].kind, paths[index].kind);
     return rank;
 }
 
 }  // namespace
+
+bool same_path_kind(PathKind a, PathKind b) {
+    const auto through_firn = [](PathKind k) { return k == PathKind::direct || k == PathKind::refracted; };
+    return a == b || (through_firn(a) && through_firn(b));
+}
 
 const char* UncertaintyReport::method_name() const {
     return method == PropagationMethod::linearised ? "linearised" : "monte-carlo";
@@ -72,7 +70,7 @@ std::optional<std::size_t> matching_path(const std::vector<ConnectedPath>& candi
                                          const std::vector<ConnectedPath>& nominal, std::size_t index) {
     std::size_t rank = rank_within_kind(nominal, index);
     for (std::size_t i = 0; i < candidates.size(); ++i)
-        if (same_kind(candidates[i].kind, nominal[index].kind) && rank-- == 0) return i;
+        if (same_path_kind(candidates[i].kind, nominal[index].kind) && rank-- == 0) return i;
     return std::nullopt;
 }
 

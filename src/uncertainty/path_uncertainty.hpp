@@ -45,6 +45,11 @@ struct PathSolverSetup {
     PathOptions paths;
 };
 
+// Whether two paths found in two nearby models count as one kind: equal kinds, or direct and
+// refracted (a small change of the profile turns one into the other continuously, when the
+// turning point crosses the depth of the shallower end).
+bool same_path_kind(PathKind a, PathKind b);
+
 // The path of `candidates` that has the kind of nominal[index] and the same rank among the paths
 // of that kind (the second refracted path matches the second refracted path), or nothing. Direct
 // and refracted count as one kind here: a small change of the profile turns one into the other
