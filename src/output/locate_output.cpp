@@ -156,7 +156,7 @@ void write_locate_csv(std::ostream& out, const std::vector<EventFit>& fits, cons
                       const LocateProfileUncertainty* uncertainty) {
     output::TextSink sink(out);
     if (uncertainty) {
-        sink.put("# uncertainty: profile part by ");
+        sink.put("# uncertainty: profile part, ");
         sink.put(uncertainty->report.summary());
         sink.end_row();
     }

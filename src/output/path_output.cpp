@@ -495,9 +495,9 @@ void write_uncertainty_report_json(JsonWriter& json, const UncertaintyReport& re
     } else {
         json.field("step_sigma", report.step_sigma);
     }
-    json.field("perturbed_models", report.perturbed_models());
+    json.field("models", report.perturbed_models() + 1);  // per propagation, the nominal one included
     json.field("components", report.components);
-    json.field("description", report.description);
+    json.field("uncertainty", report.description);
     json.end_object();
 }
 

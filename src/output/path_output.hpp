@@ -63,8 +63,9 @@ void write_paths(std::ostream& out, PathFormat format, const PathOutputContext& 
 // the uncertainty and σ columns before the events. A σ that cannot be given is empty, "-" or null.
 void write_paths(std::ostream& out, PathFormat format, const PathOutputContext& context, const Point& source,
                  const Point& receiver, const PairPaths& result);
-// The `uncertainty` member of every JSON output with 1σ: method, samples and seed (Monte Carlo) or
-// step_sigma (linearised), perturbed_models, components and description.
+// The `uncertainty` member of every JSON output with 1σ: method ("linearised" or "monte-carlo"),
+// samples and seed (Monte Carlo) or step_sigma (linearised), models (per propagation, the nominal
+// one included), components and uncertainty (what it is made of), as shadow and depths write it.
 void write_uncertainty_report_json(JsonWriter& json, const UncertaintyReport& report);
 
 std::string format_paths(PathFormat format, const PathOutputContext& context, const Point& source,

@@ -49,10 +49,10 @@ std::size_t UncertaintyReport::perturbed_models() const {
 
 std::string UncertaintyReport::summary() const {
     if (method == PropagationMethod::linearised)
-        return fmt::format("linearised (central differences at ±{:g}σ along {} component{}: {} perturbed models per "
-                           "propagation) of {}",
-                           step_sigma, components, components == 1 ? "" : "s", perturbed_models(), description);
-    return fmt::format("monte-carlo ({} draws, seed {}) of {}", samples, seed, description);
+        return fmt::format("linearised, ±{:g}σ along {} component{}, {} models per propagation; {}", step_sigma,
+                           components, components == 1 ? "" : "s", perturbed_models() + 1, description);
+    return fmt::format("Monte Carlo, {} draws, seed {}, {} models per propagation; {}", samples, seed,
+                       perturbed_models() + 1, description);
 }
 
 UncertaintyReport make_uncertainty_report(const ModelPerturbation& perturbation, const PropagationOptions& options) {

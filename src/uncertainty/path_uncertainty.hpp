@@ -30,9 +30,9 @@ struct UncertaintyReport {
 
     const char* method_name() const;              // "linearised" or "monte-carlo"
     std::size_t perturbed_models() const;         // 2 × components, or the draws
-    // One line: "linearised (central differences at ±0.5σ along 3 components: 6 perturbed models
-    // per propagation) of 3 parameters (n_surface, n_deep, scale_depth_m)", or "monte-carlo (400
-    // draws, seed 7) of …".
+    // One line, shaped like the one of shadow and depths: "linearised, ±0.5σ along 3 components,
+    // 7 models per propagation; 3 parameters (n_surface, n_deep, scale_depth_m)" or "Monte Carlo,
+    // 400 draws, seed 7, 401 models per propagation; …" (the nominal model counted).
     std::string summary() const;
 };
 

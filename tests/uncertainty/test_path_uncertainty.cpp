@@ -147,7 +147,7 @@ TEST_CASE("connect with Monte Carlo uncertainty gives the same output for 1 and 
     REQUIRE(one.exit_code == 7);  // the bad row fails alone
     CHECK(one.out == two.out);
     CHECK(one.out != other.out);
-    CHECK_THAT(one.out, Catch::StartsWith("# uncertainty: monte-carlo (40 draws, seed 5) of 3 parameters"));
+    CHECK_THAT(one.out, Catch::StartsWith("# uncertainty: Monte Carlo, 40 draws, seed 5, 41 models per propagation; 3 parameters"));
     const std::string path = write_file(folder + "/out.csv", one.out);
     const CsvTable table = read_csv(path);
     const std::size_t sigma = table.column("time_sigma_ns"), models = table.column("sigma_models");
@@ -164,7 +164,7 @@ TEST_CASE("connect with Monte Carlo uncertainty gives the same output for 1 and 
     REQUIRE(single.exit_code == 0);
     const JsonValue doc = parse_json(single.out);
     CHECK(doc["uncertainty"]["method"].str() == "linearised");
-    CHECK(doc["uncertainty"]["perturbed_models"].num() == 6);
+    CHECK(doc["uncertainty"]["models"].num() == 7);
     CHECK(doc["paths"][0]["time_sigma_ns"].num() > 0.0);
 }
 
