@@ -12,7 +12,9 @@
 #include "model/model_file.hpp"
 #include "paths/find_paths.hpp"
 #include "solver/make_solver.hpp"
+#include "io/csv_reader.hpp"
 #include "station/station.hpp"
+#include "support/json_reader.hpp"
 #include "support/run_cli.hpp"
 #include "uncertainty/locate_uncertainty.hpp"
 
@@ -30,7 +32,7 @@ FirnModel uniform_ice() {
 }
 
 // A string at the centre and four around it at 30 m, receivers at 60 and 90 m depth.
-Station symmetric_station() {
+std::string symmetric_station_text() {
     std::string text = "name = \"cross\"\n";
     const double xy[5][2] = {{0, 0}, {30, 0}, {-30, 0}, {0, 30}, {0, -30}};
     for (int s = 0; s < 5; ++s) {
@@ -40,8 +42,10 @@ Station symmetric_station() {
             text += "[[string.receiver]]\nname = \"S" + std::to_string(s) + "_" + std::to_string(d) +
                     "\"\ndepth_m = " + std::to_string(d) + "\n";
     }
-    return parse_station(text, "cross.toml");
+    return text;
 }
+
+Station symmetric_station() { return parse_station(symmetric_station_text(), "cross.toml"); }
 
 // The first arrival at every channel (the straight path), emitted at t = 0, without noise.
 ArrivalEvent event_from(const FirnModel& model, const Station& station, const Point& source) {
@@ -154,4 +158,44 @@ TEST_CASE("locate with uncertainty refuses a model without an uncertainty table 
     CHECK(r.exit_code == 3);
     CHECK_THAT(r.err, Catch::Contains("has no [uncertainty] table"));
     CHECK(r.out.empty());
+}
+
+TEST_CASE("locate JSON and CSV with uncertainty carry the profile part beside the timing part (the interface)",
+          "[uncertainty][locate][cli]") {
+    const FirnModel model = uniform_ice();
+    const Station station = symmetric_station();
+    const ArrivalEvent event = event_from(model, station, Point{0.0, 0.0, -200.0});
+    const std::string folder = temp_folder("locate-uncertainty");
+    const std::string model_path = write_file(folder + "/uniform.toml",
+                                              "[index]\nkind = \"constant\"\nn = 1.78\n"
+                                              "[uncertainty]\nparameters = [\"n\"]\ncovariance = [[2.5e-5]]\n");
+    const std::string station_path = write_file(folder + "/cross.toml", symmetric_station_text());
+    std::string arrivals = "event,channel,time_ns\n";
+    for (const MeasuredPulse& p : event.pulses)
+        arrivals += "below," + station.receivers[p.channel].name + "," + std::to_string(p.time_s * 1e9) + "\n";
+    const std::string arrivals_path = write_file(folder + "/arrivals.csv", arrivals);
+    const CliResult json = run_firnray({"locate", "--model", model_path, "--station", station_path, "--arrivals",
+                                        arrivals_path, "--format", "json", "--uncertainty", "--quiet"});
+    INFO(json.err);
+    REQUIRE(json.exit_code == 0);
+    const JsonValue doc = parse_json(json.out);
+    CHECK(doc["uncertainty"]["method"].str() == "linearised");
+    const JsonValue& e = doc["events"][0];
+    CHECK(e["profile_models"].num() == 2);
+    CHECK(e["profile_absent_models"].num() == 0);
+    const double profile_depth = e["sigma_depth_profile_m"].num(), timing_depth = e["sigma_depth_m"].num();
+    CHECK(profile_depth > 0.5);
+    CHECK(e["sigma_depth_combined_m"].num() == Approx(std::hypot(profile_depth, timing_depth)).epsilon(1e-9));
+    CHECK(std::sqrt(e["covariance_profile_m2"][2][2].num()) == Approx(profile_depth).epsilon(1e-9));
+    CHECK(e.has("sigma_azimuth_profile_deg"));
+
+    const CliResult csv = run_firnray({"locate", "--model", model_path, "--station", station_path, "--arrivals",
+                                       arrivals_path, "--format", "csv", "--uncertainty", "--quiet"});
+    REQUIRE(csv.exit_code == 0);
+    CHECK_THAT(csv.out, Catch::StartsWith("# uncertainty: profile part, linearised"));
+    const CsvTable table = read_csv(write_file(folder + "/fits.csv", csv.out));
+    REQUIRE(table.rows.size() == 1);
+    CHECK(table.number(table.rows[0], table.column("sigma_depth_profile_m")) == Approx(profile_depth).epsilon(1e-6));
+    CHECK(table.number(table.rows[0], table.column("cov_profile_zz_m2")) == Approx(profile_depth * profile_depth).epsilon(1e-6));
+    CHECK(table.text(table.rows[0], table.column("profile_matching_changed")) == "0");
 }
