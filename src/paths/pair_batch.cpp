@@ -141,8 +141,11 @@ void connect_blocks(const RaySolver& solver, const std::vector<PathPair>& pairs,
 BatchTotals connect_batch_stream(const RaySolver& solver, PathPairReader& reader, const PathOptions& options,
                                  const PairFormatter& formatter, std::ostream& out, int threads,
                                  const RunControl& control, const PairAddition& addition) {
-    // Enough pairs per read to keep every thread busy, few enough to keep memory small.
-    constexpr std::size_t pairs_per_read = pairs_per_block * 64;
+    // Enough pairs per read to keep every thread busy, few enough to keep memory small. With an
+    // addition (an uncertainty propagation: tens of path searches per pair) fewer, so that
+    // progress, reported after each read, still moves; the output does not depend on it.
+    const std::size_t pairs_per_read =
+        addition ? pairs_per_block * 2 * static_cast<std::size_t>(std::max(threads, 1)) : pairs_per_block * 64;
     std::vector<PathPair> pairs;
     std::vector<BlockText> blocks;
     BatchTotals totals;
