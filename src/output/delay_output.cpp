@@ -1,5 +1,6 @@
 #include "output/delay_output.hpp"
 
+#include <cmath>
 #include <optional>
 #include <stdexcept>
 
@@ -48,6 +49,19 @@ void put_commas(output::TextSink& out, std::size_t count) {
     for (std::size_t i = 0; i < count; ++i) out.put(',');
 }
 
+constexpr std::size_t sigma_column_count = 6;
+
+// A separator and a 1σ in ns, or an empty field when none can be given.
+void put_sigma(output::TextSink& out, double seconds, std::string_view column) {
+    out.put(',');
+    if (std::isfinite(seconds)) fmt::format_to(fmt::appender(out.buffer()), "{:.9g}", require_finite(seconds * seconds_to_ns, column));
+}
+
+// A 1σ in ns for JSON: null when none can be given.
+std::optional<double> sigma_ns(double seconds) {
+    return std::isfinite(seconds) ? std::optional(seconds * seconds_to_ns) : std::nullopt;
+}
+
 }  // namespace
 
 DelayTableWriter::DelayTableWriter(std::ostream& out, DelayTableFormat format, const std::vector<Receiver>& receivers,
@@ -61,13 +75,22 @@ void DelayTableWriter::begin(const FirnModel* model) {
         json_.key("model");
         write_model_json(json_, *model);
         json_.field("reference_receiver", receivers_[options_.reference].name);
+        if (uncertainty_) write_uncertainty_report_json(json_, *uncertainty_);
         json_.key("sources").begin_array();
         return;
     }
     output::TextSink out(out_);
+    if (uncertainty_) {
+        out.put("# uncertainty: ");
+        out.put(uncertainty_->summary());
+        out.end_row();
+    }
     out.put("name,input_line,receiver,path,kind,time_ns,minus_reference_same_kind_ns,first_minus_reference_first_ns,"
             "second_minus_first_ns,launch_zenith_deg,arrival_zenith_deg");
     if (derivatives_) out.put(",dt_dx_ns_per_m,dt_dy_ns_per_m,dt_dz_ns_per_m");
+    if (uncertainty_)
+        out.put(",time_sigma_ns,minus_reference_same_kind_sigma_ns,first_minus_reference_first_sigma_ns,"
+                "second_minus_first_sigma_ns,sigma_models,sigma_absent_models");
     out.put(",events,error");
     out.end_row();
     out.finish();
@@ -91,7 +114,9 @@ void DelayTableWriter::add(const std::vector<DelaySource>& sources, const std::v
     const DelayOptions& options = options_;
     const bool derivatives = derivatives_;
     output::TextSink out(out_);
-    const std::size_t extra = (derivatives ? 3 : 0) + 1;  // the derivatives and events
+    const bool sigmas = uncertainty_.has_value();
+    // the derivatives, the σ columns and events
+    const std::size_t extra = (derivatives ? 3 : 0) + (sigmas ? sigma_column_count : 0) + 1;
     for (std::size_t i = 0; i < sources.size(); ++i) {
         const auto head = [&] {
             append_csv_field(out.buffer(), sources[i].name);
@@ -148,6 +173,14 @@ void DelayTableWriter::add(const std::vector<DelaySource>& sources, const std::v
                     put_fixed(out, g.dy * seconds_to_ns, 9, "dt_dy_ns_per_m");
                     put_fixed(out, g.dz * seconds_to_ns, 9, "dt_dz_ns_per_m");
                 }
+                if (sigmas) {
+                    const auto& spread = here.spreads.at(p);
+                    put_sigma(out, spread.time_s, "time_sigma_ns");
+                    put_sigma(out, spread.minus_reference_same_kind_s, "minus_reference_same_kind_sigma_ns");
+                    put_sigma(out, here.first_minus_reference_first_sigma_s, "first_minus_reference_first_sigma_ns");
+                    put_sigma(out, here.second_minus_first_sigma_s, "second_minus_first_sigma_ns");
+                    fmt::format_to(fmt::appender(out.buffer()), ",{},{}", delays[i].spread_models, spread.absent);
+                }
                 out.put(',');
                 append_csv_field(out.buffer(), format_events(path.events, 6));
                 out.put(',');
@@ -174,6 +207,7 @@ void DelayTableWriter::add_json(const std::vector<DelaySource>& sources, const s
             continue;
         }
         json.key("position_m").begin_array().value(sources[i].position.x).value(sources[i].position.y).value(sources[i].position.z).end_array();
+        if (uncertainty_) json.field("sigma_models", delays[i].spread_models);
         const ReceiverArrivals& reference = delays[i].receivers[options.reference];
         json.key("receivers").begin_array();
         for (std::size_t k = 0; k < receivers.size(); ++k) {
@@ -192,6 +226,10 @@ void DelayTableWriter::add_json(const std::vector<DelaySource>& sources, const s
             json.key("second_minus_first_ns");
             if (here.paths.size() >= 2) json.value((here.paths[1].time_s - here.paths[0].time_s) * seconds_to_ns);
             else json.null();
+            if (uncertainty_) {
+                json.field("first_minus_reference_first_sigma_ns", sigma_ns(here.first_minus_reference_first_sigma_s));
+                json.field("second_minus_first_sigma_ns", sigma_ns(here.second_minus_first_sigma_s));
+            }
             json.key("paths").begin_array();
             for (std::size_t p = 0; p < here.paths.size(); ++p) {
                 const ConnectedPath& path = here.paths[p];
@@ -203,6 +241,12 @@ void DelayTableWriter::add_json(const std::vector<DelaySource>& sources, const s
                 else json.null();
                 json.field("launch_zenith_deg", rad_to_deg(path.launch_zenith_rad));
                 json.field("arrival_zenith_deg", rad_to_deg(path.arrival_zenith_rad));
+                if (uncertainty_) {
+                    const auto& spread = here.spreads.at(p);
+                    json.field("time_sigma_ns", sigma_ns(spread.time_s));
+                    json.field("minus_reference_same_kind_sigma_ns", sigma_ns(spread.minus_reference_same_kind_s));
+                    json.field("sigma_absent_models", spread.absent);
+                }
                 json.key("events").begin_array();
                 for (const PathEvent& e : path.events)
                     json.begin_object().field("kind", to_string(e.kind)).field("offset_m", e.offset_m).field("z_m", e.z_m).end_object();

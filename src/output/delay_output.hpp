@@ -4,6 +4,7 @@
 // std::ostream; the std::string wrappers of the same name render into memory.
 #pragma once
 
+#include <optional>
 #include <ostream>
 #include <string>
 #include <vector>
@@ -12,6 +13,7 @@
 #include "model/firn_model.hpp"
 #include "station/delay_table.hpp"
 #include "station/station.hpp"
+#include "uncertainty/path_uncertainty.hpp"
 
 namespace firnray {
 
@@ -25,6 +27,13 @@ public:
     // Receivers and options must outlive the writer.
     DelayTableWriter(std::ostream& out, DelayTableFormat format, const std::vector<Receiver>& receivers,
                      const DelayOptions& options, bool derivatives);
+    // With delays --uncertainty: the rows carry the 1σ of ReceiverArrivals::spreads. The CSV opens
+    // with a "# uncertainty:" comment line and gains, before events, the columns time_sigma_ns,
+    // minus_reference_same_kind_sigma_ns, first_minus_reference_first_sigma_ns,
+    // second_minus_first_sigma_ns, sigma_models and sigma_absent_models (empty where no σ can be
+    // given); the JSON an `uncertainty` object, sigma_models per source and the same *_sigma_ns
+    // members (null where none). Call before begin.
+    void set_uncertainty(UncertaintyReport report) { uncertainty_ = std::move(report); }
     // The JSON describes `model` (read only here); the CSV does not name it (it may be null then).
     void begin(const FirnModel* model);
     void add(const std::vector<DelaySource>& sources, const std::vector<SourceDelays>& delays);
@@ -37,6 +46,7 @@ private:
     const std::vector<Receiver>& receivers_;
     const DelayOptions& options_;
     bool derivatives_;
+    std::optional<UncertaintyReport> uncertainty_;
     JsonWriter json_;
 };
 

@@ -146,6 +146,35 @@ void csv_path(Buffer& out, std::size_t rank, const ConnectedPath& p, const Geome
     csv_text(out, format_events(p.events, 6));
 }
 
+// The uncertainty columns of one path, each after a separator: a σ that cannot be given (a path
+// that some models lack, linearised) is left empty; sigma_absent_models says how many lacked it.
+constexpr std::string_view csv_spread_columns =
+    ",time_sigma_ns,launch_zenith_sigma_deg,arrival_zenith_sigma_deg,sigma_models,sigma_absent_models";
+constexpr std::size_t csv_spread_column_count = 5;
+
+void csv_sigma(Buffer& out, double sigma, std::string_view field) {
+    put(out, ',');
+    if (std::isfinite(sigma)) significant(out, sigma, field);
+}
+
+void csv_spread(Buffer& out, const PathSpread& spread, std::size_t models) {
+    csv_sigma(out, spread.time_ns, "time_sigma_ns");
+    csv_sigma(out, spread.launch_zenith_deg, "launch_zenith_sigma_deg");
+    csv_sigma(out, spread.arrival_zenith_deg, "arrival_zenith_sigma_deg");
+    put(out, ',');
+    integer(out, static_cast<long>(models));
+    put(out, ',');
+    integer(out, static_cast<long>(spread.absent));
+}
+
+// "# uncertainty: …", the comment line that opens a CSV with σ columns (readers skip # lines).
+void csv_uncertainty_comment(Buffer& out, const PathOutputContext& context) {
+    if (!context.uncertainty) return;
+    put(out, "# uncertainty: ");
+    put(out, context.uncertainty->summary());
+    put(out, '\n');
+}
+
 // A row saying that a pair has no path: kind "none", with the pair's distance and azimuth.
 void csv_no_path(Buffer& out, const Geometry& g) {
     put(out, "0,none");
@@ -156,13 +185,18 @@ void csv_no_path(Buffer& out, const Geometry& g) {
     put_repeated(out, csv_path_column_count - 13, ',');
 }
 
-std::string single_csv(const Point& source, const Point& receiver, const std::vector<ConnectedPath>& paths) {
+// `spreads` is null without an uncertainty propagation.
+std::string single_csv(const PathOutputContext& context, const Point& source, const Point& receiver,
+                       const std::vector<ConnectedPath>& paths, const PairPaths* spreads) {
     Buffer out;
+    csv_uncertainty_comment(out, context);
     put(out, csv_path_columns);
+    if (spreads) put(out, csv_spread_columns);
     put(out, '\n');
     const Geometry g = geometry(source, receiver);
     for (std::size_t i = 0; i < paths.size(); ++i) {
         csv_path(out, i + 1, paths[i], g);
+        if (spreads) csv_spread(out, spreads->spreads.at(i), spreads->spread_models);
         put(out, '\n');
     }
     return fmt::to_string(out);
@@ -174,7 +208,7 @@ void json_point(JsonWriter& json, const char* name, const Point& p) {
     json.key(name).begin_object().field("x_m", p.x).field("y_m", p.y).field("z_m", p.z).end_object();
 }
 
-void json_path(JsonWriter& json, const ConnectedPath& p) {
+void json_path(JsonWriter& json, const ConnectedPath& p, const PathSpread* spread) {
     json.begin_object();
     json.field("kind", to_string(p.kind));
     json.field("time_ns", p.time_s * seconds_to_ns);
@@ -187,6 +221,13 @@ void json_path(JsonWriter& json, const ConnectedPath& p) {
     json.field("surface_bounces", p.surface_bounces);
     json.field("bottom_bounces", p.bottom_bounces);
     json.field("crosses_surface", p.crosses_surface);
+    if (spread) {
+        const auto sigma = [](double v) { return std::isfinite(v) ? std::optional(v) : std::nullopt; };
+        json.field("time_sigma_ns", sigma(spread->time_ns));
+        json.field("launch_zenith_sigma_deg", sigma(spread->launch_zenith_deg));
+        json.field("arrival_zenith_sigma_deg", sigma(spread->arrival_zenith_deg));
+        json.field("sigma_absent_models", spread->absent);
+    }
     const PathAmplitude& a = p.amplitude;
     json.key("amplitude").begin_object();
     json.field("fresnel_s", a.interface_s);
@@ -213,14 +254,15 @@ void json_path(JsonWriter& json, const ConnectedPath& p) {
 
 // The members a pair object shares between the single-pair output and a batch.
 void json_pair_members(JsonWriter& json, const Point& source, const Point& receiver,
-                       const std::vector<ConnectedPath>& paths) {
+                       const std::vector<ConnectedPath>& paths, const PairPaths* spreads) {
     const Geometry g = geometry(source, receiver);
     json_point(json, "source", source);
     json_point(json, "receiver", receiver);
     json.field("horizontal_distance_m", g.distance_m);
     json.field("azimuth_deg", g.azimuth_deg);
+    if (spreads) json.field("sigma_models", spreads->spread_models);
     json.key("paths").begin_array();
-    for (const ConnectedPath& p : paths) json_path(json, p);
+    for (std::size_t i = 0; i < paths.size(); ++i) json_path(json, paths[i], spreads ? &spreads->spreads.at(i) : nullptr);
     json.end_array();
 }
 
@@ -230,14 +272,15 @@ void json_context_members(JsonWriter& json, const PathOutputContext& context) {
     write_model_json(json, *context.model);
     json.field("solver", context.solver_name);
     json.field("conventions", conventions);
+    if (context.uncertainty) write_uncertainty_report_json(json, *context.uncertainty);
 }
 
 std::string single_json(const PathOutputContext& context, const Point& source, const Point& receiver,
-                        const std::vector<ConnectedPath>& paths) {
+                        const std::vector<ConnectedPath>& paths, const PairPaths* spreads) {
     JsonWriter json;
     json.begin_object();
     json_context_members(json, context);
-    json_pair_members(json, source, receiver, paths);
+    json_pair_members(json, source, receiver, paths, spreads);
     json.end_object();
     return json.str() + "\n";
 }
@@ -290,14 +333,49 @@ void text_number_if(Buffer& out, std::size_t column, bool present, double value)
     else text_cell(out, column, "-");
 }
 
-void text_heading(Buffer& out) {
-    for (std::size_t c = 0; c < text_column_count; ++c) text_cell(out, c, text_columns[c].heading);
+// The σ columns that go before the events with an uncertainty propagation.
+constexpr TextColumn text_spread_columns[] = {
+    {"σ time (ns)", 13}, {"σ launch (deg)", 14}, {"σ arrival (deg)", 15}, {"absent", 6},
+};
+
+void text_spread_cell(Buffer& out, const TextColumn& c, std::string_view text) {
+    put(out, "  ");
+    // "σ" is two bytes for one character: pad by characters, not bytes
+    const std::size_t shown = text.size() - static_cast<std::size_t>(std::count(text.begin(), text.end(), '\xcf'));
+    put_repeated(out, shown < c.width ? c.width - shown : 0, ' ');
+    put(out, text);
+}
+
+void text_spread_number(Buffer& out, const TextColumn& c, double sigma) {
+    if (!std::isfinite(sigma)) {
+        text_spread_cell(out, c, "-");
+        return;
+    }
+    Buffer number;
+    fmt::format_to(fmt::appender(number), FMT_COMPILE("{:.3g}"), sigma);
+    text_spread_cell(out, c, std::string_view(number.data(), number.size()));
+}
+
+void text_spread(Buffer& out, const PathSpread& spread, std::size_t models) {
+    text_spread_number(out, text_spread_columns[0], spread.time_ns);
+    text_spread_number(out, text_spread_columns[1], spread.launch_zenith_deg);
+    text_spread_number(out, text_spread_columns[2], spread.arrival_zenith_deg);
+    text_spread_cell(out, text_spread_columns[3], fmt::format("{}/{}", spread.absent, models));
+}
+
+void text_heading(Buffer& out, bool with_spreads = false) {
+    for (std::size_t c = 0; c < text_column_count; ++c) {
+        if (c == c_events && with_spreads)
+            for (const TextColumn& s : text_spread_columns) text_spread_cell(out, s, s.heading);
+        text_cell(out, c, text_columns[c].heading);
+    }
 }
 
 double phase_deg(std::complex<double> v) { return std::abs(v) > 0.0 ? rad_to_deg(std::arg(v)) : 0.0; }
 
-// Columns "path" to "note" of one path (no newline).
-void text_path(Buffer& out, std::size_t rank, const ConnectedPath& p) {
+// Every column of one path (no newline); the σ columns before the events when `spread` is given.
+void text_path(Buffer& out, std::size_t rank, const ConnectedPath& p, const PathSpread* spread = nullptr,
+               std::size_t spread_models = 0) {
     Buffer cell;
     integer(cell, static_cast<long>(rank));
     text_cell(out, c_path, std::string_view(cell.data(), cell.size()));
@@ -321,6 +399,7 @@ void text_path(Buffer& out, std::size_t rank, const ConnectedPath& p) {
     text_number<4>(out, c_fp, std::abs(a.interface_p));
     text_number<2>(out, c_arg_fp, phase_deg(a.interface_p));
     text_cell(out, c_note, a.caustic ? "caustic" : "");
+    if (spread) text_spread(out, *spread, spread_models);
     text_cell(out, c_events, p.events.empty() ? "-" : format_events(p.events, 3));
 }
 
@@ -332,6 +411,10 @@ constexpr std::string_view text_notes =
     "events: turning points, reflections and surface crossings in order from the source, at depth z and horizontal\n"
     "offset x from the source (m); ducted paths turn at two depths, several times.\n";
 
+constexpr std::string_view text_spread_notes =
+    "σ: 1σ from the model's [uncertainty] (\"-\": some models lack the path, so none is given). absent: perturbed\n"
+    "models lacking the path / perturbed models with a valid profile (docs/uncertainty.md).\n";
+
 std::string describe_solver(const std::string& name) {
     if (name == "closed") return "closed (closed form of the exponential profile)";
     if (name == "numeric") return "numeric (integrated ray equations)";
@@ -339,7 +422,7 @@ std::string describe_solver(const std::string& name) {
 }
 
 std::string single_text(const PathOutputContext& context, const Point& source, const Point& receiver,
-                        const std::vector<ConnectedPath>& paths) {
+                        const std::vector<ConnectedPath>& paths, const PairPaths* spreads) {
     for (const auto& [value, name] : {std::pair{source.x, "source x"}, {source.y, "source y"}, {source.z, "source z"},
                                       {receiver.x, "receiver x"}, {receiver.y, "receiver y"}, {receiver.z, "receiver z"}})
         require_finite(value, name);
@@ -347,6 +430,7 @@ std::string single_text(const PathOutputContext& context, const Point& source, c
     const Geometry g = geometry(source, receiver);
     fmt::format_to(fmt::appender(out), "model:    {}\nsolver:   {}\n", model_label(context),
                    describe_solver(context.solver_name));
+    if (context.uncertainty) fmt::format_to(fmt::appender(out), "uncertainty: {}\n", context.uncertainty->summary());
     fmt::format_to(fmt::appender(out), "source:   x = {} m, y = {} m, z = {} m\nreceiver: x = {} m, y = {} m, z = {} m\n",
                    source.x, source.y, source.z, receiver.x, receiver.y, receiver.z);
     fmt::format_to(fmt::appender(out), "horizontal distance {:.3f} m, azimuth {:.2f} deg (from +x toward +y)\n\n",
@@ -356,14 +440,16 @@ std::string single_text(const PathOutputContext& context, const Point& source, c
         return fmt::to_string(out);
     }
     fmt::format_to(fmt::appender(out), "{} path{}, in order of arrival:\n\n", paths.size(), paths.size() == 1 ? "" : "s");
-    text_heading(out);
+    text_heading(out, spreads != nullptr);
     put(out, '\n');
     for (std::size_t i = 0; i < paths.size(); ++i) {
-        text_path(out, i + 1, paths[i]);
+        if (spreads) text_path(out, i + 1, paths[i], &spreads->spreads.at(i), spreads->spread_models);
+        else text_path(out, i + 1, paths[i]);
         put(out, '\n');
     }
     put(out, '\n');
     put(out, text_notes);
+    if (spreads) put(out, text_spread_notes);
     return fmt::to_string(out);
 }
 
@@ -384,10 +470,35 @@ std::string format_events(const std::vector<PathEvent>& events, int decimals) {
 void write_paths(std::ostream& out, PathFormat format, const PathOutputContext& context, const Point& source,
                  const Point& receiver, const std::vector<ConnectedPath>& paths) {
     switch (format) {
-        case PathFormat::text: out << single_text(context, source, receiver, paths); break;
-        case PathFormat::csv: out << single_csv(source, receiver, paths); break;
-        case PathFormat::json: out << single_json(context, source, receiver, paths); break;
+        case PathFormat::text: out << single_text(context, source, receiver, paths, nullptr); break;
+        case PathFormat::csv: out << single_csv(context, source, receiver, paths, nullptr); break;
+        case PathFormat::json: out << single_json(context, source, receiver, paths, nullptr); break;
     }
+}
+
+void write_paths(std::ostream& out, PathFormat format, const PathOutputContext& context, const Point& source,
+                 const Point& receiver, const PairPaths& result) {
+    const PairPaths* spreads = context.uncertainty ? &result : nullptr;
+    switch (format) {
+        case PathFormat::text: out << single_text(context, source, receiver, result.paths, spreads); break;
+        case PathFormat::csv: out << single_csv(context, source, receiver, result.paths, spreads); break;
+        case PathFormat::json: out << single_json(context, source, receiver, result.paths, spreads); break;
+    }
+}
+
+void write_uncertainty_report_json(JsonWriter& json, const UncertaintyReport& report) {
+    json.key("uncertainty").begin_object();
+    json.field("method", report.method_name());
+    if (report.method == PropagationMethod::monte_carlo) {
+        json.field("samples", report.samples);
+        json.field("seed", static_cast<unsigned long>(report.seed));
+    } else {
+        json.field("step_sigma", report.step_sigma);
+    }
+    json.field("models", report.perturbed_models() + 1);  // per propagation, the nominal one included
+    json.field("components", report.components);
+    json.field("uncertainty", report.description);
+    json.end_object();
 }
 
 std::string format_paths(PathFormat format, const PathOutputContext& context, const Point& source,
@@ -408,14 +519,19 @@ std::string BatchFormatter::begin() const {
     Buffer out;
     switch (format_) {
         case PathFormat::text:
-            fmt::format_to(fmt::appender(out), "model:  {}\nsolver: {}\n\n{:>6}  {:<{}}  ", model_label(context_),
-                           describe_solver(context_.solver_name), "line", "name", name_width_);
-            text_heading(out);
+            fmt::format_to(fmt::appender(out), "model:  {}\nsolver: {}\n", model_label(context_),
+                           describe_solver(context_.solver_name));
+            if (context_.uncertainty)
+                fmt::format_to(fmt::appender(out), "uncertainty: {}\n", context_.uncertainty->summary());
+            fmt::format_to(fmt::appender(out), "\n{:>6}  {:<{}}  ", "line", "name", name_width_);
+            text_heading(out, context_.uncertainty.has_value());
             put(out, '\n');
             break;
         case PathFormat::csv:
+            csv_uncertainty_comment(out, context_);
             put(out, "input_line,name,");
             put(out, csv_path_columns);
+            if (context_.uncertainty) put(out, csv_spread_columns);
             put(out, ",error\n");
             break;
         case PathFormat::json:
@@ -436,6 +552,8 @@ std::string BatchFormatter::begin() const {
 void BatchFormatter::append_pair(std::string& text, std::size_t index, const PathPair& pair,
                                  const PairPaths& result) const {
     const std::string& error = pair.error.empty() ? result.error : pair.error;
+    const bool with_spreads = context_.uncertainty.has_value();
+    const PairPaths* spreads = with_spreads && error.empty() ? &result : nullptr;
     Buffer out;
     switch (format_) {
         case PathFormat::text: {
@@ -455,7 +573,8 @@ void BatchFormatter::append_pair(std::string& text, std::size_t index, const Pat
             } else {
                 for (std::size_t i = 0; i < result.paths.size(); ++i) {
                     head();
-                    text_path(out, i + 1, result.paths[i]);
+                    if (spreads) text_path(out, i + 1, result.paths[i], &spreads->spreads.at(i), spreads->spread_models);
+                    else text_path(out, i + 1, result.paths[i]);
                     put(out, '\n');
                 }
             }
@@ -471,17 +590,19 @@ void BatchFormatter::append_pair(std::string& text, std::size_t index, const Pat
             const Geometry g = geometry(pair.source, pair.receiver);
             if (!error.empty()) {
                 head();
-                put_repeated(out, csv_path_column_count, ',');
+                put_repeated(out, csv_path_column_count + (with_spreads ? csv_spread_column_count : 0), ',');
                 csv_text(out, error);
                 put(out, '\n');
             } else if (result.paths.empty()) {
                 head();
                 csv_no_path(out, g);
+                if (with_spreads) put_repeated(out, csv_spread_column_count, ',');
                 put(out, ",\n");
             } else {
                 for (std::size_t i = 0; i < result.paths.size(); ++i) {
                     head();
                     csv_path(out, i + 1, result.paths[i], g);
+                    if (spreads) csv_spread(out, spreads->spreads.at(i), spreads->spread_models);
                     put(out, ",\n");
                 }
             }
@@ -493,7 +614,7 @@ void BatchFormatter::append_pair(std::string& text, std::size_t index, const Pat
             json.field("input_line", pair.input_line);
             json.field("name", pair.name);
             if (!error.empty()) json.field("error", error);
-            else json_pair_members(json, pair.source, pair.receiver, result.paths);
+            else json_pair_members(json, pair.source, pair.receiver, result.paths, spreads);
             json.end_object();
             put(out, index == 0 ? "\n    " : ",\n    ");
             put(out, json.str());
@@ -506,7 +627,8 @@ void BatchFormatter::append_pair(std::string& text, std::size_t index, const Pat
 std::string BatchFormatter::end(std::size_t pairs, std::size_t failed) const {
     switch (format_) {
         case PathFormat::text:
-            return fmt::format("\n{} pair{}, {} failed.\n{}", pairs, pairs == 1 ? "" : "s", failed, text_notes);
+            return fmt::format("\n{} pair{}, {} failed.\n{}{}", pairs, pairs == 1 ? "" : "s", failed, text_notes,
+                               context_.uncertainty ? text_spread_notes : std::string_view());
         case PathFormat::csv: return {};
         case PathFormat::json:
             return fmt::format("{}],\n  \"pairs_failed\": {}\n}}\n", pairs == 0 ? "" : "\n  ", failed);

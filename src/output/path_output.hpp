@@ -8,14 +8,17 @@
 
 #include <cstddef>
 #include <memory>
+#include <optional>
 #include <ostream>
 #include <string>
 #include <vector>
 
+#include "io/json_writer.hpp"
 #include "model/firn_model.hpp"
 #include "paths/connected_path.hpp"
 #include "paths/find_paths.hpp"
 #include "paths/pair_formatter.hpp"
+#include "uncertainty/path_uncertainty.hpp"
 
 namespace firnray {
 
@@ -29,6 +32,10 @@ PathFormat parse_path_format(const std::string& text);
 struct PathOutputContext {
     std::shared_ptr<const FirnModel> model;  // never null
     std::string solver_name;                 // "closed" or "numeric"
+    // With connect --uncertainty or --uncertainty-samples: every output says how the 1σ were
+    // made, and each path gets its own (PairPaths::spreads, docs/uncertainty.md). Without it the
+    // outputs are exactly those described below.
+    std::optional<UncertaintyReport> uncertainty = std::nullopt;
 };
 
 // One pair given on its own (the command line).
@@ -49,6 +56,18 @@ std::string format_events(const std::vector<PathEvent>& events, int decimals);
 
 void write_paths(std::ostream& out, PathFormat format, const PathOutputContext& context, const Point& source,
                  const Point& receiver, const std::vector<ConnectedPath>& paths);
+// The same with the 1σ of each path (context.uncertainty set): CSV opens with a "# uncertainty:"
+// comment line and gains the columns time_sigma_ns, launch_zenith_sigma_deg,
+// arrival_zenith_sigma_deg, sigma_models and sigma_absent_models after events; JSON gains an
+// `uncertainty` object, sigma_models per pair and those sigma fields per path; text a line naming
+// the uncertainty and σ columns before the events. A σ that cannot be given is empty, "-" or null.
+void write_paths(std::ostream& out, PathFormat format, const PathOutputContext& context, const Point& source,
+                 const Point& receiver, const PairPaths& result);
+// The `uncertainty` member of every JSON output with 1σ: method ("linearised" or "monte-carlo"),
+// samples and seed (Monte Carlo) or step_sigma (linearised), models (per propagation, the nominal
+// one included), components and uncertainty (what it is made of), as shadow and depths write it.
+void write_uncertainty_report_json(JsonWriter& json, const UncertaintyReport& report);
+
 std::string format_paths(PathFormat format, const PathOutputContext& context, const Point& source,
                          const Point& receiver, const std::vector<ConnectedPath>& paths);
 

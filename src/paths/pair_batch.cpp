@@ -121,12 +121,13 @@ struct BlockText {
 // Finds and formats pairs[0..) whose batch positions start at first_index, into blocks in order.
 void connect_blocks(const RaySolver& solver, const std::vector<PathPair>& pairs, std::size_t first_index,
                     const PathOptions& options, const PairFormatter& formatter, int threads,
-                    const RunControl& control, std::vector<BlockText>& blocks) {
+                    const RunControl& control, const PairAddition& addition, std::vector<BlockText>& blocks) {
     blocks.assign((pairs.size() + pairs_per_block - 1) / pairs_per_block, BlockText{});
     parallel_for(blocks.size(), threads, control, [&](std::size_t b) {
         BlockText& block = blocks[b];
         for (std::size_t i = b * pairs_per_block; i < std::min(pairs.size(), (b + 1) * pairs_per_block); ++i) {
-            const PairPaths result = connect_pair(solver, pairs[i], options);
+            PairPaths result = connect_pair(solver, pairs[i], options);
+            if (addition && result.error.empty()) addition(pairs[i], result);
             formatter.append_pair(block.text, first_index + i, pairs[i], result);
             block.paths += result.paths.size();
             block.failed += !result.error.empty();
@@ -139,9 +140,12 @@ void connect_blocks(const RaySolver& solver, const std::vector<PathPair>& pairs,
 
 BatchTotals connect_batch_stream(const RaySolver& solver, PathPairReader& reader, const PathOptions& options,
                                  const PairFormatter& formatter, std::ostream& out, int threads,
-                                 const RunControl& control) {
-    // Enough pairs per read to keep every thread busy, few enough to keep memory small.
-    constexpr std::size_t pairs_per_read = pairs_per_block * 64;
+                                 const RunControl& control, const PairAddition& addition) {
+    // Enough pairs per read to keep every thread busy, few enough to keep memory small. With an
+    // addition (an uncertainty propagation: tens of path searches per pair) fewer, so that
+    // progress, reported after each read, still moves; the output does not depend on it.
+    const std::size_t pairs_per_read =
+        addition ? pairs_per_block * 2 * static_cast<std::size_t>(std::max(threads, 1)) : pairs_per_block * 64;
     std::vector<PathPair> pairs;
     std::vector<BlockText> blocks;
     BatchTotals totals;
@@ -150,7 +154,7 @@ BatchTotals connect_batch_stream(const RaySolver& solver, PathPairReader& reader
     if (!reader.read_block(pairs, pairs_per_read, threads)) throw_no_pairs(reader.table());
     out << formatter.begin();
     do {
-        connect_blocks(solver, pairs, totals.pairs, options, formatter, threads, quiet, blocks);
+        connect_blocks(solver, pairs, totals.pairs, options, formatter, threads, quiet, addition, blocks);
         for (BlockText& block : blocks) {
             out.write(block.text.data(), static_cast<std::streamsize>(block.text.size()));
             totals.paths += block.paths;
@@ -167,14 +171,15 @@ BatchTotals connect_batch_stream(const RaySolver& solver, PathPairReader& reader
 }
 
 BatchRun connect_batch(const RaySolver& solver, const std::vector<PathPair>& pairs, const PathOptions& options,
-                       const PairFormatter& formatter, int threads, const RunControl& control) {
+                       const PairFormatter& formatter, int threads, const RunControl& control,
+                       const PairAddition& addition) {
     RunControl per_block = control;  // progress is reported in pairs, not blocks
     if (control.progress)
         per_block.progress = [&control, &pairs](std::size_t done, std::size_t) {
             control.progress(std::min(pairs.size(), done * pairs_per_block), pairs.size());
         };
     std::vector<BlockText> blocks;
-    connect_blocks(solver, pairs, 0, options, formatter, threads, per_block, blocks);
+    connect_blocks(solver, pairs, 0, options, formatter, threads, per_block, addition, blocks);
     BatchRun run;
     run.pairs = pairs.size();
     const std::string begin = formatter.begin();

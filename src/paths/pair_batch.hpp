@@ -6,6 +6,7 @@
 #pragma once
 
 #include <cstddef>
+#include <functional>
 #include <ostream>
 #include <string>
 #include <vector>
@@ -62,6 +63,11 @@ private:
 // text format sizes its name column with it before the batch streams.
 std::size_t longest_pair_name(const std::string& path);
 
+// Called for each pair whose paths were found, before it is formatted, on the thread that found
+// them (so it must be thread-safe): what adds the 1σ of each path to a batch (connect
+// --uncertainty). It may set the result's error, which fails that pair alone.
+using PairAddition = std::function<void(const PathPair& pair, PairPaths& result)>;
+
 struct BatchTotals {
     std::size_t pairs = 0;
     std::size_t failed = 0;    // pairs with an error (bad row or failed computation)
@@ -75,7 +81,7 @@ struct BatchTotals {
 // Cancelled when asked to stop; a failing stream simply stops the run (the caller checks it).
 BatchTotals connect_batch_stream(const RaySolver& solver, PathPairReader& reader, const PathOptions& options,
                                  const PairFormatter& formatter, std::ostream& out, int threads,
-                                 const RunControl& control = {});
+                                 const RunControl& control = {}, const PairAddition& addition = {});
 
 struct BatchRun {
     std::string text;          // the whole output, in input order
@@ -89,6 +95,7 @@ struct BatchRun {
 // text made by the thread that computed it) and joins the blocks in input order. Progress is
 // reported in pairs. Throws Cancelled when asked to stop.
 BatchRun connect_batch(const RaySolver& solver, const std::vector<PathPair>& pairs, const PathOptions& options,
-                       const PairFormatter& formatter, int threads, const RunControl& control = {});
+                       const PairFormatter& formatter, int threads, const RunControl& control = {},
+                       const PairAddition& addition = {});
 
 }  // namespace firnray

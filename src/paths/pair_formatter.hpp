@@ -4,6 +4,7 @@
 #pragma once
 
 #include <cstddef>
+#include <limits>
 #include <string>
 #include <vector>
 
@@ -21,10 +22,23 @@ struct PathPair {
     std::string error;
 };
 
+// The 1σ that the model's [uncertainty] gives one path (uncertainty/path_uncertainty.hpp,
+// docs/uncertainty.md); NaN where it cannot be given (a path that some models lack).
+struct PathSpread {
+    double time_ns = std::numeric_limits<double>::quiet_NaN();
+    double launch_zenith_deg = std::numeric_limits<double>::quiet_NaN();
+    double arrival_zenith_deg = std::numeric_limits<double>::quiet_NaN();
+    std::size_t absent = 0;  // valid models (Monte Carlo draws, linearised steps) that lack this path
+};
+
 // The outcome for one pair: its paths (sorted by time, empty in the shadow zone) or why it failed.
 struct PairPaths {
     std::vector<ConnectedPath> paths;
     std::string error;
+    // Only with an uncertainty propagation: one entry per path, and how many perturbed models
+    // made a valid profile (draws or steps; the nominal model not counted).
+    std::vector<PathSpread> spreads = {};
+    std::size_t spread_models = 0;
 };
 
 // Turns a batch into text: begin, then one piece per pair in input order, then end.

@@ -5,6 +5,7 @@
 // output layer (output/delay_output.hpp).
 #pragma once
 
+#include <limits>
 #include <optional>
 #include <string>
 #include <vector>
@@ -41,12 +42,23 @@ struct ReceiverArrivals {
     // Non-empty when the paths to this receiver could not be found (a source at the receiver's
     // own position, a numerical failure): only this channel fails, the others are computed.
     std::string error;
+    // Only with an uncertainty propagation (delays --uncertainty, uncertainty/path_uncertainty.hpp):
+    // the 1σ of each path's time and of its difference to the reference channel, and of the two
+    // differences of the channel, in s; NaN where it cannot be given (a path some models lack).
+    static constexpr double no_sigma = std::numeric_limits<double>::quiet_NaN();
+    struct Spread {
+        double time_s = no_sigma, minus_reference_same_kind_s = no_sigma;
+        std::size_t absent = 0;  // valid perturbed models that lack this path
+    };
+    std::vector<Spread> spreads;  // one per path, or empty without a propagation
+    double first_minus_reference_first_sigma_s = no_sigma, second_minus_first_sigma_s = no_sigma;
 };
 
 struct SourceDelays {
     std::vector<ReceiverArrivals> receivers;  // in station order (empty when the source failed)
     std::string error;                        // non-empty when the whole source failed (a bad input row)
     std::size_t failed_channels() const;      // receivers whose own error is set
+    std::size_t spread_models = 0;            // with a propagation: perturbed models that made a valid profile
 };
 
 // One entry per source, in input order. A bad source row records its error; a channel that fails

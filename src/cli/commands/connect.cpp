@@ -3,6 +3,7 @@
 // and amplitude factors; one pair from the command line or a CSV batch of pairs.
 #include <memory>
 #include <string>
+#include <optional>
 
 #include <fmt/format.h>
 
@@ -11,8 +12,10 @@
 #include "cli/exit_codes.hpp"
 #include "output/path_output.hpp"
 #include "cli/output_set.hpp"
+#include "core/errors.hpp"
 #include "paths/pair_batch.hpp"
 #include "solver/make_solver.hpp"
+#include "uncertainty/path_uncertainty.hpp"
 
 namespace firnray::cli {
 
@@ -22,6 +25,7 @@ struct ConnectArguments {
     std::string model_path, source, receiver, pairs_path;
     std::string solver = "auto", format = "text", output = "-";
     int max_bounces = PathOptions{}.max_bounces;
+    UncertaintyArguments uncertainty;
     RunOptions run;
 };
 
@@ -50,14 +54,45 @@ int run_connect(const ConnectArguments& args) {
     PathOptions options;
     options.max_bounces = args.max_bounces;
     const PathFormat format = parse_path_format(args.format);
-    const PathOutputContext context{model, solver->name()};
+    PathOutputContext context{model, solver->name(), std::nullopt};
+    // With --uncertainty or --uncertainty-samples: each pair's paths are found again in every
+    // perturbed model (docs/uncertainty.md); ModelInputError (exit 3) when the model has no [uncertainty].
+    const auto propagation = propagation_options(args.uncertainty, args.run);
+    std::optional<ModelPerturbation> perturbation;
+    const PathSolverSetup setup{parse_solver_choice(args.solver), numeric_tolerance, options};
+    if (propagation) {
+        perturbation.emplace(*model);
+        context.uncertainty = make_uncertainty_report(*perturbation, *propagation);
+    }
 
     if (!batch) {
-        const auto paths = find_paths(*solver, source, receiver, options);
+        PairPaths result;
+        result.paths = find_paths(*solver, source, receiver, options);
+        if (perturbation) {
+            add_path_spreads(*perturbation, setup, *propagation, source, receiver, result,
+                             make_run_control(args.run, "connect: uncertainty"));
+            finish_progress(args.run);
+        }
         outputs.set_writer(args.output,
-                           [&](std::ostream& out) { write_paths(out, format, context, source, receiver, paths); });
+                           [&](std::ostream& out) { write_paths(out, format, context, source, receiver, result); });
         outputs.write_all();
         return exit_ok;
+    }
+    // Pairs are propagated each on its own, one pair per thread (the models of a pair one after
+    // the other); an error of the propagation fails that pair alone.
+    PairAddition addition;
+    if (perturbation) {
+        PropagationOptions per_pair = *propagation;
+        per_pair.threads = 1;
+        addition = [&perturbation, &setup, per_pair](const PathPair& pair, PairPaths& result) {
+            try {
+                add_path_spreads(*perturbation, setup, per_pair, pair.source, pair.receiver, result);
+            } catch (const NumericalError& e) {
+                result.error = std::string("uncertainty: ") + e.what();
+            } catch (const InputError& e) {
+                result.error = std::string("uncertainty: ") + e.what();
+            }
+        };
     }
     // The batch streams from the pairs file to the output, a block of pairs at a time.
     PathPairReader reader(args.pairs_path);
@@ -71,7 +106,7 @@ int run_connect(const ConnectArguments& args) {
     BatchTotals run;
     outputs.set_writer(args.output, [&](std::ostream& out) {
         run = connect_batch_stream(*solver, reader, options, formatter, out, args.run.thread_count(),
-                                   make_run_control(args.run, "connect"));
+                                   make_run_control(args.run, "connect"), addition);
     });
     outputs.write_all();
     finish_progress(args.run);
@@ -108,6 +143,7 @@ void add_connect_command(CLI::App& app, CommandSlot& slot) {
         ->check(one_of({"text", "csv", "json"}));
     cmd->add_option("--output,-o", args->output, "output file, written whole or not at all (default: stdout)")
         ->type_name("FILE");
+    add_uncertainty_options(cmd, args->uncertainty);
     add_run_options(cmd, args->run);
     cmd->footer(R"(
 Conventions: z is up (m), the surface is z = 0, the ice z < 0 and the air z > 0; angles are zenith
@@ -135,11 +171,20 @@ A batch (--pairs) gives each path a row carrying the input line and name of its 
 zone gets one row of kind "none", a bad row one row with the error, and the rest still runs (exit
 code 7 when any row failed). --threads does not change the output. See docs/connect.md.
 
+--uncertainty (linearised) or --uncertainty-samples N (Monte Carlo, --seed S) carry the model's
+[uncertainty] into a 1-sigma of every path's time and launch and arrival angles: each perturbed
+model finds the paths again, matched to the nominal ones by kind and rank within the kind; a path
+that some models lack gets no sigma in a linearised run, and in every run sigma_absent_models
+says how many lacked it. CSV opens with a "# uncertainty:" line, JSON has an "uncertainty" object,
+text an "uncertainty:" line. In a batch each pair is propagated on its own. A model without an
+[uncertainty] table is refused (exit 3). See docs/uncertainty.md.
+
 Examples:
   firnray connect --source 250,-20 --receiver 0,-100     # refracted and reflected
   firnray connect --source 300,-20 --receiver 0,-100     # the shadow zone: no path
   firnray connect --source 0,0,-150 --receiver 120,80,-30 --format json
-  firnray connect --pairs demo/pairs.csv --format csv -o paths.csv)");
+  firnray connect --pairs demo/pairs.csv --format csv -o paths.csv
+  firnray connect --model site.toml --source 250,-20 --receiver 0,-100 --uncertainty-samples 200)");
     cmd->callback([args, &slot] { slot.run = [args] { return run_connect(*args); }; });
 }
 

@@ -3,6 +3,8 @@
 // and optionally the derivatives of each time with respect to the source position.
 #include <cmath>
 #include <memory>
+#include <optional>
+#include <string>
 #include <utility>
 
 #include <fmt/format.h>
@@ -17,6 +19,7 @@
 #include "solver/make_solver.hpp"
 #include "output/delay_output.hpp"
 #include "station/delay_table.hpp"
+#include "uncertainty/path_uncertainty.hpp"
 
 namespace firnray::cli {
 
@@ -29,6 +32,7 @@ struct DelaysArguments {
     int max_bounces = 1;
     std::string solver = "auto", format = "csv", output = "-";
     double memory_limit_mb = default_memory_limit_mb;
+    UncertaintyArguments uncertainty;
     RunOptions run;
 };
 
@@ -114,20 +118,43 @@ struct DelayTotals {
     std::size_t channels = 0, failed_channels = 0;  // of the sources that were computed
 };
 
+// With --uncertainty or --uncertainty-samples: what each source's times are propagated with.
+struct DelayPropagation {
+    ModelPerturbation perturbation;
+    PropagationOptions options;
+    PathSolverSetup setup;
+};
+
 // Reads, computes and writes the sources a block at a time: the output is the same for any
 // block size and any number of threads (each block is computed in parallel, written in order).
+// With a propagation, each source's times and differences are propagated together, one source
+// after the other, the models of one source on every thread.
 DelayTotals stream_delays(std::ostream& out, SourceBlocks& blocks, const RaySolver& solver, const FirnModel& model,
                           const std::vector<Receiver>& receivers, const DelayOptions& options, DelayTableFormat format,
-                          bool derivatives) {
+                          bool derivatives, const DelayPropagation* propagation) {
     DelayTotals totals;
     std::vector<DelaySource> sources;
     if (!blocks.next(sources)) return totals;  // (a grid always has a source; an empty file threw)
     DelayTableWriter writer(out, format, receivers, options, derivatives);
+    if (propagation) writer.set_uncertainty(make_uncertainty_report(propagation->perturbation, propagation->options));
     writer.begin(&model);
     DelayOptions block_options = options;
     block_options.control.progress = nullptr;  // reported after each block
     do {
-        const auto delays = compute_delays(solver, receivers, sources, block_options);
+        auto delays = compute_delays(solver, receivers, sources, block_options);
+        if (propagation)
+            for (std::size_t i = 0; i < sources.size(); ++i) {
+                try {
+                    add_delay_spreads(propagation->perturbation, propagation->setup, propagation->options, receivers,
+                                      options.reference, sources[i].position, delays[i], block_options.control);
+                } catch (const NumericalError& e) {  // this source alone fails
+                    delays[i].error = std::string("uncertainty: ") + e.what();
+                }
+                if (options.control.progress) {  // a propagation takes a while: progress per source
+                    const auto [done, total] = blocks.progress(totals.sources + i + 1);
+                    options.control.progress(done, total);
+                }
+            }
         for (const SourceDelays& d : delays) {
             if (!d.error.empty()) {
                 ++totals.failed_sources;
@@ -165,11 +192,17 @@ int run_delays(const DelaysArguments& args) {
     const auto model = load_model_or_default(args.model_path);
     const auto solver = make_solver(model, parse_solver_choice(args.solver));
     options.control = make_run_control(args.run, "delays");
+    // ModelInputError (exit 3) here when the model has no [uncertainty]
+    std::optional<DelayPropagation> propagation;
+    if (const auto propagation_wanted = propagation_options(args.uncertainty, args.run))
+        propagation.emplace(DelayPropagation{ModelPerturbation(*model), *propagation_wanted,
+                                             PathSolverSetup{parse_solver_choice(args.solver), 0.0, options.paths}});
 
     DelayTotals totals;
     const DelayTableFormat format = args.format == "json" ? DelayTableFormat::json : DelayTableFormat::csv;
     outputs.set_writer(args.output, [&](std::ostream& out) {
-        totals = stream_delays(out, blocks, *solver, *model, station.receivers, options, format, args.derivatives);
+        totals = stream_delays(out, blocks, *solver, *model, station.receivers, options, format, args.derivatives,
+                               propagation ? &*propagation : nullptr);
     });
     outputs.write_all();
     finish_progress(args.run);
@@ -214,6 +247,7 @@ void add_delays_command(CLI::App& app, CommandSlot& slot) {
         ->capture_default_str()
         ->check(one_of({"csv", "json"}));
     add_memory_limit_option(cmd, args->memory_limit_mb);
+    add_uncertainty_options(cmd, args->uncertainty);
     cmd->add_option("--output,-o", args->output, "output file, written whole or not at all (default: stdout)")->type_name("FILE");
     add_run_options(cmd, args->run);
     cmd->footer(R"(
@@ -225,6 +259,15 @@ an error row, a channel that fails (a source at a receiver's own position) an er
 the receiver, and the rest still runs; the exit code is then 7. --sources files stream: their
 length is not limited by memory, and --threads does not change the output. A grid of sources is
 --source-distance x --source-depth, along --azimuth-deg from the mean receiver position.
+
+--uncertainty (linearised) or --uncertainty-samples N (Monte Carlo, --seed S) add the 1-sigma
+that the model's [uncertainty] gives every time and every difference: time_sigma_ns,
+minus_reference_same_kind_sigma_ns, first_minus_reference_first_sigma_ns and
+second_minus_first_sigma_ns. All channels see one profile, so their times are correlated: the
+times and differences of a source are propagated together and each difference gets the sigma of
+the difference itself (smaller than the quadrature sum of its two times for nearby channels).
+A path that some models lack gets no sigma in a linearised run (sigma_absent_models counts them).
+A model without [uncertainty] is refused (exit 3). See docs/uncertainty.md.
 
 Example: the demo calibration pulsers at every channel, relative to channel A1
   firnray delays --station demo/station.toml --sources demo/calibration-sources.csv \
