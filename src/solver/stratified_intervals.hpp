@@ -109,6 +109,8 @@ public:
     // d³n/dz³ of a cell's formula at z: exact for cubic and exponential cells, 0 for the others
     // (their cells are short, see above). Used to bound the distance to the zeros of n² − ξ².
     double third_derivative(std::size_t cell, double z) const;
+    // Whether a cell is kept as a cubic (a table's piece): its expansions about any point are exact.
+    bool is_cubic(std::size_t cell) const { return cells_[cell].form == Form::cubic; }
     double index(double z) const;
     // (n(z) − n(z_ref)) / (z − z_ref) for two points of one cell, without cancellation; dn/dz at
     // z_ref when z = z_ref.
