@@ -6,9 +6,7 @@
 #include <cmath>
 #include <limits>
 #include <memory>
-#include <mutex>
 #include <optional>
-#include <unordered_map>
 #include <vector>
 
 #include <boost/math/tools/roots.hpp>
@@ -81,23 +79,6 @@ struct SnellCellTables {
     std::unique_ptr<std::atomic<Piece*>[]> turn_pieces;
     std::size_t turn_piece_total = 0;
 
-    // The part of one cell between a fixed end of a leg (a source or a receiver) and the cell's top
-    // or bottom, when the leg goes on beyond that cell: the same for every ξ of every leg from that
-    // end, so it gets series in w like a block (built lazily, checked the same way). Rays nearly
-    // horizontal at the end make this part cost 8–9 adaptive panels by quadrature; the series
-    // cost one Clenshaw sum. Kept per end depth and side, up to max_partial_cells of them.
-    struct PartialCell {
-        Block block;
-        std::unique_ptr<std::atomic<Piece*>[]> slots;
-        ~PartialCell() {
-            for (std::size_t i = 0; i < block.piece_count; ++i) delete slots[i].load(std::memory_order_acquire);
-        }
-    };
-    static constexpr std::size_t max_partial_cells = 4096;
-    // The part of `cell` from z_end to its top (inward > 0) or bottom (inward < 0); null when it
-    // has no series (n all but constant on it, or the cache is full).
-    const PartialCell* partial_cell(const StratifiedProfile& profile, std::size_t cell, double z_end, int inward);
-
     SnellCellTables() = default;
     SnellCellTables(const SnellCellTables&) = delete;
     SnellCellTables& operator=(const SnellCellTables&) = delete;
@@ -109,7 +90,6 @@ struct SnellCellTables {
     // The piece of a block that holds w² = N − ξ, built if needed; null where the block is
     // integrated otherwise.
     const Piece* piece(const StratifiedProfile& profile, std::size_t level, const Block& block, double w_squared);
-    const Piece* partial_piece(const StratifiedProfile& profile, const PartialCell& partial, double w_squared);
 
     // The piece of a turning cell for σ and ρ (both > 0), built if needed; null where the cell is
     // integrated otherwise. `variable` receives the piece's variable (log σ or log ρ).
@@ -121,18 +101,6 @@ private:
                           std::atomic<Piece*>* slots);
     static std::unique_ptr<Piece> build(const StratifiedProfile& profile, std::size_t level, const Block& block,
                                         std::size_t index);
-    std::mutex partial_mutex_;
-    struct PartialKey {
-        double z_end;
-        int inward;
-        bool operator==(const PartialKey& other) const { return z_end == other.z_end && inward == other.inward; }
-    };
-    struct PartialKeyHash {
-        std::size_t operator()(const PartialKey& key) const {
-            return std::hash<double>()(key.z_end) * 31u + static_cast<std::size_t>(key.inward + 1);
-        }
-    };
-    std::unordered_map<PartialKey, std::unique_ptr<PartialCell>, PartialKeyHash> partial_cells_;
     static std::unique_ptr<Piece> build_turn(const StratifiedProfile& profile, std::size_t cell, const TurnCell& turn,
                                              std::size_t index);
     // Coefficients of a piece from its values at the Chebyshev nodes, then checked; false when
@@ -523,28 +491,6 @@ public:
         return true;
     }
 
-    // The part of a fixed end's cell from the end to the cell's top (inward +1) or bottom (−1),
-    // from that end's series, when the leg goes on beyond the cell. False where there are none
-    // (integrate directly).
-    bool partial_end(std::size_t cell, double z_end, int inward) {
-        if (table_levels_ == 0 || failed_) return false;
-        const double top = profile_.cell_top(cell), bottom = profile_.cell_bottom(cell);
-        const double room = inward > 0 ? top - z_end : z_end - bottom;
-        // At the cell's other end the whole cell is the part: left to the blocks.
-        if (!(room > 1e-6 * (top - bottom)) || !(z_end > bottom && z_end < top)) return false;
-        SnellCellTables& tables = this->tables();
-        const SnellCellTables::PartialCell* partial = tables.partial_cell(profile_, cell, z_end, inward);
-        if (!partial || !partial->block.tabulated) return false;
-        const SnellCellTables::Block& block = partial->block;
-        const double w_squared = profile_.gap_in_cell(level_, block.cell_min, block.z_min, block.n_min);
-        if (!(w_squared > 0.0)) return false;
-        const SnellCellTables::Piece* piece = tables.partial_piece(profile_, *partial, w_squared);
-        if (!piece) return false;
-        const double w = std::sqrt(w_squared);
-        add_series(*piece, (2.0 * w - (piece->w_low + piece->w_high)) / (piece->w_high - piece->w_low), w);
-        return true;
-    }
-
     bool add_block(SnellCellTables& tables, std::size_t level, const SnellCellTables::Block& block) {
         if (!block.tabulated) return false;
         const double w_squared = profile_.gap_in_cell(level_, block.cell_min, block.z_min, block.n_min);
@@ -800,17 +746,12 @@ LegIntegrals integrate_leg(const StratifiedProfile& profile, const RayLevel& lev
         low = profile.cell_top(cell_low);
     } else if (a.kind == LegEnd::turning && quadrature.turning_next_to_double_root(cell_low, a.z, +1, b.z)) {
         low = profile.cell_top(cell_low);
-    } else if (a.kind == LegEnd::fixed && b.z > profile.cell_top(cell_low) && quadrature.partial_end(cell_low, a.z, +1)) {
-        low = profile.cell_top(cell_low);
     } else if (piece_low.used) {
         quadrature.end_piece(a.z, a.kind, +1, cell_low, g_low, slope_low, piece_low.length);
     }
     if (b.kind == LegEnd::turning && quadrature.turning_cell(cell_high, -1, a.z, cell_low)) {
         high = profile.cell_bottom(cell_high);
     } else if (b.kind == LegEnd::turning && quadrature.turning_next_to_double_root(cell_high, b.z, -1, a.z)) {
-        high = profile.cell_bottom(cell_high);
-    } else if (b.kind == LegEnd::fixed && a.z < profile.cell_bottom(cell_high) &&
-               quadrature.partial_end(cell_high, b.z, -1)) {
         high = profile.cell_bottom(cell_high);
     } else if (piece_high.used) {
         quadrature.end_piece(b.z, b.kind, -1, cell_high, g_high, slope_high, piece_high.length);
@@ -952,11 +893,6 @@ const SnellCellTables::Piece* SnellCellTables::piece(const StratifiedProfile& pr
     return piece_in(profile, level, block, w_squared, pieces.get() + block.first_piece);
 }
 
-const SnellCellTables::Piece* SnellCellTables::partial_piece(const StratifiedProfile& profile,
-                                                             const PartialCell& partial, double w_squared) {
-    return piece_in(profile, 0, partial.block, w_squared, partial.slots.get());
-}
-
 const SnellCellTables::Piece* SnellCellTables::piece_in(const StratifiedProfile& profile, std::size_t level,
                                                         const Block& block, double w_squared,
                                                         std::atomic<Piece*>* slots) {
@@ -965,62 +901,6 @@ const SnellCellTables::Piece* SnellCellTables::piece_in(const StratifiedProfile&
     if (index >= block.piece_count || (index == 0 && block.direct_base)) return nullptr;
     const Piece* found = published(slots[index], [&] { return build(profile, level, block, index); });
     return found->tabulated ? found : nullptr;
-}
-
-const SnellCellTables::PartialCell* SnellCellTables::partial_cell(const StratifiedProfile& profile, std::size_t cell,
-                                                                  double z_end, int inward) {
-    const PartialKey key{z_end, inward};
-    {
-        const std::lock_guard<std::mutex> lock(partial_mutex_);
-        const auto found = partial_cells_.find(key);
-        if (found != partial_cells_.end()) return found->second.get();
-        if (partial_cells_.size() >= max_partial_cells) return nullptr;
-    }
-    // Laid out outside the lock (a few evaluations of n); a second thread doing the same keeps
-    // the first one's.
-    auto partial = std::make_unique<PartialCell>();
-    SnellCellTables::Block& block = partial->block;
-    block.first_cell = block.last_cell = cell;
-    block.z_top = inward > 0 ? profile.cell_top(cell) : z_end;
-    block.z_bottom = inward > 0 ? z_end : profile.cell_bottom(cell);
-    // n at both ends and at every extremum between them: N, where it is reached, and the gap to
-    // the next value up, as for the blocks (make_snell_cell_tables).
-    struct Knot {
-        double z, n, slope;
-    };
-    std::vector<Knot> knots;
-    auto add_knot = [&](double z) {
-        double n, dn, d2n;
-        profile.evaluate(cell, z, n, dn, d2n);
-        knots.push_back({z, n, dn});
-    };
-    add_knot(block.z_top);
-    for (const auto& run : profile.runs())
-        if (run.z_bottom < block.z_top && run.z_bottom > block.z_bottom) add_knot(run.z_bottom);
-    add_knot(block.z_bottom);
-    const Knot* lowest = &knots.front();
-    for (const Knot& k : knots)
-        if (k.n < lowest->n) lowest = &k;
-    double gap = infinity;
-    for (const Knot& k : knots)
-        if (k.n - lowest->n > 0.0) gap = std::min(gap, k.n - lowest->n);
-    if (lowest->n > 0.0 && std::isfinite(lowest->n) && gap > 1e-12 * lowest->n && std::isfinite(gap)) {
-        block.tabulated = true;
-        block.z_min = lowest->z;
-        block.cell_min = cell;
-        block.n_min = lowest->n;
-        block.direct_base = (lowest->z < block.z_top && lowest->z > block.z_bottom) ||
-                            std::abs(lowest->slope) <= 1e-12 * std::max(1.0, std::abs(lowest->n));
-        block.w0_exponent = std::ilogb(0.25 * gap);
-        block.piece_count = static_cast<std::size_t>(std::max(0, std::ilogb(lowest->n) - block.w0_exponent)) + 2;
-        partial->slots = std::make_unique<std::atomic<Piece*>[]>(block.piece_count);
-        for (std::size_t i = 0; i < block.piece_count; ++i) partial->slots[i].store(nullptr, std::memory_order_relaxed);
-    }
-    const std::lock_guard<std::mutex> lock(partial_mutex_);
-    if (partial_cells_.size() >= max_partial_cells) return nullptr;
-    auto& slot = partial_cells_[key];
-    if (!slot) slot = std::move(partial);
-    return slot.get();
 }
 
 std::unique_ptr<SnellCellTables::Piece> SnellCellTables::build(const StratifiedProfile& profile, std::size_t level,
