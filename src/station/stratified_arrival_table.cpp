@@ -253,29 +253,23 @@ double StratifiedArrivalTable::memory_estimate_bytes(const StratifiedProfile& pr
 StratifiedArrivalTable::Point StratifiedArrivalTable::table_point(const Row& row, int family_index,
                                                                   std::size_t k) const {
     Point p;
+    const Reach reach = table_reach(row, family_index, k);
+    if (!reach.exists) return p;
     const std::size_t samples = samples_.size();
     const std::size_t s = row.source_level * samples + k, r = receiver_level_ * samples + k;
-    const std::int32_t id = interval_of_[s];
-    if (id < 0 || id != interval_of_[r]) return p;
-    const IntervalLegs& legs = intervals_[k][static_cast<std::size_t>(id)];
+    const IntervalLegs& legs = intervals_[k][static_cast<std::size_t>(interval_of_[s])];
     const PathFamily& family = families_[static_cast<std::size_t>(family_index)];
-    const double z_source = source_z_[&row - rows_.data()];
-    if (!family_exists(family, legs.interval, z_source, receiver_z_, bottom_paths_)) return p;
+    p.distance = reach.distance;
     if (family.ends == 0) {
-        p.distance = std::abs(distance_[s] - distance_[r]);
         p.time = std::abs(time_[s] - time_[r]);
         p.attenuation = std::abs(attenuation_[s] - attenuation_[r]);
         p.length = std::abs(length_[s] - length_[r]);
     } else {
-        // First leg from the source to its first end, last leg from the last end to the receiver,
-        // and a full traversal of the interval between any two ends.
         auto leg = [&](std::size_t at, bool upper, const std::vector<double>& cumulative, double total) {
             return upper ? cumulative[at] : total - cumulative[at];
         };
         const bool last_upper = is_upper_end(family, family.ends - 1);
         const double traversals = family.ends - 1;
-        p.distance = leg(s, family.starts_upward, distance_, legs.distance) + leg(r, last_upper, distance_, legs.distance) +
-                     traversals * legs.distance;
         p.time = leg(s, family.starts_upward, time_, legs.time) + leg(r, last_upper, time_, legs.time) +
                  traversals * legs.time;
         p.attenuation = leg(s, family.starts_upward, attenuation_, legs.attenuation) +
@@ -283,7 +277,7 @@ StratifiedArrivalTable::Point StratifiedArrivalTable::table_point(const Row& row
         p.length = leg(s, family.starts_upward, length_, legs.length) + leg(r, last_upper, length_, legs.length) +
                    traversals * legs.length;
     }
-    p.valid = !std::isnan(p.distance);
+    p.valid = reach.valid;
     p.ray_parameter = samples_[k].ray_parameter;
     p.anchor_z = samples_[k].anchor_z;
     p.offset = samples_[k].offset;
@@ -292,19 +286,39 @@ StratifiedArrivalTable::Point StratifiedArrivalTable::table_point(const Row& row
     return p;
 }
 
-double StratifiedArrivalTable::distance_at(const Row& row, int family_index, std::size_t range,
-                                           std::size_t position) const {
-    if (position < end_samples) return point_at(row, family_index, range, position).distance;
-    const std::size_t skipped = row.has_end && row.limit_range == range ? row.skipped : 0;
-    const std::size_t k = ranges_[range].first + skipped + position - end_samples;
-    // As table_point, for a point of a run (valid by construction).
+StratifiedArrivalTable::Reach StratifiedArrivalTable::table_reach(const Row& row, int family_index,
+                                                                  std::size_t k) const {
+    Reach out;
     const std::size_t samples = samples_.size();
     const std::size_t s = row.source_level * samples + k, r = receiver_level_ * samples + k;
+    const std::int32_t id = interval_of_[s];
+    if (id < 0 || id != interval_of_[r]) return out;
+    const IntervalLegs& legs = intervals_[k][static_cast<std::size_t>(id)];
     const PathFamily& family = families_[static_cast<std::size_t>(family_index)];
-    if (family.ends == 0) return std::abs(distance_[s] - distance_[r]);
-    const double total = intervals_[k][static_cast<std::size_t>(interval_of_[s])].distance;
-    auto leg = [&](std::size_t at, bool upper) { return upper ? distance_[at] : total - distance_[at]; };
-    return leg(s, family.starts_upward) + leg(r, is_upper_end(family, family.ends - 1)) + (family.ends - 1) * total;
+    const double z_source = source_z_[&row - rows_.data()];
+    if (!family_exists(family, legs.interval, z_source, receiver_z_, bottom_paths_)) return out;
+    out.exists = true;
+    if (family.ends == 0) {
+        out.distance = std::abs(distance_[s] - distance_[r]);
+    } else {
+        // First leg from the source to its first end, last leg from the last end to the receiver,
+        // and a full traversal of the interval between any two ends.
+        auto leg = [&](std::size_t at, bool upper) { return upper ? distance_[at] : legs.distance - distance_[at]; };
+        out.distance = leg(s, family.starts_upward) + leg(r, is_upper_end(family, family.ends - 1)) +
+                       (family.ends - 1) * legs.distance;
+    }
+    out.valid = !std::isnan(out.distance);
+    return out;
+}
+
+StratifiedArrivalTable::Reach StratifiedArrivalTable::reach_at(const Row& row, int family, std::size_t range,
+                                                              std::size_t position) const {
+    if (position < end_samples) {
+        const Point p = point_at(row, family, range, position);
+        return {p.valid, p.valid, p.distance};
+    }
+    const std::size_t skipped = row.has_end && row.limit_range == range ? row.skipped : 0;
+    return table_reach(row, family, ranges_[range].first + skipped + position - end_samples);
 }
 
 StratifiedArrivalTable::Point StratifiedArrivalTable::point_at(const Row& row, int family, std::size_t range,
@@ -518,8 +532,9 @@ void StratifiedArrivalTable::build_row(std::size_t index) {
         for (std::size_t r = 0; r < ranges_.size(); ++r) {
             const std::size_t positions =
                 ranges_[r].count + end_samples - (row.has_end && row.limit_range == r ? row.skipped : 0);
-            std::vector<Point> points(positions);
-            for (std::size_t p = 0; p < positions; ++p) points[p] = point_at(row, f, r, p);
+            // Validity and distance of every position; whole points only where a fold or a tail needs them.
+            std::vector<Reach> points(positions);
+            for (std::size_t p = 0; p < positions; ++p) points[p] = reach_at(row, f, r, p);
             auto finite = [&](std::size_t p) { return points[p].valid && std::isfinite(points[p].distance); };
             // Monotone runs of finite points.
             std::size_t p = 0;
@@ -539,8 +554,8 @@ void StratifiedArrivalTable::build_row(std::size_t index) {
                 // A fold at the run's last point when the next run turns back.
                 const std::size_t e = run.last;
                 if (e + 1 < positions && finite(e + 1)) {
-                    const Point& before = points[e - 1];
-                    const Point& after = points[e + 1];
+                    const Point before = point_at(row, f, r, e - 1);
+                    const Point after = point_at(row, f, r, e + 1);
                     Exact fold;
                     fold.family = f;
                     fold.range = r;
@@ -595,9 +610,10 @@ void StratifiedArrivalTable::build_row(std::size_t index) {
                     tail.tail = true;
                     tail.sampled_m = points[q].distance;
                     tail.exact_m = infinity;
-                    tail.anchor_z = limit_end ? row.limit_z : points[b].anchor_z;
-                    const double u_a = std::sqrt(offset_from(tail.anchor_z, points[q]));
-                    const double u_b = limit_end ? row.end_u[b] : std::sqrt(offset_from(tail.anchor_z, points[b]));
+                    const Point divergent = point_at(row, f, r, b);
+                    tail.anchor_z = limit_end ? row.limit_z : divergent.anchor_z;
+                    const double u_a = std::sqrt(offset_from(tail.anchor_z, point_at(row, f, r, q)));
+                    const double u_b = limit_end ? row.end_u[b] : std::sqrt(offset_from(tail.anchor_z, divergent));
                     sample_tail(row, tail, u_a, u_b);
                     row.exact.push_back(tail);
                     visible.emplace_back(tail.sampled_m, infinity);
@@ -689,7 +705,7 @@ void StratifiedArrivalTable::arrivals(std::size_t index, double distance_m, std:
         std::size_t lo = run.first, hi = run.last;
         while (hi - lo > 1) {
             const std::size_t mid = (lo + hi) / 2;
-            if ((distance_at(row, run.family, run.range, mid) <= distance_m) == run.increasing) lo = mid;
+            if ((reach_at(row, run.family, run.range, mid).distance <= distance_m) == run.increasing) lo = mid;
             else hi = mid;
         }
         const Point a = at(lo), b = at(hi);

@@ -136,8 +136,15 @@ private:
     };
 
     Point table_point(const Row& row, int family, std::size_t sample) const;
-    // The distance of point_at alone (the binary search of a run needs nothing else).
-    double distance_at(const Row& row, int family, std::size_t range, std::size_t position) const;
+    // Whether point_at is valid there, and its distance, without the rest (the scan of a row for
+    // runs and the binary search of a run need nothing else).
+    struct Reach {
+        bool exists = false;  // the family exists at that ξ (its distance may still be NaN)
+        bool valid = false;
+        double distance = 0.0;
+    };
+    Reach table_reach(const Row& row, int family, std::size_t sample) const;
+    Reach reach_at(const Row& row, int family, std::size_t range, std::size_t position) const;
     Point point_at(const Row& row, int family, std::size_t range, std::size_t position) const;
     Point exact_point(const Row& row, int family, double anchor_z, double offset) const;
     double offset_from(double anchor_z, const Point& p) const;
