@@ -299,7 +299,9 @@ public:
             return;
         }
         for (double t = 0.0; t < t_end;) {
-            const double next = std::min(t_end, t + std::min(longest, 0.5 * (t_pole - t)));
+            double next = std::min(t_end, t + std::min(longest, 0.5 * (t_pole - t)));
+            // A pole within rounding of t_end: the halving would never arrive.
+            if (!(next > t) || next - t < 1e-3 * longest) next = t_end;
             panel(t, next);
             t = next;
         }
