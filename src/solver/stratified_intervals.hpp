@@ -173,6 +173,7 @@ private:
     bool exponential_ = false;
     double exp_a_ = 0.0, exp_b_ = 0.0, exp_c_ = 0.0;  // n = A − B e^{C z}
     std::vector<Cell> cells_;                          // from the surface down
+    std::vector<double> cell_bottoms_;                 // cells_[i].z_bottom, for cell_at
     std::vector<Run> runs_;                            // from the surface down
     std::vector<double> minima_z_;
     struct LazySnellTables {
