@@ -252,10 +252,12 @@ public:
     // z_m (a hundred and more of them where g is 1e-11 or less). With z = z_m ± s·sinh t the
     // integrands become smooth in t (Q ≈ √(n n″)·s·cosh t cancels dz/dt = s·cosh t): the sinh
     // transformation for nearly singular integrals (common practice). Their singularities in t
-    // are those two zeros, at t = ±iπ/2, and the cubic's third zero, real and required to lie
-    // beyond twice the interval; Gauss–Legendre with 16 points on panels of at most 1.5 in t then
-    // errs by about (π/1.5 + √((π/1.5)² − 1))^−32 ≈ 1e-19 relative. Cubic cells only (a table's),
-    // where the expansion about z_m is exact. False when this does not apply.
+    // are those two zeros, at t = ±iπ/2, and the cubic's third zero, real and beyond the interval
+    // (the panels are graded toward it); Gauss–Legendre with 16 points on panels of at most 1.5 in
+    // t then errs by about (π/1.5 + √((π/1.5)² − 1))^−32 ≈ 1e-19 relative. Cubic cells only (a
+    // table's), where the expansion about z_m is exact. Part of the direct quadrature too (the
+    // reference of the tables): its panels in z are only good to about 1e-9 m there. False when
+    // this does not apply.
     bool over_double_root(std::size_t cell, double low, double high) {
         if (!profile_.is_cubic(cell)) return false;
         const auto& minima = profile_.local_minima_z();  // from the surface down
@@ -336,15 +338,16 @@ public:
     }
 
     // The part of a turning end's cell from the turning point z_t to the cell's boundary (inward:
-    // +1 up, −1 down) when a local minimum of n where n′ = 0 lies just beyond z_t (ξ a hair above
-    // that minimum: a ray turning next to a double root). Besides the zero of n − ξ at z_t, Q² then
-    // has one at about z_t − 2d·inward, d = n′(z_t)/n″ about the distance to the minimum, and panels
-    // in z must shrink geometrically toward z_t. With z = z_t + inward·δ, δ + d = d·cosh τ, the
+    // +1 up, −1 down), where n″ > 0: besides the zero of n − ξ at z_t, Q² has one at about
+    // z_t − 2d·inward, d = n′(z_t)/n″. When a local minimum of n where n′ = 0 lies just beyond z_t
+    // (ξ a hair above that minimum: a ray turning next to a double root) d is tiny and panels in z
+    // must shrink geometrically toward z_t. With z = z_t + inward·δ, δ + d = d·cosh τ, the
     // integrands are smooth in τ (δ(δ + 2d) = d² sinh² τ, and dz/dτ = d·sinh τ cancels the root);
     // their singularities in τ lie at ±iπ (that second zero), ±iπ/2 (n′ = 0, in the derivative's
-    // h = 1/(n n′)) and at the cubic's third zero, required beyond twice the part: the panels of
+    // h = 1/(n n′)) and at the cubic's third zero, beyond the part: the panels of
     // over_double_root. The ξ-derivative with the end moving is taken by parts as in end_piece.
-    // Cubic cells only, when the leg goes on beyond the cell. False when this does not apply.
+    // Cubic cells only, when the leg goes on beyond the cell and no turning-cell table serves it;
+    // not in the direct quadrature (which keeps the end piece). False when this does not apply.
     bool turning_next_to_double_root(std::size_t cell, double z_t, int inward, double other_end_z) {
         if (table_levels_ == 0 || failed_ || !profile_.is_cubic(cell)) return false;
         const double boundary = inward > 0 ? profile_.cell_top(cell) : profile_.cell_bottom(cell);
