@@ -5,11 +5,15 @@
 // map of bench_maps.cpp with the fast table (ArrivalTable, what maps use there) and with the
 // stratified table forced, so that the two engines can be compared. See docs/performance.md.
 //
+// Wall time and the process's CPU time (all threads) of each map: on a shared machine the CPU
+// time is the steadier figure.
+//
 // Usage: bench_stratified_maps [distance cells] [depth cells] (default 1000 500)
 #include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
+#include <ctime>
 #include <memory>
 #include <vector>
 
@@ -50,15 +54,18 @@ void run(const char* name, const RaySolver& solver, const MapGrid& grid, double 
     options.threads = threads;
     options.engine = engine;
     const auto start = std::chrono::steady_clock::now();
+    const std::clock_t cpu_start = std::clock();
     const VisibilityMap map = compute_visibility_map(solver, std::span<const Receiver>(&receiver, 1), grid, options);
     const double seconds = std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+    const double cpu_seconds = static_cast<double>(std::clock() - cpu_start) / CLOCKS_PER_SEC;
     std::size_t visible = 0, ducted_only = 0;
     for (const MapCell& cell : map.cells) {
         visible += map.visible(cell);
         ducted_only += cell.kinds == kind_ducted;
     }
-    std::printf("  %-44s %s table, %d thread(s): %.2f s wall; %zu of %zu cells visible, %zu ducted only\n", name,
-                map.stratified ? "stratified" : "fast      ", threads, seconds, visible, map.cells.size(), ducted_only);
+    std::printf("  %-44s %s table, %d thread(s): %.2f s wall, %.2f s CPU; %zu of %zu cells visible, %zu ducted only\n",
+                name, map.stratified ? "stratified" : "fast      ", threads, seconds, cpu_seconds, visible, map.cells.size(),
+                ducted_only);
 }
 
 }  // namespace

@@ -46,6 +46,7 @@ struct SnellCellTables {
     };
     struct Block {
         std::size_t first_cell = 0, last_cell = 0;
+        double z_top = 0.0, z_bottom = 0.0;  // its extent (the cells', or a part of one cell)
         bool tabulated = false;    // false: n (all but) constant on the block, always direct
         bool direct_base = false;  // N is a minimum of n (n′ = 0 there): piece 0 integrated directly
         double z_min = 0.0;        // where n is smallest on the block
@@ -96,6 +97,8 @@ struct SnellCellTables {
                             double& variable);
 
 private:
+    const Piece* piece_in(const StratifiedProfile& profile, std::size_t level, const Block& block, double w_squared,
+                          std::atomic<Piece*>* slots);
     static std::unique_ptr<Piece> build(const StratifiedProfile& profile, std::size_t level, const Block& block,
                                         std::size_t index);
     static std::unique_ptr<Piece> build_turn(const StratifiedProfile& profile, std::size_t cell, const TurnCell& turn,
@@ -193,6 +196,7 @@ public:
     // Panels of [low, high] inside one cell, none of which ends at a zero of Q.
     void regular(std::size_t cell, double low, double high, int depth = 0) {
         if (!(high > low) || failed_) return;
+        if (depth == 0 && over_double_root(cell, low, high)) return;
         const double centre = 0.5 * (low + high), half = 0.5 * (high - low);
         double n, dn, d2n;
         profile_.evaluate(cell, centre, n, dn, d2n);
@@ -234,6 +238,193 @@ public:
             if (with_derivative_) sums_.derivative += w * nz * nz * inverse_q / q2;
         }
     }
+
+    // A local minimum of n for over_double_root: n − ξ at z_m + side·δ comes from the cubic's
+    // expansion about z_m in δ itself (through z, δ would be rounded to an ulp of z, a relative
+    // error of 1e-11 in n − ξ where δ is 1e-4).
+    struct DoubleRoot {
+        double z = 0.0, n = 0.0, gap = 0.0, slope = 0.0, half_curvature = 0.0, sixth_third = 0.0;
+    };
+
+    // [low, high] inside one cell when it holds a local minimum z_m of n where n′ = 0 and ξ lies
+    // just below n there (g = n(z_m) − ξ > 0, small): Q² has two zeros at z_m ± i·s (about),
+    // s = √(2g/n″), so close to the real axis that panels in z must shrink geometrically toward
+    // z_m (a hundred and more of them where g is 1e-11 or less). With z = z_m ± s·sinh t the
+    // integrands become smooth in t (Q ≈ √(n n″)·s·cosh t cancels dz/dt = s·cosh t): the sinh
+    // transformation for nearly singular integrals (common practice). Their singularities in t
+    // are those two zeros, at t = ±iπ/2, and the cubic's third zero, real and beyond the interval
+    // (the panels are graded toward it); Gauss–Legendre with 16 points on panels of at most 1.5 in
+    // t then errs by about (π/1.5 + √((π/1.5)² − 1))^−32 ≈ 1e-19 relative. Cubic cells only (a
+    // table's), where the expansion about z_m is exact. Part of the direct quadrature too (the
+    // reference of the tables): its panels in z are only good to about 1e-9 m there. False when
+    // this does not apply.
+    bool over_double_root(std::size_t cell, double low, double high) {
+        if (!profile_.is_cubic(cell)) return false;
+        const auto& minima = profile_.local_minima_z();  // from the surface down
+        const auto found = std::lower_bound(minima.begin(), minima.end(), high, std::greater<>());
+        if (found == minima.end() || *found < low) return false;
+        DoubleRoot root;
+        root.z = *found;
+        double d2n = 0.0;
+        profile_.evaluate(cell, root.z, root.n, root.slope, d2n);
+        root.gap = profile_.gap_in_cell(level_, cell, root.z, root.n);
+        if (!(root.gap > 0.0) || !(d2n > 0.0)) return false;
+        root.half_curvature = 0.5 * d2n;
+        const double third = profile_.third_derivative(cell, root.z);
+        root.sixth_third = third / 6.0;
+        const double s = std::sqrt(2.0 * root.gap / d2n);
+        // Not nearly singular (ordinary panels do well), or n′ too large for the zeros to sit at ±i·s.
+        if (!(4.0 * s < high - low) || !(std::abs(root.slope) <= 0.1 * std::sqrt(2.0 * d2n * root.gap))) return false;
+        // The third zero of the cubic n − ξ, at δ ≈ −3n″/n‴ from z_m, on one side.
+        const double third_zero = third != 0.0 ? -3.0 * d2n / third : infinity;
+        for (const double side : {1.0, -1.0}) {
+            const double reach = side > 0.0 ? high - root.z : root.z - low;
+            if (!(reach > 0.0)) continue;
+            const double beyond = third_zero * side > 0.0 ? std::abs(third_zero) : infinity;
+            if (!(beyond > reach)) return false;
+            graded_panels(std::asinh(reach / s), std::asinh(beyond / s),
+                          [&](double a, double b) { sinh_panel(root, side, s, a, b); });
+        }
+        return true;
+    }
+
+    // Panels covering [0, t_end] for 16-point Gauss–Legendre in the variables above, where the
+    // integrands' complex singularities lie at least π/2 off the real axis: at most 1.5 long,
+    // evenly; and, toward a real singularity at t_pole > t_end (the cubic's third zero), at most
+    // half their start's distance to it, so that every panel keeps its error near 1e-18.
+    template <class Panel>
+    static void graded_panels(double t_end, double t_pole, const Panel& panel) {
+        constexpr double longest = 1.5;
+        if (!std::isfinite(t_pole) || t_pole - t_end >= 2.0 * longest) {
+            const int panels = std::max(1, static_cast<int>(std::ceil(t_end / longest)));
+            for (int i = 0; i < panels; ++i) panel(t_end * i / panels, t_end * (i + 1) / panels);
+            return;
+        }
+        for (double t = 0.0; t < t_end;) {
+            double next = std::min(t_end, t + std::min(longest, 0.5 * (t_pole - t)));
+            // A pole within rounding of t_end: the halving would never arrive.
+            if (!(next > t) || next - t < 1e-3 * longest) next = t_end;
+            panel(t, next);
+            t = next;
+        }
+    }
+
+    // sinh t and cosh t from one expm1, without cancellation for small t (t >= 0).
+    static void sinh_cosh(double t, double& sinh_t, double& cosh_t) {
+        const double m = std::expm1(t), e = m + 1.0;
+        sinh_t = 0.5 * m * (m + 2.0) / e;
+        cosh_t = 1.0 + 0.5 * m * m / e;
+    }
+
+    void sinh_panel(const DoubleRoot& root, double side, double s, double a, double b) {
+        const GaussRule& r = rule(16);
+        const double centre = 0.5 * (a + b), half = 0.5 * (b - a);
+        for (std::size_t i = 0; i < r.nodes.size(); ++i) {
+            double sinh_t, cosh_t;
+            sinh_cosh(centre + half * r.nodes[i], sinh_t, cosh_t);
+            const double delta = s * sinh_t, w = half * r.weights[i] * s * cosh_t;
+            const double rise =
+                side * delta * (root.slope + side * delta * (root.half_curvature + side * delta * root.sixth_third));
+            const double gz = root.gap + rise, nz = root.n + rise;
+            const double q2 = gz * (nz + xi_), inverse_q = 1.0 / std::sqrt(q2);
+            sums_.x += w * xi_ * inverse_q;
+            if (with_time_) {
+                sums_.optical += w * nz * nz * inverse_q;
+                sums_.length += w * nz * inverse_q;
+                if (attenuation_) sums_.attenuation += w * nz * inverse_q / attenuation_->length_m(root.z + side * delta);
+            }
+            if (with_derivative_) sums_.derivative += w * nz * nz * inverse_q / q2;
+        }
+    }
+
+    // The part of a turning end's cell from the turning point z_t to the cell's boundary (inward:
+    // +1 up, −1 down), where n″ > 0: besides the zero of n − ξ at z_t, Q² has one at about
+    // z_t − 2d·inward, d = n′(z_t)/n″. When a local minimum of n where n′ = 0 lies just beyond z_t
+    // (ξ a hair above that minimum: a ray turning next to a double root) d is tiny and panels in z
+    // must shrink geometrically toward z_t. With z = z_t + inward·δ, δ + d = d·cosh τ, the
+    // integrands are smooth in τ (δ(δ + 2d) = d² sinh² τ, and dz/dτ = d·sinh τ cancels the root);
+    // their singularities in τ lie at ±iπ (that second zero), ±iπ/2 (n′ = 0, in the derivative's
+    // h = 1/(n n′)) and at the cubic's third zero, beyond the part: the panels of
+    // over_double_root. The ξ-derivative with the end moving is taken by parts as in end_piece.
+    // Cubic cells only, when the leg goes on beyond the cell and no turning-cell table serves it;
+    // not in the direct quadrature (which keeps the end piece). False when this does not apply.
+    bool turning_next_to_double_root(std::size_t cell, double z_t, int inward, double other_end_z) {
+        if (table_levels_ == 0 || failed_ || !profile_.is_cubic(cell)) return false;
+        const double boundary = inward > 0 ? profile_.cell_top(cell) : profile_.cell_bottom(cell);
+        if (!(inward > 0 ? other_end_z > boundary : other_end_z < boundary)) return false;
+        const double reach = (boundary - z_t) * inward;
+        if (!(reach > 0.0)) return false;
+        TurningRoot root;
+        root.inward = inward;
+        root.z = z_t;
+        double n1 = 0.0;
+        profile_.evaluate(cell, z_t, root.n, n1, root.curvature);
+        root.slope_in = n1 * inward;
+        root.third = profile_.third_derivative(cell, z_t);
+        if (!(root.slope_in > 0.0) || !(root.curvature > 0.0)) return false;
+        root.d = root.slope_in / root.curvature;
+        // n must keep growing inward up to the boundary (h = 1/(n n′) finite): n′ is a quadratic
+        // in δ, convex upward from δ = 0 or concave, so its signs at both ends settle it.
+        double n_b, dn_b, d2n_b;
+        profile_.evaluate(cell, boundary, n_b, dn_b, d2n_b);
+        if (!(dn_b * inward > 0.0)) return false;
+        // The third zero of (n − ξ)/δ = n′ + n″δ/2 + n‴δ²/6 (inward), at δ ≈ −3n″/n‴.
+        const double third_inward = inward * root.third;
+        const double beyond = third_inward < 0.0 ? -3.0 * root.curvature / third_inward : infinity;
+        if (!(beyond > reach)) return false;
+        double x = 0.0, optical = 0.0, length = 0.0, attenuation = 0.0, by_parts_q = 0.0, by_parts_inverse = 0.0;
+        const double sixth = third_inward / 6.0;
+        const GaussRule& r = rule(16);
+        // τ = acosh(1 + δ/d), as 2 asinh(√(δ/2d)) so that small δ/d keeps its digits.
+        auto tau_of = [&](double delta) { return 2.0 * std::asinh(std::sqrt(0.5 * delta / root.d)); };
+        graded_panels(tau_of(reach), tau_of(beyond), [&](double a, double b) {
+            const double centre = 0.5 * (a + b), half = 0.5 * (b - a);
+            for (std::size_t i = 0; i < r.nodes.size(); ++i) {
+                const double tau = centre + half * r.nodes[i];
+                double sinh_half, cosh_half;
+                sinh_cosh(0.5 * tau, sinh_half, cosh_half);
+                const double delta = 2.0 * root.d * sinh_half * sinh_half;  // d (cosh τ − 1), no cancellation
+                const double w = half * r.weights[i] * root.d * 2.0 * sinh_half * cosh_half;  // d sinh τ dτ
+                const double gz = delta * (root.slope_in + delta * (0.5 * root.curvature + delta * sixth));
+                const double nz = root.n + gz;
+                const double q2 = gz * (nz + xi_), q = std::sqrt(q2), inverse_q = 1.0 / q;
+                x += w * xi_ * inverse_q;
+                if (with_time_) {
+                    optical += w * nz * nz * inverse_q;
+                    length += w * nz * inverse_q;
+                    if (attenuation_) attenuation += w * nz * inverse_q / attenuation_->length_m(z_t + inward * delta);
+                }
+                if (with_derivative_) {
+                    // dn/dz and d²n/dz² at the node, from the same expansion about z_t.
+                    const double dn = inward * (root.slope_in + delta * (root.curvature + 3.0 * sixth * delta));
+                    const double d2n = root.curvature + third_inward * delta;
+                    const double nn = nz * dn;
+                    const double h_prime = -(dn * dn + nz * d2n) / (nn * nn);
+                    by_parts_q += w * q * h_prime;
+                    by_parts_inverse += w * h_prime * inverse_q;
+                }
+            }
+        });
+        sums_.x += x;
+        sums_.optical += optical;
+        sums_.length += length;
+        sums_.attenuation += attenuation;
+        if (with_derivative_) {
+            // As in end_piece: x = −ξ h_b Q_b − ξ ∫ Q h′ dz (b: the far end of the part).
+            const double g_b = reach * (root.slope_in + reach * (0.5 * root.curvature + reach * sixth));
+            const double q_b = std::sqrt(g_b * (n_b + xi_)), h_b = 1.0 / (n_b * dn_b);
+            const double orientation = -inward;
+            const double signed_derivative =
+                -q_b * h_b + xi_ * xi_ * h_b / q_b + orientation * (-by_parts_q + xi_ * xi_ * by_parts_inverse);
+            sums_.derivative += orientation * signed_derivative;
+        }
+        return true;
+    }
+
+    struct TurningRoot {
+        int inward = 1;
+        double z = 0.0, n = 0.0, slope_in = 0.0, curvature = 0.0, third = 0.0, d = 0.0;
+    };
 
     // Everything from the middle of the leg between its end pieces, cell by cell; runs of whole
     // cells from the tables where they have them.
@@ -558,10 +749,14 @@ LegIntegrals integrate_leg(const StratifiedProfile& profile, const RayLevel& lev
     // piece then lies in its own cell, outside this one).
     if (a.kind == LegEnd::turning && quadrature.turning_cell(cell_low, +1, b.z, cell_high)) {
         low = profile.cell_top(cell_low);
+    } else if (a.kind == LegEnd::turning && quadrature.turning_next_to_double_root(cell_low, a.z, +1, b.z)) {
+        low = profile.cell_top(cell_low);
     } else if (piece_low.used) {
         quadrature.end_piece(a.z, a.kind, +1, cell_low, g_low, slope_low, piece_low.length);
     }
     if (b.kind == LegEnd::turning && quadrature.turning_cell(cell_high, -1, a.z, cell_low)) {
+        high = profile.cell_bottom(cell_high);
+    } else if (b.kind == LegEnd::turning && quadrature.turning_next_to_double_root(cell_high, b.z, -1, a.z)) {
         high = profile.cell_bottom(cell_high);
     } else if (piece_high.used) {
         quadrature.end_piece(b.z, b.kind, -1, cell_high, g_high, slope_high, piece_high.length);
@@ -624,6 +819,8 @@ std::shared_ptr<SnellCellTables> make_snell_cell_tables(const StratifiedProfile&
             block.first_cell = first;
             block.last_cell = std::min(count, first + size) - 1;
             const double z_top = profile.cell_top(block.first_cell), z_bottom = profile.cell_bottom(block.last_cell);
+            block.z_top = z_top;
+            block.z_bottom = z_bottom;
             const Knot* begin = knots.data() + first_knot[block.first_cell];
             const Knot* end = knots.data() + first_knot[block.last_cell + 1];
             const Knot* lowest = nullptr;
@@ -698,11 +895,16 @@ Piece* published(std::atomic<Piece*>& slot, Build build) {
 
 const SnellCellTables::Piece* SnellCellTables::piece(const StratifiedProfile& profile, std::size_t level,
                                                      const Block& block, double w_squared) {
+    return piece_in(profile, level, block, w_squared, pieces.get() + block.first_piece);
+}
+
+const SnellCellTables::Piece* SnellCellTables::piece_in(const StratifiedProfile& profile, std::size_t level,
+                                                        const Block& block, double w_squared,
+                                                        std::atomic<Piece*>* slots) {
     const int above_base = std::ilogb(w_squared) - block.w0_exponent;
     const std::size_t index = above_base < 0 ? 0 : static_cast<std::size_t>(above_base) + 1;
     if (index >= block.piece_count || (index == 0 && block.direct_base)) return nullptr;
-    const Piece* found =
-        published(pieces[block.first_piece + index], [&] { return build(profile, level, block, index); });
+    const Piece* found = published(slots[index], [&] { return build(profile, level, block, index); });
     return found->tabulated ? found : nullptr;
 }
 
@@ -725,8 +927,7 @@ std::unique_ptr<SnellCellTables::Piece> SnellCellTables::build(const StratifiedP
         ray.anchor_cell = block.cell_min;
         ray.anchor_index = block.n_min;
         ray.ray_parameter = block.n_min - w * w;
-        const LegIntegrals whole = integrate_leg(profile, ray, {profile.cell_bottom(block.last_cell)},
-                                                 {profile.cell_top(block.first_cell)}, true, true, nullptr, level);
+        const LegIntegrals whole = integrate_leg(profile, ray, {block.z_bottom}, {block.z_top}, true, true, nullptr, level);
         out[0] = whole.distance_m / ray.ray_parameter;  // x/ξ, so that x is 0 at ξ = 0 exactly
         out[1] = whole.optical_path_m;
         out[2] = whole.length_m;

@@ -3,7 +3,9 @@
 // and ∂x/∂ξ, by Gauss–Legendre quadrature over the profile's cells. At an end where Q vanishes
 // (a turning point) or nearly does (a ray almost horizontal at a fixed end), z = z_root ± u²
 // removes the inverse square root, so the rule converges fast; elsewhere each panel's order or
-// size follows the distance to the nearest zero of Q² (from a local quadratic model of n² − ξ²).
+// size follows the distance to the nearest zero of Q² (from a local quadratic model of n² − ξ²),
+// except next to a local minimum of n where ξ is just below it (Q² has two zeros just off the real
+// axis there), integrated in t with z = z_m ± s·sinh t.
 // n − ξ comes from RayLevel, so that rays near n_deep keep their accuracy (see RayLevel).
 #pragma once
 

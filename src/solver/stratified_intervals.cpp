@@ -85,6 +85,7 @@ StratifiedProfile::StratifiedProfile(std::shared_ptr<const IndexProfile> profile
         throw ModelInputError(fmt::format("the analysis depth must be a positive number of metres (got {})",
                                           number_for_message(analysis_depth_m)));
     build_cells(analysis_depth_m);
+    for (const Cell& cell : cells_) cell_bottoms_.push_back(cell.z_bottom);
     build_runs();
 }
 
@@ -179,12 +180,14 @@ void StratifiedProfile::add_piece_cells(std::size_t piece, double z_top, double 
 std::size_t StratifiedProfile::cell_at(double z, int toward) const {
     if (z >= 0.0) return 0;
     if (z <= floor_z_) return cells_.size() - 1;
-    // First cell whose bottom lies below z (toward < 0), or at or below z (toward > 0).
-    auto it = std::partition_point(cells_.begin(), cells_.end(), [&](const Cell& c) {
-        return toward > 0 ? c.z_bottom > z : c.z_bottom >= z;
-    });
-    if (it == cells_.end()) return cells_.size() - 1;
-    return static_cast<std::size_t>(it - cells_.begin());
+    // First cell whose bottom lies below z (toward < 0), or at or below z (toward > 0); searched
+    // in the bottoms alone, which sit in fewer cache lines than the cells.
+    const auto it = toward > 0 ? std::partition_point(cell_bottoms_.begin(), cell_bottoms_.end(),
+                                                      [&](double bottom) { return bottom > z; })
+                               : std::partition_point(cell_bottoms_.begin(), cell_bottoms_.end(),
+                                                      [&](double bottom) { return bottom >= z; });
+    if (it == cell_bottoms_.end()) return cells_.size() - 1;
+    return static_cast<std::size_t>(it - cell_bottoms_.begin());
 }
 
 void StratifiedProfile::evaluate(std::size_t cell, double z, double& n, double& dn_dz, double& d2n_dz2) const {

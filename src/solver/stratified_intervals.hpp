@@ -109,6 +109,8 @@ public:
     // d³n/dz³ of a cell's formula at z: exact for cubic and exponential cells, 0 for the others
     // (their cells are short, see above). Used to bound the distance to the zeros of n² − ξ².
     double third_derivative(std::size_t cell, double z) const;
+    // Whether a cell is kept as a cubic (a table's piece): its expansions about any point are exact.
+    bool is_cubic(std::size_t cell) const { return cells_[cell].form == Form::cubic; }
     double index(double z) const;
     // (n(z) − n(z_ref)) / (z − z_ref) for two points of one cell, without cancellation; dn/dz at
     // z_ref when z = z_ref.
@@ -171,6 +173,7 @@ private:
     bool exponential_ = false;
     double exp_a_ = 0.0, exp_b_ = 0.0, exp_c_ = 0.0;  // n = A − B e^{C z}
     std::vector<Cell> cells_;                          // from the surface down
+    std::vector<double> cell_bottoms_;                 // cells_[i].z_bottom, for cell_at
     std::vector<Run> runs_;                            // from the surface down
     std::vector<double> minima_z_;
     struct LazySnellTables {

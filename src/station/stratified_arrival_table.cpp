@@ -253,29 +253,23 @@ double StratifiedArrivalTable::memory_estimate_bytes(const StratifiedProfile& pr
 StratifiedArrivalTable::Point StratifiedArrivalTable::table_point(const Row& row, int family_index,
                                                                   std::size_t k) const {
     Point p;
+    const Reach reach = table_reach(row, family_index, k);
+    if (!reach.exists) return p;
     const std::size_t samples = samples_.size();
     const std::size_t s = row.source_level * samples + k, r = receiver_level_ * samples + k;
-    const std::int32_t id = interval_of_[s];
-    if (id < 0 || id != interval_of_[r]) return p;
-    const IntervalLegs& legs = intervals_[k][static_cast<std::size_t>(id)];
+    const IntervalLegs& legs = intervals_[k][static_cast<std::size_t>(interval_of_[s])];
     const PathFamily& family = families_[static_cast<std::size_t>(family_index)];
-    const double z_source = source_z_[&row - rows_.data()];
-    if (!family_exists(family, legs.interval, z_source, receiver_z_, bottom_paths_)) return p;
+    p.distance = reach.distance;
     if (family.ends == 0) {
-        p.distance = std::abs(distance_[s] - distance_[r]);
         p.time = std::abs(time_[s] - time_[r]);
         p.attenuation = std::abs(attenuation_[s] - attenuation_[r]);
         p.length = std::abs(length_[s] - length_[r]);
     } else {
-        // First leg from the source to its first end, last leg from the last end to the receiver,
-        // and a full traversal of the interval between any two ends.
         auto leg = [&](std::size_t at, bool upper, const std::vector<double>& cumulative, double total) {
             return upper ? cumulative[at] : total - cumulative[at];
         };
         const bool last_upper = is_upper_end(family, family.ends - 1);
         const double traversals = family.ends - 1;
-        p.distance = leg(s, family.starts_upward, distance_, legs.distance) + leg(r, last_upper, distance_, legs.distance) +
-                     traversals * legs.distance;
         p.time = leg(s, family.starts_upward, time_, legs.time) + leg(r, last_upper, time_, legs.time) +
                  traversals * legs.time;
         p.attenuation = leg(s, family.starts_upward, attenuation_, legs.attenuation) +
@@ -283,13 +277,48 @@ StratifiedArrivalTable::Point StratifiedArrivalTable::table_point(const Row& row
         p.length = leg(s, family.starts_upward, length_, legs.length) + leg(r, last_upper, length_, legs.length) +
                    traversals * legs.length;
     }
-    p.valid = !std::isnan(p.distance);
+    p.valid = reach.valid;
     p.ray_parameter = samples_[k].ray_parameter;
     p.anchor_z = samples_[k].anchor_z;
     p.offset = samples_[k].offset;
     p.kind = kind_of(family, legs.interval);
     count_reflections(family, legs.interval, p.surface_reflections, p.bottom_reflections);
     return p;
+}
+
+StratifiedArrivalTable::Reach StratifiedArrivalTable::table_reach(const Row& row, int family_index,
+                                                                  std::size_t k) const {
+    Reach out;
+    const std::size_t samples = samples_.size();
+    const std::size_t s = row.source_level * samples + k, r = receiver_level_ * samples + k;
+    const std::int32_t id = interval_of_[s];
+    if (id < 0 || id != interval_of_[r]) return out;
+    const IntervalLegs& legs = intervals_[k][static_cast<std::size_t>(id)];
+    const PathFamily& family = families_[static_cast<std::size_t>(family_index)];
+    const double z_source = source_z_[&row - rows_.data()];
+    if (!family_exists(family, legs.interval, z_source, receiver_z_, bottom_paths_)) return out;
+    out.exists = true;
+    if (family.ends == 0) {
+        out.distance = std::abs(distance_[s] - distance_[r]);
+    } else {
+        // First leg from the source to its first end, last leg from the last end to the receiver,
+        // and a full traversal of the interval between any two ends.
+        auto leg = [&](std::size_t at, bool upper) { return upper ? distance_[at] : legs.distance - distance_[at]; };
+        out.distance = leg(s, family.starts_upward) + leg(r, is_upper_end(family, family.ends - 1)) +
+                       (family.ends - 1) * legs.distance;
+    }
+    out.valid = !std::isnan(out.distance);
+    return out;
+}
+
+StratifiedArrivalTable::Reach StratifiedArrivalTable::reach_at(const Row& row, int family, std::size_t range,
+                                                              std::size_t position) const {
+    if (position < end_samples) {
+        const Point p = point_at(row, family, range, position);
+        return {p.valid, p.valid, p.distance};
+    }
+    const std::size_t skipped = row.has_end && row.limit_range == range ? row.skipped : 0;
+    return table_reach(row, family, ranges_[range].first + skipped + position - end_samples);
 }
 
 StratifiedArrivalTable::Point StratifiedArrivalTable::point_at(const Row& row, int family, std::size_t range,
@@ -378,6 +407,79 @@ StratifiedArrivalTable::Point StratifiedArrivalTable::solve_between(const Row& r
     return std::abs(f_lo) <= std::abs(f_hi) ? p_lo : p_hi;
 }
 
+void StratifiedArrivalTable::sample_tail(const Row& row, Exact& tail, double u_a, double u_b) const {
+    // As solve_between: in ln u down to a few rounding errors of ξ when the divergent end is the
+    // anchor itself, else in u toward u_b, with the distance to the divergent end shrinking by 8
+    // per sample (X grows like the logarithm of that distance next to a minimum of n).
+    const double u_closest = std::sqrt(64.0 * std::numeric_limits<double>::epsilon() * std::max(1.0, row.limit));
+    tail.logarithmic = std::min(u_a, u_b) <= u_closest;
+    const double u_last = tail.logarithmic ? std::min(u_closest, 0.5 * u_a) : u_b;
+    const double resolution = 4.0 * std::numeric_limits<double>::epsilon() * std::max(u_a, u_b);
+    double previous = -infinity;
+    for (int k = 0; k < 64; ++k) {
+        const double step = std::ldexp(1.0, -3 * k);
+        const double u = tail.logarithmic ? std::max(u_last, u_a * step) : u_b - (u_b - u_a) * step;
+        if (!tail.logarithmic && std::abs(u_b - u) <= resolution) {
+            // Every double left between the last sample and u_b (a handful): the most X reaches
+            // there, all that solve_between could find beyond the samples.
+            double reach = previous;
+            const double from = tail.tail_samples.empty() ? u_a : tail.tail_samples.back().u;
+            int left = 0;
+            for (double v = std::nextafter(from, u_b); v != u_b && left < 16; v = std::nextafter(v, u_b), ++left) {
+                const Point p = exact_point(row, tail.family, tail.anchor_z, v * v);
+                if (p.valid && std::isfinite(p.distance)) reach = std::max(reach, p.distance);
+            }
+            if (left < 16 && !tail.tail_samples.empty()) tail.beyond_samples_max_m = reach;
+            break;
+        }
+        const Point p = exact_point(row, tail.family, tail.anchor_z, u * u);
+        // Only while X stays finite and grows: beyond, cells fall back to the whole bracket.
+        if (!p.valid || !std::isfinite(p.distance) || !(p.distance > previous)) break;
+        tail.tail_samples.push_back({u, p.distance});
+        previous = p.distance;
+        if (tail.logarithmic && u == u_last) {
+            tail.sampled_to_end = true;
+            break;
+        }
+    }
+}
+
+StratifiedArrivalTable::Point StratifiedArrivalTable::solve_in_tail(const Row& row, const Exact& tail, std::size_t k,
+                                                                    double distance_m) const {
+    // Regula falsi (Illinois) between samples k and k + 1, X − R < 0 at k and > 0 at k + 1, in
+    // ln u or u as sample_tail placed them.
+    const Exact::TailSample& a = tail.tail_samples[k];
+    const Exact::TailSample& b = tail.tail_samples[k + 1];
+    auto to_t = [&](double u) { return tail.logarithmic ? std::log(u) : u; };
+    auto to_u = [&](double t) { return tail.logarithmic ? std::exp(t) : t; };
+    double lo = to_t(a.u), hi = to_t(b.u), f_lo = a.distance_m - distance_m, f_hi = b.distance_m - distance_m;
+    Point p, p_lo, p_hi;
+    const double tolerance = 1e-7 * (1.0 + distance_m);
+    int retained = 0;  // +1: lo kept twice in a row, −1: hi kept twice
+    for (int i = 0; i < 100; ++i) {
+        double t = (lo * f_hi - hi * f_lo) / (f_hi - f_lo);
+        if (!(t > std::min(lo, hi) && t < std::max(lo, hi))) t = 0.5 * (lo + hi);
+        const double u = to_u(t);
+        p = exact_point(row, tail.family, tail.anchor_z, u * u);
+        const double f = p.valid && std::isfinite(p.distance) ? p.distance - distance_m : infinity;
+        if (std::abs(f) <= tolerance) return p;
+        if (f < 0.0) {
+            lo = t, f_lo = f, p_lo = p;
+            if (retained == -1) f_hi *= 0.5;
+            retained = -1;
+        } else {
+            if (!std::isfinite(f)) return {};  // not a monotone stretch after all
+            hi = t, f_hi = f, p_hi = p;
+            if (retained == 1) f_lo *= 0.5;
+            retained = 1;
+        }
+        if (std::abs(hi - lo) <= 1e-15 * std::max(std::abs(lo), std::abs(hi))) break;
+    }
+    if (!p_lo.valid) p_lo = exact_point(row, tail.family, tail.anchor_z, a.u * a.u);
+    if (!p_hi.valid) p_hi = exact_point(row, tail.family, tail.anchor_z, b.u * b.u);
+    return std::abs(f_lo) <= std::abs(f_hi) ? p_lo : p_hi;
+}
+
 void StratifiedArrivalTable::build_row(std::size_t index) {
     Row& row = rows_[index];
     const double z_source = source_z_[index];
@@ -430,8 +532,9 @@ void StratifiedArrivalTable::build_row(std::size_t index) {
         for (std::size_t r = 0; r < ranges_.size(); ++r) {
             const std::size_t positions =
                 ranges_[r].count + end_samples - (row.has_end && row.limit_range == r ? row.skipped : 0);
-            std::vector<Point> points(positions);
-            for (std::size_t p = 0; p < positions; ++p) points[p] = point_at(row, f, r, p);
+            // Validity and distance of every position; whole points only where a fold or a tail needs them.
+            std::vector<Reach> points(positions);
+            for (std::size_t p = 0; p < positions; ++p) points[p] = reach_at(row, f, r, p);
             auto finite = [&](std::size_t p) { return points[p].valid && std::isfinite(points[p].distance); };
             // Monotone runs of finite points.
             std::size_t p = 0;
@@ -451,8 +554,8 @@ void StratifiedArrivalTable::build_row(std::size_t index) {
                 // A fold at the run's last point when the next run turns back.
                 const std::size_t e = run.last;
                 if (e + 1 < positions && finite(e + 1)) {
-                    const Point& before = points[e - 1];
-                    const Point& after = points[e + 1];
+                    const Point before = point_at(row, f, r, e - 1);
+                    const Point after = point_at(row, f, r, e + 1);
                     Exact fold;
                     fold.family = f;
                     fold.range = r;
@@ -507,7 +610,11 @@ void StratifiedArrivalTable::build_row(std::size_t index) {
                     tail.tail = true;
                     tail.sampled_m = points[q].distance;
                     tail.exact_m = infinity;
-                    tail.anchor_z = limit_end ? row.limit_z : points[b].anchor_z;
+                    const Point divergent = point_at(row, f, r, b);
+                    tail.anchor_z = limit_end ? row.limit_z : divergent.anchor_z;
+                    const double u_a = std::sqrt(offset_from(tail.anchor_z, point_at(row, f, r, q)));
+                    const double u_b = limit_end ? row.end_u[b] : std::sqrt(offset_from(tail.anchor_z, divergent));
+                    sample_tail(row, tail, u_a, u_b);
                     row.exact.push_back(tail);
                     visible.emplace_back(tail.sampled_m, infinity);
                 }
@@ -598,7 +705,7 @@ void StratifiedArrivalTable::arrivals(std::size_t index, double distance_m, std:
         std::size_t lo = run.first, hi = run.last;
         while (hi - lo > 1) {
             const std::size_t mid = (lo + hi) / 2;
-            if ((at(mid).distance <= distance_m) == run.increasing) lo = mid;
+            if ((reach_at(row, run.family, run.range, mid).distance <= distance_m) == run.increasing) lo = mid;
             else hi = mid;
         }
         const Point a = at(lo), b = at(hi);
@@ -619,11 +726,29 @@ void StratifiedArrivalTable::arrivals(std::size_t index, double distance_m, std:
         const double u_a = std::sqrt(offset_from(exact.anchor_z, a));
         if (exact.tail) {
             if (distance_m <= exact.sampled_m) continue;
-            // u of the divergent end: the anchor itself for the row's end point, else b's sample.
+            const auto& samples = exact.tail_samples;
+            // Between two of the tail's samples: a narrow bracket.
+            if (samples.size() >= 2 && distance_m > samples.front().distance_m && distance_m < samples.back().distance_m) {
+                const auto above = std::upper_bound(samples.begin(), samples.end(), distance_m,
+                                                    [](double d, const Exact::TailSample& s) { return d < s.distance_m; });
+                const auto k = static_cast<std::size_t>(above - samples.begin()) - 1;
+                add_exact_arrival(row, exact.family, solve_in_tail(row, exact, k, distance_m), exact.anchor_z, distance_m,
+                                  out);
+                continue;
+            }
+            // Beyond a logarithmic tail's last sample solve_between would look no closer to the end
+            // (its u_closest) and find nothing.
+            if (exact.sampled_to_end && distance_m > samples.back().distance_m) continue;
+            // Nor can it beyond the other tails' last samples when every u left there is known
+            // to stay short of R by more than what add_exact_arrival accepts.
+            if (distance_m - 1e-6 * (1.0 + distance_m) > exact.beyond_samples_max_m) continue;
+            // u of the divergent end: the anchor itself for the row's end point, else b's sample;
+            // beyond the last sample the bracket starts there.
             const double u_b = exact.b < end_samples && !b.valid ? row.end_u[exact.b] : std::sqrt(offset_from(exact.anchor_z, b));
             const bool increasing = u_b > u_a;
-            const Point root = solve_between(row, exact.family, exact.anchor_z, std::min(u_a, u_b), std::max(u_a, u_b),
-                                             distance_m, increasing);
+            const double u_start = samples.size() >= 2 && distance_m >= samples.back().distance_m ? samples.back().u : u_a;
+            const Point root = solve_between(row, exact.family, exact.anchor_z, std::min(u_start, u_b),
+                                             std::max(u_start, u_b), distance_m, increasing);
             add_exact_arrival(row, exact.family, root, exact.anchor_z, distance_m, out);
             continue;
         }

@@ -14,6 +14,7 @@
 
 #include <cstddef>
 #include <cstdint>
+#include <limits>
 #include <utility>
 #include <vector>
 
@@ -103,6 +104,20 @@ private:
         double sampled_m = 0.0;           // X at the sampled extremum (or at a, for a tail)
         double exact_m = 0.0;             // the refined extremum (+inf for a tail)
         double anchor_z = 0.0, u_extremum = 0.0;
+        // For a tail: exact points from a toward the divergent end, X growing (u geometric toward
+        // it), so that a cell's root is bracketed by two of them and found in a few steps.
+        struct TailSample {
+            double u = 0.0, distance_m = 0.0;
+        };
+        std::vector<TailSample> tail_samples;
+        bool logarithmic = false;  // the divergent end is u = 0 itself: solve in ln u
+        // The samples reach the closest u that a root is sought at (logarithmic tails): beyond the
+        // last one's distance there is no root to find.
+        bool sampled_to_end = false;
+        // For the other tails, when the samples stop within a few ulps of u of the divergent end:
+        // the largest X at any u left between them and that end (every such u evaluated), so
+        // that a cell beyond it is known to have no root there without a search.
+        double beyond_samples_max_m = std::numeric_limits<double>::quiet_NaN();
     };
     struct Row {
         std::size_t source_level = 0;
@@ -121,11 +136,22 @@ private:
     };
 
     Point table_point(const Row& row, int family, std::size_t sample) const;
+    // Whether point_at is valid there, and its distance, without the rest (the scan of a row for
+    // runs and the binary search of a run need nothing else).
+    struct Reach {
+        bool exists = false;  // the family exists at that ξ (its distance may still be NaN)
+        bool valid = false;
+        double distance = 0.0;
+    };
+    Reach table_reach(const Row& row, int family, std::size_t sample) const;
+    Reach reach_at(const Row& row, int family, std::size_t range, std::size_t position) const;
     Point point_at(const Row& row, int family, std::size_t range, std::size_t position) const;
     Point exact_point(const Row& row, int family, double anchor_z, double offset) const;
     double offset_from(double anchor_z, const Point& p) const;
     Point solve_between(const Row& row, int family, double anchor_z, double u_low, double u_high, double distance_m,
                         bool increasing_in_u) const;
+    void sample_tail(const Row& row, Exact& tail, double u_a, double u_b) const;
+    Point solve_in_tail(const Row& row, const Exact& tail, std::size_t k, double distance_m) const;
     void add_arrival(const Row& row, const Point& a, const Point& b, double distance_m, std::vector<MapArrival>& out) const;
     void add_exact_arrival(const Row& row, int family, const Point& root, double anchor_z, double distance_m,
                            std::vector<MapArrival>& out) const;

@@ -187,3 +187,85 @@ TEST_CASE("tabulated ∂x/∂ξ to a turning point agrees with central differenc
                            (12 * h);
     CHECK(leg(xi).distance_derivative == Approx(central).epsilon(1e-9));
 }
+
+TEST_CASE("legs crossing just below a local minimum of n agree with tanh_sinh quadrature of the Snell integrals "
+          "(Boost.Math) split at the minimum",
+          "[solver][stratified][snell tables]") {
+    // n − ξ = g at the minimum, from 1e-6 down to 1e-12: Q² has two zeros at z_m ± i·√(2g/n″),
+    // which the quadrature meets with the sinh substitution (snell_integrals.cpp, over_double_root).
+    const auto table = layered_log();
+    const StratifiedProfile profile(table);
+    std::vector<double> breaks(table->joins_z().rbegin(), table->joins_z().rend());
+    double worst_relative = 0.0, worst_time_ns = 0.0, worst_derivative = 0.0;
+    int legs = 0;
+    for (const double z_m : profile.local_minima_z()) {
+        for (const double g : {1e-6, 1e-8, 1e-10, 1e-12}) {
+            const RayLevel level = RayLevel::anchored_at(profile, z_m, g);
+            const double z_low = z_m - 3.3, z_high = std::min(-0.01, z_m + 2.7);
+            const auto interval = profile.interval_around(level, z_low);
+            if (!interval || !interval->contains(z_high)) continue;
+            const double xi = level.ray_parameter;
+            // n − ξ from the level anchored at the minimum (no cancellation near it).
+            auto gap = [&](double z, double) { return profile.gap(level, z); };
+            const auto ref = test::snell_integrals(*table, xi, z_low, z_high, gap, breaks);
+            const LegIntegrals ours = leg_integrals(profile, level, {z_low}, {z_high});
+            INFO("minimum at " << z_m << " m, n − ξ " << g);
+            CHECK(ours.distance_m == Approx(ref.distance_m).epsilon(1e-10));
+            CHECK(ours.optical_path_m == Approx(ref.optical_path_m).epsilon(1e-10));
+            CHECK(ours.distance_derivative == Approx(ref.distance_derivative).epsilon(1e-8));
+            worst_relative = std::max(worst_relative, std::abs(ours.distance_m - ref.distance_m) / ref.distance_m);
+            worst_time_ns = std::max(worst_time_ns, std::abs(ours.optical_path_m - ref.optical_path_m) / speed_of_light * 1e9);
+            worst_derivative = std::max(worst_derivative, std::abs(ours.distance_derivative - ref.distance_derivative) /
+                                                              std::abs(ref.distance_derivative));
+            ++legs;
+        }
+    }
+    CHECK(legs > 80);
+    WARN("crossing below a minimum, against tanh_sinh: largest relative distance difference " << worst_relative
+         << ", time " << worst_time_ns << " ns, ∂x/∂ξ relative " << worst_derivative << " (" << legs << " legs)");
+}
+
+TEST_CASE("legs turning just beside a local minimum of n agree with the direct quadrature and their ∂x/∂ξ with "
+          "central differences of x (definition of the derivative)",
+          "[solver][stratified][snell tables]") {
+    // ξ above the minimum by 1e-5 to 1e-11: the ray turns within 1e-3 to 1e-6 m of it, where Q²
+    // has a second zero just beyond the turning point (snell_integrals.cpp,
+    // turning_next_to_double_root). The turning depth itself is known to an ulp of z, so x is
+    // determined to about 1e-9 relative there (x grows like log of the distance to the minimum).
+    const StratifiedProfile profile(layered_log());
+    double worst_distance = 0.0, worst_derivative = 0.0;
+    int legs = 0;
+    for (const double z_m : profile.local_minima_z()) {
+        for (const double above : {1e-5, 1e-7, 1e-9, 1e-11}) {
+            const double z_start = z_m - 7.3;
+            if (z_start < -199.0) continue;
+            // Only where the ray from z_start turns next to this minimum.
+            const auto interval = profile.interval_around(RayLevel::anchored_at(profile, z_m, -above), z_start);
+            if (!interval || interval->upper_kind != UpperEndKind::turning || std::abs(interval->upper_z - z_m) > 1e-2)
+                continue;
+            auto leg = [&](double offset, bool quadrature_only) {
+                const RayLevel level = RayLevel::anchored_at(profile, z_m, offset);
+                const auto interval = profile.interval_around(level, z_start);
+                REQUIRE(interval);
+                REQUIRE(interval->upper_kind == UpperEndKind::turning);
+                const LegEndpoint top{interval->upper_z, LegEnd::turning};
+                return quadrature_only ? leg_integrals_by_quadrature(profile, level, {z_start}, top)
+                                       : leg_integrals(profile, level, {z_start}, top);
+            };
+            const LegIntegrals ours = leg(-above, false), direct = leg(-above, true);
+            INFO("minimum at " << z_m << " m, ξ − n " << above);
+            CHECK(ours.distance_m == Approx(direct.distance_m).epsilon(1e-9));
+            CHECK(ours.optical_path_m == Approx(direct.optical_path_m).epsilon(1e-9));
+            // ξ = n(z_m) − offset: dx/dξ = −dx/d(offset), by central differences at 1e-3 of the offset.
+            const double h = 1e-3 * above;
+            const double central = -(leg(-above + h, false).distance_m - leg(-above - h, false).distance_m) / (2.0 * h);
+            CHECK(ours.distance_derivative == Approx(central).epsilon(1e-5));
+            worst_distance = std::max(worst_distance, std::abs(ours.distance_m - direct.distance_m));
+            worst_derivative = std::max(worst_derivative, std::abs(ours.distance_derivative - central) / std::abs(central));
+            ++legs;
+        }
+    }
+    CHECK(legs > 40);
+    WARN("turning beside a minimum: largest difference from the direct quadrature " << worst_distance
+         << " m, ∂x/∂ξ against central differences " << worst_derivative << " relative (" << legs << " legs)");
+}
