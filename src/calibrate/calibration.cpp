@@ -553,3 +553,39 @@ CalibrationResult calibrate_profile(const FirnModel& start_model, const Station&
 }
 
 }  // namespace firnray
+
+namespace firnray {
+
+double fitted_index_sigma(const CalibrationResult& result, double depth_m, double relative_step) {
+    const IndexProfile& fitted = *result.fitted_model.index;
+    const std::vector<std::string> names = profile_parameter_names(fitted);
+    const std::vector<double> values = profile_parameter_values(fitted);
+    const double z = -depth_m;
+    std::vector<double> gradient;
+    for (const std::string& name : result.free_names) {
+        const auto k = static_cast<std::size_t>(std::find(names.begin(), names.end(), name) - names.begin());
+        const double h = difference_step(values[k], relative_step);
+        // One-sided where a step leaves the valid profiles (an index at its bound).
+        const auto index_with = [&](double value) -> std::optional<double> {
+            std::vector<double> moved = values;
+            moved[k] = value;
+            try {
+                return profile_with_parameters(fitted, moved)->index(z);
+            } catch (const ModelInputError&) {
+                return std::nullopt;
+            }
+        };
+        const std::optional<double> up = index_with(values[k] + h), down = index_with(values[k] - h);
+        const double here = fitted.index(z);
+        if (up && down) gradient.push_back((*up - *down) / (2.0 * h));
+        else if (up) gradient.push_back((*up - here) / h);
+        else if (down) gradient.push_back((here - *down) / h);
+        else gradient.push_back(0.0);
+    }
+    double variance = 0.0;
+    for (std::size_t a = 0; a < gradient.size(); ++a)
+        for (std::size_t b = 0; b < gradient.size(); ++b) variance += gradient[a] * result.covariance[a][b] * gradient[b];
+    return std::sqrt(std::max(variance, 0.0));
+}
+
+}  // namespace firnray

@@ -126,3 +126,12 @@ CalibrationResult calibrate_profile(const FirnModel& start_model, const Station&
                                     CalibrationKind kind, const CalibrationOptions& options = {});
 
 }  // namespace firnray
+
+namespace firnray {
+
+// The 1σ of the fitted profile's n at depth_m (m, positive down), propagated linearly from the
+// covariance: σ² = gᵀ C g with g = ∂n/∂θ of the free parameters by central differences (the
+// steps of CalibrationOptions::relative_step). 0 at depths no free parameter reaches.
+double fitted_index_sigma(const CalibrationResult& result, double depth_m, double relative_step = 1e-4);
+
+}  // namespace firnray
