@@ -234,8 +234,8 @@ void check_start_kind(const FirnModel& start, CalibrationKind kind) {
     const std::string have = start.index->kind(), want = to_string(kind);
     if (have != want)
         throw ModelInputError(
-            fmt::format("--fit {} needs a start model with a {} profile, but model '{}' has a {} profile{}", want,
-                        want, start.name, have,
+            fmt::format("--fit {} needs a start model with a {} profile, but the profile of model '{}' is of kind {}{}",
+                        want, want, start.name, have,
                         kind == CalibrationKind::exponential
                             ? " (leave out --model to start from the built-in exponential model)"
                             : " (give a model file whose [index] has kind = \"layered\" with its layers)"),

@@ -15,6 +15,7 @@
 #include "cli/exit_codes.hpp"
 #include "cli/output_set.hpp"
 #include "core/text.hpp"
+#include "io/csv_reader.hpp"  // parse_number of a whole field
 #include "model/density.hpp"
 #include "model/fit_data.hpp"
 #include "output/calibrate_output.hpp"
@@ -47,7 +48,13 @@ FixedParameter parse_fix(const std::string& text) {
     if (fixed.name.find_first_of(" \t") != std::string::npos)
         throw UsageError("--fix", fmt::format("'{}' is not a parameter name: give NAME=VALUE or NAME (e.g. n_deep=1.78)",
                                               printable_excerpt(fixed.name)));
-    if (equals != std::string::npos) fixed.value = parse_number(text.substr(equals + 1), "--fix " + fixed.name);
+    if (equals != std::string::npos) {
+        const std::string value = text.substr(equals + 1);
+        fixed.value = firnray::parse_number(value);
+        if (!fixed.value)
+            throw UsageError("--fix", fmt::format("in '{}', '{}' is not a finite number: give NAME=VALUE or NAME",
+                                                  printable_excerpt(text), printable_excerpt(value)));
+    }
     return fixed;
 }
 
