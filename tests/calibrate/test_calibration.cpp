@@ -10,6 +10,7 @@
 #include "calibrate/calibration.hpp"
 #include "calibrate/synthetic_pulser_times.hpp"
 #include "locate/locate_test_support.hpp"
+#include "model/layered_profile.hpp"
 #include "model/model_file.hpp"
 #include "model/model_parameters.hpp"
 #include "solver/make_solver.hpp"
@@ -154,4 +155,58 @@ TEST_CASE("calibrate refuses a fixed parameter the profile lacks, a start model 
     two.pulsers[0].pulses.resize(3);  // 3 pulses: 3 parameters + 1 offset
     CHECK_THROWS_WITH(calibrate_profile(default_model(), station, two, CalibrationKind::exponential),
                       Catch::Contains("3 pulses cannot determine 3 free parameters and 1 emission offsets"));
+}
+
+TEST_CASE("calibrate fits the layer parameters of a layered start model on synthetic times "
+          "(least-squares statistics, Gauss-Markov theorem)",
+          "[calibrate][layered]") {
+    // Three channels and two pulser depths keep the stratified path finder's work small (about
+    // 45 ms per pair on a layered profile, docs/performance.md).
+    Station station = test::three_string_station();
+    std::erase_if(station.receivers, [](const Receiver& r) { return r.name != "A1" && r.name != "A4" && r.name != "B2"; });
+    const auto layered = [](double top_scale_depth_m, double deep_n) {
+        FirnModel model = default_model();
+        model.index = std::make_shared<LayeredProfile>(
+            1.36, std::vector<ExponentialLayer>{{15.0, 1.70, top_scale_depth_m}, {INFINITY, deep_n, 40.0}});
+        return model;
+    };
+    const auto truth = std::make_shared<const FirnModel>(layered(25.0, 1.78));
+    const auto solver = make_solver(truth, SolverChoice::automatic);
+    std::mt19937_64 rng(5);
+    const PulserTimes times = test::synthetic_pulser_times(
+        *solver, station, {{"hole-50m", {90.0, 60.0, -50.0}}, {"hole-150m", {90.0, 60.0, -150.0}}}, 0.5, rng, true);
+    CalibrationOptions options;
+    options.fixed = {{"n_surface", std::nullopt},
+                     {"layer[0].n_deep", std::nullopt},
+                     {"layer[0].bottom_depth_m", std::nullopt},
+                     {"layer[1].scale_depth_m", std::nullopt}};
+    options.threads = 2;
+    const CalibrationResult fit = calibrate_profile(layered(24.0, 1.782), station, times, CalibrationKind::layered, options);
+    CHECK(fit.free_names == std::vector<std::string>{"layer[0].scale_depth_m", "layer[1].n_deep"});
+    CHECK(fit.ndof == static_cast<int>(times.pulse_count()) - 2 - 2);
+    const CalibratedParameter& scale = fit.parameters[2];
+    const CalibratedParameter& deep = fit.parameters[4];
+    INFO(scale.value << " +- " << scale.sigma << ", " << deep.value << " +- " << deep.sigma);
+    CHECK(std::abs(scale.value - 25.0) < 4.0 * scale.sigma);
+    CHECK(std::abs(deep.value - 1.78) < 4.0 * deep.sigma);
+}
+
+TEST_CASE("the fitted profile's 1 sigma band is the sigma of n_surface at the surface and of n_deep far below "
+          "(linear error propagation, common practice)",
+          "[calibrate]") {
+    const Station station = test::three_string_station();
+    const auto solver = make_solver(true_model(), SolverChoice::automatic);
+    std::mt19937_64 rng(17);
+    const PulserTimes times = test::synthetic_pulser_times(*solver, station, test_pulsers(), 0.5, rng);
+    const CalibrationResult fit = calibrate_profile(default_model(), station, times, CalibrationKind::exponential);
+    CHECK(fitted_index_sigma(fit, 0.0) == Approx(fit.parameters[0].sigma).epsilon(1e-4));
+    CHECK(fitted_index_sigma(fit, 3000.0) == Approx(fit.parameters[1].sigma).epsilon(1e-4));
+    // In between, the band follows gᵀCg with the analytic gradient of the exponential formula.
+    const double d = 30.0, z0 = fit.parameters[2].value, a = fit.parameters[1].value, s = fit.parameters[0].value;
+    const double e = std::exp(-d / z0);
+    const double g[3] = {e, 1.0 - e, -(a - s) * e * d / (z0 * z0)};
+    double variance = 0.0;
+    for (int i = 0; i < 3; ++i)
+        for (int j = 0; j < 3; ++j) variance += g[i] * fit.covariance[static_cast<std::size_t>(i)][static_cast<std::size_t>(j)] * g[j];
+    CHECK(fitted_index_sigma(fit, d) == Approx(std::sqrt(variance)).epsilon(1e-4));
 }
