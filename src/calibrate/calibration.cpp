@@ -256,17 +256,25 @@ const char* to_string(CalibrationKind kind) {
     return kind == CalibrationKind::exponential ? "exponential" : "layered";
 }
 
-CalibrationResult calibrate_profile(const FirnModel& start_model, const Station& station, const PulserTimes& times,
-                                    CalibrationKind kind, const CalibrationOptions& options) {
-    check_options(options);
-    check_start_kind(start_model, kind);
-    const std::vector<std::string> names = profile_parameter_names(*start_model.index);
-    const std::vector<double> start_values = profile_parameter_values(*start_model.index);
+namespace {
 
-    // The fixed parameters and the values the fit starts from.
-    std::vector<double> values = start_values;
-    std::vector<bool> fixed(names.size(), false);
-    for (const FixedParameter& f : options.fixed) {
+// Which parameters are free and the values the fit starts from (the start model's, with the
+// fixed values put in).
+struct ParameterSetup {
+    std::vector<std::string> names;
+    std::vector<double> start_values, values;
+    std::vector<bool> fixed;
+    std::vector<std::size_t> free;  // positions of the free parameters in `names`
+};
+
+ParameterSetup set_up_parameters(const FirnModel& start_model, const std::vector<FixedParameter>& fixes) {
+    ParameterSetup setup;
+    setup.names = profile_parameter_names(*start_model.index);
+    setup.start_values = profile_parameter_values(*start_model.index);
+    setup.values = setup.start_values;
+    setup.fixed.assign(setup.names.size(), false);
+    const auto& names = setup.names;
+    for (const FixedParameter& f : fixes) {
         const auto it = std::find(names.begin(), names.end(), f.name);
         if (it == names.end())
             throw DataInputError(fmt::format("the {} profile of model '{}' has no parameter '{}'{} (its parameters: {})",
@@ -274,152 +282,169 @@ CalibrationResult calibrate_profile(const FirnModel& start_model, const Station&
                                              did_you_mean(f.name, names), fmt::format("{}", fmt::join(names, ", "))),
                                  {"", 0, "--fix"});
         const auto k = static_cast<std::size_t>(it - names.begin());
-        fixed[k] = true;
+        setup.fixed[k] = true;
         if (f.value) {
             if (!std::isfinite(*f.value))
                 throw DataInputError(fmt::format("the fixed value of {} is not a finite number", f.name), {"", 0, "--fix"});
-            values[k] = *f.value;
+            setup.values[k] = *f.value;
         }
     }
     try {
-        (void)profile_with_parameters(*start_model.index, values);
+        (void)profile_with_parameters(*start_model.index, setup.values);
     } catch (const ModelInputError& e) {
         throw DataInputError(fmt::format("the fixed values make no valid profile: {}", e.reason()), {"", 0, "--fix"});
     }
-    std::vector<std::size_t> free;
     for (std::size_t k = 0; k < names.size(); ++k)
-        if (!fixed[k]) free.push_back(k);
-    if (free.empty()) throw DataInputError("every parameter is fixed: there is nothing to fit", {"", 0, "--fix"});
+        if (!setup.fixed[k]) setup.free.push_back(k);
+    if (setup.free.empty()) throw DataInputError("every parameter is fixed: there is nothing to fit", {"", 0, "--fix"});
+    return setup;
+}
 
-    Calibration calibration(start_model, station, times, options);
-    std::string log_path;
-    if (options.density_log) {
-        const FitData& log = options.density_log->data;
-        calibration.log_depth_m_ = log.depth_m;
-        calibration.log_n_ = log.index_values();
-        calibration.log_sigma_n_ = options.density_log->sigma_n;
-        log_path = log.path;
+// Every pulse must have a path under the start model, or it cannot be matched at all.
+void check_start_paths(const Calibration& calibration, const ProfileState& state) {
+    std::size_t pulse_index = 0;
+    for (const Pulser& pulser : calibration.times_.pulsers)
+        for (const PulserPulse& p : pulser.pulses) {
+            if (state.paths[calibration.pairs_.pair_of_pulse[pulse_index]].empty())
+                throw DataInputError(
+                    fmt::format("channel '{}' is in the shadow of pulser '{}' under the start model: no path joins "
+                                "them, so its pulse cannot be matched (check the position, or drop the row)",
+                                calibration.station_.receivers[p.channel].name, printable_excerpt(pulser.name)),
+                    {calibration.times_.path, p.line, "channel"});
+            ++pulse_index;
+        }
+}
+
+// Offsets from each pulser's first arrivals, then matching and offsets alternately until the
+// matches settle.
+std::vector<double> starting_offsets(const Calibration& calibration, const ProfileState& state) {
+    const std::vector<PulseMatch> first_paths(calibration.pairs_.pair_of_pulse.size());  // every pulse on path 0
+    std::vector<double> offsets = calibration.best_offsets(state, first_paths);
+    for (int round = 0; round < 10; ++round) {
+        const auto matches = calibration.match(state, offsets);
+        const auto next = calibration.best_offsets(state, *matches);
+        if (next == offsets) break;
+        offsets = next;
     }
-    const std::size_t pulse_count = times.pulse_count(), log_count = calibration.log_n_.size();
-    const std::size_t free_count = free.size(), pulser_count = times.pulsers.size();
-    const long ndof = static_cast<long>(pulse_count + log_count) - static_cast<long>(free_count + pulser_count);
-    if (ndof < 0)
-        throw DataInputError(fmt::format("{} pulses{} cannot determine {} free parameter{} and {} emission offsets (one "
-                                         "per pulser): add pulses or fix parameters (--fix)",
-                                         pulse_count, log_count ? fmt::format(" and {} log points", log_count) : "",
-                                         free_count, free_count == 1 ? "" : "s", pulser_count),
-                             {times.path, 0, ""});
+    return offsets;
+}
 
-    // The start: paths of the start profile, offsets from the first arrivals, then matching and
-    // offsets alternately until the matches settle.
-    std::optional<ProfileState> state = calibration.state_for(values);
-    if (!state) throw NumericalError("the path finder failed on the start model; check the model and the pulser positions");
-    {
+// Where the fit stands: the profile, the offsets, the matches, and the weighted residuals with
+// their Jacobian there.
+struct FitPoint {
+    ProfileState state;
+    std::vector<double> offsets;
+    std::vector<PulseMatch> matches;
+    Eigen::VectorXd residuals;
+    Eigen::MatrixXd jacobian;  // columns: the free parameters, then one offset per pulser
+    double chi2 = 0.0;
+};
+
+// The Jacobian of the weighted residuals: central differences in the profile parameters (the
+// same path on both sides: same kind, same rank), analytic in the offsets (∂e/∂offset = −1/σ).
+void linearise(const Calibration& calibration, const ParameterSetup& setup, FitPoint& point) {
+    const PulserTimes& times = calibration.times_;
+    const std::size_t pulse_count = calibration.pairs_.pair_of_pulse.size(), log_count = calibration.log_n_.size();
+    const auto F = static_cast<Eigen::Index>(setup.free.size());
+    const ProfileState& at = point.state;
+    point.residuals = calibration.residuals(at, point.offsets, point.matches);
+    point.chi2 = point.residuals.squaredNorm();
+    point.jacobian = Eigen::MatrixXd::Zero(static_cast<Eigen::Index>(pulse_count + log_count),
+                                           F + static_cast<Eigen::Index>(times.pulsers.size()));
+    for (Eigen::Index f = 0; f < F; ++f) {
+        const std::size_t k = setup.free[static_cast<std::size_t>(f)];
+        const double h = difference_step(at.values[k], calibration.options_.relative_step);
+        std::vector<double> up = at.values, down = at.values;
+        up[k] += h;
+        down[k] -= h;
+        const std::optional<ProfileState> above = calibration.state_for(up), below = calibration.state_for(down);
+        if (!above && !below)
+            throw NumericalError(fmt::format("the profile is invalid on both sides of {} = {} (step {}): the "
+                                             "derivative cannot be taken",
+                                             setup.names[k], number_for_message(at.values[k]), number_for_message(h)));
         std::size_t pulse_index = 0;
         for (const Pulser& pulser : times.pulsers)
             for (const PulserPulse& p : pulser.pulses) {
-                if (state->paths[calibration.pairs_.pair_of_pulse[pulse_index]].empty())
-                    throw DataInputError(
-                        fmt::format("channel '{}' is in the shadow of pulser '{}' under the start model: no path joins "
-                                    "them, so its pulse cannot be matched (check the position, or drop the row)",
-                                    station.receivers[p.channel].name, printable_excerpt(pulser.name)),
-                        {times.path, p.line, "channel"});
+                const std::size_t pair = calibration.pairs_.pair_of_pulse[pulse_index];
+                const auto& paths = at.paths[pair];
+                const std::size_t j = point.matches[pulse_index].path;
+                const std::optional<double> t_up =
+                    above ? Calibration::same_path_time(paths, above->paths[pair], j) : std::nullopt;
+                const std::optional<double> t_down =
+                    below ? Calibration::same_path_time(paths, below->paths[pair], j) : std::nullopt;
+                double derivative = 0.0;
+                if (t_up && t_down) derivative = (*t_up - *t_down) / (2.0 * h);
+                else if (t_up) derivative = (*t_up - paths[j].time_ns) / h;
+                else if (t_down) derivative = (paths[j].time_ns - *t_down) / h;
+                else
+                    throw NumericalError(fmt::format(
+                        "the {} path from pulser '{}' to channel '{}' vanishes when {} moves by {}: the fit "
+                        "cannot take its derivative (is the pulser at the edge of the shadow?)",
+                        to_string(paths[j].kind), pulser.name, calibration.station_.receivers[p.channel].name,
+                        setup.names[k], number_for_message(h)));
+                point.jacobian(static_cast<Eigen::Index>(pulse_index), f) = -derivative / p.sigma_ns;
                 ++pulse_index;
             }
-    }
-    std::vector<double> offsets(pulser_count);
-    {
-        std::vector<PulseMatch> first_paths(pulse_count);  // every pulse on its pair's first path
-        offsets = calibration.best_offsets(*state, first_paths);
-        for (int round = 0; round < 10; ++round) {
-            const auto matches = calibration.match(*state, offsets);
-            const auto next = calibration.best_offsets(*state, *matches);
-            if (next == offsets) break;
-            offsets = next;
+        for (std::size_t i = 0; i < log_count; ++i) {
+            const double z = -calibration.log_depth_m_[i];
+            const double n_up = above ? above->profile->index(z) : at.profile->index(z);
+            const double n_down = below ? below->profile->index(z) : at.profile->index(z);
+            const double span = (above ? h : 0.0) + (below ? h : 0.0);
+            point.jacobian(static_cast<Eigen::Index>(pulse_count + i), f) =
+                -(n_up - n_down) / span / calibration.log_sigma_n_;
         }
     }
+    std::size_t pulse_index = 0;
+    for (std::size_t k = 0; k < times.pulsers.size(); ++k)
+        for (const PulserPulse& p : times.pulsers[k].pulses)
+            point.jacobian(static_cast<Eigen::Index>(pulse_index++), F + static_cast<Eigen::Index>(k)) = -1.0 / p.sigma_ns;
+}
 
-    const auto F = static_cast<Eigen::Index>(free_count);
-    const auto unknowns = static_cast<Eigen::Index>(free_count + pulser_count);
-    const auto rows = static_cast<Eigen::Index>(pulse_count + log_count);
+// A trial point after `step`, matched afresh; empty when the step leaves the valid profiles or
+// a pulse loses every path.
+std::optional<FitPoint> trial_point(const Calibration& calibration, const ParameterSetup& setup, const FitPoint& from,
+                                    const Eigen::VectorXd& step) {
+    const auto F = static_cast<Eigen::Index>(setup.free.size());
+    std::vector<double> values = from.state.values;
+    for (Eigen::Index f = 0; f < F; ++f) values[setup.free[static_cast<std::size_t>(f)]] += step[f];
+    std::optional<ProfileState> state = calibration.state_for(values);
+    if (!state) return std::nullopt;
+    FitPoint trial;
+    trial.offsets = from.offsets;
+    for (std::size_t k = 0; k < trial.offsets.size(); ++k) trial.offsets[k] += step[F + static_cast<Eigen::Index>(k)];
+    std::optional<std::vector<PulseMatch>> matches = calibration.match(*state, trial.offsets);
+    if (!matches) return std::nullopt;
+    trial.state = std::move(*state);
+    trial.matches = std::move(*matches);
+    trial.residuals = calibration.residuals(trial.state, trial.offsets, trial.matches);
+    trial.chi2 = trial.residuals.squaredNorm();
+    return trial;
+}
 
-    // Weighted residuals and their Jacobian at a state (central differences in the profile
-    // parameters, analytic in the offsets: ∂e/∂offset = −1/σ).
-    const auto linearise = [&](const ProfileState& at, const std::vector<double>& offs,
-                               const std::vector<PulseMatch>& matches, Eigen::MatrixXd& jacobian) {
-        jacobian = Eigen::MatrixXd::Zero(rows, unknowns);
-        for (Eigen::Index f = 0; f < F; ++f) {
-            const std::size_t k = free[static_cast<std::size_t>(f)];
-            const double h = difference_step(at.values[k], options.relative_step);
-            std::vector<double> up = at.values, down = at.values;
-            up[k] += h;
-            down[k] -= h;
-            const std::optional<ProfileState> above = calibration.state_for(up), below = calibration.state_for(down);
-            if (!above && !below)
-                throw NumericalError(fmt::format("the profile is invalid on both sides of {} = {} (step {}): the "
-                                                 "derivative cannot be taken",
-                                                 names[k], number_for_message(at.values[k]), number_for_message(h)));
-            std::size_t pulse_index = 0;
-            for (const Pulser& pulser : times.pulsers)
-                for (const PulserPulse& p : pulser.pulses) {
-                    const std::size_t pair = calibration.pairs_.pair_of_pulse[pulse_index];
-                    const auto& paths = at.paths[pair];
-                    const std::size_t j = matches[pulse_index].path;
-                    const std::optional<double> t_up =
-                        above ? Calibration::same_path_time(paths, above->paths[pair], j) : std::nullopt;
-                    const std::optional<double> t_down =
-                        below ? Calibration::same_path_time(paths, below->paths[pair], j) : std::nullopt;
-                    double derivative = 0.0;
-                    if (t_up && t_down) derivative = (*t_up - *t_down) / (2.0 * h);
-                    else if (t_up) derivative = (*t_up - paths[j].time_ns) / h;
-                    else if (t_down) derivative = (paths[j].time_ns - *t_down) / h;
-                    else
-                        throw NumericalError(fmt::format(
-                            "the {} path from pulser '{}' to channel '{}' vanishes when {} moves by {}: the fit "
-                            "cannot take its derivative (is the pulser at the edge of the shadow?)",
-                            to_string(paths[j].kind), pulser.name, station.receivers[p.channel].name, names[k],
-                            number_for_message(h)));
-                    jacobian(static_cast<Eigen::Index>(pulse_index), f) = -derivative / p.sigma_ns;
-                    ++pulse_index;
-                }
-            for (std::size_t i = 0; i < log_count; ++i) {
-                const double z = -calibration.log_depth_m_[i];
-                const double n_up = above ? above->profile->index(z) : at.profile->index(z);
-                const double n_down = below ? below->profile->index(z) : at.profile->index(z);
-                const double span = (above ? h : 0.0) + (below ? h : 0.0);
-                jacobian(static_cast<Eigen::Index>(pulse_count + i), f) =
-                    -(n_up - n_down) / span / calibration.log_sigma_n_;
-            }
-        }
-        std::size_t pulse_index = 0;
-        for (std::size_t k = 0; k < pulser_count; ++k)
-            for (const PulserPulse& p : times.pulsers[k].pulses)
-                jacobian(static_cast<Eigen::Index>(pulse_index++), F + static_cast<Eigen::Index>(k)) = -1.0 / p.sigma_ns;
-        return calibration.residuals(at, offs, matches);
+// Levenberg–Marquardt with Marquardt's diagonal scaling (Nocedal & Wright, Numerical
+// Optimization, §10.3), as in model/fit.cpp. Returns the iterations taken; throws NumericalError
+// when it does not converge.
+int levenberg_marquardt(const Calibration& calibration, const ParameterSetup& setup, FitPoint& point) {
+    const CalibrationOptions& options = calibration.options_;
+    const auto F = static_cast<Eigen::Index>(setup.free.size());
+    const Eigen::Index unknowns = point.jacobian.cols();
+    // What a step is measured against: max(|θ|, 1) for a parameter, 1 ns for an offset.
+    const auto scale_of = [&](Eigen::Index u) {
+        return u < F ? std::max(std::abs(point.state.values[setup.free[static_cast<std::size_t>(u)]]), 1.0) : 1.0;
     };
-
-    // Levenberg–Marquardt with Marquardt's diagonal scaling (Nocedal & Wright, Numerical
-    // Optimization, §10.3), as in model/fit.cpp; every trial point is matched afresh.
-    std::vector<PulseMatch> matches = *calibration.match(*state, offsets);
-    Eigen::MatrixXd jacobian;
-    Eigen::VectorXd e = linearise(*state, offsets, matches, jacobian);
-    double chi2 = e.squaredNorm();
     double damping = 1e-3;
     int iteration = 0;
     bool converged = false;
-    const auto scale_of = [&](Eigen::Index u) {
-        return u < F ? std::max(std::abs(state->values[free[static_cast<std::size_t>(u)]]), 1.0) : 1.0;
-    };
-    while (iteration < options.max_iterations) {
+    while (iteration < options.max_iterations && !converged) {
         options.control.throw_if_cancelled();
         ++iteration;
-        const Eigen::MatrixXd normal = jacobian.transpose() * jacobian;
-        const Eigen::VectorXd gradient = -(jacobian.transpose() * e);
+        const Eigen::MatrixXd normal = point.jacobian.transpose() * point.jacobian;
+        const Eigen::VectorXd gradient = -(point.jacobian.transpose() * point.residuals);
         const Eigen::VectorXd newton = normal.ldlt().solve(gradient);
         double newton_size = 0.0;
         for (Eigen::Index u = 0; u < unknowns; ++u) newton_size = std::max(newton_size, std::abs(newton[u]) / scale_of(u));
         if (!std::isfinite(newton_size)) newton_size = std::numeric_limits<double>::infinity();
-        if (chi2 == 0.0 || newton_size < 1e-10) {
+        if (point.chi2 == 0.0 || newton_size < 1e-10) {
             converged = true;
             break;
         }
@@ -427,46 +452,38 @@ CalibrationResult calibrate_profile(const FirnModel& start_model, const Station&
         while (damping < 1e20) {
             Eigen::MatrixXd damped = normal;
             for (Eigen::Index u = 0; u < unknowns; ++u) damped(u, u) += damping * std::max(normal(u, u), 1e-300);
-            const Eigen::VectorXd step = damped.ldlt().solve(gradient);
-            std::vector<double> trial_values = state->values;
-            std::vector<double> trial_offsets = offsets;
-            for (Eigen::Index f = 0; f < F; ++f) trial_values[free[static_cast<std::size_t>(f)]] += step[f];
-            for (std::size_t k = 0; k < pulser_count; ++k) trial_offsets[k] += step[F + static_cast<Eigen::Index>(k)];
-            std::optional<ProfileState> trial = calibration.state_for(trial_values);
-            std::optional<std::vector<PulseMatch>> trial_matches;
-            if (trial) trial_matches = calibration.match(*trial, trial_offsets);
-            if (trial_matches) {
-                const Eigen::VectorXd trial_e = calibration.residuals(*trial, trial_offsets, *trial_matches);
-                const double trial_chi2 = trial_e.squaredNorm();
-                if (std::isfinite(trial_chi2) && trial_chi2 <= chi2) {
-                    const double gain = (chi2 - trial_chi2) / chi2;
-                    state = std::move(trial);
-                    offsets = std::move(trial_offsets);
-                    matches = std::move(*trial_matches);
-                    e = linearise(*state, offsets, matches, jacobian);
-                    chi2 = e.squaredNorm();
-                    damping = std::max(damping / 3.0, 1e-12);
-                    accepted = true;
-                    if (gain < 1e-13 && newton_size < 1e-6) converged = true;
-                    break;
-                }
+            std::optional<FitPoint> trial = trial_point(calibration, setup, point, damped.ldlt().solve(gradient));
+            if (trial && std::isfinite(trial->chi2) && trial->chi2 <= point.chi2) {
+                const double gain = (point.chi2 - trial->chi2) / point.chi2;
+                point = std::move(*trial);
+                linearise(calibration, setup, point);
+                damping = std::max(damping / 3.0, 1e-12);
+                accepted = true;
+                if (gain < 1e-13 && newton_size < 1e-6) converged = true;
+                break;
             }
             damping *= 4.0;
         }
+        // No step lowers χ²: at the minimum to rounding if the Gauss–Newton step is already small.
         if (!accepted) {
             converged = newton_size < 1e-6;
             break;
         }
-        if (converged) break;
     }
     if (!converged)
         throw NumericalError(fmt::format("the calibration did not converge in {} iterations (chi2 {}); check the "
                                          "pulser positions and times, or fix parameters (--fix)",
-                                         iteration, number_for_message(chi2)));
+                                         iteration, number_for_message(point.chi2)));
+    return iteration;
+}
 
-    // The covariance: (JᵀWJ)⁻¹ over profile parameters and offsets together; its profile block is
-    // the covariance with the offsets marginalised. Judged in correlation form, so that units do
-    // not decide what is singular.
+// (JᵀWJ)⁻¹ over parameters and offsets together; its parameter block is the covariance with the
+// offsets marginalised. Judged in correlation form, so that units do not decide what is singular;
+// a singular matrix names what dominates its undetermined direction.
+Eigen::MatrixXd full_covariance(const Calibration& calibration, const ParameterSetup& setup,
+                                const Eigen::MatrixXd& jacobian) {
+    const auto F = static_cast<Eigen::Index>(setup.free.size());
+    const Eigen::Index unknowns = jacobian.cols();
     const Eigen::MatrixXd normal = jacobian.transpose() * jacobian;
     Eigen::VectorXd scale(unknowns);
     for (Eigen::Index u = 0; u < unknowns; ++u) scale[u] = normal(u, u) > 0.0 ? 1.0 / std::sqrt(normal(u, u)) : 0.0;
@@ -477,32 +494,39 @@ CalibrationResult calibrate_profile(const FirnModel& start_model, const Station&
         Eigen::Index worst = 0;
         eigen.eigenvectors().col(0).cwiseAbs().maxCoeff(&worst);
         if (scale.minCoeff() == 0.0) (scale.array() == 0.0).maxCoeff(&worst);
-        const std::string what = worst < F ? fmt::format("parameter {}", names[free[static_cast<std::size_t>(worst)]])
-                                           : fmt::format("the emission time of pulser '{}'",
-                                                         times.pulsers[static_cast<std::size_t>(worst - F)].name);
+        const std::string what =
+            worst < F ? fmt::format("parameter {}", setup.names[setup.free[static_cast<std::size_t>(worst)]])
+                      : fmt::format("the emission time of pulser '{}'",
+                                    calibration.times_.pulsers[static_cast<std::size_t>(worst - F)].name);
         throw NumericalError(fmt::format("the times cannot determine {} (the normal matrix is singular): add pulsers "
                                          "at other depths or distances, or fix it (--fix)",
                                          what));
     }
-    const Eigen::MatrixXd full_covariance =
-        scale.asDiagonal() * correlation.ldlt().solve(Eigen::MatrixXd::Identity(unknowns, unknowns)) * scale.asDiagonal();
+    return scale.asDiagonal() * correlation.ldlt().solve(Eigen::MatrixXd::Identity(unknowns, unknowns)) *
+           scale.asDiagonal();
+}
 
+// The parameters, the covariance, the pulsers and one residual per pulse and log point.
+CalibrationResult describe_fit(const Calibration& calibration, const ParameterSetup& setup, const FitPoint& point,
+                               const Eigen::MatrixXd& covariance) {
+    const PulserTimes& times = calibration.times_;
+    const Station& station = calibration.station_;
+    const std::size_t pulse_count = point.matches.size(), log_count = calibration.log_n_.size();
+    const std::size_t free_count = setup.free.size();
+    const auto F = static_cast<Eigen::Index>(free_count);
     CalibrationResult result;
-    result.kind = kind;
     result.times_path = times.path;
-    result.log_path = log_path;
-    result.iterations = iteration;
-    result.pulse_width_ns = options.pulse_width_ns;
-    result.ndof = static_cast<int>(ndof);
-    result.chi2 = chi2;
-    result.chi2_times = e.head(static_cast<Eigen::Index>(pulse_count)).squaredNorm();
-    result.chi2_log = e.tail(static_cast<Eigen::Index>(log_count)).squaredNorm();
-    for (std::size_t k = 0, f = 0; k < names.size(); ++k) {
-        CalibratedParameter p{names[k], start_values[k], state->values[k], 0.0, fixed[k]};
-        if (!fixed[k]) {
-            p.sigma = std::sqrt(std::max(full_covariance(static_cast<Eigen::Index>(f), static_cast<Eigen::Index>(f)), 0.0));
-            result.free_names.push_back(names[k]);
-            ++f;
+    result.pulse_width_ns = calibration.options_.pulse_width_ns;
+    result.ndof = static_cast<int>(pulse_count + log_count) - static_cast<int>(free_count + times.pulsers.size());
+    result.chi2 = point.chi2;
+    result.chi2_times = point.residuals.head(static_cast<Eigen::Index>(pulse_count)).squaredNorm();
+    result.chi2_log = point.residuals.tail(static_cast<Eigen::Index>(log_count)).squaredNorm();
+    for (std::size_t k = 0, f = 0; k < setup.names.size(); ++k) {
+        CalibratedParameter p{setup.names[k], setup.start_values[k], point.state.values[k], 0.0, setup.fixed[k]};
+        if (!setup.fixed[k]) {
+            const auto u = static_cast<Eigen::Index>(f++);
+            p.sigma = std::sqrt(std::max(covariance(u, u), 0.0));
+            result.free_names.push_back(setup.names[k]);
         }
         result.parameters.push_back(p);
     }
@@ -510,23 +534,23 @@ CalibrationResult calibrate_profile(const FirnModel& start_model, const Station&
     for (Eigen::Index a = 0; a < F; ++a)
         for (Eigen::Index b = 0; b < F; ++b)  // symmetric to the last bit, as model files check it
             result.covariance[static_cast<std::size_t>(a)][static_cast<std::size_t>(b)] =
-                0.5 * (full_covariance(a, b) + full_covariance(b, a));
+                0.5 * (covariance(a, b) + covariance(b, a));
     std::size_t pulse_index = 0;
-    for (std::size_t k = 0; k < pulser_count; ++k) {
+    for (std::size_t k = 0; k < times.pulsers.size(); ++k) {
         const Pulser& pulser = times.pulsers[k];
         const auto u = F + static_cast<Eigen::Index>(k);
-        result.pulsers.push_back(
-            {pulser.name, pulser.position, offsets[k], std::sqrt(std::max(full_covariance(u, u), 0.0)), pulser.pulses.size()});
+        result.pulsers.push_back({pulser.name, pulser.position, point.offsets[k],
+                                  std::sqrt(std::max(covariance(u, u), 0.0)), pulser.pulses.size()});
         for (const PulserPulse& p : pulser.pulses) {
-            const auto& paths = state->paths[calibration.pairs_.pair_of_pulse[pulse_index]];
-            const PulseMatch& m = matches[pulse_index];
+            const auto& paths = point.state.paths[calibration.pairs_.pair_of_pulse[pulse_index]];
+            const PulseMatch& m = point.matches[pulse_index];
             const Receiver& r = station.receivers[p.channel];
             PulseResidual residual;
             residual.pulser = k;
             residual.channel = p.channel;
             residual.line = p.line;
             residual.measured_ns = p.time_ns;
-            residual.predicted_ns = paths[m.path].time_ns + offsets[k];
+            residual.predicted_ns = paths[m.path].time_ns + point.offsets[k];
             residual.residual_ns = p.time_ns - residual.predicted_ns;
             residual.sigma_ns = p.sigma_ns;
             residual.path_kind = paths[m.path].kind;
@@ -541,20 +565,56 @@ CalibrationResult calibrate_profile(const FirnModel& start_model, const Station&
         }
     }
     for (std::size_t i = 0; i < log_count; ++i) {
-        const double predicted = state->profile->index(-calibration.log_depth_m_[i]);
+        const double predicted = point.state.profile->index(-calibration.log_depth_m_[i]);
         result.log_residuals.push_back({calibration.log_depth_m_[i], calibration.log_n_[i], predicted,
                                         calibration.log_n_[i] - predicted});
     }
-    result.start_model = start_model;
-    result.fitted_model = model_with_parameters(start_model, state->values);
-    result.fitted_model.uncertainty = ModelUncertainty{ParameterCovariance{result.free_names, result.covariance},
-                                                       std::nullopt, {}};
     return result;
 }
 
-}  // namespace firnray
+}  // namespace
 
-namespace firnray {
+CalibrationResult calibrate_profile(const FirnModel& start_model, const Station& station, const PulserTimes& times,
+                                    CalibrationKind kind, const CalibrationOptions& options) {
+    check_options(options);
+    check_start_kind(start_model, kind);
+    const ParameterSetup setup = set_up_parameters(start_model, options.fixed);
+
+    Calibration calibration(start_model, station, times, options);
+    if (options.density_log) {
+        calibration.log_depth_m_ = options.density_log->data.depth_m;
+        calibration.log_n_ = options.density_log->data.index_values();
+        calibration.log_sigma_n_ = options.density_log->sigma_n;
+    }
+    const std::size_t pulse_count = times.pulse_count(), log_count = calibration.log_n_.size();
+    const std::size_t free_count = setup.free.size(), pulser_count = times.pulsers.size();
+    if (pulse_count + log_count < free_count + pulser_count)
+        throw DataInputError(fmt::format("{} pulses{} cannot determine {} free parameter{} and {} emission offsets (one "
+                                         "per pulser): add pulses or fix parameters (--fix)",
+                                         pulse_count, log_count ? fmt::format(" and {} log points", log_count) : "",
+                                         free_count, free_count == 1 ? "" : "s", pulser_count),
+                             {times.path, 0, ""});
+
+    std::optional<ProfileState> start = calibration.state_for(setup.values);
+    if (!start) throw NumericalError("the path finder failed on the start model; check the model and the pulser positions");
+    check_start_paths(calibration, *start);
+    FitPoint point;
+    point.offsets = starting_offsets(calibration, *start);
+    point.matches = *calibration.match(*start, point.offsets);
+    point.state = std::move(*start);
+    linearise(calibration, setup, point);
+    const int iterations = levenberg_marquardt(calibration, setup, point);
+
+    CalibrationResult result = describe_fit(calibration, setup, point, full_covariance(calibration, setup, point.jacobian));
+    result.kind = kind;
+    result.iterations = iterations;
+    if (options.density_log) result.log_path = options.density_log->data.path;
+    result.start_model = start_model;
+    result.fitted_model = model_with_parameters(start_model, point.state.values);
+    result.fitted_model.uncertainty =
+        ModelUncertainty{ParameterCovariance{result.free_names, result.covariance}, std::nullopt, {}};
+    return result;
+}
 
 double fitted_index_sigma(const CalibrationResult& result, double depth_m, double relative_step) {
     const IndexProfile& fitted = *result.fitted_model.index;

@@ -125,10 +125,6 @@ struct CalibrationResult {
 CalibrationResult calibrate_profile(const FirnModel& start_model, const Station& station, const PulserTimes& times,
                                     CalibrationKind kind, const CalibrationOptions& options = {});
 
-}  // namespace firnray
-
-namespace firnray {
-
 // The 1σ of the fitted profile's n at depth_m (m, positive down), propagated linearly from the
 // covariance: σ² = gᵀ C g with g = ∂n/∂θ of the free parameters by central differences (the
 // steps of CalibrationOptions::relative_step). 0 at depths no free parameter reaches.
