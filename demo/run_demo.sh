@@ -2,7 +2,8 @@
 # The firnray demo, end to end, on the built-in default model (generic polar firn, not a real
 # site) and the FICTIONAL Kestrel Station (demo/station.toml) with its calibration pulsers
 # (demo/calibration-sources.csv); then a SYNTHETIC measured-style density log of the FICTIONAL
-# Halvard Dome (models/halvard-log.toml) against its smooth exponential fit.
+# Halvard Dome (models/halvard-log.toml) against its smooth exponential fit, and a calibration of
+# the model on SYNTHETIC pulser times at the fictional station (demo/pulser-times.csv).
 # Usage: sh demo/run_demo.sh [FIRNRAY] [OUTPUT-FOLDER]
 set -eu
 firnray="${1:-build/firnray}"
@@ -12,14 +13,14 @@ models="$demo/../models"
 mkdir -p "$out"
 echo "firnray demo: writing outputs and plots to $out/"
 
-echo "  1/9 index profile"
+echo "  1/10 index profile"
 "$firnray" profile --depths 0:200:1 -o "$out/profile.csv" --plot "$out/profile.svg"
 
-echo "  2/9 ray fan from a transmitter 60 m deep"
+echo "  2/10 ray fan from a transmitter 60 m deep"
 "$firnray" trace --from 0,-60 --zenith-range 20:160:5 --max-distance 1200 --floor-depth 400 \
     -o "$out/ray-fan.csv" --plot "$out/ray-fan.svg"
 
-echo "  3/9 shadow maps for three candidate receiver depths"
+echo "  3/10 shadow maps for three candidate receiver depths"
 for depth in 40 100 200; do
   "$firnray" shadow --receiver "0,-$depth" --source-distance 0:1500 --source-depth 0:300 --quiet \
       -o "$out/shadow-${depth}m.csv" --boundary "$out/shadow-boundary-${depth}m.csv" \
@@ -28,15 +29,15 @@ done
 "$firnray" shadow --station "$demo/station.toml" --min-receivers 6 --source-distance 0:1500 --source-depth 0:300 --quiet \
     -o "$out/station-visibility.csv" --plot "$out/station-visibility.svg"
 
-echo "  4/9 receiver-depth scan"
+echo "  4/10 receiver-depth scan"
 "$firnray" depths --depths 20:200:10 --source-distance 0:1500 --source-depth 0:300 --quiet \
     -o "$out/depth-scan.csv" --plot "$out/depth-scan.svg"
 
-echo "  5/9 delays of the calibration pulsers at every channel"
+echo "  5/10 delays of the calibration pulsers at every channel"
 "$firnray" delays --station "$demo/station.toml" --sources "$demo/calibration-sources.csv" \
     --reference A1 --derivatives --quiet -o "$out/calibration-delays.csv"
 
-echo "  6/9 a measured-style density log (synthetic) against its smooth exponential fit"
+echo "  6/10 a measured-style density log (synthetic) against its smooth exponential fit"
 # The log is taken as it is: its inversions and ducts are listed in the profile's # lines, and the
 # loader warns about the ice lens on stderr. Every step must succeed: a failure stops the demo
 # with a message, never a summary made of missing numbers.
@@ -61,15 +62,23 @@ done
 # demo/locate-events.csv holds arrival times of the calibration pulsers made by the path finder
 # with 0.5 ns of noise (fixed seed). The far pulser is seen by only 3 channels: its events are
 # reported as errors, which makes locate exit with 7 (some events failed); that is expected here.
-echo "  7/9 locate: the calibration pulsers from their noisy arrival times, and a resolution map"
+echo "  7/10 locate: the calibration pulsers from their noisy arrival times, and a resolution map"
 "$firnray" locate --station "$demo/station.toml" --arrivals "$demo/locate-events.csv" --format csv --quiet \
     -o "$out/locate.csv" 2> "$out/locate.log" || [ $? -eq 7 ]
 "$firnray" resolution --station "$demo/station.toml" --source-distance 0:1500 --source-depth 0:300 \
     --distance-cells 100 --depth-cells 40 --timing-sigma-ns 0.5 --quiet \
     -o "$out/resolution.csv" --plot "$out/resolution.svg"
 
+# ---- Calibrating the model on pulser times (docs/calibrate.md) ----------------------------------
+# demo/pulser-times.csv: SYNTHETIC times at the fictional station, made by the path finder from an
+# exponential profile a little off the built-in model (n_surface 1.365, n_deep 1.775, scale depth
+# 40 m) with 0.5 ns of noise and a fixed seed (bench/make_demo_pulser_times.cpp).
+echo "  8/10 calibrate: the model fitted to the pulser times (synthetic)"
+"$firnray" calibrate --station "$demo/station.toml" --times "$demo/pulser-times.csv" --fit exponential --quiet \
+    --format json -o "$out/calibration.json" --write-model "$out/calibrated-model.toml" --plot "$out/calibration.svg"
+
 # --- Phased-array trigger beams (issue 12): the fictional string PA of demo/station.toml ------------
-echo "  8/9 beams of the phased-array string PA: delays, coverage map and depth scan"
+echo "  9/10 beams of the phased-array string PA: delays, coverage map and depth scan"
 "$firnray" beams --station "$demo/station.toml" --string PA --beam-count 8 --zenith-range 60:120 \
     --sample-rate-ghz 1.5 --format json -o "$out/beams.json" --plot "$out/beams-array-factor.svg"
 "$firnray" beams --station "$demo/station.toml" --string PA --beam-count 8 --zenith-range 60:120 \
@@ -80,7 +89,7 @@ echo "  8/9 beams of the phased-array string PA: delays, coverage map and depth 
     --scan depth --scan-values 40:200:20 --quiet -o /dev/null \
     --scan-output "$out/beams-depth-scan.csv" --scan-plot "$out/beams-depth-scan.svg"
 
-echo "  9/9 summary"
+echo "  10/10 summary"
 {
   echo "# What the demo shows (fictional Kestrel Station, generic polar firn model)"
   echo
@@ -135,6 +144,17 @@ echo "  9/9 summary"
   awk -F, 'NR > 1 && $25 == "" { printf "- %s: x %.1f, y %.1f, z %.1f m (1 sigma %.1f, %.1f, %.1f m), chi2 %.1f / %d\n", $1, $3, $4, $5, sqrt($17), sqrt($20), sqrt($22), $7, $8 }
            NR > 1 && $25 != "" { printf "- %s: not fitted (%s)\n", $1, ($25 ~ /at least 4/ ? "fewer than 4 pulses" : "see locate.csv") }' "$out/locate.csv"
   echo "  Resolution map of the station (Cramer-Rao bound, 0.5 ns timing): resolution.svg."
+  echo
+  echo "## Calibrating the model on pulser times (synthetic times made from n_surface 1.365, n_deep 1.775, scale depth 40 m)"
+  awk -F'[:,]' '/^    "[a-z_]+": [{]/ { name = $1; gsub(/[ "]/, "", name) }
+                /^      "value"/ { value[name] = $2 } /^      "sigma"/ { sigma[name] = $2 }
+                /^      "start"/ { start[name] = $2; order[++count] = name }
+                /^  "chi2"/ { chi2 = $2 } /^  "ndof"/ { ndof = $2 } /^  "unresolved_pulses"/ { unresolved = $2 }
+                END { for (i = 1; i <= count; i++) { k = order[i]
+                        printf "- %s: %g (built-in) -> %.5g +- %.2g\n", k, start[k], value[k], sigma[k] }
+                      printf "- chi2 %.1f for %d degrees of freedom; %d pulses unresolved (two paths within the pulse width: matched to the earlier)\n", chi2, ndof, unresolved }' \
+      "$out/calibration.json"
+  echo "  The calibrated model with its covariance: calibrated-model.toml; residuals and the profile's 1-sigma band: calibration.svg."
 } > "$out/summary.md"
 {
   echo

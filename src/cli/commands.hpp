@@ -27,6 +27,8 @@ void add_depths_command(CLI::App& app, CommandSlot& slot);
 void add_delays_command(CLI::App& app, CommandSlot& slot);
 // firnray locate: source positions and their covariance from measured arrival times.
 void add_locate_command(CLI::App& app, CommandSlot& slot);
+// firnray calibrate: the index profile fitted to measured pulser arrival times.
+void add_calibrate_command(CLI::App& app, CommandSlot& slot);
 // firnray resolution: Cramér–Rao resolution maps of a station.
 void add_resolution_command(CLI::App& app, CommandSlot& slot);
 // firnray beams: trigger beams of a phased array: delays, array factor, coverage map, design scan.

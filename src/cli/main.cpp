@@ -83,6 +83,7 @@ int main(int argc, char** argv) {
     add_depths_command(app, slot);
     add_delays_command(app, slot);
     add_locate_command(app, slot);
+    add_calibrate_command(app, slot);
     add_resolution_command(app, slot);
     add_beams_command(app, slot);
 

@@ -14,6 +14,7 @@
 #include "core/text.hpp"
 #include "model/density.hpp"
 #include "model/fit_data.hpp"
+#include "model/uncertainty_section.hpp"
 #include "output/profile_output.hpp"
 #include "model/profile_samples.hpp"
 
@@ -86,6 +87,27 @@ FitColumns fit_columns(const ProfileOptions& o) {
     return columns;
 }
 
+// The fit's covariance as a model file's [uncertainty]: the fitted parameters in the order of
+// profile_parameter_names (n_deep left out when held fixed). ExponentialFit orders its matrix
+// (n_deep, n_surface, scale_depth_m).
+ModelUncertainty fit_uncertainty(const ExponentialFit& fit) {
+    const std::pair<const char*, int> order[] = {{"n_surface", 1}, {"n_deep", 0}, {"scale_depth_m", 2}};
+    std::vector<int> rows;
+    ParameterCovariance covariance;
+    for (const auto& [name, row] : order) {
+        if (fit.n_deep_fixed && row == 0) continue;
+        covariance.names.push_back(name);
+        rows.push_back(row);
+    }
+    for (int a : rows) {
+        covariance.matrix.emplace_back();
+        for (int b : rows) covariance.matrix.back().push_back(0.5 * (fit.covariance(a, b) + fit.covariance(b, a)));
+    }
+    ModelUncertainty uncertainty;
+    uncertainty.parameters = std::move(covariance);
+    return uncertainty;
+}
+
 int fit_data(const ProfileOptions& o) {
     OutputSet outputs;
     outputs.declare("--write-model", o.write_model_path, OutputFormat::toml);
@@ -102,6 +124,10 @@ int fit_data(const ProfileOptions& o) {
     });
     outputs.set_writer(o.write_model_path, [&](std::ostream& out) {
         write_fitted_model_toml(out, data, fit, o.model_name, o.write_model_path);
+        // [uncertainty] is the last table of a model file (model_to_toml puts it there too).
+        TomlWriter section;
+        write_uncertainty_section(fit_uncertainty(fit), section);
+        out << section.text();
     });
     outputs.set_writer(o.plot_path, [&](std::ostream& out) { write_fit_svg(out, data, fit); });
     outputs.write_all();
