@@ -1,7 +1,8 @@
 // Source reconstruction from measured arrival times (docs/locate.md): the source position and
 // emission time that minimise the χ² of the arrival times, over every assignment of the
 // unlabelled pulses to the paths the model predicts; a coarse search over positions the station
-// sees, then Levenberg–Marquardt with the analytic ∂T/∂source of compute_delays; the covariance
+// sees, then Levenberg–Marquardt with the analytic ∂T/∂source (on interpolated travel-time tables,
+// locate/travel_time_table.hpp, finished with exact paths where they are cheap); the covariance
 // (Jᵀ W J)⁻¹ at the minimum and the other minima that fit almost as well.
 #pragma once
 
@@ -14,6 +15,7 @@
 #include "core/cancel.hpp"
 #include "locate/arrival_events.hpp"
 #include "locate/source_view.hpp"
+#include "locate/travel_time_table.hpp"
 #include "paths/find_paths.hpp"
 #include "station/station.hpp"
 
@@ -42,6 +44,12 @@ struct LocateOptions {
     int max_iterations = 60;               // Levenberg–Marquardt steps per candidate
     int threads = 1;                       // for building the search table
     RunControl control;
+    // How the refinement predicts arrival times at its trial positions (docs/locate.md):
+    // interpolated: from TravelTimeTable (built once per locator), then, on a closed-form solver,
+    //   a final Levenberg–Marquardt with find_paths from the table's minimum;
+    // exact: find_paths at every trial position (the slow reference).
+    enum class TravelTimes { interpolated, exact } travel_times = TravelTimes::interpolated;
+    TravelTimeTableOptions table;  // its paths, threads and control are those above
 };
 
 // A measured pulse with the path the fit assigned to it.
@@ -102,6 +110,8 @@ private:
     LocateOptions options_;
     Point centre_;
     std::unique_ptr<SearchTable> table_;
+    std::unique_ptr<TravelTimeTable> travel_times_;  // null with TravelTimes::exact
+    bool polish_exactly_ = false;                    // find_paths is cheap: finish every fit with it
 };
 
 // Every event, in order, on `threads` threads (the results do not depend on the thread count).
