@@ -285,11 +285,19 @@ SourceLocator::SourceLocator(const RaySolver& solver, const Station& station, Lo
     // search table and the end of every fit use find_paths; on the other solvers (milliseconds
     // per pair) the travel-time table answers wherever it can.
     polish_exactly_ = solver_.name() == "closed";
-    if (options_.travel_times == LocateOptions::TravelTimes::interpolated) {
+    const bool interpolate =
+        options_.travel_times == LocateOptions::TravelTimes::interpolated ||
+        (options_.travel_times == LocateOptions::TravelTimes::automatic &&
+         (!polish_exactly_ || options_.expected_events == 0 || options_.expected_events >= interpolation_pays_events));
+    if (interpolate) {
         TravelTimeTableOptions table = options_.table;
         table.paths = options_.paths;
         table.threads = options_.threads;
         table.control = options_.control;
+        // The table covers the search region, seen from the farthest receiver.
+        double spread = 0.0;
+        for (const Receiver& r : station_.receivers) spread = std::max(spread, std::hypot(r.x_m - centre_.x, r.y_m - centre_.y));
+        table.max_distance_m = std::max(table.max_distance_m, grid.max_distance_m + spread + 100.0);
         for (double d : grid.depths_m) table.deepest_m = std::max(table.deepest_m, d);
         travel_times_ = std::make_unique<TravelTimeTable>(solver_, station_.receivers, table);
     }

@@ -34,6 +34,10 @@ struct LocateSearchGrid {
     void validate() const;  // DataInputError naming the bad field
 };
 
+// On the closed form a fit costs about 1 ms less on the travel-time table than with find_paths,
+// and the table takes about 3 s to build: below this many events it does not pay.
+inline constexpr std::size_t interpolation_pays_events = 3000;
+
 struct LocateOptions {
     PathOptions paths;
     LocateSearchGrid search;
@@ -45,11 +49,14 @@ struct LocateOptions {
     int threads = 1;                       // for building the search table
     RunControl control;
     // How the refinement predicts arrival times at its trial positions (docs/locate.md):
-    // interpolated: from TravelTimeTable (built once per locator), then, on a closed-form solver,
-    //   a final Levenberg–Marquardt with find_paths from the table's minimum;
-    // exact: find_paths at every trial position (the slow reference).
-    enum class TravelTimes { interpolated, exact } travel_times = TravelTimes::interpolated;
-    TravelTimeTableOptions table;  // its paths, threads and control are those above
+    // interpolated: from a TravelTimeTable built once per locator (a few seconds), then, on a
+    //   closed-form solver, a final Levenberg–Marquardt with find_paths from the table's minimum;
+    // exact: find_paths at every trial position;
+    // automatic: interpolated, except on a closed-form solver for fewer than
+    //   interpolation_pays_events expected events, where building the table costs more than it saves.
+    enum class TravelTimes { automatic, interpolated, exact } travel_times = TravelTimes::automatic;
+    std::size_t expected_events = 0;  // events the caller will fit (0: unknown, many)
+    TravelTimeTableOptions table;     // its paths, threads and control are those above
 };
 
 // A measured pulse with the path the fit assigned to it.
@@ -110,7 +117,7 @@ private:
     LocateOptions options_;
     Point centre_;
     std::unique_ptr<SearchTable> table_;
-    std::unique_ptr<TravelTimeTable> travel_times_;  // null with TravelTimes::exact
+    std::unique_ptr<TravelTimeTable> travel_times_;  // null: find_paths at every trial position
     bool polish_exactly_ = false;                    // find_paths is cheap: finish every fit with it
 };
 
