@@ -41,6 +41,9 @@ constexpr double unmatched_pulse_chi2 = 25.0;
 // A candidate of the coarse search whose χ² is within this factor of the best one's is refined
 // even when the best fit is good: it may be another minimum to report.
 constexpr double rival_chi2_factor = 2.0;
+// How far above the reporting margin a fit on the travel-time table may be and still be finished
+// exactly: the table moves χ² by far less than this (its times agree with find_paths to 0.01 ns).
+constexpr double polish_chi2_slack = 1.0;
 
 bool acceptable_fit(double chi2, int ndof) {
     return chi2 <= ndof + 5.0 * std::sqrt(2.0 * std::max(ndof, 1)) + 10.0;
@@ -145,23 +148,25 @@ void assign_pulses(const PreparedEvent& event, TimesOf&& times_of, Assignment& a
                 }
             }
             // Every order-keeping match: path −1 is "unmatched"; a later pulse takes a later path.
+            // A pulse stays unmatched only when its channel has fewer paths than pulses, so the
+            // matches are: one pulse, any path; two pulses, any two paths in order, or with a
+            // single path, either pulse on it. Ties keep the first match in this order.
             int best_first = -1, best_second = -1;
             double best_cost = infinite_chi2;
-            // A pulse stays unmatched only when its channel has fewer paths than pulses.
-            const int must_match = std::min(count, paths);
-            for (int i = -1; i < paths; ++i) {
-                if (count == 1) {
-                    if ((i >= 0) != (must_match == 1)) continue;
-                    const double c = cost[i + 1];
-                    if (c < best_cost) best_cost = c, best_first = i;
-                    continue;
-                }
-                for (int j = -1; j < paths; ++j) {
-                    if (i >= 0 && j >= 0 && j <= i) continue;
-                    if ((i >= 0) + (j >= 0) != must_match) continue;
-                    const double c = cost[i + 1] + cost[width + static_cast<std::size_t>(j + 1)];
-                    if (c < best_cost) best_cost = c, best_first = i, best_second = j;
-                }
+            const double* second_row = cost + width;
+            if (count == 1) {
+                if (paths == 0) best_cost = cost[0];
+                for (int i = 0; i < paths; ++i)
+                    if (cost[i + 1] < best_cost) best_cost = cost[i + 1], best_first = i;
+            } else if (paths >= 2) {
+                for (int i = 0; i < paths; ++i)
+                    for (int j = i + 1; j < paths; ++j) {
+                        const double c = cost[i + 1] + second_row[j + 1];
+                        if (c < best_cost) best_cost = c, best_first = i, best_second = j;
+                    }
+            } else if (paths == 1) {
+                best_cost = cost[0] + second_row[1], best_second = 0;
+                if (cost[1] + second_row[0] < best_cost) best_cost = cost[1] + second_row[0], best_first = 0, best_second = -1;
             }
             const auto first = static_cast<std::size_t>(group[0]);
             changed |= a.path_of_pulse[first] != best_first;
@@ -455,6 +460,36 @@ Refined refine(const Predictor& predictor, const LocateOptions& options, const P
     return out;
 }
 
+// The end of a fit made on the travel-time table where find_paths is cheap: the exact paths at
+// the table's minimum and one Gauss–Newton step from there with their gradients, the times
+// carried along the step to first order. The table's minimum is within a small fraction of σ
+// of the exact one (millimetres), so what the step leaves out is second order in it: far below
+// the printed digits. Saves the second path search that another Levenberg–Marquardt step costs.
+Refined finish_exactly(const Predictor& exact, const PreparedEvent& event, const Point& start) {
+    Refined out;
+    if (!evaluate(exact, event, start, out.at)) return out;
+    out.valid = true;
+    out.iterations = 1;
+    Matrix4 a;
+    Vector4 b;
+    normal_equations(event, out.at, a, b);
+    const Vector4 step = a.ldlt().solve(b);
+    if (!step.allFinite() || step.dot(b) < converged_chi2_decrease) return out;
+    Evaluation moved = out.at;
+    moved.position = {start.x + step(0), start.y + step(1), start.z + step(2)};
+    for (std::size_t g = 0; g < moved.times_ns.size(); ++g)
+        for (std::size_t k = 0; k < moved.times_ns[g].size(); ++k) {
+            const auto& gradient = moved.gradients[g][k];
+            moved.times_ns[g][k] += (gradient.dx * step(0) + gradient.dy * step(1) + gradient.dz * step(2)) * 1e9;
+        }
+    assign_pulses(event, [&](std::size_t g) -> const std::vector<double>& { return moved.times_ns[g]; }, moved.assignment);
+    // A step that would change the assignment or raise χ² is no longer small: keep the exact point.
+    if (moved.assignment.valid && moved.assignment.chi2 <= out.at.assignment.chi2 &&
+        moved.assignment.path_of_pulse == out.at.assignment.path_of_pulse)
+        out.at = std::move(moved);
+    return out;
+}
+
 // The fit's report at a minimum; false when the pulses do not fix the position there (the
 // normal matrix is singular).
 bool describe_fit(const ArrivalEvent& event, const PreparedEvent& prepared, const Refined& r, const Point& centre,
@@ -519,17 +554,15 @@ EventFit SourceLocator::fit(const ArrivalEvent& event) const {
     for (std::size_t c : prepared.channels) event_receivers.push_back(station_.receivers[c]);
     const Predictor exact{solver_, nullptr, prepared.channels, event_receivers, options_.paths};
     const Predictor interpolated{solver_, travel_times_.get(), prepared.channels, event_receivers, options_.paths};
-    // On the table, then (where find_paths is cheap: the closed form) a few exact steps from the
-    // table's minimum, so that the answer is the exact fit's; elsewhere the table's minimum is the
-    // answer (docs/locate.md, "Refinement").
-    const auto refine_candidate = [&](const Predictor& table, const Predictor& exact_paths, const PreparedEvent& p,
-                                      const Point& start) {
-        if (!table.table) return refine(exact_paths, options_, p, centre_, start);
-        Refined r = refine(table, options_, p, centre_, start);
-        if (!polish_exactly_) return r.valid ? r : refine(exact_paths, options_, p, centre_, start);
-        Refined polished = refine(exact_paths, options_, p, centre_, r.valid ? r.at.position : start);
-        polished.iterations += r.iterations;
-        return polished;
+    // Each candidate is refined on the table (find_paths where the table does not answer); where
+    // find_paths is cheap (the closed form) the fits that can be reported are then finished
+    // with a few exact steps from the table's minimum, so that the answer is the exact fit's;
+    // elsewhere the table's minimum is the answer (docs/locate.md, "Refinement").
+    const bool on_table = travel_times_ != nullptr;
+    const auto refine_candidate = [&](const Point& start) {
+        if (!on_table) return refine(exact, options_, prepared, centre_, start);
+        Refined r = refine(interpolated, options_, prepared, centre_, start);
+        return r.valid ? r : refine(exact, options_, prepared, centre_, start);
     };
 
     // Coarse search, coarse to fine: χ² (with the best assignment there) first on every
@@ -625,7 +658,7 @@ EventFit SourceLocator::fit(const ArrivalEvent& event) const {
         // the first one's (a competing basin: a mirror position, another assignment).
         const bool rival = chi2[minima[i]] <= rival_chi2_factor * chi2[minima.front()] + options_.alternative_chi2_margin;
         if (i > 0 && good_enough && !rival) continue;
-        const Refined r = refine_candidate(interpolated, exact, prepared, t.positions[minima[i]]);
+        const Refined r = refine_candidate(t.positions[minima[i]]);
         if (!r.valid) continue;
         SourceFit fit;
         if (!describe_fit(event, prepared, r, centre_, fit)) {
@@ -652,6 +685,25 @@ EventFit SourceLocator::fit(const ArrivalEvent& event) const {
         return result;
     }
     std::sort(fits.begin(), fits.end(), [](const SourceFit& x, const SourceFit& y) { return x.chi2 < y.chi2; });
+    if (on_table && polish_exactly_) {
+        // Only fits that can be reported are finished: the table's χ² is within far less than
+        // polish_chi2_slack of the exact one, so the others stay beyond the margin.
+        const double reportable = fits.front().chi2 + options_.alternative_chi2_margin + polish_chi2_slack;
+        std::vector<SourceFit> polished;
+        for (SourceFit& fit : fits) {
+            if (fit.chi2 > reportable) break;
+            const Refined r = finish_exactly(exact, prepared, fit.position);
+            SourceFit exact_fit;
+            if (r.valid && describe_fit(event, prepared, r, centre_, exact_fit)) {
+                exact_fit.iterations += fit.iterations;
+                polished.push_back(std::move(exact_fit));
+            } else {
+                polished.push_back(std::move(fit));  // keep the table's answer, good to 0.01 ns
+            }
+        }
+        fits = std::move(polished);
+        std::sort(fits.begin(), fits.end(), [](const SourceFit& x, const SourceFit& y) { return x.chi2 < y.chi2; });
+    }
     result.best = std::move(fits.front());
     for (std::size_t i = 1; i < fits.size(); ++i)
         if (fits[i].chi2 - result.best->chi2 <= options_.alternative_chi2_margin) result.alternatives.push_back(std::move(fits[i]));
