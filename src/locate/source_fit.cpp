@@ -556,8 +556,8 @@ EventFit SourceLocator::fit(const ArrivalEvent& event) const {
     const Predictor interpolated{solver_, travel_times_.get(), prepared.channels, event_receivers, options_.paths};
     // Each candidate is refined on the table (find_paths where the table does not answer); where
     // find_paths is cheap (the closed form) the fits that can be reported are then finished
-    // with a few exact steps from the table's minimum, so that the answer is the exact fit's;
-    // elsewhere the table's minimum is the answer (docs/locate.md, "Refinement").
+    // with one exact evaluation and Gauss–Newton step from the table's minimum (the exact fit's answer);
+    // elsewhere the table's minimum is the answer (docs/locate.md, "The end of a fit").
     const bool on_table = travel_times_ != nullptr;
     const auto refine_candidate = [&](const Point& start) {
         if (!on_table) return refine(exact, options_, prepared, centre_, start);

@@ -1,9 +1,9 @@
-// Interpolated travel times for the source fit (docs/locate.md, "Refinement"): per distinct
-// receiver depth of a station, the arrivals of the map tables (station/map_tables.hpp) on a grid
-// of horizontal distances × source depths, dense near the receiver, interpolated by cubic Hermite
-// polynomials whose slopes are the slownesses of Fermat's principle, ∂T/∂r = ξ/c across and
-// ∂T/∂z = ∓√(n² − ξ²)/c down. A trial position of the Levenberg–Marquardt refinement then costs
-// about a microsecond per channel instead of a path search.
+// Interpolated travel times for the source fit (docs/locate.md, "Travel times at the trial
+// positions"): per distinct receiver depth of a station, the arrivals of the map tables
+// (station/map_tables.hpp) on a grid of horizontal distances × source depths, dense near the
+// receiver, interpolated by cubic Hermite polynomials whose slopes are the slownesses of Fermat's
+// principle, ∂T/∂r = ξ/c across and ∂T/∂z = ∓√(n² − ξ²)/c down. A trial position of the
+// Levenberg–Marquardt refinement then costs about a microsecond per channel, not a path search.
 #pragma once
 
 #include <cstddef>
