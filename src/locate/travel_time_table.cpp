@@ -156,7 +156,8 @@ TravelTimeTable::TravelTimeTable(const RaySolver& solver, std::span<const Receiv
         ladder->first.resize(level_count);
         ladder->arrivals.resize(level_count);
         try {
-            for (const auto& [begin, end] : {std::pair{std::size_t{0}, split}, std::pair{split, level_count}}) {
+            for (const auto& part : {std::pair{std::size_t{0}, split}, std::pair{split, level_count}}) {
+                const std::size_t begin = part.first, end = part.second;  // named, so that the lambda may capture them
                 if (begin == end) continue;
                 const MapTables tables(solver, receiver,
                                        std::vector<double>(ladder->levels.begin() + static_cast<std::ptrdiff_t>(begin),
