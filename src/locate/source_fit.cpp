@@ -13,6 +13,7 @@
 #include "core/errors.hpp"
 #include "core/parallel.hpp"
 #include "core/text.hpp"
+#include "solver/stratified_intervals.hpp"
 #include "station/delay_table.hpp"
 
 namespace firnray {
@@ -290,9 +291,13 @@ SourceLocator::SourceLocator(const RaySolver& solver, const Station& station, Lo
     // search table and the end of every fit use find_paths; on the other solvers (milliseconds
     // per pair) the travel-time table answers wherever it can.
     polish_exactly_ = solver_.name() == "closed";
+    // On a profile whose index falls with depth somewhere (a duct) the map tables are the
+    // stratified ones with every duct's families, whose build over the table's grid was not
+    // measured to pay (minutes on models/halvard-log.toml): automatic keeps find_paths there.
+    const bool ducts = !polish_exactly_ && !make_stratified_profile(solver_.model())->inversions().empty();
     const bool interpolate =
         options_.travel_times == LocateOptions::TravelTimes::interpolated ||
-        (options_.travel_times == LocateOptions::TravelTimes::automatic &&
+        (options_.travel_times == LocateOptions::TravelTimes::automatic && !ducts &&
          (!polish_exactly_ || options_.expected_events == 0 || options_.expected_events >= interpolation_pays_events));
     if (interpolate) {
         TravelTimeTableOptions table = options_.table;

@@ -53,7 +53,8 @@ struct LocateOptions {
     //   closed-form solver, a final Levenberg–Marquardt with find_paths from the table's minimum;
     // exact: find_paths at every trial position;
     // automatic: interpolated, except on a closed-form solver for fewer than
-    //   interpolation_pays_events expected events, where building the table costs more than it saves.
+    //   interpolation_pays_events expected events, where building the table costs more than it
+    //   saves, and on a profile whose index falls with depth somewhere (ducts: a slow table).
     enum class TravelTimes { automatic, interpolated, exact } travel_times = TravelTimes::automatic;
     std::size_t expected_events = 0;  // events the caller will fit (0: unknown, many)
     TravelTimeTableOptions table;     // its paths, threads and control are those above
