@@ -13,6 +13,7 @@
 #include "core/errors.hpp"
 #include "core/parallel.hpp"
 #include "core/text.hpp"
+#include "solver/stratified_intervals.hpp"
 #include "station/delay_table.hpp"
 
 namespace firnray {
@@ -41,6 +42,9 @@ constexpr double unmatched_pulse_chi2 = 25.0;
 // A candidate of the coarse search whose χ² is within this factor of the best one's is refined
 // even when the best fit is good: it may be another minimum to report.
 constexpr double rival_chi2_factor = 2.0;
+// How far above the reporting margin a fit on the travel-time table may be and still be finished
+// exactly: the table moves χ² by far less than this (its times agree with find_paths to 0.01 ns).
+constexpr double polish_chi2_slack = 1.0;
 
 bool acceptable_fit(double chi2, int ndof) {
     return chi2 <= ndof + 5.0 * std::sqrt(2.0 * std::max(ndof, 1)) + 10.0;
@@ -145,23 +149,25 @@ void assign_pulses(const PreparedEvent& event, TimesOf&& times_of, Assignment& a
                 }
             }
             // Every order-keeping match: path −1 is "unmatched"; a later pulse takes a later path.
+            // A pulse stays unmatched only when its channel has fewer paths than pulses, so the
+            // matches are: one pulse, any path; two pulses, any two paths in order, or with a
+            // single path, either pulse on it. Ties keep the first match in this order.
             int best_first = -1, best_second = -1;
             double best_cost = infinite_chi2;
-            // A pulse stays unmatched only when its channel has fewer paths than pulses.
-            const int must_match = std::min(count, paths);
-            for (int i = -1; i < paths; ++i) {
-                if (count == 1) {
-                    if ((i >= 0) != (must_match == 1)) continue;
-                    const double c = cost[i + 1];
-                    if (c < best_cost) best_cost = c, best_first = i;
-                    continue;
-                }
-                for (int j = -1; j < paths; ++j) {
-                    if (i >= 0 && j >= 0 && j <= i) continue;
-                    if ((i >= 0) + (j >= 0) != must_match) continue;
-                    const double c = cost[i + 1] + cost[width + static_cast<std::size_t>(j + 1)];
-                    if (c < best_cost) best_cost = c, best_first = i, best_second = j;
-                }
+            const double* second_row = cost + width;
+            if (count == 1) {
+                if (paths == 0) best_cost = cost[0];
+                for (int i = 0; i < paths; ++i)
+                    if (cost[i + 1] < best_cost) best_cost = cost[i + 1], best_first = i;
+            } else if (paths >= 2) {
+                for (int i = 0; i < paths; ++i)
+                    for (int j = i + 1; j < paths; ++j) {
+                        const double c = cost[i + 1] + second_row[j + 1];
+                        if (c < best_cost) best_cost = c, best_first = i, best_second = j;
+                    }
+            } else if (paths == 1) {
+                best_cost = cost[0] + second_row[1], best_second = 0;
+                if (cost[1] + second_row[0] < best_cost) best_cost = cost[1] + second_row[0], best_first = 0, best_second = -1;
             }
             const auto first = static_cast<std::size_t>(group[0]);
             changed |= a.path_of_pulse[first] != best_first;
@@ -198,8 +204,20 @@ void assign_pulses(const PreparedEvent& event, TimesOf&& times_of, Assignment& a
 struct Evaluation {
     Point position;
     Assignment assignment;
-    std::vector<ReceiverArrivals> arrivals;       // per event channel
-    std::vector<std::vector<double>> times_ns;    // per event channel, ascending
+    // Per event channel, per path in time order: its time, ∂T/∂source and kind.
+    std::vector<std::vector<double>> times_ns;
+    std::vector<std::vector<ReceiverArrivals::Gradient>> gradients;
+    std::vector<std::vector<PathKind>> kinds;
+};
+
+// What a trial position costs: the event's channels, and the table that answers for them where
+// it can (null: find_paths everywhere).
+struct Predictor {
+    const RaySolver& solver;
+    const TravelTimeTable* table;
+    const std::vector<std::size_t>& channels;       // station indices of the event's channels
+    const std::vector<Receiver>& event_receivers;   // the same receivers
+    const PathOptions& paths;
 };
 
 using Matrix4 = Eigen::Matrix4d;
@@ -269,24 +287,57 @@ SourceLocator::SourceLocator(const RaySolver& solver, const Station& station, Lo
                                                  levels_z[static_cast<std::size_t>(l)]};
         }
     }
+    // The closed form finds the paths of a pair in about 10 µs, as fast as the table: there the
+    // search table and the end of every fit use find_paths; on the other solvers (milliseconds
+    // per pair) the travel-time table answers wherever it can.
+    polish_exactly_ = solver_.name() == "closed";
+    // On a profile whose index falls with depth somewhere (a duct) the map tables are the
+    // stratified ones with every duct's families, whose build over the table's grid was not
+    // measured to pay (minutes on models/halvard-log.toml): automatic keeps find_paths there.
+    const bool ducts = !polish_exactly_ && !make_stratified_profile(solver_.model())->inversions().empty();
+    const bool interpolate =
+        options_.travel_times == LocateOptions::TravelTimes::interpolated ||
+        (options_.travel_times == LocateOptions::TravelTimes::automatic && !ducts &&
+         (!polish_exactly_ || options_.expected_events == 0 || options_.expected_events >= interpolation_pays_events));
+    if (interpolate) {
+        TravelTimeTableOptions table = options_.table;
+        table.paths = options_.paths;
+        table.threads = options_.threads;
+        table.control = options_.control;
+        // The table covers the search region, seen from the farthest receiver.
+        double spread = 0.0;
+        for (const Receiver& r : station_.receivers) spread = std::max(spread, std::hypot(r.x_m - centre_.x, r.y_m - centre_.y));
+        table.max_distance_m = std::max(table.max_distance_m, grid.max_distance_m + spread + 100.0);
+        for (double d : grid.depths_m) table.deepest_m = std::max(table.deepest_m, d);
+        travel_times_ = std::make_unique<TravelTimeTable>(solver_, station_.receivers, table);
+    }
+    const TravelTimeTable* search_source = polish_exactly_ ? nullptr : travel_times_.get();
+
     const std::size_t receivers = station_.receivers.size();
     t.times_ns.assign(t.positions.size() * receivers * search_paths_per_receiver, std::numeric_limits<double>::quiet_NaN());
     t.path_counts.assign(t.positions.size() * receivers, 0);
     parallel_for(t.positions.size(), options_.threads, options_.control, [&](std::size_t p) {
+        std::vector<TabulatedPath> tabulated;
+        std::vector<double> times;
         for (std::size_t c = 0; c < receivers; ++c) {
             const Receiver& r = station_.receivers[c];
-            std::vector<ConnectedPath> paths;
-            try {
-                paths = find_paths(solver_, t.positions[p], Point{r.x_m, r.y_m, r.z_m}, options_.paths);
-            } catch (const InputError&) {
-                continue;  // a search position at a receiver: that receiver predicts nothing there
-            } catch (const NumericalError&) {
-                continue;
+            times.clear();
+            if (search_source && search_source->paths(c, t.positions[p], tabulated)) {
+                for (const TabulatedPath& path : tabulated) times.push_back(path.time_s * 1e9);
+            } else {
+                try {
+                    for (const ConnectedPath& path :
+                         find_paths(solver_, t.positions[p], Point{r.x_m, r.y_m, r.z_m}, options_.paths))
+                        times.push_back(path.time_s * 1e9);
+                } catch (const InputError&) {
+                    continue;  // a search position at a receiver: that receiver predicts nothing there
+                } catch (const NumericalError&) {
+                    continue;
+                }
             }
-            const std::size_t kept = std::min<std::size_t>(paths.size(), search_paths_per_receiver);
+            const std::size_t kept = std::min<std::size_t>(times.size(), search_paths_per_receiver);
             t.path_counts[p * receivers + c] = static_cast<unsigned char>(kept);
-            for (std::size_t k = 0; k < kept; ++k)
-                t.times_ns[(p * receivers + c) * search_paths_per_receiver + k] = paths[k].time_s * 1e9;
+            for (std::size_t k = 0; k < kept; ++k) t.times_ns[(p * receivers + c) * search_paths_per_receiver + k] = times[k];
         }
     });
 }
@@ -298,28 +349,47 @@ std::size_t SourceLocator::search_positions() const { return table_->positions.s
 namespace {
 
 // Trial positions where the model cannot answer (below the bottom, at a receiver, a channel in
-// the shadow with a pulse to explain) are not candidates: their χ² is infinite.
-bool evaluate(const RaySolver& solver, const std::vector<Receiver>& event_receivers, const PathOptions& paths,
-              const PreparedEvent& event, const Point& position, Evaluation& out) {
+// the shadow with a pulse to explain) are not candidates: their χ² is infinite. A channel whose
+// paths cannot be found there (the source at the receiver) has none, as in compute_delays.
+bool evaluate(const Predictor& predictor, const PreparedEvent& event, const Point& position, Evaluation& out) {
     out.position = position;
     out.assignment = Assignment{};
-    DelaySource source;
-    source.position = position;
-    DelayOptions options;
-    options.paths = paths;
-    std::vector<SourceDelays> delays;
-    try {
-        delays = compute_delays(solver, event_receivers, {source}, options);
-    } catch (const InputError&) {
-        return false;
-    } catch (const NumericalError&) {
-        return false;
-    }
-    out.arrivals = std::move(delays.front().receivers);
-    out.times_ns.resize(out.arrivals.size());
-    for (std::size_t g = 0; g < out.arrivals.size(); ++g) {
-        out.times_ns[g].clear();  // a channel that failed here (the source at the receiver) has no paths
-        for (const ConnectedPath& p : out.arrivals[g].paths) out.times_ns[g].push_back(p.time_s * 1e9);
+    const std::size_t channels = predictor.channels.size();
+    out.times_ns.resize(channels);
+    out.gradients.resize(channels);
+    out.kinds.resize(channels);
+    thread_local std::vector<TabulatedPath> tabulated;
+    const double slowness = predictor.solver.model().index_at(position.z) / speed_of_light;
+    for (std::size_t g = 0; g < channels; ++g) {
+        out.times_ns[g].clear();
+        out.gradients[g].clear();
+        out.kinds[g].clear();
+        if (predictor.table && predictor.table->paths(predictor.channels[g], position, tabulated)) {
+            for (const TabulatedPath& p : tabulated) {
+                out.times_ns[g].push_back(p.time_s * 1e9);
+                out.gradients[g].push_back(p.gradient);
+                out.kinds[g].push_back(p.kind);
+            }
+            continue;
+        }
+        const Receiver& r = predictor.event_receivers[g];
+        std::vector<ConnectedPath> paths;
+        try {
+            paths = find_paths(predictor.solver, position, Point{r.x_m, r.y_m, r.z_m}, predictor.paths);
+        } catch (const InputError&) {
+            continue;
+        } catch (const NumericalError&) {
+            continue;
+        }
+        // ∇_source T = −n(source)/c · the launch direction (Fermat's principle, as compute_delays).
+        for (const ConnectedPath& p : paths) {
+            const double horizontal = std::sin(p.launch_zenith_rad);
+            out.times_ns[g].push_back(p.time_s * 1e9);
+            out.gradients[g].push_back({-slowness * horizontal * std::cos(p.azimuth_rad),
+                                        -slowness * horizontal * std::sin(p.azimuth_rad),
+                                        -slowness * std::cos(p.launch_zenith_rad)});
+            out.kinds[g].push_back(p.kind);
+        }
     }
     assign_pulses(event, [&](std::size_t g) -> const std::vector<double>& { return out.times_ns[g]; }, out.assignment);
     return out.assignment.valid;
@@ -336,7 +406,7 @@ void normal_equations(const PreparedEvent& event, const Evaluation& e, Matrix4& 
             const auto k = static_cast<std::size_t>(i);
             if (e.assignment.path_of_pulse[k] < 0) continue;  // an unmatched pulse: a constant in χ²
             const auto path = static_cast<std::size_t>(e.assignment.path_of_pulse[k]);
-            const auto& gradient = e.arrivals[g].gradients[path];
+            const auto& gradient = e.gradients[g][path];
             // ∂(predicted time)/∂(x, y, z, t0), ns per m and 1.
             const Vector4 row(gradient.dx * 1e9, gradient.dy * 1e9, gradient.dz * 1e9, 1.0);
             const double residual = event.time_ns[k] - e.assignment.t0_ns - e.times_ns[g][path];
@@ -353,10 +423,10 @@ struct Refined {
 
 // Levenberg–Marquardt from a start position (Marquardt's scaling of the diagonal; the emission
 // time is set to its optimum at every trial position, so only the position is carried).
-Refined refine(const RaySolver& solver, const std::vector<Receiver>& event_receivers, const LocateOptions& options,
-               const PreparedEvent& event, const Point& centre, const Point& start) {
+Refined refine(const Predictor& predictor, const LocateOptions& options, const PreparedEvent& event, const Point& centre,
+               const Point& start) {
     Refined out;
-    if (!evaluate(solver, event_receivers, options.paths, event, start, out.at)) return out;
+    if (!evaluate(predictor, event, start, out.at)) return out;
     out.valid = true;
     double lambda = 1e-3;
     Evaluation trial;
@@ -379,7 +449,7 @@ Refined refine(const RaySolver& solver, const std::vector<Receiver>& event_recei
         const double cap = std::max(50.0, 0.3 * from_centre);
         if (move.norm() > cap) move *= cap / move.norm();
         const Point next{p.x + move.x(), p.y + move.y(), p.z + move.z()};
-        const bool better = evaluate(solver, event_receivers, options.paths, event, next, trial) &&
+        const bool better = evaluate(predictor, event, next, trial) &&
                             trial.assignment.chi2 <= out.at.assignment.chi2;
         if (better) {
             const double gain = out.at.assignment.chi2 - trial.assignment.chi2;
@@ -392,6 +462,36 @@ Refined refine(const RaySolver& solver, const std::vector<Receiver>& event_recei
             if (lambda > 1e12) break;  // no step lowers χ²: a minimum to numerical precision
         }
     }
+    return out;
+}
+
+// The end of a fit made on the travel-time table where find_paths is cheap: the exact paths at
+// the table's minimum and one Gauss–Newton step from there with their gradients, the times
+// carried along the step to first order. The table's minimum is within a small fraction of σ
+// of the exact one (millimetres), so what the step leaves out is second order in it: far below
+// the printed digits. Saves the second path search that another Levenberg–Marquardt step costs.
+Refined finish_exactly(const Predictor& exact, const PreparedEvent& event, const Point& start) {
+    Refined out;
+    if (!evaluate(exact, event, start, out.at)) return out;
+    out.valid = true;
+    out.iterations = 1;
+    Matrix4 a;
+    Vector4 b;
+    normal_equations(event, out.at, a, b);
+    const Vector4 step = a.ldlt().solve(b);
+    if (!step.allFinite() || step.dot(b) < converged_chi2_decrease) return out;
+    Evaluation moved = out.at;
+    moved.position = {start.x + step(0), start.y + step(1), start.z + step(2)};
+    for (std::size_t g = 0; g < moved.times_ns.size(); ++g)
+        for (std::size_t k = 0; k < moved.times_ns[g].size(); ++k) {
+            const auto& gradient = moved.gradients[g][k];
+            moved.times_ns[g][k] += (gradient.dx * step(0) + gradient.dy * step(1) + gradient.dz * step(2)) * 1e9;
+        }
+    assign_pulses(event, [&](std::size_t g) -> const std::vector<double>& { return moved.times_ns[g]; }, moved.assignment);
+    // A step that would change the assignment or raise χ² is no longer small: keep the exact point.
+    if (moved.assignment.valid && moved.assignment.chi2 <= out.at.assignment.chi2 &&
+        moved.assignment.path_of_pulse == out.at.assignment.path_of_pulse)
+        out.at = std::move(moved);
     return out;
 }
 
@@ -432,7 +532,7 @@ bool describe_fit(const ArrivalEvent& event, const PreparedEvent& prepared, cons
             continue;
         }
         const auto path = static_cast<std::size_t>(r.at.assignment.path_of_pulse[k]);
-        p.kind = r.at.arrivals[g].paths[path].kind;
+        p.kind = r.at.kinds[g][path];
         p.path_rank = static_cast<int>(path) + 1;
         p.residual_ns = p.time_ns - r.at.assignment.t0_ns - r.at.times_ns[g][path];
         fit.pulses.push_back(p);
@@ -457,6 +557,18 @@ EventFit SourceLocator::fit(const ArrivalEvent& event) const {
     const PreparedEvent prepared = prepare(event);
     std::vector<Receiver> event_receivers;
     for (std::size_t c : prepared.channels) event_receivers.push_back(station_.receivers[c]);
+    const Predictor exact{solver_, nullptr, prepared.channels, event_receivers, options_.paths};
+    const Predictor interpolated{solver_, travel_times_.get(), prepared.channels, event_receivers, options_.paths};
+    // Each candidate is refined on the table (find_paths where the table does not answer); where
+    // find_paths is cheap (the closed form) the fits that can be reported are then finished
+    // with one exact evaluation and Gauss–Newton step from the table's minimum (the exact fit's answer);
+    // elsewhere the table's minimum is the answer (docs/locate.md, "The end of a fit").
+    const bool on_table = travel_times_ != nullptr;
+    const auto refine_candidate = [&](const Point& start) {
+        if (!on_table) return refine(exact, options_, prepared, centre_, start);
+        Refined r = refine(interpolated, options_, prepared, centre_, start);
+        return r.valid ? r : refine(exact, options_, prepared, centre_, start);
+    };
 
     // Coarse search, coarse to fine: χ² (with the best assignment there) first on every
     // coarse_stride-th azimuth, distance and level of the search grid, then, from the best
@@ -551,7 +663,7 @@ EventFit SourceLocator::fit(const ArrivalEvent& event) const {
         // the first one's (a competing basin: a mirror position, another assignment).
         const bool rival = chi2[minima[i]] <= rival_chi2_factor * chi2[minima.front()] + options_.alternative_chi2_margin;
         if (i > 0 && good_enough && !rival) continue;
-        const Refined r = refine(solver_, event_receivers, options_, prepared, centre_, t.positions[minima[i]]);
+        const Refined r = refine_candidate(t.positions[minima[i]]);
         if (!r.valid) continue;
         SourceFit fit;
         if (!describe_fit(event, prepared, r, centre_, fit)) {
@@ -578,6 +690,25 @@ EventFit SourceLocator::fit(const ArrivalEvent& event) const {
         return result;
     }
     std::sort(fits.begin(), fits.end(), [](const SourceFit& x, const SourceFit& y) { return x.chi2 < y.chi2; });
+    if (on_table && polish_exactly_) {
+        // Only fits that can be reported are finished: the table's χ² is within far less than
+        // polish_chi2_slack of the exact one, so the others stay beyond the margin.
+        const double reportable = fits.front().chi2 + options_.alternative_chi2_margin + polish_chi2_slack;
+        std::vector<SourceFit> polished;
+        for (SourceFit& fit : fits) {
+            if (fit.chi2 > reportable) break;
+            const Refined r = finish_exactly(exact, prepared, fit.position);
+            SourceFit exact_fit;
+            if (r.valid && describe_fit(event, prepared, r, centre_, exact_fit)) {
+                exact_fit.iterations += fit.iterations;
+                polished.push_back(std::move(exact_fit));
+            } else {
+                polished.push_back(std::move(fit));  // keep the table's answer, good to 0.01 ns
+            }
+        }
+        fits = std::move(polished);
+        std::sort(fits.begin(), fits.end(), [](const SourceFit& x, const SourceFit& y) { return x.chi2 < y.chi2; });
+    }
     result.best = std::move(fits.front());
     for (std::size_t i = 1; i < fits.size(); ++i)
         if (fits[i].chi2 - result.best->chi2 <= options_.alternative_chi2_margin) result.alternatives.push_back(std::move(fits[i]));

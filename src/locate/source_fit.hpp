@@ -1,7 +1,8 @@
 // Source reconstruction from measured arrival times (docs/locate.md): the source position and
 // emission time that minimise the χ² of the arrival times, over every assignment of the
 // unlabelled pulses to the paths the model predicts; a coarse search over positions the station
-// sees, then Levenberg–Marquardt with the analytic ∂T/∂source of compute_delays; the covariance
+// sees, then Levenberg–Marquardt with the analytic ∂T/∂source (on interpolated travel-time tables,
+// locate/travel_time_table.hpp, finished with exact paths where they are cheap); the covariance
 // (Jᵀ W J)⁻¹ at the minimum and the other minima that fit almost as well.
 #pragma once
 
@@ -14,6 +15,7 @@
 #include "core/cancel.hpp"
 #include "locate/arrival_events.hpp"
 #include "locate/source_view.hpp"
+#include "locate/travel_time_table.hpp"
 #include "paths/find_paths.hpp"
 #include "station/station.hpp"
 
@@ -32,6 +34,10 @@ struct LocateSearchGrid {
     void validate() const;  // DataInputError naming the bad field
 };
 
+// On the closed form a fit costs about 1 ms less on the travel-time table than with find_paths,
+// and the table takes about 3 s to build: below this many events it does not pay.
+inline constexpr std::size_t interpolation_pays_events = 3000;
+
 struct LocateOptions {
     PathOptions paths;
     LocateSearchGrid search;
@@ -42,6 +48,16 @@ struct LocateOptions {
     int max_iterations = 60;               // Levenberg–Marquardt steps per candidate
     int threads = 1;                       // for building the search table
     RunControl control;
+    // How the refinement predicts arrival times at its trial positions (docs/locate.md):
+    // interpolated: from a TravelTimeTable built once per locator (a few seconds), then, on a
+    //   closed-form solver, a final Levenberg–Marquardt with find_paths from the table's minimum;
+    // exact: find_paths at every trial position;
+    // automatic: interpolated, except on a closed-form solver for fewer than
+    //   interpolation_pays_events expected events, where building the table costs more than it
+    //   saves, and on a profile whose index falls with depth somewhere (ducts: a slow table).
+    enum class TravelTimes { automatic, interpolated, exact } travel_times = TravelTimes::automatic;
+    std::size_t expected_events = 0;  // events the caller will fit (0: unknown, many)
+    TravelTimeTableOptions table;     // its paths, threads and control are those above
 };
 
 // A measured pulse with the path the fit assigned to it.
@@ -102,6 +118,8 @@ private:
     LocateOptions options_;
     Point centre_;
     std::unique_ptr<SearchTable> table_;
+    std::unique_ptr<TravelTimeTable> travel_times_;  // null: find_paths at every trial position
+    bool polish_exactly_ = false;                    // find_paths is cheap: finish every fit with it
 };
 
 // Every event, in order, on `threads` threads (the results do not depend on the thread count).

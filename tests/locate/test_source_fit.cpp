@@ -234,3 +234,38 @@ TEST_CASE("pulses from two strings only give a mirror solution across the plane 
     CHECK((best_is_source || apart(best, mirror) < 0.5));
     CHECK(apart(other, best_is_source ? mirror : source) < 0.5);
 }
+
+TEST_CASE("the fit on the travel-time table equals the fit on exact paths to a small fraction of sigma (the exact fit "
+          "as reference)",
+          "[locate]") {
+    const auto model = firn();
+    const ClosedFormSolver solver(model);
+    const Station station = test::three_string_station();
+    LocateOptions interpolated = test::small_search_options(), exact = test::small_search_options();
+    interpolated.travel_times = LocateOptions::TravelTimes::interpolated;
+    exact.travel_times = LocateOptions::TravelTimes::exact;
+    const SourceLocator on_table(solver, station, interpolated), on_paths(solver, station, exact);
+    std::mt19937_64 rng(41);
+    std::uniform_real_distribution<double> distance(60.0, 600.0), azimuth(0.0, 2.0 * pi), depth(20.0, 280.0);
+    double worst = 0.0;
+    for (int i = 0; i < 40; ++i) {
+        const double r = distance(rng), a = azimuth(rng);
+        const Point source{20.0 + r * std::cos(a), 11.5 + r * std::sin(a), -depth(rng)};
+        const ArrivalEvent event = test::synthetic_event(solver, station, source, 0.5, 100.0, rng);
+        const EventFit x = on_table.fit(event), y = on_paths.fit(event);
+        REQUIRE(x.best.has_value() == y.best.has_value());
+        if (!x.best) continue;
+        CHECK(x.alternatives.size() == y.alternatives.size());
+        CHECK(x.best->chi2 == Approx(y.best->chi2).margin(1e-3));
+        const auto& c = y.best->covariance_m2;
+        worst = std::max({worst, std::abs(x.best->position.x - y.best->position.x) / std::sqrt(c[0][0]),
+                          std::abs(x.best->position.y - y.best->position.y) / std::sqrt(c[1][1]),
+                          std::abs(x.best->position.z - y.best->position.z) / std::sqrt(c[2][2])});
+        for (std::size_t k = 0; k < x.best->pulses.size(); ++k) {
+            CHECK(x.best->pulses[k].kind == y.best->pulses[k].kind);
+            CHECK(x.best->pulses[k].path_rank == y.best->pulses[k].path_rank);
+        }
+    }
+    INFO("largest position difference " << worst << " sigma");
+    CHECK(worst < 1e-3);
+}

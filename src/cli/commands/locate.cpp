@@ -42,6 +42,7 @@ int run_locate(const LocateArguments& args) {
 
     LocateOptions options;
     options.paths.max_bounces = args.max_bounces;
+    options.expected_events = events.size();  // whether the travel-time table pays (locate/source_fit.hpp)
     options.threads = args.run.thread_count();
     options.control = make_run_control(args.run, "locate: search table");
     const SourceLocator locator(*solver, station, options);
