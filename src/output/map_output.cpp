@@ -313,10 +313,11 @@ void write_visibility_map_svg(std::ostream& out, const VisibilityMap& map, const
             depth.push_back(map.grid.depth_at(j));
         }
         const double row_px = std::max(1.0, 0.75 * 620.0 / map.grid.depth_cells);
-        add_segments(figure, low, high, depth, depth, plot::LineStyle{"#fcae91", row_px, "", 1.0});
-        figure.add_line(low, depth, plot::LineStyle{"#fb6a4a", 1.0, "4 3", 1.0},
+        // Lavender, a colour no map category uses, so the band is not read as one.
+        add_segments(figure, low, high, depth, depth, plot::LineStyle{"#cbc9e2", row_px, "", 1.0});
+        figure.add_line(low, depth, plot::LineStyle{"#6a51a3", 1.0, "4 3", 1.0},
                         fmt::format("boundary ± 1σ ({})", summary_method_label(uncertainty->summary)));
-        figure.add_line(high, depth, plot::LineStyle{"#fb6a4a", 1.0, "4 3", 1.0});
+        figure.add_line(high, depth, plot::LineStyle{"#6a51a3", 1.0, "4 3", 1.0});
     }
 
     // The shadow boundary as a curve (distance against depth).
