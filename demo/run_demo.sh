@@ -73,9 +73,19 @@ echo "  7/10 locate: the calibration pulsers from their noisy arrival times, and
 # demo/pulser-times.csv: SYNTHETIC times at the fictional station, made by the path finder from an
 # exponential profile a little off the built-in model (n_surface 1.365, n_deep 1.775, scale depth
 # 40 m) with 0.5 ns of noise and a fixed seed (bench/make_demo_pulser_times.cpp).
-echo "  8/10 calibrate: the model fitted to the pulser times (synthetic)"
-"$firnray" calibrate --station "$demo/station.toml" --times "$demo/pulser-times.csv" --fit exponential --quiet \
+# The start is the station's prior (demo/prior-model.toml): the built-in values with an illustrative
+# covariance. The shadow boundary of a receiver at 100 m is drawn with its 1-sigma band (Monte Carlo,
+# 100 profiles drawn from the covariance, docs/uncertainty.md) before and after the calibration.
+echo "  8/10 calibrate: the model fitted to the pulser times (synthetic), shadow boundary bands before and after"
+"$firnray" calibrate --station "$demo/station.toml" --times "$demo/pulser-times.csv" --fit exponential \
+    --model "$demo/prior-model.toml" --quiet \
     --format json -o "$out/calibration.json" --write-model "$out/calibrated-model.toml" --plot "$out/calibration.svg"
+for stage in prior calibrated; do
+  model="$demo/prior-model.toml"; [ "$stage" = calibrated ] && model="$out/calibrated-model.toml"
+  "$firnray" shadow --model "$model" --receiver 0,-100 --source-distance 0:1500 --source-depth 0:300 \
+      --uncertainty-samples 100 --quiet -o "$out/shadow-band-$stage.csv" --boundary "$out/boundary-band-$stage.csv" \
+      --plot "$out/shadow-band-$stage.svg"
+done
 
 # --- Phased-array trigger beams (issue 12): the fictional string PA of demo/station.toml ------------
 echo "  9/10 beams of the phased-array string PA: delays, coverage map and depth scan"
@@ -151,10 +161,16 @@ echo "  10/10 summary"
                 /^      "start"/ { start[name] = $2; order[++count] = name }
                 /^  "chi2"/ { chi2 = $2 } /^  "ndof"/ { ndof = $2 } /^  "unresolved_pulses"/ { unresolved = $2 }
                 END { for (i = 1; i <= count; i++) { k = order[i]
-                        printf "- %s: %g (built-in) -> %.5g +- %.2g\n", k, start[k], value[k], sigma[k] }
+                        printf "- %s: %g (prior) -> %.5g +- %.2g\n", k, start[k], value[k], sigma[k] }
                       printf "- chi2 %.1f for %d degrees of freedom; %d pulses unresolved (two paths within the pulse width: matched to the earlier)\n", chi2, ndof, unresolved }' \
       "$out/calibration.json"
   echo "  The calibrated model with its covariance: calibrated-model.toml; residuals and the profile's 1-sigma band: calibration.svg."
+  echo "  Shadow boundary of a receiver at 100 m depth, with its 1 sigma (Monte Carlo, 100 profiles drawn from the covariance):"
+  for stage in prior calibrated; do
+    awk -F, -v stage="$stage" '$1 == 99.75 || $1 == 200.25 || $1 == 299.25 { s = s sep sprintf("at %g m depth %.0f +- %.1f m", $1, $2, $3); sep = ", " }
+         END { printf "  - %s model: %s\n", stage, s }' "$out/boundary-band-$stage.csv"
+  done
+  echo "  Maps with the band: shadow-band-prior.svg and shadow-band-calibrated.svg."
 } > "$out/summary.md"
 {
   echo
