@@ -542,8 +542,9 @@ std::string depth_scan_json(const DepthScan& scan, const FirnModel& model, const
 }
 
 void write_depth_scan_svg(std::ostream& out, const DepthScan& scan, const FirnModel& model, const MapGrid& region,
-                          const DepthScanUncertainty* uncertainty) {
+                          const DepthScanUncertainty* uncertainty, const DepthResolutionScan* resolution) {
     check_uncertainty_rows(scan, uncertainty);
+    check_resolution_rows(scan, resolution);
     std::vector<double> depth, visible, two, median, low, high, strong;
     for (const auto& row : scan.rows) {
         depth.push_back(row.receiver_depth_m);
@@ -604,14 +605,43 @@ void write_depth_scan_svg(std::ostream& out, const DepthScan& scan, const FirnMo
     delays.add_line(depth, high, plot::LineStyle{"#9e9ac8", 1.2, "3 3", 1.0}, "maximum");
     delays.add_vline(best, best_style, best_label);
 
-    out << plot::compose_figures({&volumes, &delays}, 1,
+    // The station's resolution at each candidate depth of its shallowest receiver (--resolution):
+    // medians over the resolved cells of the region, and the share of cells not resolved.
+    plot::Figure resolved(960, 420);
+    std::vector<const plot::Figure*> panels{&volumes, &delays};
+    if (resolution != nullptr && !resolution->rows.empty()) {
+        const double nan = std::numeric_limits<double>::quiet_NaN();
+        std::vector<double> sigma_distance, sigma_depth;
+        for (const ResolutionSummary& r : resolution->rows) {
+            sigma_distance.push_back(r.median_sigma_distance_m.value_or(nan));
+            sigma_depth.push_back(r.median_sigma_depth_m.value_or(nan));
+        }
+        // The unresolved share (cells fewer than 4 pulses see) goes in the title, from the first
+        // candidate depth to the last: a label at every point would overlap the curves.
+        resolved.title(fmt::format("Station '{}' ({:g} ns timing, Cramér–Rao bound): median 1σ over the resolved "
+                                   "cells; unresolved {:.0f}% at {:g} m to {:.0f}% at {:g} m",
+                                   resolution->station, resolution->timing_sigma_ns,
+                                   100.0 * resolution->rows.front().unresolved_fraction, depth.front(),
+                                   100.0 * resolution->rows.back().unresolved_fraction, depth.back()));
+        resolved.x_label("receiver depth (m)");
+        resolved.y_label("median 1σ (m)");
+        resolved.add_line(depth, sigma_distance, plot::LineStyle{"#2171b5", 2.0, "", 1.0}, "distance");
+        resolved.add_markers(depth, sigma_distance, plot::MarkerStyle{"#2171b5", 3.0, "circle"});
+        resolved.add_line(depth, sigma_depth, plot::LineStyle{"#d94801", 2.0, "", 1.0}, "depth");
+        resolved.add_markers(depth, sigma_depth, plot::MarkerStyle{"#d94801", 3.0, "square"});
+        resolved.add_vline(best, best_style, best_label);
+        panels.push_back(&resolved);
+    }
+
+    out << plot::compose_figures(panels, 1,
                                  fmt::format("Receiver-depth scan (model: {}; sources within {:g} m, {:g}-{:g} m deep)",
                                              model.name, region.distance_max_m, region.depth_min_m, region.depth_max_m));
 }
 
 std::string depth_scan_svg(const DepthScan& scan, const FirnModel& model, const MapGrid& region,
-                           const DepthScanUncertainty* uncertainty) {
-    return render_to_string([&](std::ostream& out) { write_depth_scan_svg(out, scan, model, region, uncertainty); });
+                           const DepthScanUncertainty* uncertainty, const DepthResolutionScan* resolution) {
+    return render_to_string(
+        [&](std::ostream& out) { write_depth_scan_svg(out, scan, model, region, uncertainty, resolution); });
 }
 
 }  // namespace firnray

@@ -69,9 +69,14 @@ std::string depth_scan_json(const DepthScan& scan, const FirnModel& model, const
                             const DepthResolutionScan* resolution = nullptr,
                             const DepthScanUncertainty* uncertainty = nullptr);
 // With an uncertainty the visible and two-path shares are drawn with ± 1σ bands.
+// With `resolution` (depths --resolution) a third panel shows the station's median 1σ of
+// distance and depth against the candidate depth (log scale of the values is not needed: both
+// in m) and the unresolved share.
 void write_depth_scan_svg(std::ostream& out, const DepthScan& scan, const FirnModel& model, const MapGrid& region,
-                          const DepthScanUncertainty* uncertainty = nullptr);
+                          const DepthScanUncertainty* uncertainty = nullptr,
+                          const DepthResolutionScan* resolution = nullptr);
 std::string depth_scan_svg(const DepthScan& scan, const FirnModel& model, const MapGrid& region,
-                           const DepthScanUncertainty* uncertainty = nullptr);
+                           const DepthScanUncertainty* uncertainty = nullptr,
+                           const DepthResolutionScan* resolution = nullptr);
 
 }  // namespace firnray

@@ -8,6 +8,8 @@
 #include <filesystem>
 #include <sstream>
 
+#include <fmt/format.h>
+
 #include "support/run_cli.hpp"
 
 using namespace firnray::test;
@@ -226,6 +228,20 @@ TEST_CASE("firnray depths --resolution: per depth the median 1 sigma and the unr
         CHECK(share >= 0.0);
         CHECK(share <= 1.0);
     }
+
+    // The figure gains a resolution panel with the same unresolved shares.
+    const std::string svg = dir + "/scan.svg";
+    const auto plotted = run_firnray({"depths", "--depths", "40,120", "--source-distance", "0:800", "--source-depth",
+                                      "0:200", "--distance-cells", "20", "--depth-cells", "10", "--max-bounces", "1",
+                                      "--resolution", station, "--resolution-distance-cells", "8",
+                                      "--resolution-depth-cells", "5", "--quiet", "-o", dir + "/scan.csv", "--plot",
+                                      svg});
+    INFO(plotted.err);
+    REQUIRE(plotted.exit_code == 0);
+    const std::string figure = read_file(svg);
+    CHECK(figure.find("median 1σ (m)") != std::string::npos);  // the resolution panel's axis
+    CHECK(figure.find(fmt::format("unresolved {:.0f}% at 40 m", 100.0 * std::stod(rows[1][unresolved]))) !=
+          std::string::npos);
 
     const auto json = run_firnray({"depths", "--depths", "60", "--distance-cells", "10", "--depth-cells", "10",
                                    "--resolution", station, "--resolution-distance-cells", "4",

@@ -119,7 +119,7 @@ int run_depths(const DepthsArguments& args) {
         else write_depth_scan_csv(out, scan, resolution_rows, volume_uncertainty);
     });
     outputs.set_writer(args.plot_path, [&](std::ostream& out) {
-        write_depth_scan_svg(out, scan, *model, options.region, volume_uncertainty);
+        write_depth_scan_svg(out, scan, *model, options.region, volume_uncertainty, resolution_rows);
     });
     outputs.write_all();
     return 0;
