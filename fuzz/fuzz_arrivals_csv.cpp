@@ -14,34 +14,10 @@
 
 using namespace firnray;
 
-namespace {
-
-const Station& three_strings() {
-    static const Station station = [] {
-        Station s;
-        s.name = "fuzz station";
-        const double strings[3][2] = {{0.0, 0.0}, {40.0, 0.0}, {20.0, 34.6}};
-        for (int k = 0; k < 3; ++k)
-            for (int level = 0; level < 4; ++level) {
-                Receiver r;
-                r.string_name = std::string(1, static_cast<char>('A' + k));
-                r.name = r.string_name + std::to_string(level + 1);
-                r.x_m = strings[k][0];
-                r.y_m = strings[k][1];
-                r.z_m = -40.0 - 20.0 * level;
-                s.receivers.push_back(r);
-            }
-        return s;
-    }();
-    return station;
-}
-
-}  // namespace
-
 int fuzz_one(const std::uint8_t* data, std::size_t size) {
     const std::string path =
         fuzz::write_scratch_file("arrivals.csv", std::string_view(reinterpret_cast<const char*>(data), size));
-    const Station& station = three_strings();
+    const Station& station = fuzz::three_string_station();
     std::vector<ArrivalEvent> events;
     try {
         events = read_arrival_events(path, station, 0.5);

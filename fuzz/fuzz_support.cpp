@@ -81,4 +81,24 @@ double ByteReader::signed_log_uniform(double smallest, double largest) {
     return form % 2 == 0 ? magnitude : -magnitude;
 }
 
+const Station& three_string_station() {
+    static const Station station = [] {
+        Station s;
+        s.name = "fuzz station";
+        const double strings[3][2] = {{0.0, 0.0}, {40.0, 0.0}, {20.0, 34.6}};
+        for (int k = 0; k < 3; ++k)
+            for (int level = 0; level < 4; ++level) {
+                Receiver r;
+                r.string_name = std::string(1, static_cast<char>('A' + k));
+                r.name = r.string_name + std::to_string(level + 1);
+                r.x_m = strings[k][0];
+                r.y_m = strings[k][1];
+                r.z_m = -40.0 - 20.0 * level;
+                s.receivers.push_back(r);
+            }
+        return s;
+    }();
+    return station;
+}
+
 }  // namespace firnray::fuzz

@@ -7,7 +7,13 @@
 #include <string>
 #include <string_view>
 
+#include "station/station.hpp"
+
 namespace firnray::fuzz {
+
+// A fixed 12-channel station for the harnesses of station-based CSV files: three strings of four
+// receivers (A1..C4, 40 to 100 m deep) on a triangle 40 m across, as the demo's.
+const Station& three_string_station();
 
 // A folder of this process's own under the system's temporary folder, made on first use and
 // removed at exit. Harness files go there, so relative paths in a fuzzed model file stay inside.
