@@ -17,24 +17,9 @@
 #include "station/visibility_map.hpp"
 #include "uncertainty/map_uncertainty.hpp"
 
-using namespace firnray;
+#include "bench_timing.hpp"
 
-// Median wall time of `repeats` runs; cpu_seconds gets the median processor time (all threads),
-// which a machine shared with other jobs does not inflate.
-static double median_seconds(int repeats, const auto& body, double* cpu_seconds = nullptr) {
-    std::vector<double> times, cpu;
-    for (int r = 0; r < repeats; ++r) {
-        const auto start = std::chrono::steady_clock::now();
-        const std::clock_t cpu_start = std::clock();
-        body();
-        cpu.push_back(static_cast<double>(std::clock() - cpu_start) / CLOCKS_PER_SEC);
-        times.push_back(std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count());
-    }
-    std::sort(times.begin(), times.end());
-    std::sort(cpu.begin(), cpu.end());
-    if (cpu_seconds) *cpu_seconds = cpu[cpu.size() / 2];
-    return times[times.size() / 2];
-}
+using namespace firnray;
 
 int main(int argc, char** argv) {
     const int repeats = argc > 1 ? std::atoi(argv[1]) : 1;

@@ -86,11 +86,14 @@ BoundaryUncertainty propagate_boundary_uncertainty(const ModelPerturbation& pert
     };
     const PropagatedValues values = propagate_uncertainty(perturbation, evaluate, propagation, cancel_only(control));
 
-    // The nominal boundary once more, unsplit (+inf and NaN told apart).
-    const auto nominal_solver = solver_for(perturbation.nominal(), solver);
+    // The nominal boundary from the nominal outputs: the marker is absent exactly where it is
+    // unbounded, and a boundary that is absent but marked is none (NaN).
     BoundaryUncertainty result;
     result.summary = summary_of(perturbation, propagation, values);
-    result.nominal_m = compute_visibility_boundary(*nominal_solver, receivers, grid, one_model);
+    result.nominal_m.resize(rows);
+    for (std::size_t j = 0; j < rows; ++j)
+        result.nominal_m[j] = std::isnan(values.nominal[rows + j]) ? std::numeric_limits<double>::infinity()
+                                                                   : values.nominal[j];
     result.sigma_m.assign(rows, absent_value);
     result.without_boundary.assign(rows, 0);
     result.unbounded.assign(rows, 0);
