@@ -225,8 +225,11 @@ public:
     }
 
 private:
-    // Where X diverges (or the family ends) at v = 0 or 1, step geometrically toward it until X
-    // exceeds R with X growing toward the end, so that the roots near a double root are bracketed.
+    // Where X diverges (or the family ends) at v = 0 or 1, step toward it until X exceeds R with X
+    // growing toward the end, so that the roots near a double root are bracketed. Next to a double
+    // root X grows like the logarithm of the distance to the end (docs/physics.md §8.3), so once two
+    // samples show that growth the next step goes to where the logarithm through them reaches a
+    // little beyond R (a secant in log distance); otherwise the distance is halved.
     void approach_end(std::vector<Sample>& samples, bool at_zero) {
         const Sample& end = at_zero ? samples.front() : samples.back();
         const Sample& next = at_zero ? samples[1] : samples[samples.size() - 2];
@@ -236,9 +239,14 @@ private:
         // double root (a local minimum of n) are not resolved by a double ξ anyway.
         const double spacing = 1.0 / samples_, span = range_.high - range_.low;
         const double closest = closest_offset();
+        auto distance_of = [&](double v) { return at_zero ? v : 1.0 - v; };
+        // The smallest distance that keeps ξ at least `closest` from the end (a little more, so that
+        // rounding does not put it below).
+        const double nearest = (1.0 + 1e-6) * (at_zero ? std::sqrt(closest / span) : closest / (2.0 * span));
+        Sample previous = next;
+        double distance = 0.5 * spacing;
         for (int j = 1; j <= 200; ++j) {
-            const double step = spacing * std::ldexp(1.0, -j);
-            const double v = at_zero ? step : 1.0 - step;
+            const double v = at_zero ? distance : 1.0 - distance;
             if (v <= 0.0 || v >= 1.0) break;
             const double offset_from_end = at_zero ? span * v * v : span * (1.0 - v * v);
             if (offset_from_end < closest) break;
@@ -246,6 +254,21 @@ private:
             samples.push_back(s);
             const bool growing_toward_end = at_zero ? s.slope < 0.0 : s.slope > 0.0;
             if (std::isfinite(s.f) && s.f > 0.0 && growing_toward_end) break;
+            double step = 0.5;  // the factor on the distance
+            if (std::isfinite(s.f) && std::isfinite(previous.f) && growing_toward_end && s.f > previous.f) {
+                // X = A + B·log(distance) through the two samples (B < 0), aimed at R + |f|/2 past R.
+                const double log_ratio = std::log(distance_of(s.v) / distance_of(previous.v));
+                const double b = (s.f - previous.f) / log_ratio;
+                const double target = -s.f + 0.5 * std::abs(s.f);  // the rise still wanted
+                // At most four decades at a time: where X grows faster than a logarithm (like 1/v
+                // at equal depths in deep ice) the jump overshoots, and the bracket left for the
+                // root stays narrow enough for a few bisections.
+                if (b < 0.0 && std::isfinite(b)) step = std::clamp(std::exp(target / b), 1e-4, 0.5);
+            }
+            previous = s;
+            const double closer = std::max(distance * step, nearest);
+            if (!(closer < distance)) break;
+            distance = closer;
         }
     }
 
@@ -326,17 +349,37 @@ private:
         return better(low, high).v;
     }
 
+    // Between two samples whose slopes differ in sign: a sample where X − R changes sign (then
+    // the caller brackets a root on each side of it), or the extremum itself when X − R keeps its
+    // sign there. The slope's sign change is bracketed by regula falsi with bisection every third
+    // step (so it cannot stall on one end); it stops early once the quadratic model of X about
+    // the last sample, f − slope²/(2 X″) with X″ from the bracket's slopes, puts the extremum well
+    // on the same side of R as the samples (the extremum is then no root, and further steps
+    // would only confirm it).
     Sample extremum_between(const Sample& a, const Sample& b) const {
-        auto slope = [&](double v) {
+        Sample lo = a, hi = b;  // lo.slope and hi.slope differ in sign
+        Sample last = std::abs(a.f) <= std::abs(b.f) ? a : b;
+        const double sign = a.f > 0.0 ? 1.0 : -1.0;
+        for (int iteration = 0; iteration < 100; ++iteration) {
+            const double width = hi.v - lo.v;
+            if (std::abs(width) <= 1e-14 * std::max(std::abs(lo.v), std::abs(hi.v))) break;
+            double v = lo.v + width * (lo.slope / (lo.slope - hi.slope));
+            if (iteration % 3 == 2 || !(v > std::min(lo.v, hi.v) && v < std::max(lo.v, hi.v))) v = lo.v + 0.5 * width;
             const Sample s = evaluate(v);
-            return std::isfinite(s.slope) ? s.slope : 0.0;
-        };
-        std::uintmax_t iterations = 100;
-        auto tolerance = [](double lo, double hi) {
-            return std::abs(hi - lo) <= 1e-14 * std::max(std::abs(lo), std::abs(hi));
-        };
-        const auto bracket = boost::math::tools::toms748_solve(slope, a.v, b.v, a.slope, b.slope, tolerance, iterations);
-        return evaluate(0.5 * (bracket.first + bracket.second));
+            if (!std::isfinite(s.f) || !std::isfinite(s.slope)) return s;
+            if (s.f == 0.0 || s.f * sign < 0.0) return s;
+            last = s;
+            if (s.slope == 0.0) break;
+            if ((s.slope < 0.0) == (lo.slope < 0.0)) lo = s;
+            else hi = s;
+            const double curvature = (hi.slope - lo.slope) / (hi.v - lo.v);
+            if (curvature != 0.0 && std::isfinite(curvature)) {
+                const double extremum = s.f - s.slope * s.slope / (2.0 * curvature);
+                // The extremum's f has the samples' sign with a margin of half of f itself.
+                if (extremum * sign > 0.5 * std::abs(s.f)) break;
+            }
+        }
+        return last;
     }
 
     RangeLegs& legs_;

@@ -85,7 +85,13 @@ StratifiedProfile::StratifiedProfile(std::shared_ptr<const IndexProfile> profile
         throw ModelInputError(fmt::format("the analysis depth must be a positive number of metres (got {})",
                                           number_for_message(analysis_depth_m)));
     build_cells(analysis_depth_m);
-    for (const Cell& cell : cells_) cell_bottoms_.push_back(cell.z_bottom);
+    for (std::size_t i = 0; i < cells_.size(); ++i) {
+        cell_bottoms_.push_back(cells_[i].z_bottom);
+        double n, dn, d2n;
+        evaluate(i, cells_[i].z_bottom, n, dn, d2n);
+        cell_bottom_index_.push_back(n);
+        if (cells_[i].form != Form::cubic) all_cubic_ = false;
+    }
     build_runs();
 }
 
@@ -391,9 +397,101 @@ bool StratifiedProfile::is_local_minimum(double z) const {
     return std::find(minima_z_.begin(), minima_z_.end(), z) != minima_z_.end();
 }
 
+double StratifiedProfile::boundary_gap(const RayLevel& level, std::size_t cell) const {
+    // n at the boundary from the table of boundary values first: its sign decides unless n − ξ is
+    // within a few rounding errors of zero (then the cells' formulas, as gap() takes them).
+    const double n = cell_bottom_index_[cell];
+    const double approximate = level.anchored ? (n - level.anchor_index) + level.offset : n - level.ray_parameter;
+    if (std::abs(approximate) > 1e-12 * (1.0 + std::abs(n))) return approximate;
+    // Within rounding of the root at the boundary itself: left to the solver on gap().
+    return std::numeric_limits<double>::quiet_NaN();
+}
+
 double StratifiedProfile::solve_turning(const RayLevel& level, double z_inside, double z_outside) const {
     auto f = [&](double z) { return gap(level, z); };
-    return refine_root(f, z_inside, z_outside, f(z_inside), f(z_outside));
+    const double g_inside = f(z_inside);
+    if (g_inside == 0.0) return z_inside;
+    // Formula cells (exponential, layered, generic) keep the bracketing solver on gap(): in deep
+    // ice n − ξ there is below the rounding of n over hundreds of metres, and its first secant step
+    // from the anchor is what places the turning point right (a table's cells are cubics whose
+    // n changes resolvably in every cell that holds a root).
+    if (!all_cubic_) return refine_root(f, z_inside, z_outside, g_inside, f(z_outside));
+    // n is monotone from z_inside (n > ξ) to z_outside (n <= ξ), so n − ξ changes sign once: first
+    // the cell holding the root, by bisection over the cell boundaries between the two points
+    // (each decided from the stored n of the boundary), then the root inside that cell's cubic.
+    const bool downward = z_outside < z_inside;
+    std::size_t inner = cell_at(z_inside, downward ? -1 : 1), outer = cell_at(z_outside, downward ? 1 : -1);
+    double inside = z_inside, outside = z_outside;
+    while (inner != outer) {
+        // Boundaries between the cells inner … outer: below cell k for k in [low, high).
+        const std::size_t low = std::min(inner, outer), high = std::max(inner, outer);
+        const std::size_t k = low + (high - low) / 2;
+        const double z = cells_[k].z_bottom, g = boundary_gap(level, k);
+        if (std::isnan(g)) return refine_root(f, z_inside, z_outside, g_inside, f(z_outside));
+        const bool root_below = (g > 0.0) == downward;  // the root lies deeper than this boundary
+        if (g > 0.0) inside = z;
+        else outside = z;
+        if (root_below) (downward ? inner : outer) = k + 1;
+        else (downward ? outer : inner) = k;
+    }
+    const std::size_t cell = inner;
+    // Steps from the quadratic model of n − ξ about the current point (the root of
+    // g + g′δ + g″δ²/2 nearest to it; Newton where that has none), kept in the bracket
+    // [inside, outside] and replaced by bisection where they leave it or stall (as in rtsafe,
+    // Numerical Recipes; common practice). The quadratic converges fast next to a local extremum
+    // of n too (a turning point close to a double root), where Newton only halves the distance.
+    auto value = [&](double z, double& slope, double& curvature) {
+        double n;
+        evaluate(cell, z, n, slope, curvature);
+        return gap_in_cell(level, cell, z, n);
+    };
+    double slope = 0.0, curvature = 0.0;
+    const double g_in = value(inside, slope, curvature), g_out = value(outside, slope, curvature);
+    if (g_out == 0.0) return outside;
+    if (!(g_in > 0.0) || !(g_out < 0.0)) {
+        // The cell's cubic disagrees in sign with gap() at an end (a boundary within rounding of
+        // the root): the bracketing solver on gap() itself, over the whole span.
+        return refine_root(f, z_inside, z_outside, g_inside, f(z_outside));
+    }
+    double best = std::abs(g_in) <= std::abs(g_out) ? inside : outside;
+    double best_g = std::min(std::abs(g_in), std::abs(g_out));
+    auto in_bracket = [&](double z) { return z > std::min(inside, outside) && z < std::max(inside, outside); };
+    double z = inside + (outside - inside) * (g_in / (g_in - g_out));  // the secant point first
+    double step_before_last = std::abs(outside - inside), last_step = step_before_last;
+    for (int iteration = 0; iteration < 100; ++iteration) {
+        if (!in_bracket(z)) z = 0.5 * (inside + outside);
+        const double g = value(z, slope, curvature);
+        if (std::abs(g) < best_g) best = z, best_g = std::abs(g);
+        if (g == 0.0) return z;
+        if (g > 0.0) inside = z;
+        else outside = z;
+        if (std::abs(outside - inside) <=
+            2.0 * std::numeric_limits<double>::epsilon() * std::max(std::abs(inside), std::abs(outside)))
+            break;
+        double step = std::numeric_limits<double>::infinity();
+        const double discriminant = slope * slope - 2.0 * g * curvature;
+        if (curvature != 0.0 && discriminant >= 0.0) {
+            const double q = -0.5 * (slope + std::copysign(std::sqrt(discriminant), slope));
+            for (const double candidate : {q / (0.5 * curvature), q != 0.0 ? g / q : step})
+                if (in_bracket(z + candidate) && std::abs(candidate) < std::abs(step)) step = candidate;
+        }
+        if (!std::isfinite(step) && slope != 0.0) step = -g / slope;
+        double next = z + step;
+        if (!std::isfinite(step) || !in_bracket(next) || std::abs(step) > 0.5 * step_before_last)
+            next = 0.5 * (inside + outside);
+        step_before_last = last_step;
+        last_step = std::abs(next - z);
+        // Converged: the step is within a few ulps (the neighbours are tried below).
+        if (last_step <= 4.0 * std::numeric_limits<double>::epsilon() * std::abs(z)) break;
+        z = next;
+    }
+    // The neighbours of the best point, one ulp each way, where the bracket allows.
+    for (const double neighbour : {std::nextafter(best, inside), std::nextafter(best, outside)}) {
+        if (!(neighbour >= std::min(inside, outside) && neighbour <= std::max(inside, outside))) continue;
+        const double g = std::abs(value(neighbour, slope, curvature));
+        if (g < best_g) best = neighbour, best_g = g;
+    }
+    return best;
 }
 
 std::optional<AccessibleInterval> StratifiedProfile::interval_around(const RayLevel& level, double z) const {

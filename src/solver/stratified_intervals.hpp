@@ -163,6 +163,8 @@ private:
     void build_runs();
     // The turning point between z_inside (gap > 0) and z_outside (gap <= 0) of one run.
     double solve_turning(const RayLevel& level, double z_inside, double z_outside) const;
+    // n − ξ at the bottom of a cell from the stored n there; NaN where that is within rounding of 0.
+    double boundary_gap(const RayLevel& level, std::size_t cell) const;
     bool is_local_minimum(double z) const;
     // Whether n − ξ at a point where n is known is positive beyond any doubt (no need for gap()).
     bool clearly_inside(const RayLevel& level, double n) const;
@@ -171,9 +173,11 @@ private:
     std::optional<double> bottom_z_;
     double floor_z_ = 0.0;
     bool exponential_ = false;
+    bool all_cubic_ = true;  // every cell a table's cubic
     double exp_a_ = 0.0, exp_b_ = 0.0, exp_c_ = 0.0;  // n = A − B e^{C z}
     std::vector<Cell> cells_;                          // from the surface down
     std::vector<double> cell_bottoms_;                 // cells_[i].z_bottom, for cell_at
+    std::vector<double> cell_bottom_index_;            // n there, from cells_[i]'s formula
     std::vector<Run> runs_;                            // from the surface down
     std::vector<double> minima_z_;
     struct LazySnellTables {
