@@ -1,6 +1,7 @@
 #include "solver/path_families.hpp"
 
 #include <algorithm>
+#include <array>
 #include <cmath>
 #include <cstdint>
 #include <limits>
@@ -78,10 +79,13 @@ struct LegSet {
     bool has_lower = false;
     AccessibleInterval interval;
     RayLevel level;
-    std::vector<LegEndpoint> points;  // from the top down
+    // From the top down: the upper end, the pair's ends (one point where they are at one depth),
+    // the lower end when there is one.
+    std::array<LegEndpoint, 4> points{};
+    std::size_t point_count = 0;
     std::size_t source_index = 0, receiver_index = 0;
-    std::vector<char> computed;
-    std::vector<LegIntegrals> pieces;  // pieces[i]: between points[i] and points[i + 1]
+    std::array<bool, 3> computed{};
+    std::array<LegIntegrals, 3> pieces{};  // pieces[i]: between points[i] and points[i + 1]
 };
 
 class RangeLegs {
@@ -104,21 +108,20 @@ public:
             set.valid = true;
             set.interval = *interval;
             set.has_lower = interval->lower_kind != LowerEndKind::unbounded;
-            set.points.push_back(upper_endpoint(*interval));
+            auto& count = set.point_count;
+            set.points[count++] = upper_endpoint(*interval);
             const double high = std::max(z_source_, z_receiver_), low = std::min(z_source_, z_receiver_);
-            set.points.push_back({high});
-            if (low != high) set.points.push_back({low});
-            set.source_index = z_source_ == high ? 1 : set.points.size() - 1;
-            set.receiver_index = z_receiver_ == high ? 1 : set.points.size() - 1;
-            if (set.has_lower) set.points.push_back(lower_endpoint(*interval));
-            set.pieces.resize(set.points.size() - 1);
-            set.computed.assign(set.points.size() - 1, 0);
+            set.points[count++] = {high};
+            if (low != high) set.points[count++] = {low};
+            set.source_index = z_source_ == high ? 1 : count - 1;
+            set.receiver_index = z_receiver_ == high ? 1 : count - 1;
+            if (set.has_lower) set.points[count++] = lower_endpoint(*interval);
         }
         return cache_.emplace(v, std::move(set)).first->second;
     }
 
     LegIntegrals leg(LegSet& set, LegName name) const {
-        const std::size_t lower = set.points.size() - 1;
+        const std::size_t lower = set.point_count - 1;
         std::size_t a = 0, b = 0;
         switch (name) {
             case source_receiver: a = set.source_index, b = set.receiver_index; break;
@@ -139,7 +142,7 @@ private:
     const LegIntegrals& piece(LegSet& set, std::size_t i) const {
         if (!set.computed[i]) {
             set.pieces[i] = leg_integrals(profile_, set.level, set.points[i + 1], set.points[i], false);
-            set.computed[i] = 1;
+            set.computed[i] = true;
         }
         return set.pieces[i];
     }
@@ -323,9 +326,19 @@ private:
         auto close = [&](double lo, double hi) { return std::abs(hi - lo) <= 2.0 * eps * std::max(std::abs(lo), std::abs(hi)); };
         auto better = [](const Sample& x, const Sample& y) { return std::abs(x.f) <= std::abs(y.f) ? x : y; };
         double step_before_last = std::abs(high.v - low.v), last_step = step_before_last;
+        // Where Newton's step is refused, the false-position point instead of the midpoint, with
+        // the Illinois rule (the f of an end kept twice in a row is halved), so that it cannot
+        // stall on one end; every third refusal in a row bisects (common practice).
+        double f_low = low.f, f_high = high.f;
+        int kept = 0, refusals = 0;  // kept: +1 low kept last time, −1 high, 0 neither
         for (int iteration = 0; iteration < 200 && !close(low.v, high.v); ++iteration) {
             const Sample best = better(low, high);
             double v = 0.5 * (low.v + high.v);
+            if (refusals % 3 != 2 && f_high != f_low) {
+                const double secant = low.v - f_low * (high.v - low.v) / (f_high - f_low);
+                if (secant > std::min(low.v, high.v) && secant < std::max(low.v, high.v)) v = secant;
+            }
+            ++refusals;
             double step = v - best.v;
             if (std::isfinite(best.slope) && best.slope != 0.0) {
                 const double newton = -best.f / best.slope;
@@ -336,6 +349,7 @@ private:
                 if (inside && std::abs(newton) <= 0.5 * step_before_last) {
                     v = target;
                     step = newton;
+                    refusals = 0;
                 }
             }
             step_before_last = last_step;
@@ -343,8 +357,17 @@ private:
             if (!(v > std::min(low.v, high.v) && v < std::max(low.v, high.v))) break;
             const Sample s = finite(evaluate(v));
             if (s.f == 0.0) return v;
-            if ((s.f < 0.0) == (low.f < 0.0)) low = s;
-            else high = s;
+            if ((s.f < 0.0) == (low.f < 0.0)) {
+                low = s;
+                f_low = s.f;
+                if (kept == -1) f_high *= 0.5;
+                kept = -1;
+            } else {
+                high = s;
+                f_high = s.f;
+                if (kept == 1) f_low *= 0.5;
+                kept = 1;
+            }
         }
         return better(low, high).v;
     }

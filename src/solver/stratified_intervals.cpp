@@ -16,6 +16,7 @@ namespace firnray {
 namespace {
 
 constexpr double infinity = std::numeric_limits<double>::infinity();
+constexpr double not_a_number = std::numeric_limits<double>::quiet_NaN();
 
 // Cells of a smooth profile without joins: short near the surface, where firn changes fast, and
 // at most 5 m deeper down; the monotone runs are found by sampling dn/dz in each cell.
@@ -372,6 +373,22 @@ void StratifiedProfile::build_runs() {
     }
     for (std::size_t i = 0; i + 1 < runs_.size(); ++i)
         if (runs_[i].direction < 0 && runs_[i + 1].direction > 0) minima_z_.push_back(runs_[i].z_bottom);
+    // For interval_around: the nearest run above with a lower n at its top, and the nearest run
+    // below with a lower n at its bottom (the runs in between cannot hold the end first).
+    const std::size_t count = runs_.size();
+    upper_lower_top_.assign(count, no_run);
+    lower_lower_bottom_.assign(count, no_run);
+    for (std::size_t i = 0; i < count; ++i) {
+        std::size_t j = i == 0 ? no_run : i - 1;
+        while (j != no_run && !(runs_[j].index_top < runs_[i].index_top)) j = upper_lower_top_[j];
+        upper_lower_top_[i] = j;
+    }
+    for (std::size_t i = count; i-- > 0;) {
+        std::size_t j = i + 1 < count ? i + 1 : no_run;
+        while (j != no_run && !(runs_[j].index_bottom < runs_[i].index_bottom)) j = lower_lower_bottom_[j];
+        lower_lower_bottom_[i] = j;
+    }
+    for (const Run& run : runs_) run_bottoms_.push_back(run.z_bottom);
 }
 
 std::pair<double, double> StratifiedProfile::minimum_index(double z_low, double z_high) const {
@@ -407,15 +424,22 @@ double StratifiedProfile::boundary_gap(const RayLevel& level, std::size_t cell) 
     return std::numeric_limits<double>::quiet_NaN();
 }
 
-double StratifiedProfile::solve_turning(const RayLevel& level, double z_inside, double z_outside) const {
+double StratifiedProfile::solve_turning(const RayLevel& level, double z_inside, double z_outside,
+                                        double gap_inside) const {
     auto f = [&](double z) { return gap(level, z); };
-    const double g_inside = f(z_inside);
-    if (g_inside == 0.0) return z_inside;
+    // The bracketing solver on gap() over the whole span: for formula cells, and wherever the
+    // faster path below meets rounding (it returns z_inside itself where gap() is 0 there).
+    auto bracketing = [&] {
+        const double g_inside = std::isnan(gap_inside) ? f(z_inside) : gap_inside;
+        if (g_inside == 0.0) return z_inside;
+        return refine_root(f, z_inside, z_outside, g_inside, f(z_outside));
+    };
     // Formula cells (exponential, layered, generic) keep the bracketing solver on gap(): in deep
     // ice n − ξ there is below the rounding of n over hundreds of metres, and its first secant step
     // from the anchor is what places the turning point right (a table's cells are cubics whose
     // n changes resolvably in every cell that holds a root).
-    if (!all_cubic_) return refine_root(f, z_inside, z_outside, g_inside, f(z_outside));
+    if (!all_cubic_) return bracketing();
+    if (gap_inside == 0.0) return z_inside;
     // n is monotone from z_inside (n > ξ) to z_outside (n <= ξ), so n − ξ changes sign once: first
     // the cell holding the root, by bisection over the cell boundaries between the two points
     // (each decided from the stored n of the boundary), then the root inside that cell's cubic.
@@ -427,7 +451,7 @@ double StratifiedProfile::solve_turning(const RayLevel& level, double z_inside, 
         const std::size_t low = std::min(inner, outer), high = std::max(inner, outer);
         const std::size_t k = low + (high - low) / 2;
         const double z = cells_[k].z_bottom, g = boundary_gap(level, k);
-        if (std::isnan(g)) return refine_root(f, z_inside, z_outside, g_inside, f(z_outside));
+        if (std::isnan(g)) return bracketing();
         const bool root_below = (g > 0.0) == downward;  // the root lies deeper than this boundary
         if (g > 0.0) inside = z;
         else outside = z;
@@ -448,11 +472,9 @@ double StratifiedProfile::solve_turning(const RayLevel& level, double z_inside, 
     double slope = 0.0, curvature = 0.0;
     const double g_in = value(inside, slope, curvature), g_out = value(outside, slope, curvature);
     if (g_out == 0.0) return outside;
-    if (!(g_in > 0.0) || !(g_out < 0.0)) {
-        // The cell's cubic disagrees in sign with gap() at an end (a boundary within rounding of
-        // the root): the bracketing solver on gap() itself, over the whole span.
-        return refine_root(f, z_inside, z_outside, g_inside, f(z_outside));
-    }
+    // The cell's cubic disagrees in sign with gap() at an end (a boundary within rounding of the
+    // root, or z_inside a root itself).
+    if (!(g_in > 0.0) || !(g_out < 0.0)) return bracketing();
     double best = std::abs(g_in) <= std::abs(g_out) ? inside : outside;
     double best_g = std::min(std::abs(g_in), std::abs(g_out));
     auto in_bracket = [&](double z) { return z > std::min(inside, outside) && z < std::max(inside, outside); };
@@ -508,9 +530,11 @@ std::optional<AccessibleInterval> StratifiedProfile::interval_around(const RayLe
         else if (dn > 0.0) start_is_lower_turn = true;
         else return std::nullopt;
     }
-    // The run holding z.
-    std::size_t r = 0;
-    while (r + 1 < runs_.size() && runs_[r].z_bottom > z) ++r;
+    // The run holding z: the first whose bottom is at or below z.
+    std::size_t r = static_cast<std::size_t>(
+        std::partition_point(run_bottoms_.begin(), run_bottoms_.end(), [&](double bottom) { return bottom > z; }) -
+        run_bottoms_.begin());
+    if (r >= runs_.size()) r = runs_.size() - 1;
 
     AccessibleInterval out;
     if (start_is_upper_turn) {
@@ -519,17 +543,23 @@ std::optional<AccessibleInterval> StratifiedProfile::interval_around(const RayLe
     } else {
         out.upper_kind = UpperEndKind::surface;
         out.upper_z = 0.0;
-        for (std::size_t j = r + 1; j-- > 0;) {
+        // Upward from the run of z; a run whose top is clearly inside passes on to the nearest
+        // run above with a lower n at its top (those in between are inside too).
+        std::size_t j = runs_[r].z_top > z ? r : r == 0 ? no_run : r - 1;
+        while (j != no_run) {
             const double top = runs_[j].z_top;
-            if (top <= z) continue;
-            if (clearly_inside(level, runs_[j].index_top)) continue;
+            if (clearly_inside(level, runs_[j].index_top)) {
+                j = upper_lower_top_[j];
+                continue;
+            }
             if (gap(level, top) <= 0.0) {
                 const double inside = j == r ? z : runs_[j].z_bottom;
                 out.upper_kind = UpperEndKind::turning;
-                out.upper_z = solve_turning(level, inside, top);
+                out.upper_z = solve_turning(level, inside, top, j == r ? g : not_a_number);
                 out.upper_double_root = out.upper_z == top && is_local_minimum(top);
                 break;
             }
+            j = j == 0 ? no_run : j - 1;
         }
     }
     if (start_is_lower_turn) {
@@ -538,17 +568,22 @@ std::optional<AccessibleInterval> StratifiedProfile::interval_around(const RayLe
     } else {
         out.lower_kind = bottom_z_ ? LowerEndKind::bottom : LowerEndKind::unbounded;
         out.lower_z = bottom_z_ ? *bottom_z_ : -infinity;
-        for (std::size_t j = r; j < runs_.size(); ++j) {
+        // Downward in the same way, through runs with a lower n at their bottom.
+        std::size_t j = runs_[r].z_bottom < z ? r : r + 1 < runs_.size() ? r + 1 : no_run;
+        while (j != no_run) {
             const double bottom = runs_[j].z_bottom;
-            if (bottom >= z) continue;
-            if (clearly_inside(level, runs_[j].index_bottom)) continue;
+            if (clearly_inside(level, runs_[j].index_bottom)) {
+                j = lower_lower_bottom_[j];
+                continue;
+            }
             if (gap(level, bottom) <= 0.0) {
                 const double inside = j == r ? z : runs_[j].z_top;
                 out.lower_kind = LowerEndKind::turning;
-                out.lower_z = solve_turning(level, inside, bottom);
+                out.lower_z = solve_turning(level, inside, bottom, j == r ? g : not_a_number);
                 out.lower_double_root = out.lower_z == bottom && is_local_minimum(bottom);
                 break;
             }
+            j = j + 1 < runs_.size() ? j + 1 : no_run;
         }
     }
     return out;

@@ -6,6 +6,7 @@
 #pragma once
 
 #include <cstddef>
+#include <limits>
 #include <memory>
 #include <mutex>
 #include <optional>
@@ -161,8 +162,10 @@ private:
     void build_cells(double analysis_depth_m);
     void add_piece_cells(std::size_t piece, double z_top, double z_bottom);
     void build_runs();
-    // The turning point between z_inside (gap > 0) and z_outside (gap <= 0) of one run.
-    double solve_turning(const RayLevel& level, double z_inside, double z_outside) const;
+    // The turning point between z_inside (gap > 0) and z_outside (gap <= 0) of one run; gap_inside:
+    // gap() at z_inside when known (NaN: computed here).
+    double solve_turning(const RayLevel& level, double z_inside, double z_outside,
+                         double gap_inside = std::numeric_limits<double>::quiet_NaN()) const;
     // n − ξ at the bottom of a cell from the stored n there; NaN where that is within rounding of 0.
     double boundary_gap(const RayLevel& level, std::size_t cell) const;
     bool is_local_minimum(double z) const;
@@ -179,6 +182,10 @@ private:
     std::vector<double> cell_bottoms_;                 // cells_[i].z_bottom, for cell_at
     std::vector<double> cell_bottom_index_;            // n there, from cells_[i]'s formula
     std::vector<Run> runs_;                            // from the surface down
+    std::vector<double> run_bottoms_;                  // runs_[i].z_bottom
+    static constexpr std::size_t no_run = static_cast<std::size_t>(-1);
+    std::vector<std::size_t> upper_lower_top_;         // see build_runs
+    std::vector<std::size_t> lower_lower_bottom_;
     std::vector<double> minima_z_;
     struct LazySnellTables {
         std::once_flag made;
