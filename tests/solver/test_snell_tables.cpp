@@ -269,3 +269,53 @@ TEST_CASE("legs turning just beside a local minimum of n agree with the direct q
     WARN("turning beside a minimum: largest difference from the direct quadrature " << worst_distance
          << " m, ∂x/∂ξ against central differences " << worst_derivative << " relative (" << legs << " legs)");
 }
+
+TEST_CASE("tabulated legs crossing whole cells just below a local minimum of n, n − ξ from 1e-3 down to 1e-15, "
+          "agree with the direct quadrature within 1e-12 relative, and with tanh_sinh quadrature of the Snell "
+          "integrals (Boost.Math) within 1e-10 where n − ξ >= 1e-10",
+          "[solver][stratified][snell tables]") {
+    // The blocks whose smallest n is a minimum with n′ = 0 come from the pieces below w0 there
+    // (snell_integrals.cpp, SnellCellTables::base_levels), x growing like log(n − ξ); the legs
+    // reach 0 to 20 cells beyond the two cells next to the minimum, so blocks of several levels
+    // serve them.
+    const auto table = layered_log();
+    const StratifiedProfile profile(table);
+    std::vector<double> breaks(table->joins_z().rbegin(), table->joins_z().rend());
+    double worst_direct = 0.0, worst_reference = 0.0, worst_derivative = 0.0;
+    int legs = 0;
+    for (const double beyond : {0.0, 1.0, 5.0, 20.0}) {
+        for (const double z_m : profile.local_minima_z()) {
+            for (int decade = 3; decade <= 15; ++decade) {
+                const double g = 1.37 * std::pow(10.0, -decade);
+                const RayLevel level = RayLevel::anchored_at(profile, z_m, g);
+                const double z_low = std::max(-199.0, z_m - 1.3 - beyond), z_high = std::min(-0.01, z_m + 1.7 + beyond);
+                const auto interval = profile.interval_around(level, z_low);
+                if (!interval || !interval->contains(z_high)) continue;
+                const LegIntegrals ours = leg_integrals(profile, level, {z_low}, {z_high});
+                const LegIntegrals direct = leg_integrals_by_quadrature(profile, level, {z_low}, {z_high});
+                INFO("minimum at " << z_m << " m, n − ξ " << g << ", from " << z_low << " to " << z_high);
+                CHECK(ours.distance_m == Approx(direct.distance_m).epsilon(1e-12));
+                CHECK(ours.optical_path_m == Approx(direct.optical_path_m).epsilon(1e-12));
+                CHECK(ours.length_m == Approx(direct.length_m).epsilon(1e-12));
+                CHECK(ours.distance_derivative == Approx(direct.distance_derivative).epsilon(1e-12));
+                worst_direct = std::max(worst_direct, std::abs(ours.distance_m - direct.distance_m) / direct.distance_m);
+                worst_derivative = std::max(worst_derivative, std::abs(ours.distance_derivative - direct.distance_derivative) /
+                                                                  std::abs(direct.distance_derivative));
+                ++legs;
+                // tanh_sinh in z is itself good to about 1e-11 at n − ξ = 1e-12 only (the zeros of Q²
+                // at z_m ± i·√(2g/n″) come too close for it): compared down to 1e-10.
+                if (decade > 10 || beyond > 5.0) continue;
+                auto gap = [&](double z, double) { return profile.gap(level, z); };
+                const auto ref = test::snell_integrals(*table, level.ray_parameter, z_low, z_high, gap, breaks);
+                CHECK(ours.distance_m == Approx(ref.distance_m).epsilon(1e-10));
+                CHECK(ours.optical_path_m == Approx(ref.optical_path_m).epsilon(1e-10));
+                CHECK(ours.distance_derivative == Approx(ref.distance_derivative).epsilon(1e-9));
+                worst_reference = std::max(worst_reference, std::abs(ours.distance_m - ref.distance_m) / ref.distance_m);
+            }
+        }
+    }
+    CHECK(legs > 600);
+    WARN("crossing whole cells below a minimum: largest relative distance difference from the direct quadrature "
+         << worst_direct << ", ∂x/∂ξ " << worst_derivative << ", from tanh_sinh " << worst_reference << " (" << legs
+         << " legs)");
+}
