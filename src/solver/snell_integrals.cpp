@@ -293,8 +293,9 @@ public:
             if (!(reach > 0.0)) continue;
             const double beyond = third_zero * side > 0.0 ? std::abs(third_zero) : infinity;
             if (!(beyond > reach)) return false;
+            SinhCoshNodes at_nodes;
             graded_panels(std::asinh(reach / s), std::asinh(beyond / s),
-                          [&](double a, double b) { sinh_panel(root, side, s, a, b); });
+                          [&](double a, double b) { sinh_panel(root, side, s, a, b, at_nodes); });
         }
         return true;
     }
@@ -320,19 +321,48 @@ public:
         }
     }
 
-    // sinh t and cosh t from one expm1, without cancellation for small t (t >= 0).
-    static void sinh_cosh(double t, double& sinh_t, double& cosh_t) {
-        const double m = std::expm1(t), e = m + 1.0;
-        sinh_t = 0.5 * m * (m + 2.0) / e;
-        cosh_t = 1.0 + 0.5 * m * m / e;
-    }
+    // sinh t and cosh t at the 16 Gauss–Legendre nodes of a panel [centre − half, centre + half]
+    // in t >= 0: e^(centre ± half·x) = e^centre·e^(±half·x) from one exponential per panel and those
+    // of the node offsets, kept while the panels' width stays the same (graded_panels makes them
+    // equal but for the ones graded toward a pole). The nodes are symmetric (x[15 − i] = −x[i]).
+    // Where t is small, sinh t = (p − 1/p)/2 keeps an absolute error of an ulp: the node moves by
+    // 1e-16 in t, the weight (cosh) agreeing with it, so the sum moves by as little.
+    class SinhCoshNodes {
+    public:
+        static constexpr int count = 16;
+        double sinh_t[count], cosh_t[count];
 
-    void sinh_panel(const DoubleRoot& root, double side, double s, double a, double b) {
+        void panel(double centre, double half) {
+            if (half != half_) {
+                half_ = half;
+                const GaussRule& r = rule(count);
+                for (int i = 0; i < count / 2; ++i) {
+                    up_[i] = std::exp(half * r.nodes[i]);
+                    down_[i] = 1.0 / up_[i];
+                }
+            }
+            const double e = std::exp(centre), inverse = 1.0 / e;
+            for (int i = 0; i < count / 2; ++i) {
+                const double p = e * up_[i], q = inverse * down_[i];  // node i: centre + half·x[i]
+                sinh_t[i] = 0.5 * (p - q);
+                cosh_t[i] = 0.5 * (p + q);
+                const double pm = e * down_[i], qm = inverse * up_[i];  // node 15 − i: centre − half·x[i]
+                sinh_t[count - 1 - i] = 0.5 * (pm - qm);
+                cosh_t[count - 1 - i] = 0.5 * (pm + qm);
+            }
+        }
+
+    private:
+        double half_ = -1.0;
+        double up_[count / 2] = {}, down_[count / 2] = {};
+    };
+
+    void sinh_panel(const DoubleRoot& root, double side, double s, double a, double b, SinhCoshNodes& at_nodes) {
         const GaussRule& r = rule(16);
         const double centre = 0.5 * (a + b), half = 0.5 * (b - a);
+        at_nodes.panel(centre, half);
         for (std::size_t i = 0; i < r.nodes.size(); ++i) {
-            double sinh_t, cosh_t;
-            sinh_cosh(centre + half * r.nodes[i], sinh_t, cosh_t);
+            const double sinh_t = at_nodes.sinh_t[i], cosh_t = at_nodes.cosh_t[i];
             const double delta = s * sinh_t, w = half * r.weights[i] * s * cosh_t;
             const double rise =
                 side * delta * (root.slope + side * delta * (root.half_curvature + side * delta * root.sixth_third));
@@ -388,12 +418,12 @@ public:
         const GaussRule& r = rule(16);
         // τ = acosh(1 + δ/d), as 2 asinh(√(δ/2d)) so that small δ/d keeps its digits.
         auto tau_of = [&](double delta) { return 2.0 * std::asinh(std::sqrt(0.5 * delta / root.d)); };
+        SinhCoshNodes at_nodes;  // of τ/2
         graded_panels(tau_of(reach), tau_of(beyond), [&](double a, double b) {
             const double centre = 0.5 * (a + b), half = 0.5 * (b - a);
+            at_nodes.panel(0.5 * centre, 0.5 * half);
             for (std::size_t i = 0; i < r.nodes.size(); ++i) {
-                const double tau = centre + half * r.nodes[i];
-                double sinh_half, cosh_half;
-                sinh_cosh(0.5 * tau, sinh_half, cosh_half);
+                const double sinh_half = at_nodes.sinh_t[i], cosh_half = at_nodes.cosh_t[i];
                 const double delta = 2.0 * root.d * sinh_half * sinh_half;  // d (cosh τ − 1), no cancellation
                 const double w = half * r.weights[i] * root.d * 2.0 * sinh_half * cosh_half;  // d sinh τ dτ
                 const double gz = delta * (root.slope_in + delta * (0.5 * root.curvature + delta * sixth));
