@@ -84,7 +84,11 @@ struct SnellCellTables {
         double z_high = 0.0, z_low = 0.0;  // the ends where n is largest and smallest
         double n_high = 0.0, n_low = 0.0;  // from the cell's formula
         std::size_t first_piece = 0;       // 2 × turn_levels pieces
-        bool low_double_root = false;      // n′ = 0 at the low end: see turn_piece
+        // n′ = 0 at the low end (a double root as ξ → n_low: x grows like log ρ). The pieces toward
+        // it are built from the cubic's expansion about that end (turning_beside_minimum) where n″
+        // > 0 beyond the turning point, not from a turning depth found in z, whose rounding would
+        // scatter x by up to 1e-8 relative there and fail the pieces' checks.
+        bool low_double_root = false;
     };
     std::vector<TurnCell> turn_cells;
     std::unique_ptr<std::atomic<Piece*>[]> turn_pieces;
@@ -402,6 +406,56 @@ public:
         profile_.evaluate(cell, z_t, root.n, n1, root.curvature);
         root.slope_in = n1 * inward;
         root.third = profile_.third_derivative(cell, z_t);
+        return turning_part(cell, root, boundary, reach);
+    }
+
+    // The same for a turning cell's table (SnellCellTables::build_turn) where the cell's low end
+    // z_m is a minimum of n with n′ = 0 and ξ = n(z_m) + ρ: the turning point and the expansion
+    // about it come from the cubic's expansion about z_m in δ = distance from z_m, solved by
+    // Newton in δ itself, so that they are exact for this ρ (a turning depth rounded to an ulp of
+    // z would move x by about ulp(z)/δ relative, 1e-8 where δ is 1e-5 m).
+    bool turning_beside_minimum(std::size_t cell, double z_m, double z_high, double rho) {
+        if (failed_ || !profile_.is_cubic(cell) || !(rho > 0.0)) return false;
+        const int inward = z_high > z_m ? 1 : -1;
+        const double span = (z_high - z_m) * inward;
+        double n, n1, n2;
+        profile_.evaluate(cell, z_m, n, n1, n2);
+        const double slope = n1 * inward, half_curvature = 0.5 * n2, sixth_third = inward * profile_.third_derivative(cell, z_m) / 6.0;
+        if (!(half_curvature > 0.0)) return false;
+        // n − ξ = slope·δ + n″δ²/2 + n‴δ³/6 − ρ, growing in δ up to the turning point.
+        // Newton from √(ρ/(n″/2)), converging quadratically: one more step once the step is
+        // below 1e-9 of δ leaves δ to rounding.
+        double delta = std::sqrt(rho / half_curvature);
+        int final_steps = -1;
+        for (int iteration = 0; iteration < 60 && final_steps != 0; ++iteration) {
+            const double gap = delta * (slope + delta * (half_curvature + delta * sixth_third)) - rho;
+            const double growth = slope + delta * (2.0 * half_curvature + 3.0 * delta * sixth_third);
+            if (!(growth > 0.0)) return false;
+            const double step = gap / growth;
+            delta -= step;
+            if (final_steps > 0) --final_steps;
+            else if (final_steps < 0 && std::abs(step) <= 1e-9 * delta) final_steps = 1;
+        }
+        if (final_steps != 0 || !(delta > 0.0) || !(delta < span)) return false;
+        TurningRoot root;
+        root.inward = inward;
+        root.z = z_m + inward * delta;
+        root.n = xi_;
+        root.slope_in = slope + delta * (2.0 * half_curvature + 3.0 * delta * sixth_third);
+        root.curvature = 2.0 * half_curvature + 6.0 * delta * sixth_third;
+        root.third = inward * 6.0 * sixth_third;
+        return turning_part(cell, root, z_high, span - delta);
+    }
+
+    struct TurningRoot {
+        int inward = 1;
+        double z = 0.0, n = 0.0, slope_in = 0.0, curvature = 0.0, third = 0.0, d = 0.0;
+    };
+
+    // The panels of turning_next_to_double_root from the root to `boundary`, `reach` away.
+    bool turning_part(std::size_t cell, TurningRoot& root, double boundary, double reach) {
+        const int inward = root.inward;
+        const double z_t = root.z;
         if (!(root.slope_in > 0.0) || !(root.curvature > 0.0)) return false;
         root.d = root.slope_in / root.curvature;
         // n must keep growing inward up to the boundary (h = 1/(n n′) finite): n′ is a quadratic
@@ -461,11 +515,6 @@ public:
         }
         return true;
     }
-
-    struct TurningRoot {
-        int inward = 1;
-        double z = 0.0, n = 0.0, slope_in = 0.0, curvature = 0.0, third = 0.0, d = 0.0;
-    };
 
     // Everything from the middle of the leg between its end pieces, cell by cell; runs of whole
     // cells from the tables where they have them.
@@ -1049,9 +1098,6 @@ const SnellCellTables::Piece* SnellCellTables::turn_piece(const StratifiedProfil
     const bool near_high = sigma <= rho;
     const int level = std::max(0, std::ilogb(range / (near_high ? sigma : rho)) - 1);
     if (level >= turn_levels) return nullptr;
-    // Next to a double root (ξ → a minimum of n where n′ = 0) x grows like log ρ and the problem
-    // is ill-conditioned; as for the blocks, the last 1e-4 of the cell's range stays direct.
-    if (!near_high && turn.low_double_root && level >= 12) return nullptr;
     const std::size_t index = static_cast<std::size_t>(near_high ? level : turn_levels + level);
     variable = std::log(near_high ? sigma : rho);
     const Piece* found =
@@ -1082,6 +1128,19 @@ std::unique_ptr<SnellCellTables::Piece> SnellCellTables::build_turn(const Strati
             ray.anchor_z = turn.z_low, ray.anchor_index = turn.n_low, ray.offset = -distance;
         }
         ray.ray_parameter = ray.anchor_index - ray.offset;
+        // Toward a low end where n′ = 0, from the expansion about it where that applies (n″ > 0
+        // from the turning point on), else as below.
+        if (!near_high && turn.low_double_root) {
+            LegQuadrature quadrature(profile, ray, true, true, nullptr, 0);
+            if (quadrature.turning_beside_minimum(cell, turn.z_low, turn.z_high, distance)) {
+                const Sums& part = quadrature.sums();
+                out[0] = part.x / ray.ray_parameter;
+                out[1] = part.optical;
+                out[2] = part.length;
+                out[3] = std::sqrt(sigma) * part.derivative;
+                return std::isfinite(out[0]) && std::isfinite(out[1]) && std::isfinite(out[2]) && std::isfinite(out[3]);
+            }
+        }
         auto gap = [&](double z) {
             double n, dn, d2n;
             profile.evaluate(cell, z, n, dn, d2n);
