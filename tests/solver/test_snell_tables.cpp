@@ -327,3 +327,53 @@ TEST_CASE("tabulated legs crossing whole cells just below a local minimum of n, 
          << worst_direct << ", ∂x/∂ξ " << worst_derivative << ", from tanh_sinh " << worst_reference << " (" << legs
          << " legs)");
 }
+
+TEST_CASE("legs turning just beside a local minimum of n, ξ − n from 1e-3 down to 1e-15, vary smoothly with ξ (fourth "
+          "differences within 1e-11 relative, common practice for checking the noise of a computed function) and agree "
+          "with the direct quadrature within what a rounding of the turning depth moves x",
+          "[solver][stratified][snell tables]") {
+    // The turning cells next to a minimum with n′ = 0 are tabulated from the expansion about the
+    // minimum (snell_integrals.cpp, turning_beside_minimum): x is a smooth function of ρ = ξ − n_min
+    // there, where a turning depth rounded to an ulp of z scatters it by up to 1e-10.
+    const StratifiedProfile profile(layered_log());
+    double worst_noise = 0.0, worst_direct = 0.0;
+    int legs = 0;
+    for (const double z_m : profile.local_minima_z()) {
+        const double z_start = z_m - 7.3;
+        if (z_start < -199.0) continue;
+        for (int decade = 3; decade <= 15; ++decade) {
+            const double above = 1.37 * std::pow(10.0, -decade);
+            std::vector<double> distances;
+            for (int k = 0; k < 5; ++k) {
+                const RayLevel level = RayLevel::anchored_at(profile, z_m, -above * (1.0 + 1e-3 * k));
+                const auto interval = profile.interval_around(level, z_start);
+                if (!interval || interval->upper_kind != UpperEndKind::turning || std::abs(interval->upper_z - z_m) > 0.1) break;
+                const LegEndpoint top{interval->upper_z, LegEnd::turning};
+                const LegIntegrals ours = leg_integrals(profile, level, {z_start}, top);
+                distances.push_back(ours.distance_m);
+                if (k > 0) continue;
+                const LegIntegrals direct = leg_integrals_by_quadrature(profile, level, {z_start}, top);
+                // The direct quadrature starts from the turning depth, rounded to an ulp of z: x moves
+                // by ∂x/∂z_t·ulp = ∂x/∂ξ·n′(z_t)·ulp(z_t).
+                double n, dn, d2n;
+                profile.evaluate(profile.cell_at(interval->upper_z), interval->upper_z, n, dn, d2n);
+                const double rounding = 4.0 * std::abs(direct.distance_derivative) *
+                                        (std::abs(dn) * std::abs(z_m) + level.ray_parameter) *
+                                        std::numeric_limits<double>::epsilon();
+                INFO("minimum at " << z_m << " m, ξ − n " << above);
+                CHECK(std::abs(ours.distance_m - direct.distance_m) <= 1e-12 * direct.distance_m + rounding);
+                worst_direct = std::max(worst_direct, std::abs(ours.distance_m - direct.distance_m) / direct.distance_m);
+            }
+            if (distances.size() < 5) continue;
+            const double fourth =
+                distances[4] - 4.0 * distances[3] + 6.0 * distances[2] - 4.0 * distances[1] + distances[0];
+            INFO("minimum at " << z_m << " m, ξ − n " << above);
+            CHECK(std::abs(fourth) <= 1e-11 * distances[0]);
+            worst_noise = std::max(worst_noise, std::abs(fourth) / distances[0]);
+            ++legs;
+        }
+    }
+    CHECK(legs > 150);
+    WARN("turning beside a minimum: largest relative fourth difference of x over ξ " << worst_noise
+         << ", largest relative difference from the direct quadrature " << worst_direct << " (" << legs << " legs)");
+}
