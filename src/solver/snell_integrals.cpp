@@ -3,7 +3,9 @@
 #include <algorithm>
 #include <array>
 #include <atomic>
+#include <bit>
 #include <cmath>
+#include <cstdint>
 #include <limits>
 #include <memory>
 #include <optional>
@@ -523,11 +525,11 @@ public:
         const std::size_t count = profile_.cell_count();
         std::size_t last_whole = count;  // the deepest cell inside [low, high] (count: none)
         if (table_levels_ > 0) {
-            const std::size_t c = profile_.cell_at(low, 1);
+            const std::size_t c = cell_at(low, 1);
             if (profile_.cell_bottom(c) == low) last_whole = c;
             else if (c > 0) last_whole = c - 1;
         }
-        for (std::size_t cell = profile_.cell_at(high, -1); cell < count;) {
+        for (std::size_t cell = cell_at(high, -1); cell < count;) {
             const bool last = cell + 1 == count;
             const double top = std::min(high, profile_.cell_top(cell));
             const double bottom = last ? low : std::max(low, profile_.cell_bottom(cell));
@@ -551,9 +553,10 @@ public:
     std::size_t from_tables(std::size_t cell, std::size_t last_whole) {
         if (failed_) return 0;
         SnellCellTables& tables = this->tables();
-        for (std::size_t level = std::min(table_levels_, tables.levels.size()); level-- > 0;) {
-            const std::size_t size = std::size_t{1} << level;
-            if (cell % size != 0) continue;
+        // Blocks of level L start at multiples of 2^L: none above the lowest set bit of `cell`.
+        std::size_t top_level = std::min(table_levels_, tables.levels.size());
+        if (cell != 0) top_level = std::min(top_level, static_cast<std::size_t>(std::countr_zero(cell)) + 1);
+        for (std::size_t level = top_level; level-- > 0;) {
             const SnellCellTables::Block& block = tables.levels[level][cell >> level];
             if (block.last_cell > last_whole) continue;
             if (add_block(tables, level, block)) return block.last_cell - block.first_cell + 1;
@@ -631,7 +634,7 @@ public:
     // How much of the leg next to one end is integrated in u (z = root ± u²).
     EndPiece plan_end(double z_end, LegEnd kind, int inward, double available, std::size_t& cell, double& g0,
                       double& slope_in, bool& double_root) {
-        cell = profile_.cell_at(z_end, inward);
+        cell = cell_at(z_end, inward);
         // An end within rounding of the cell's far boundary (a turning point found just beside a
         // knot) takes the next cell's formula, continued over that sliver.
         const double room = inward > 0 ? profile_.cell_top(cell) - z_end : z_end - profile_.cell_bottom(cell);
@@ -745,6 +748,18 @@ private:
     const AttenuationProfile* attenuation_;
     std::size_t table_levels_;
     SnellCellTables* tables_ = nullptr;  // fetched on first use
+    // StratifiedProfile::cell_at for the leg's two ends, looked up by plan_end and again by middle.
+    struct Located {
+        double z = 0.0;
+        int toward = 0;
+        std::size_t cell = 0;
+    };
+    Located located_[2];
+    std::size_t cell_at(double z, int toward) {
+        Located& slot = located_[toward > 0 ? 0 : 1];
+        if (slot.toward != toward || slot.z != z) slot = {z, toward, profile_.cell_at(z, toward)};
+        return slot.cell;
+    }
     SnellCellTables& tables() {
         if (!tables_) tables_ = &profile_.snell_cell_tables();
         return *tables_;
@@ -969,6 +984,12 @@ std::shared_ptr<SnellCellTables> make_snell_cell_tables(const StratifiedProfile&
 
 namespace {
 
+// std::ilogb of a positive finite x, from its bits where x is normal (the table lookups' hot path).
+int binary_exponent(double x) {
+    const int biased = static_cast<int>((std::bit_cast<std::uint64_t>(x) >> 52) & 0x7ff);
+    return biased == 0 || biased == 0x7ff ? std::ilogb(x) : biased - 1023;
+}
+
 // The piece in `slot`, built by `build` on first use. Two threads may build the same piece; the
 // first to publish it wins and the other's is dropped.
 template <class Piece, class Build>
@@ -992,7 +1013,7 @@ const SnellCellTables::Piece* SnellCellTables::piece(const StratifiedProfile& pr
 const SnellCellTables::Piece* SnellCellTables::piece_in(const StratifiedProfile& profile, std::size_t level,
                                                         const Block& block, double w_squared,
                                                         std::atomic<Piece*>* slots) {
-    const int above_base = std::ilogb(w_squared) - block.w0_exponent;
+    const int above_base = binary_exponent(w_squared) - block.w0_exponent;
     std::size_t index = above_base < 0 ? 0 : static_cast<std::size_t>(above_base) + 1;
     if (block.direct_base) {
         if (index >= block.piece_count - base_levels) return nullptr;
