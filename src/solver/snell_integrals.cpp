@@ -656,7 +656,14 @@ public:
             if (!(slope_in > 0.0)) return piece;  // n does not fall toward a root beyond this end
         }
         const double q1 = 2.0 * n * dn, q2 = 2.0 * (dn * dn + n * d2n);
-        const double curvature_length = q2 == 0.0 ? infinity : std::abs(q1 / q2);
+        double curvature_length = q2 == 0.0 ? infinity : std::abs(q1 / q2);
+        // Also well short of where n′ may vanish (a zero of n′ + n″δ + n‴δ²/2 lies at least
+        // min(|n′/n″|, √|2n′/n‴|)/2 away, Fujiwara's bound): with a turning end the ξ-derivative is
+        // taken by parts through h = 1/(n n′), which has a pole there. Near an inflection point n″
+        // alone would not see it (a cell between a minimum and a maximum of n).
+        const double third = profile_.third_derivative(cell, z_end);
+        if (kind == LegEnd::turning && third != 0.0)
+            curvature_length = std::min(curvature_length, std::sqrt(std::abs(2.0 * dn / third)));
         const double cell_room = std::max(0.0, inward > 0 ? profile_.cell_top(cell) - z_end : z_end - profile_.cell_bottom(cell));
         piece.length = std::min({available, 0.125 * curvature_length, cell_room});
         const double virtual_root_distance = g0 / slope_in;
