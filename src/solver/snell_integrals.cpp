@@ -225,11 +225,13 @@ public:
         const SquareTaylor taylor(g, n, xi_, dn, d2n, profile_.third_derivative(cell, centre));
         // Gauss–Legendre with m points errs like ρ^(−2m), ρ = t + √(t² − 1), with t·half the
         // distance to the nearest zero of Q²: these thresholds keep that near 1e-13 (Fujiwara's
-        // bound is a lower bound, often by a factor ~2).
+        // bound is a lower bound, often by a factor ~2). 16 points down to t = 1.5 (4e-14 at the
+        // bound itself) rather than two halves, each of which would split again.
         int points = 0;
         if (taylor.zero_free_within(16.0 * half)) points = 4;
         else if (taylor.zero_free_within(5.0 * half)) points = 6;
         else if (taylor.zero_free_within(2.1 * half) || depth >= 60) points = 10;
+        else if (taylor.zero_free_within(1.5 * half)) points = 16;
         if (points == 0) {
             regular(cell, low, centre, depth + 1);
             regular(cell, centre, high, depth + 1);
