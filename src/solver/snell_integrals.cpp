@@ -34,9 +34,11 @@ namespace firnray {
 // is built on first use at its Chebyshev nodes, from the direct quadrature (level 0) or from the
 // blocks one level down (each built and checked the same way), checked (small last coefficients,
 // and two more points against the sum it was built from), and kept as "integrate directly" when a
-// check fails. Where N is a minimum of n (n′ = 0: a logarithm at w = 0) piece 0 is cut into
-// dyadic pieces in w² too, going down (see base_levels): on the 200-point log of the tests they
-// agree with the direct quadrature to 1e-14 relative for n − ξ from 1e-3 to 1e-15.
+// check fails. Where N is a minimum of n (n′ = 0: a logarithm at w = 0), or piece 0 fails its
+// checks (n′ small at z_min: the same logarithm, blurred over w ~ n′/√(2n″), too close to the
+// real axis for one series on [0, w0]), piece 0 is cut into dyadic pieces in w² too, going down
+// (see base_levels): on the 200-point log of the tests they agree with the direct quadrature to
+// 1e-14 relative for n − ξ from 1e-3 to 1e-15.
 struct SnellCellTables {
     static constexpr int degree = 16;
     static constexpr int nodes = degree + 1;
@@ -50,17 +52,18 @@ struct SnellCellTables {
         std::size_t first_cell = 0, last_cell = 0;
         double z_top = 0.0, z_bottom = 0.0;  // its extent (the cells', or a part of one cell)
         bool tabulated = false;    // false: n (all but) constant on the block, always direct
-        bool direct_base = false;  // N is a minimum of n (n′ = 0 there): piece 0 split, see base_levels
+        bool direct_base = false;  // N is a minimum of n (n′ = 0 there): piece 0 always split (base_levels)
         double z_min = 0.0;        // where n is smallest on the block
         std::size_t cell_min = 0;  // a cell of the block holding z_min
         double n_min = 0.0;        // N, from that cell's formula
         int w0_exponent = 0;       // w0² = 2^w0_exponent
-        // Slots [first_piece, first_piece + piece_count): the pieces above (piece 0 and up), then,
-        // where direct_base, the base_levels pieces below w0 (base_slot).
+        // Slots [first_piece, first_piece + piece_count): the pieces above (piece 0 and up), then
+        // the base_levels pieces below w0 (base_slot).
         std::size_t first_piece = 0, piece_count = 0;
     };
     // Where N is a minimum of n with n′ = 0, the block's integrals go like A + B·log w as w → 0
     // (A, B analytic in w²): piece 0 is replaced by pieces w² in [w0² 2^(−k−1), w0² 2^(−k)],
+    // and so it is wherever piece 0 fails its checks,
     // k < base_levels (down to w² ~ 1e-21·w0², far below a rounding error of ξ), on each of which
     // the series in w converge as on the pieces above (the singularity at w = 0 lies as far off,
     // relative to the piece's width); below the last, the block is integrated directly.
@@ -956,7 +959,7 @@ std::shared_ptr<SnellCellTables> make_snell_cell_tables(const StratifiedProfile&
             block.w0_exponent = std::ilogb(0.25 * gap);
             // Pieces up to w² = N (ξ = 0).
             block.piece_count = static_cast<std::size_t>(std::max(0, std::ilogb(lowest->n) - block.w0_exponent)) + 2;
-            if (block.direct_base) block.piece_count += SnellCellTables::base_levels;
+            block.piece_count += SnellCellTables::base_levels;
             block.first_piece = total;
             total += block.piece_count;
         }
@@ -1024,16 +1027,16 @@ const SnellCellTables::Piece* SnellCellTables::piece_in(const StratifiedProfile&
                                                         std::atomic<Piece*>* slots) {
     const int above_base = binary_exponent(w_squared) - block.w0_exponent;
     std::size_t index = above_base < 0 ? 0 : static_cast<std::size_t>(above_base) + 1;
-    if (block.direct_base) {
-        if (index >= block.piece_count - base_levels) return nullptr;
-        if (index == 0) {
-            // w² in [w0² 2^(−k−1), w0² 2^(−k)): ilogb(w²) = w0_exponent − k − 1.
-            const int k = -above_base - 1;
-            if (k >= base_levels) return nullptr;
-            index = base_slot(block, k);
+    if (index >= block.piece_count - base_levels) return nullptr;
+    if (index == 0) {
+        if (!block.direct_base) {
+            const Piece* whole = published(slots[0], [&] { return build(profile, level, block, 0); });
+            if (whole->tabulated) return whole;
         }
-    } else if (index >= block.piece_count) {
-        return nullptr;
+        // w² in [w0² 2^(−k−1), w0² 2^(−k)): ilogb(w²) = w0_exponent − k − 1.
+        const int k = -above_base - 1;
+        if (k >= base_levels) return nullptr;
+        index = base_slot(block, k);
     }
     const Piece* found = published(slots[index], [&] { return build(profile, level, block, index); });
     return found->tabulated ? found : nullptr;
@@ -1043,7 +1046,7 @@ std::unique_ptr<SnellCellTables::Piece> SnellCellTables::build(const StratifiedP
                                                                const Block& block, std::size_t index) {
     auto piece = std::make_unique<Piece>();
     const double w0_squared = std::ldexp(1.0, block.w0_exponent);
-    if (block.direct_base && index >= base_slot(block, 0)) {
+    if (index >= base_slot(block, 0)) {
         const int k = static_cast<int>(index - base_slot(block, 0));
         piece->w_low = std::sqrt(std::ldexp(w0_squared, -k - 1));
         piece->w_high = std::sqrt(std::ldexp(w0_squared, -k));

@@ -408,3 +408,39 @@ TEST_CASE("∂x/∂ξ of legs turning in a cell between a minimum and a maximum 
     }
     CHECK(legs > 10);
 }
+
+TEST_CASE("tabulated legs from the lower-index end of each cell with n − ξ there from 1e-3 down to 1e-15 agree with "
+          "the direct quadrature within 1e-12 relative",
+          "[solver][stratified][snell tables]") {
+    // A ray almost horizontal at a cell's end where n is smallest: where n′ is small there (near a
+    // minimum of n) the cell's integrals behave like log w down to w ~ n′/√(2n″), and the cell comes
+    // from the dyadic pieces below w0 (snell_integrals.cpp, SnellCellTables::base_levels) instead
+    // of one series over [0, w0]. The leg runs on 0.37 m into the next cell, so the cell is whole.
+    const StratifiedProfile profile(layered_log());
+    double worst = 0.0, worst_derivative = 0.0;
+    int legs = 0;
+    for (std::size_t cell = 1; cell + 2 < profile.cell_count() && profile.cell_bottom(cell) > -199.0; ++cell) {
+        const double top = profile.cell_top(cell), bottom = profile.cell_bottom(cell);
+        const bool lowest_at_top = profile.index(top) < profile.index(bottom);
+        const double z_low_index = lowest_at_top ? top : bottom, beyond = lowest_at_top ? bottom - 0.37 : top + 0.37;
+        for (int decade = 3; decade <= 15; decade += 2) {
+            const RayLevel level = RayLevel::anchored_at(profile, z_low_index, 1.37 * std::pow(10.0, -decade));
+            const auto interval = profile.interval_around(level, z_low_index);
+            if (!interval || !interval->contains(beyond)) continue;
+            const LegIntegrals ours = leg_integrals(profile, level, {z_low_index}, {beyond});
+            const LegIntegrals direct = leg_integrals_by_quadrature(profile, level, {z_low_index}, {beyond});
+            INFO("cell " << cell << " from " << z_low_index << " m, n − ξ there " << level.offset);
+            CHECK(ours.distance_m == Approx(direct.distance_m).epsilon(1e-12));
+            CHECK(ours.optical_path_m == Approx(direct.optical_path_m).epsilon(1e-12));
+            CHECK(ours.length_m == Approx(direct.length_m).epsilon(1e-12));
+            CHECK(ours.distance_derivative == Approx(direct.distance_derivative).epsilon(1e-10));
+            worst = std::max(worst, std::abs(ours.distance_m - direct.distance_m) / direct.distance_m);
+            worst_derivative = std::max(worst_derivative, std::abs(ours.distance_derivative - direct.distance_derivative) /
+                                                              std::abs(direct.distance_derivative));
+            ++legs;
+        }
+    }
+    CHECK(legs > 1000);
+    WARN("from the lower-index end of each cell: largest relative difference from the direct quadrature "
+         << worst << " in x, " << worst_derivative << " in ∂x/∂ξ (" << legs << " legs)");
+}
