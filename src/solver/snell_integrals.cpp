@@ -427,7 +427,8 @@ public:
         const double span = (z_high - z_m) * inward;
         double n, n1, n2;
         profile_.evaluate(cell, z_m, n, n1, n2);
-        const double slope = n1 * inward, half_curvature = 0.5 * n2, sixth_third = inward * profile_.third_derivative(cell, z_m) / 6.0;
+        const double slope = n1 * inward, half_curvature = 0.5 * n2;
+        const double sixth_third = inward * profile_.third_derivative(cell, z_m) / 6.0;
         if (!(half_curvature > 0.0)) return false;
         // n − ξ = slope·δ + n″δ²/2 + n‴δ³/6 − ρ, growing in δ up to the turning point.
         // Newton from √(ρ/(n″/2)), converging quadratically: one more step once the step is
