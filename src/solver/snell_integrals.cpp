@@ -64,10 +64,11 @@ struct SnellCellTables {
     // Where N is a minimum of n with n′ = 0, the block's integrals go like A + B·log w as w → 0
     // (A, B analytic in w²): piece 0 is replaced by pieces w² in [w0² 2^(−k−1), w0² 2^(−k)],
     // and so it is wherever piece 0 fails its checks,
-    // k < base_levels (down to w² ~ 1e-21·w0², far below a rounding error of ξ), on each of which
+    // k < base_levels (down to w² ~ 1e-30·w0², far below a rounding error of ξ, for the path
+    // finder's first sample next to a minimum, n − ξ ~ 1e-24 of its range), on each of which
     // the series in w converge as on the pieces above (the singularity at w = 0 lies as far off,
     // relative to the piece's width); below the last, the block is integrated directly.
-    static constexpr int base_levels = 70;
+    static constexpr int base_levels = 100;
     static std::size_t base_slot(const Block& block, int k) {
         return block.piece_count - static_cast<std::size_t>(base_levels) + static_cast<std::size_t>(k);
     }
