@@ -3,7 +3,9 @@
 #include <algorithm>
 #include <array>
 #include <atomic>
+#include <bit>
 #include <cmath>
+#include <cstdint>
 #include <limits>
 #include <memory>
 #include <optional>
@@ -32,9 +34,11 @@ namespace firnray {
 // is built on first use at its Chebyshev nodes, from the direct quadrature (level 0) or from the
 // blocks one level down (each built and checked the same way), checked (small last coefficients,
 // and two more points against the sum it was built from), and kept as "integrate directly" when a
-// check fails. Where N is a minimum of n (n′ = 0: a logarithm at w = 0) piece 0 is always direct:
-// there the problem itself is ill-conditioned (x grows like log w), and tabulating it would move
-// the results by more than the quadrature's own scatter.
+// check fails. Where N is a minimum of n (n′ = 0: a logarithm at w = 0), or piece 0 fails its
+// checks (n′ small at z_min: the same logarithm, blurred over w ~ n′/√(2n″), too close to the
+// real axis for one series on [0, w0]), piece 0 is cut into dyadic pieces in w² too, going down
+// (see base_levels): on the 200-point log of the tests they agree with the direct quadrature to
+// 1e-14 relative for n − ξ from 1e-3 to 1e-15.
 struct SnellCellTables {
     static constexpr int degree = 16;
     static constexpr int nodes = degree + 1;
@@ -48,13 +52,26 @@ struct SnellCellTables {
         std::size_t first_cell = 0, last_cell = 0;
         double z_top = 0.0, z_bottom = 0.0;  // its extent (the cells', or a part of one cell)
         bool tabulated = false;    // false: n (all but) constant on the block, always direct
-        bool direct_base = false;  // N is a minimum of n (n′ = 0 there): piece 0 integrated directly
+        bool direct_base = false;  // N is a minimum of n (n′ = 0 there): piece 0 always split (base_levels)
         double z_min = 0.0;        // where n is smallest on the block
         std::size_t cell_min = 0;  // a cell of the block holding z_min
         double n_min = 0.0;        // N, from that cell's formula
         int w0_exponent = 0;       // w0² = 2^w0_exponent
+        // Slots [first_piece, first_piece + piece_count): the pieces above (piece 0 and up), then
+        // the base_levels pieces below w0 (base_slot).
         std::size_t first_piece = 0, piece_count = 0;
     };
+    // Where N is a minimum of n with n′ = 0, the block's integrals go like A + B·log w as w → 0
+    // (A, B analytic in w²): piece 0 is replaced by pieces w² in [w0² 2^(−k−1), w0² 2^(−k)],
+    // and so it is wherever piece 0 fails its checks,
+    // k < base_levels (down to w² ~ 1e-30·w0², far below a rounding error of ξ, for the path
+    // finder's first sample next to a minimum, n − ξ ~ 1e-24 of its range), on each of which
+    // the series in w converge as on the pieces above (the singularity at w = 0 lies as far off,
+    // relative to the piece's width); below the last, the block is integrated directly.
+    static constexpr int base_levels = 100;
+    static std::size_t base_slot(const Block& block, int k) {
+        return block.piece_count - static_cast<std::size_t>(base_levels) + static_cast<std::size_t>(k);
+    }
 
     std::vector<std::vector<Block>> levels;  // levels[L][i]
     std::unique_ptr<std::atomic<Piece*>[]> pieces;
@@ -73,7 +90,11 @@ struct SnellCellTables {
         double z_high = 0.0, z_low = 0.0;  // the ends where n is largest and smallest
         double n_high = 0.0, n_low = 0.0;  // from the cell's formula
         std::size_t first_piece = 0;       // 2 × turn_levels pieces
-        bool low_double_root = false;      // n′ = 0 at the low end: see turn_piece
+        // n′ = 0 at the low end (a double root as ξ → n_low: x grows like log ρ). The pieces toward
+        // it are built from the cubic's expansion about that end (turning_beside_minimum) where n″
+        // > 0 beyond the turning point, not from a turning depth found in z, whose rounding would
+        // scatter x by up to 1e-8 relative there and fail the pieces' checks.
+        bool low_double_root = false;
     };
     std::vector<TurnCell> turn_cells;
     std::unique_ptr<std::atomic<Piece*>[]> turn_pieces;
@@ -208,11 +229,13 @@ public:
         const SquareTaylor taylor(g, n, xi_, dn, d2n, profile_.third_derivative(cell, centre));
         // Gauss–Legendre with m points errs like ρ^(−2m), ρ = t + √(t² − 1), with t·half the
         // distance to the nearest zero of Q²: these thresholds keep that near 1e-13 (Fujiwara's
-        // bound is a lower bound, often by a factor ~2).
+        // bound is a lower bound, often by a factor ~2). 16 points down to t = 1.5 (4e-14 at the
+        // bound itself) rather than two halves, each of which would split again.
         int points = 0;
         if (taylor.zero_free_within(16.0 * half)) points = 4;
         else if (taylor.zero_free_within(5.0 * half)) points = 6;
         else if (taylor.zero_free_within(2.1 * half) || depth >= 60) points = 10;
+        else if (taylor.zero_free_within(1.5 * half)) points = 16;
         if (points == 0) {
             regular(cell, low, centre, depth + 1);
             regular(cell, centre, high, depth + 1);
@@ -282,8 +305,9 @@ public:
             if (!(reach > 0.0)) continue;
             const double beyond = third_zero * side > 0.0 ? std::abs(third_zero) : infinity;
             if (!(beyond > reach)) return false;
+            SinhCoshNodes at_nodes;
             graded_panels(std::asinh(reach / s), std::asinh(beyond / s),
-                          [&](double a, double b) { sinh_panel(root, side, s, a, b); });
+                          [&](double a, double b) { sinh_panel(root, side, s, a, b, at_nodes); });
         }
         return true;
     }
@@ -309,19 +333,48 @@ public:
         }
     }
 
-    // sinh t and cosh t from one expm1, without cancellation for small t (t >= 0).
-    static void sinh_cosh(double t, double& sinh_t, double& cosh_t) {
-        const double m = std::expm1(t), e = m + 1.0;
-        sinh_t = 0.5 * m * (m + 2.0) / e;
-        cosh_t = 1.0 + 0.5 * m * m / e;
-    }
+    // sinh t and cosh t at the 16 Gauss–Legendre nodes of a panel [centre − half, centre + half]
+    // in t >= 0: e^(centre ± half·x) = e^centre·e^(±half·x) from one exponential per panel and those
+    // of the node offsets, kept while the panels' width stays the same (graded_panels makes them
+    // equal but for the ones graded toward a pole). The nodes are symmetric (x[15 − i] = −x[i]).
+    // Where t is small, sinh t = (p − 1/p)/2 keeps an absolute error of an ulp: the node moves by
+    // 1e-16 in t, the weight (cosh) agreeing with it, so the sum moves by as little.
+    class SinhCoshNodes {
+    public:
+        static constexpr int count = 16;
+        double sinh_t[count], cosh_t[count];
 
-    void sinh_panel(const DoubleRoot& root, double side, double s, double a, double b) {
+        void panel(double centre, double half) {
+            if (half != half_) {
+                half_ = half;
+                const GaussRule& r = rule(count);
+                for (int i = 0; i < count / 2; ++i) {
+                    up_[i] = std::exp(half * r.nodes[i]);
+                    down_[i] = 1.0 / up_[i];
+                }
+            }
+            const double e = std::exp(centre), inverse = 1.0 / e;
+            for (int i = 0; i < count / 2; ++i) {
+                const double p = e * up_[i], q = inverse * down_[i];  // node i: centre + half·x[i]
+                sinh_t[i] = 0.5 * (p - q);
+                cosh_t[i] = 0.5 * (p + q);
+                const double pm = e * down_[i], qm = inverse * up_[i];  // node 15 − i: centre − half·x[i]
+                sinh_t[count - 1 - i] = 0.5 * (pm - qm);
+                cosh_t[count - 1 - i] = 0.5 * (pm + qm);
+            }
+        }
+
+    private:
+        double half_ = -1.0;
+        double up_[count / 2] = {}, down_[count / 2] = {};
+    };
+
+    void sinh_panel(const DoubleRoot& root, double side, double s, double a, double b, SinhCoshNodes& at_nodes) {
         const GaussRule& r = rule(16);
         const double centre = 0.5 * (a + b), half = 0.5 * (b - a);
+        at_nodes.panel(centre, half);
         for (std::size_t i = 0; i < r.nodes.size(); ++i) {
-            double sinh_t, cosh_t;
-            sinh_cosh(centre + half * r.nodes[i], sinh_t, cosh_t);
+            const double sinh_t = at_nodes.sinh_t[i], cosh_t = at_nodes.cosh_t[i];
             const double delta = s * sinh_t, w = half * r.weights[i] * s * cosh_t;
             const double rise =
                 side * delta * (root.slope + side * delta * (root.half_curvature + side * delta * root.sixth_third));
@@ -361,6 +414,57 @@ public:
         profile_.evaluate(cell, z_t, root.n, n1, root.curvature);
         root.slope_in = n1 * inward;
         root.third = profile_.third_derivative(cell, z_t);
+        return turning_part(cell, root, boundary, reach);
+    }
+
+    // The same for a turning cell's table (SnellCellTables::build_turn) where the cell's low end
+    // z_m is a minimum of n with n′ = 0 and ξ = n(z_m) + ρ: the turning point and the expansion
+    // about it come from the cubic's expansion about z_m in δ = distance from z_m, solved by
+    // Newton in δ itself, so that they are exact for this ρ (a turning depth rounded to an ulp of
+    // z would move x by about ulp(z)/δ relative, 1e-8 where δ is 1e-5 m).
+    bool turning_beside_minimum(std::size_t cell, double z_m, double z_high, double rho) {
+        if (failed_ || !profile_.is_cubic(cell) || !(rho > 0.0)) return false;
+        const int inward = z_high > z_m ? 1 : -1;
+        const double span = (z_high - z_m) * inward;
+        double n, n1, n2;
+        profile_.evaluate(cell, z_m, n, n1, n2);
+        const double slope = n1 * inward, half_curvature = 0.5 * n2;
+        const double sixth_third = inward * profile_.third_derivative(cell, z_m) / 6.0;
+        if (!(half_curvature > 0.0)) return false;
+        // n − ξ = slope·δ + n″δ²/2 + n‴δ³/6 − ρ, growing in δ up to the turning point.
+        // Newton from √(ρ/(n″/2)), converging quadratically: one more step once the step is
+        // below 1e-9 of δ leaves δ to rounding.
+        double delta = std::sqrt(rho / half_curvature);
+        int final_steps = -1;
+        for (int iteration = 0; iteration < 60 && final_steps != 0; ++iteration) {
+            const double gap = delta * (slope + delta * (half_curvature + delta * sixth_third)) - rho;
+            const double growth = slope + delta * (2.0 * half_curvature + 3.0 * delta * sixth_third);
+            if (!(growth > 0.0)) return false;
+            const double step = gap / growth;
+            delta -= step;
+            if (final_steps > 0) --final_steps;
+            else if (final_steps < 0 && std::abs(step) <= 1e-9 * delta) final_steps = 1;
+        }
+        if (final_steps != 0 || !(delta > 0.0) || !(delta < span)) return false;
+        TurningRoot root;
+        root.inward = inward;
+        root.z = z_m + inward * delta;
+        root.n = xi_;
+        root.slope_in = slope + delta * (2.0 * half_curvature + 3.0 * delta * sixth_third);
+        root.curvature = 2.0 * half_curvature + 6.0 * delta * sixth_third;
+        root.third = inward * 6.0 * sixth_third;
+        return turning_part(cell, root, z_high, span - delta);
+    }
+
+    struct TurningRoot {
+        int inward = 1;
+        double z = 0.0, n = 0.0, slope_in = 0.0, curvature = 0.0, third = 0.0, d = 0.0;
+    };
+
+    // The panels of turning_next_to_double_root from the root to `boundary`, `reach` away.
+    bool turning_part(std::size_t cell, TurningRoot& root, double boundary, double reach) {
+        const int inward = root.inward;
+        const double z_t = root.z;
         if (!(root.slope_in > 0.0) || !(root.curvature > 0.0)) return false;
         root.d = root.slope_in / root.curvature;
         // n must keep growing inward up to the boundary (h = 1/(n n′) finite): n′ is a quadratic
@@ -377,12 +481,12 @@ public:
         const GaussRule& r = rule(16);
         // τ = acosh(1 + δ/d), as 2 asinh(√(δ/2d)) so that small δ/d keeps its digits.
         auto tau_of = [&](double delta) { return 2.0 * std::asinh(std::sqrt(0.5 * delta / root.d)); };
+        SinhCoshNodes at_nodes;  // of τ/2
         graded_panels(tau_of(reach), tau_of(beyond), [&](double a, double b) {
             const double centre = 0.5 * (a + b), half = 0.5 * (b - a);
+            at_nodes.panel(0.5 * centre, 0.5 * half);
             for (std::size_t i = 0; i < r.nodes.size(); ++i) {
-                const double tau = centre + half * r.nodes[i];
-                double sinh_half, cosh_half;
-                sinh_cosh(0.5 * tau, sinh_half, cosh_half);
+                const double sinh_half = at_nodes.sinh_t[i], cosh_half = at_nodes.cosh_t[i];
                 const double delta = 2.0 * root.d * sinh_half * sinh_half;  // d (cosh τ − 1), no cancellation
                 const double w = half * r.weights[i] * root.d * 2.0 * sinh_half * cosh_half;  // d sinh τ dτ
                 const double gz = delta * (root.slope_in + delta * (0.5 * root.curvature + delta * sixth));
@@ -421,11 +525,6 @@ public:
         return true;
     }
 
-    struct TurningRoot {
-        int inward = 1;
-        double z = 0.0, n = 0.0, slope_in = 0.0, curvature = 0.0, third = 0.0, d = 0.0;
-    };
-
     // Everything from the middle of the leg between its end pieces, cell by cell; runs of whole
     // cells from the tables where they have them.
     void middle(double low, double high) {
@@ -433,11 +532,11 @@ public:
         const std::size_t count = profile_.cell_count();
         std::size_t last_whole = count;  // the deepest cell inside [low, high] (count: none)
         if (table_levels_ > 0) {
-            const std::size_t c = profile_.cell_at(low, 1);
+            const std::size_t c = cell_at(low, 1);
             if (profile_.cell_bottom(c) == low) last_whole = c;
             else if (c > 0) last_whole = c - 1;
         }
-        for (std::size_t cell = profile_.cell_at(high, -1); cell < count;) {
+        for (std::size_t cell = cell_at(high, -1); cell < count;) {
             const bool last = cell + 1 == count;
             const double top = std::min(high, profile_.cell_top(cell));
             const double bottom = last ? low : std::max(low, profile_.cell_bottom(cell));
@@ -461,9 +560,10 @@ public:
     std::size_t from_tables(std::size_t cell, std::size_t last_whole) {
         if (failed_) return 0;
         SnellCellTables& tables = this->tables();
-        for (std::size_t level = std::min(table_levels_, tables.levels.size()); level-- > 0;) {
-            const std::size_t size = std::size_t{1} << level;
-            if (cell % size != 0) continue;
+        // Blocks of level L start at multiples of 2^L: none above the lowest set bit of `cell`.
+        std::size_t top_level = std::min(table_levels_, tables.levels.size());
+        if (cell != 0) top_level = std::min(top_level, static_cast<std::size_t>(std::countr_zero(cell)) + 1);
+        for (std::size_t level = top_level; level-- > 0;) {
             const SnellCellTables::Block& block = tables.levels[level][cell >> level];
             if (block.last_cell > last_whole) continue;
             if (add_block(tables, level, block)) return block.last_cell - block.first_cell + 1;
@@ -541,7 +641,7 @@ public:
     // How much of the leg next to one end is integrated in u (z = root ± u²).
     EndPiece plan_end(double z_end, LegEnd kind, int inward, double available, std::size_t& cell, double& g0,
                       double& slope_in, bool& double_root) {
-        cell = profile_.cell_at(z_end, inward);
+        cell = cell_at(z_end, inward);
         // An end within rounding of the cell's far boundary (a turning point found just beside a
         // knot) takes the next cell's formula, continued over that sliver.
         const double room = inward > 0 ? profile_.cell_top(cell) - z_end : z_end - profile_.cell_bottom(cell);
@@ -563,7 +663,14 @@ public:
             if (!(slope_in > 0.0)) return piece;  // n does not fall toward a root beyond this end
         }
         const double q1 = 2.0 * n * dn, q2 = 2.0 * (dn * dn + n * d2n);
-        const double curvature_length = q2 == 0.0 ? infinity : std::abs(q1 / q2);
+        double curvature_length = q2 == 0.0 ? infinity : std::abs(q1 / q2);
+        // Also well short of where n′ may vanish (a zero of n′ + n″δ + n‴δ²/2 lies at least
+        // min(|n′/n″|, √|2n′/n‴|)/2 away, Fujiwara's bound): with a turning end the ξ-derivative is
+        // taken by parts through h = 1/(n n′), which has a pole there. Near an inflection point n″
+        // alone would not see it (a cell between a minimum and a maximum of n).
+        const double third = profile_.third_derivative(cell, z_end);
+        if (kind == LegEnd::turning && third != 0.0)
+            curvature_length = std::min(curvature_length, std::sqrt(std::abs(2.0 * dn / third)));
         const double cell_room = std::max(0.0, inward > 0 ? profile_.cell_top(cell) - z_end : z_end - profile_.cell_bottom(cell));
         piece.length = std::min({available, 0.125 * curvature_length, cell_room});
         const double virtual_root_distance = g0 / slope_in;
@@ -655,6 +762,18 @@ private:
     const AttenuationProfile* attenuation_;
     std::size_t table_levels_;
     SnellCellTables* tables_ = nullptr;  // fetched on first use
+    // StratifiedProfile::cell_at for the leg's two ends, looked up by plan_end and again by middle.
+    struct Located {
+        double z = 0.0;
+        int toward = 0;
+        std::size_t cell = 0;
+    };
+    Located located_[2];
+    std::size_t cell_at(double z, int toward) {
+        Located& slot = located_[toward > 0 ? 0 : 1];
+        if (slot.toward != toward || slot.z != z) slot = {z, toward, profile_.cell_at(z, toward)};
+        return slot.cell;
+    }
     SnellCellTables& tables() {
         if (!tables_) tables_ = &profile_.snell_cell_tables();
         return *tables_;
@@ -842,6 +961,7 @@ std::shared_ptr<SnellCellTables> make_snell_cell_tables(const StratifiedProfile&
             block.w0_exponent = std::ilogb(0.25 * gap);
             // Pieces up to w² = N (ξ = 0).
             block.piece_count = static_cast<std::size_t>(std::max(0, std::ilogb(lowest->n) - block.w0_exponent)) + 2;
+            block.piece_count += SnellCellTables::base_levels;
             block.first_piece = total;
             total += block.piece_count;
         }
@@ -878,6 +998,12 @@ std::shared_ptr<SnellCellTables> make_snell_cell_tables(const StratifiedProfile&
 
 namespace {
 
+// std::ilogb of a positive finite x, from its bits where x is normal (the table lookups' hot path).
+int binary_exponent(double x) {
+    const int biased = static_cast<int>((std::bit_cast<std::uint64_t>(x) >> 52) & 0x7ff);
+    return biased == 0 || biased == 0x7ff ? std::ilogb(x) : biased - 1023;
+}
+
 // The piece in `slot`, built by `build` on first use. Two threads may build the same piece; the
 // first to publish it wins and the other's is dropped.
 template <class Piece, class Build>
@@ -901,9 +1027,19 @@ const SnellCellTables::Piece* SnellCellTables::piece(const StratifiedProfile& pr
 const SnellCellTables::Piece* SnellCellTables::piece_in(const StratifiedProfile& profile, std::size_t level,
                                                         const Block& block, double w_squared,
                                                         std::atomic<Piece*>* slots) {
-    const int above_base = std::ilogb(w_squared) - block.w0_exponent;
-    const std::size_t index = above_base < 0 ? 0 : static_cast<std::size_t>(above_base) + 1;
-    if (index >= block.piece_count || (index == 0 && block.direct_base)) return nullptr;
+    const int above_base = binary_exponent(w_squared) - block.w0_exponent;
+    std::size_t index = above_base < 0 ? 0 : static_cast<std::size_t>(above_base) + 1;
+    if (index >= block.piece_count - base_levels) return nullptr;
+    if (index == 0) {
+        if (!block.direct_base) {
+            const Piece* whole = published(slots[0], [&] { return build(profile, level, block, 0); });
+            if (whole->tabulated) return whole;
+        }
+        // w² in [w0² 2^(−k−1), w0² 2^(−k)): ilogb(w²) = w0_exponent − k − 1.
+        const int k = -above_base - 1;
+        if (k >= base_levels) return nullptr;
+        index = base_slot(block, k);
+    }
     const Piece* found = published(slots[index], [&] { return build(profile, level, block, index); });
     return found->tabulated ? found : nullptr;
 }
@@ -912,9 +1048,15 @@ std::unique_ptr<SnellCellTables::Piece> SnellCellTables::build(const StratifiedP
                                                                const Block& block, std::size_t index) {
     auto piece = std::make_unique<Piece>();
     const double w0_squared = std::ldexp(1.0, block.w0_exponent);
-    piece->w_low = index == 0 ? 0.0 : std::sqrt(std::ldexp(w0_squared, static_cast<int>(index) - 1));
-    // The last piece ends at ξ = 0 (beyond, n + ξ vanishes at w² = N + n).
-    piece->w_high = std::sqrt(std::min(std::ldexp(w0_squared, static_cast<int>(index)), block.n_min));
+    if (index >= base_slot(block, 0)) {
+        const int k = static_cast<int>(index - base_slot(block, 0));
+        piece->w_low = std::sqrt(std::ldexp(w0_squared, -k - 1));
+        piece->w_high = std::sqrt(std::ldexp(w0_squared, -k));
+    } else {
+        piece->w_low = index == 0 ? 0.0 : std::sqrt(std::ldexp(w0_squared, static_cast<int>(index) - 1));
+        // The last piece ends at ξ = 0 (beyond, n + ξ vanishes at w² = N + n).
+        piece->w_high = std::sqrt(std::min(std::ldexp(w0_squared, static_cast<int>(index)), block.n_min));
+    }
     if (!(piece->w_high > piece->w_low)) return piece;
     // The four integrals of the whole block at w, for a level anchored at z_min in the cell that
     // holds it (so that n − ξ there is w² exactly): by quadrature for a cell, else from the
@@ -991,9 +1133,6 @@ const SnellCellTables::Piece* SnellCellTables::turn_piece(const StratifiedProfil
     const bool near_high = sigma <= rho;
     const int level = std::max(0, std::ilogb(range / (near_high ? sigma : rho)) - 1);
     if (level >= turn_levels) return nullptr;
-    // Next to a double root (ξ → a minimum of n where n′ = 0) x grows like log ρ and the problem
-    // is ill-conditioned; as for the blocks, the last 1e-4 of the cell's range stays direct.
-    if (!near_high && turn.low_double_root && level >= 12) return nullptr;
     const std::size_t index = static_cast<std::size_t>(near_high ? level : turn_levels + level);
     variable = std::log(near_high ? sigma : rho);
     const Piece* found =
@@ -1024,6 +1163,19 @@ std::unique_ptr<SnellCellTables::Piece> SnellCellTables::build_turn(const Strati
             ray.anchor_z = turn.z_low, ray.anchor_index = turn.n_low, ray.offset = -distance;
         }
         ray.ray_parameter = ray.anchor_index - ray.offset;
+        // Toward a low end where n′ = 0, from the expansion about it where that applies (n″ > 0
+        // from the turning point on), else as below.
+        if (!near_high && turn.low_double_root) {
+            LegQuadrature quadrature(profile, ray, true, true, nullptr, 0);
+            if (quadrature.turning_beside_minimum(cell, turn.z_low, turn.z_high, distance)) {
+                const Sums& part = quadrature.sums();
+                out[0] = part.x / ray.ray_parameter;
+                out[1] = part.optical;
+                out[2] = part.length;
+                out[3] = std::sqrt(sigma) * part.derivative;
+                return std::isfinite(out[0]) && std::isfinite(out[1]) && std::isfinite(out[2]) && std::isfinite(out[3]);
+            }
+        }
         auto gap = [&](double z) {
             double n, dn, d2n;
             profile.evaluate(cell, z, n, dn, d2n);
