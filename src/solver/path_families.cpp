@@ -192,13 +192,13 @@ public:
     // Every v in [0, 1] with X(v) = R.
     std::vector<double> roots() {
         std::vector<Sample> samples;
-        for (int i = 0; i <= samples_; ++i) samples.push_back(evaluate(static_cast<double>(i) / samples_));
         // Where v = 0 is a local minimum of n, the range's own limit there is taken
         // just inside, far below a rounding error of ξ (the anchored level resolves n − ξ there):
         // X may tend to a value (a kink of n) or diverge (a smooth minimum, X ~ log) on this side,
         // while at the cut itself it is the other range's. root_between closes in on a root
         // between it and the first sample geometrically, as from v = 0.
-        if (range_.high_is_cut) samples.front() = evaluate(cut_limit_v);
+        samples.push_back(evaluate(range_.high_is_cut ? cut_limit_v : 0.0));
+        for (int i = 1; i <= samples_; ++i) samples.push_back(evaluate(static_cast<double>(i) / samples_));
         approach_end(samples, true);
         approach_end(samples, false);
         std::sort(samples.begin(), samples.end(), [](const Sample& a, const Sample& b) { return a.v < b.v; });

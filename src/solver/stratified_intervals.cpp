@@ -410,6 +410,14 @@ bool StratifiedProfile::clearly_inside(const RayLevel& level, double n) const {
     return approximate > 1e-12 * (1.0 + std::abs(n));
 }
 
+bool StratifiedProfile::clearly_outside(const RayLevel& level, double n) const {
+    // Tables only: formula profiles keep gap() at every run end (their anchored levels in deep
+    // ice can differ from the stored n by more than this margin).
+    if (!all_cubic_) return false;
+    const double approximate = level.anchored ? (n - level.anchor_index) + level.offset : n - level.ray_parameter;
+    return approximate < -1e-12 * (1.0 + std::abs(n));
+}
+
 bool StratifiedProfile::is_local_minimum(double z) const {
     return std::find(minima_z_.begin(), minima_z_.end(), z) != minima_z_.end();
 }
@@ -552,7 +560,7 @@ std::optional<AccessibleInterval> StratifiedProfile::interval_around(const RayLe
                 j = upper_lower_top_[j];
                 continue;
             }
-            if (gap(level, top) <= 0.0) {
+            if (clearly_outside(level, runs_[j].index_top) || gap(level, top) <= 0.0) {
                 const double inside = j == r ? z : runs_[j].z_bottom;
                 out.upper_kind = UpperEndKind::turning;
                 out.upper_z = solve_turning(level, inside, top, j == r ? g : not_a_number);
@@ -576,7 +584,7 @@ std::optional<AccessibleInterval> StratifiedProfile::interval_around(const RayLe
                 j = lower_lower_bottom_[j];
                 continue;
             }
-            if (gap(level, bottom) <= 0.0) {
+            if (clearly_outside(level, runs_[j].index_bottom) || gap(level, bottom) <= 0.0) {
                 const double inside = j == r ? z : runs_[j].z_top;
                 out.lower_kind = LowerEndKind::turning;
                 out.lower_z = solve_turning(level, inside, bottom, j == r ? g : not_a_number);

@@ -171,6 +171,8 @@ private:
     bool is_local_minimum(double z) const;
     // Whether n − ξ at a point where n is known is positive beyond any doubt (no need for gap()).
     bool clearly_inside(const RayLevel& level, double n) const;
+    // The same for n − ξ < 0, on tables (no need for gap() either).
+    bool clearly_outside(const RayLevel& level, double n) const;
 
     std::shared_ptr<const IndexProfile> profile_;
     std::optional<double> bottom_z_;
