@@ -191,14 +191,7 @@ public:
 
     // Every v in [0, 1] with X(v) = R.
     std::vector<double> roots() {
-        std::vector<Sample> samples;
-        // Where v = 0 is a local minimum of n, the range's own limit there is taken
-        // just inside, far below a rounding error of ξ (the anchored level resolves n − ξ there):
-        // X may tend to a value (a kink of n) or diverge (a smooth minimum, X ~ log) on this side,
-        // while at the cut itself it is the other range's. root_between closes in on a root
-        // between it and the first sample geometrically, as from v = 0.
-        samples.push_back(evaluate(range_.high_is_cut ? cut_limit_v : 0.0));
-        for (int i = 1; i <= samples_; ++i) samples.push_back(evaluate(static_cast<double>(i) / samples_));
+        std::vector<Sample> samples = scan();
         approach_end(samples, true);
         approach_end(samples, false);
         std::sort(samples.begin(), samples.end(), [](const Sample& a, const Sample& b) { return a.v < b.v; });
@@ -228,6 +221,64 @@ public:
     }
 
 private:
+    // Samples of X − R at v = i / scan_samples, sorted by v: the quarters first, then the middle
+    // of every interval that could hide a root, down to the finest spacing. An interval is left
+    // unsplit only when nothing there comes near R: X finite at both ends, X − R of one sign and
+    // the slopes of one sign, the end slopes within a factor 3 of the secant's (X monotone on it,
+    // as far as the cubic through its ends tells), and |X − R| at each end more than twice what
+    // the larger end slope would cover over the whole interval. Intervals where X crosses R, turns,
+    // diverges or ends are split to the finest spacing, as are all near R (where two close roots
+    // at a fold can hide between samples).
+    // Where v = 0 is a local minimum of n, the range's own limit there is taken just inside, far
+    // below a rounding error of ξ (the anchored level resolves n − ξ there): X may tend to a value
+    // (a kink of n) or diverge (a smooth minimum, X ~ log) on this side, while at the cut itself it
+    // is the other range's. root_between closes in on a root between it and the first sample
+    // geometrically, as from v = 0.
+    std::vector<Sample> scan() const {
+        const int finest = samples_;
+        auto sample_at = [&](int i) {
+            return i == 0 && range_.high_is_cut ? evaluate(cut_limit_v) : evaluate(static_cast<double>(i) / finest);
+        };
+        auto far_from_r = [](const Sample& a, const Sample& b) {
+            if (!std::isfinite(a.f) || !std::isfinite(b.f) || !std::isfinite(a.slope) || !std::isfinite(b.slope))
+                return false;
+            if (!(a.f * b.f > 0.0) || !(a.slope * b.slope > 0.0)) return false;
+            const double width = b.v - a.v, secant = (b.f - a.f) / width;
+            const double ra = a.slope / secant, rb = b.slope / secant;
+            if (!(ra >= 1.0 / 3.0 && ra <= 3.0 && rb >= 1.0 / 3.0 && rb <= 3.0)) return false;
+            const double reach = 2.0 * width * std::max(std::abs(a.slope), std::abs(b.slope));
+            return std::min(std::abs(a.f), std::abs(b.f)) > reach;
+        };
+        struct Interval {
+            int i, j;
+            Sample a, b;
+        };
+        const int quarter = std::max(1, finest / 4);
+        std::vector<int> starts;
+        for (int i = 0; i < finest; i += quarter) starts.push_back(i);
+        starts.push_back(finest);
+        std::vector<Sample> coarse;
+        for (int i : starts) coarse.push_back(sample_at(i));
+        std::vector<Sample> samples{coarse.front()};
+        std::vector<Interval> pending;
+        for (std::size_t k = 0; k + 1 < starts.size(); ++k) {
+            pending.push_back({starts[k], starts[k + 1], coarse[k], coarse[k + 1]});
+            while (!pending.empty()) {
+                const Interval top = pending.back();
+                pending.pop_back();
+                if (top.j - top.i <= 1 || far_from_r(top.a, top.b)) {
+                    samples.push_back(top.b);
+                    continue;
+                }
+                const int middle = (top.i + top.j) / 2;
+                const Sample m = sample_at(middle);
+                pending.push_back({middle, top.j, m, top.b});  // the right half after the left
+                pending.push_back({top.i, middle, top.a, m});
+            }
+        }
+        return samples;
+    }
+
     // Where X diverges (or the family ends) at v = 0 or 1, step toward it until X exceeds R with X
     // growing toward the end, so that the roots near a double root are bracketed. Next to a double
     // root X grows like the logarithm of the distance to the end (docs/physics.md §8.3), so once two
