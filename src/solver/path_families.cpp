@@ -392,11 +392,22 @@ private:
             ++refusals;
             double step = v - best.v;
             if (std::isfinite(best.slope) && best.slope != 0.0) {
-                const double newton = -best.f / best.slope;
-                const double target = best.v + newton;
-                const bool inside = target > std::min(low.v, high.v) && target < std::max(low.v, high.v);
+                double newton = -best.f / best.slope;
                 if (std::abs(newton) <= eps * std::abs(best.v) && std::abs(best.f) <= 1e-9 * (1.0 + distance_))
                     return best.v;
+                // A bracket spanning a factor 4 or more in the distance d to an end of the range (v or
+                // 1 − v) lies where X goes like log d (next to a double root, docs/physics.md §8.3):
+                // there Newton's step is taken in log d, which follows that shape.
+                const bool near_zero = std::max(low.v, high.v) <= 0.5;
+                const double d_low = near_zero ? low.v : 1.0 - low.v, d_high = near_zero ? high.v : 1.0 - high.v;
+                if (d_low > 0.0 && d_high > 0.0 && std::max(d_low, d_high) >= 4.0 * std::min(d_low, d_high)) {
+                    const double d = near_zero ? best.v : 1.0 - best.v;
+                    const double d_slope = near_zero ? best.slope : -best.slope;  // dX/dd
+                    const double d_target = d * std::exp(-best.f / (d * d_slope));
+                    if (std::isfinite(d_target)) newton = (near_zero ? d_target : 1.0 - d_target) - best.v;
+                }
+                const double target = best.v + newton;
+                const bool inside = target > std::min(low.v, high.v) && target < std::max(low.v, high.v);
                 if (inside && std::abs(newton) <= 0.5 * step_before_last) {
                     v = target;
                     step = newton;
