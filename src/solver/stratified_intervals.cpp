@@ -197,17 +197,12 @@ std::size_t StratifiedProfile::cell_at(double z, int toward) const {
     return static_cast<std::size_t>(it - cell_bottoms_.begin());
 }
 
-void StratifiedProfile::evaluate(std::size_t cell, double z, double& n, double& dn_dz, double& d2n_dz2) const {
+void StratifiedProfile::evaluate_formula(std::size_t cell, double z, double& n, double& dn_dz,
+                                         double& d2n_dz2) const {
     const Cell& c = cells_[cell];
     n = dn_dz = d2n_dz2 = 0.0;
     switch (c.form) {
-        case Form::cubic: {
-            const double t = z - c.z_top;
-            n = c.c[0] + t * (c.c[1] + t * (c.c[2] + t * c.c[3]));
-            dn_dz = c.c[1] + t * (2.0 * c.c[2] + 3.0 * t * c.c[3]);
-            d2n_dz2 = 2.0 * c.c[2] + 6.0 * t * c.c[3];
-            return;
-        }
+        case Form::cubic: return evaluate(cell, z, n, dn_dz, d2n_dz2);  // not reached: inline there
         case Form::exponential: {
             const double e = exp_b_ * std::exp(exp_c_ * z);
             n = exp_a_ - e;

@@ -106,7 +106,16 @@ public:
     double cell_top(std::size_t cell) const { return cells_[cell].z_top; }
     double cell_bottom(std::size_t cell) const { return cells_[cell].z_bottom; }
     // n, dn/dz and d²n/dz² of one cell's formula at z (continued beyond the cell if z is outside).
-    void evaluate(std::size_t cell, double z, double& n, double& dn_dz, double& d2n_dz2) const;
+    // Inline for the tables' cubic cells: the quadrature and the turning-point solver call it
+    // millions of times per batch, and the call cost more than the cubic.
+    void evaluate(std::size_t cell, double z, double& n, double& dn_dz, double& d2n_dz2) const {
+        const Cell& c = cells_[cell];
+        if (c.form != Form::cubic) return evaluate_formula(cell, z, n, dn_dz, d2n_dz2);
+        const double t = z - c.z_top;
+        n = c.c[0] + t * (c.c[1] + t * (c.c[2] + t * c.c[3]));
+        dn_dz = c.c[1] + t * (2.0 * c.c[2] + 3.0 * t * c.c[3]);
+        d2n_dz2 = 2.0 * c.c[2] + 6.0 * t * c.c[3];
+    }
     // d³n/dz³ of a cell's formula at z: exact for cubic and exponential cells, 0 for the others
     // (their cells are short, see above). Used to bound the distance to the zeros of n² − ξ².
     double third_derivative(std::size_t cell, double z) const;
@@ -160,6 +169,8 @@ private:
         double c[4] = {0.0, 0.0, 0.0, 0.0};  // cubic in t = z − z_top
     };
     void build_cells(double analysis_depth_m);
+    // evaluate() for the exponential and generic cells.
+    void evaluate_formula(std::size_t cell, double z, double& n, double& dn_dz, double& d2n_dz2) const;
     void add_piece_cells(std::size_t piece, double z_top, double z_bottom);
     void build_runs();
     // The turning point between z_inside (gap > 0) and z_outside (gap <= 0) of one run; gap_inside:
