@@ -275,11 +275,11 @@ double StratifiedProfile::gap(const RayLevel& level, double z) const {
     return index(z) - level.ray_parameter;
 }
 
-double StratifiedProfile::gap_in_cell(const RayLevel& level, std::size_t cell, double z, double n_z) const {
-    if (!level.anchored) {
-        if (exponential_) return (exp_a_ - level.ray_parameter) - exp_b_ * std::exp(exp_c_ * std::min(z, 0.0));
-        return n_z - level.ray_parameter;
-    }
+double StratifiedProfile::exponential_gap(const RayLevel& level, double z) const {
+    return (exp_a_ - level.ray_parameter) - exp_b_ * std::exp(exp_c_ * std::min(z, 0.0));
+}
+
+double StratifiedProfile::anchored_gap_in_cell(const RayLevel& level, std::size_t cell, double z, double n_z) const {
     const double za = level.anchor_z;
     if (exponential_) return -exp_b_ * std::exp(exp_c_ * za) * std::expm1(exp_c_ * (z - za)) + level.offset;
     const std::size_t ca = level.anchor_cell;

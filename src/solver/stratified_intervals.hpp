@@ -130,7 +130,17 @@ public:
     // n(z) − ξ for a ray level.
     double gap(const RayLevel& level, double z) const;
     // The same at a point of a known cell where n is known already (the quadrature's inner loop).
-    double gap_in_cell(const RayLevel& level, std::size_t cell, double z, double n_z) const;
+    // Inline: the quadrature calls it at every node.
+    double gap_in_cell(const RayLevel& level, std::size_t cell, double z, double n_z) const {
+        if (!level.anchored) {
+            if (exponential_) return exponential_gap(level, z);
+            return n_z - level.ray_parameter;
+        }
+        const std::size_t ca = level.anchor_cell;
+        if (!exponential_ && cell != ca && cell + 1 != ca && ca + 1 != cell)
+            return (n_z - level.anchor_index) + level.offset;
+        return anchored_gap_in_cell(level, cell, z, n_z);
+    }
 
     struct Run {
         double z_top = 0.0, z_bottom = 0.0;
@@ -169,6 +179,10 @@ private:
         double c[4] = {0.0, 0.0, 0.0, 0.0};  // cubic in t = z − z_top
     };
     void build_cells(double analysis_depth_m);
+    // gap_in_cell() of an unanchored level on the exponential profile, and of an anchored level
+    // (z in the anchor's cell or a neighbour of it, or the exponential profile).
+    double exponential_gap(const RayLevel& level, double z) const;
+    double anchored_gap_in_cell(const RayLevel& level, std::size_t cell, double z, double n_z) const;
     // evaluate() for the exponential and generic cells.
     void evaluate_formula(std::size_t cell, double z, double& n, double& dn_dz, double& d2n_dz2) const;
     void add_piece_cells(std::size_t piece, double z_top, double z_bottom);
