@@ -9,6 +9,7 @@
 #include <limits>
 #include <memory>
 #include <mutex>
+#include <cstdint>
 #include <optional>
 #include <string>
 #include <vector>
@@ -208,6 +209,12 @@ private:
     std::vector<Cell> cells_;                          // from the surface down
     std::vector<double> cell_bottoms_;                 // cells_[i].z_bottom, for cell_at
     std::vector<double> cell_bottom_index_;            // n there, from cells_[i]'s formula
+    // cell_at's index: the depth range cut into equal buckets, bucket i from bucket_edges_[i] down
+    // to bucket_edges_[i + 1]; the answer for any z in it lies in bucket_cells_[i] (first, last].
+    double bucket_floor_ = 0.0;
+    std::vector<double> bucket_edges_;
+    std::vector<std::pair<std::uint32_t, std::uint32_t>> bucket_cells_;
+    void build_cell_buckets();
     std::vector<Run> runs_;                            // from the surface down
     std::vector<double> run_bottoms_;                  // runs_[i].z_bottom
     static constexpr std::size_t no_run = static_cast<std::size_t>(-1);
