@@ -609,28 +609,30 @@ public:
 
     // A piece's four series at t in [−1, 1] added to the sums; the last one is divided by `scale`.
     void add_series(const SnellCellTables::Piece& piece, double t, double scale) {
-        // Clenshaw's recurrence for the series needed, side by side (scalars, so that the chains
-        // stay in registers and overlap).
+        // Clenshaw's recurrence for the series needed, two side by side in each register (GCC's
+        // vector extension, also Clang's: the same operations per lane as the scalar recurrence,
+        // so the same sums to the bit, in half the instructions).
+        using Pair = double __attribute__((vector_size(16)));
         const double two_t = 2.0 * t;
         const double (&c)[4][SnellCellTables::nodes] = piece.coefficients;
-        double x1 = 0.0, x2 = 0.0, d1 = 0.0, d2 = 0.0;
+        Pair xd1 = {0.0, 0.0}, xd2 = {0.0, 0.0};  // x and ∂x/∂ξ
         if (with_time_) {
-            double o1 = 0.0, o2 = 0.0, l1 = 0.0, l2 = 0.0;
+            Pair ol1 = {0.0, 0.0}, ol2 = {0.0, 0.0};  // optical path and length
             for (int m = SnellCellTables::degree; m >= 1; --m) {
-                const double x0 = two_t * x1 - x2 + c[0][m], o0 = two_t * o1 - o2 + c[1][m];
-                const double l0 = two_t * l1 - l2 + c[2][m], d0 = two_t * d1 - d2 + c[3][m];
-                x2 = x1, x1 = x0, o2 = o1, o1 = o0, l2 = l1, l1 = l0, d2 = d1, d1 = d0;
+                const Pair xd0 = two_t * xd1 - xd2 + Pair{c[0][m], c[3][m]};
+                const Pair ol0 = two_t * ol1 - ol2 + Pair{c[1][m], c[2][m]};
+                xd2 = xd1, xd1 = xd0, ol2 = ol1, ol1 = ol0;
             }
-            sums_.optical += t * o1 - o2 + c[1][0];
-            sums_.length += t * l1 - l2 + c[2][0];
+            sums_.optical += t * ol1[0] - ol2[0] + c[1][0];
+            sums_.length += t * ol1[1] - ol2[1] + c[2][0];
         } else {
             for (int m = SnellCellTables::degree; m >= 1; --m) {
-                const double x0 = two_t * x1 - x2 + c[0][m], d0 = two_t * d1 - d2 + c[3][m];
-                x2 = x1, x1 = x0, d2 = d1, d1 = d0;
+                const Pair xd0 = two_t * xd1 - xd2 + Pair{c[0][m], c[3][m]};
+                xd2 = xd1, xd1 = xd0;
             }
         }
-        sums_.x += xi_ * (t * x1 - x2 + c[0][0]);
-        if (with_derivative_) sums_.derivative += (t * d1 - d2 + c[3][0]) / scale;
+        sums_.x += xi_ * (t * xd1[0] - xd2[0] + c[0][0]);
+        if (with_derivative_) sums_.derivative += (t * xd1[1] - xd2[1] + c[3][0]) / scale;
     }
 
     struct EndPiece {

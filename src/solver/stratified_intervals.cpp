@@ -93,7 +93,33 @@ StratifiedProfile::StratifiedProfile(std::shared_ptr<const IndexProfile> profile
         cell_bottom_index_.push_back(n);
         if (cells_[i].form != Form::cubic) all_cubic_ = false;
     }
+    build_cell_buckets();
     build_runs();
+}
+
+void StratifiedProfile::build_cell_buckets() {
+    // About two buckets per cell: a table's cells are of similar heights, so each bucket's range
+    // holds one to three cells and cell_at needs no binary search over the whole profile.
+    // They end at the top of the last cell (that of the analysis depth below a table, much
+    // longer than the others); below it cell_at searches all cells.
+    const std::size_t buckets = 2 * cells_.size() + 1;
+    bucket_floor_ = cells_.size() >= 2 ? cells_.back().z_top : floor_z_;
+    bucket_edges_.resize(buckets + 1);
+    for (std::size_t i = 0; i <= buckets; ++i)
+        bucket_edges_[i] = bucket_floor_ * (static_cast<double>(i) / static_cast<double>(buckets));
+    bucket_edges_[buckets] = bucket_floor_;
+    bucket_cells_.resize(buckets);
+    for (std::size_t i = 0; i < buckets; ++i) {
+        const double top = bucket_edges_[i], bottom = bucket_edges_[i + 1];
+        // Every cell before `first` has its bottom above the bucket, every cell from `last` on
+        // below it, whichever side cell_at takes at a boundary.
+        const auto first = std::partition_point(cell_bottoms_.begin(), cell_bottoms_.end(),
+                                                [&](double b) { return b > top; });
+        const auto last = std::partition_point(cell_bottoms_.begin(), cell_bottoms_.end(),
+                                               [&](double b) { return b >= bottom; });
+        bucket_cells_[i] = {static_cast<std::uint32_t>(first - cell_bottoms_.begin()),
+                            static_cast<std::uint32_t>(last - cell_bottoms_.begin())};
+    }
 }
 
 SnellCellTables& StratifiedProfile::snell_cell_tables() const {
@@ -188,26 +214,30 @@ std::size_t StratifiedProfile::cell_at(double z, int toward) const {
     if (z >= 0.0) return 0;
     if (z <= floor_z_) return cells_.size() - 1;
     // First cell whose bottom lies below z (toward < 0), or at or below z (toward > 0); searched
-    // in the bottoms alone, which sit in fewer cache lines than the cells.
-    const auto it = toward > 0 ? std::partition_point(cell_bottoms_.begin(), cell_bottoms_.end(),
-                                                      [&](double bottom) { return bottom > z; })
-                               : std::partition_point(cell_bottoms_.begin(), cell_bottoms_.end(),
-                                                      [&](double bottom) { return bottom >= z; });
+    // in the bottoms alone, within the range that z's bucket allows.
+    auto begin = cell_bottoms_.begin(), end = cell_bottoms_.end();
+    const std::size_t buckets = bucket_cells_.size();
+    const double position = z / bucket_floor_ * static_cast<double>(buckets);
+    if (position >= 0.0 && position < static_cast<double>(buckets)) {
+        auto i = static_cast<std::size_t>(position);
+        // The bucket whose stored edges hold z (the division may round across an edge).
+        while (i > 0 && z > bucket_edges_[i]) --i;
+        while (i + 1 < buckets && z < bucket_edges_[i + 1]) ++i;
+        end = begin + bucket_cells_[i].second;
+        begin += bucket_cells_[i].first;
+    }
+    const auto it = toward > 0 ? std::partition_point(begin, end, [&](double bottom) { return bottom > z; })
+                               : std::partition_point(begin, end, [&](double bottom) { return bottom >= z; });
     if (it == cell_bottoms_.end()) return cells_.size() - 1;
     return static_cast<std::size_t>(it - cell_bottoms_.begin());
 }
 
-void StratifiedProfile::evaluate(std::size_t cell, double z, double& n, double& dn_dz, double& d2n_dz2) const {
+void StratifiedProfile::evaluate_formula(std::size_t cell, double z, double& n, double& dn_dz,
+                                         double& d2n_dz2) const {
     const Cell& c = cells_[cell];
     n = dn_dz = d2n_dz2 = 0.0;
     switch (c.form) {
-        case Form::cubic: {
-            const double t = z - c.z_top;
-            n = c.c[0] + t * (c.c[1] + t * (c.c[2] + t * c.c[3]));
-            dn_dz = c.c[1] + t * (2.0 * c.c[2] + 3.0 * t * c.c[3]);
-            d2n_dz2 = 2.0 * c.c[2] + 6.0 * t * c.c[3];
-            return;
-        }
+        case Form::cubic: return evaluate(cell, z, n, dn_dz, d2n_dz2);  // not reached: inline there
         case Form::exponential: {
             const double e = exp_b_ * std::exp(exp_c_ * z);
             n = exp_a_ - e;
@@ -280,11 +310,11 @@ double StratifiedProfile::gap(const RayLevel& level, double z) const {
     return index(z) - level.ray_parameter;
 }
 
-double StratifiedProfile::gap_in_cell(const RayLevel& level, std::size_t cell, double z, double n_z) const {
-    if (!level.anchored) {
-        if (exponential_) return (exp_a_ - level.ray_parameter) - exp_b_ * std::exp(exp_c_ * std::min(z, 0.0));
-        return n_z - level.ray_parameter;
-    }
+double StratifiedProfile::exponential_gap(const RayLevel& level, double z) const {
+    return (exp_a_ - level.ray_parameter) - exp_b_ * std::exp(exp_c_ * std::min(z, 0.0));
+}
+
+double StratifiedProfile::anchored_gap_in_cell(const RayLevel& level, std::size_t cell, double z, double n_z) const {
     const double za = level.anchor_z;
     if (exponential_) return -exp_b_ * std::exp(exp_c_ * za) * std::expm1(exp_c_ * (z - za)) + level.offset;
     const std::size_t ca = level.anchor_cell;

@@ -9,6 +9,7 @@
 #include <limits>
 #include <memory>
 #include <mutex>
+#include <cstdint>
 #include <optional>
 #include <string>
 #include <vector>
@@ -106,7 +107,16 @@ public:
     double cell_top(std::size_t cell) const { return cells_[cell].z_top; }
     double cell_bottom(std::size_t cell) const { return cells_[cell].z_bottom; }
     // n, dn/dz and d²n/dz² of one cell's formula at z (continued beyond the cell if z is outside).
-    void evaluate(std::size_t cell, double z, double& n, double& dn_dz, double& d2n_dz2) const;
+    // Inline for the tables' cubic cells: the quadrature and the turning-point solver call it
+    // millions of times per batch, and the call cost more than the cubic.
+    void evaluate(std::size_t cell, double z, double& n, double& dn_dz, double& d2n_dz2) const {
+        const Cell& c = cells_[cell];
+        if (c.form != Form::cubic) return evaluate_formula(cell, z, n, dn_dz, d2n_dz2);
+        const double t = z - c.z_top;
+        n = c.c[0] + t * (c.c[1] + t * (c.c[2] + t * c.c[3]));
+        dn_dz = c.c[1] + t * (2.0 * c.c[2] + 3.0 * t * c.c[3]);
+        d2n_dz2 = 2.0 * c.c[2] + 6.0 * t * c.c[3];
+    }
     // d³n/dz³ of a cell's formula at z: exact for cubic and exponential cells, 0 for the others
     // (their cells are short, see above). Used to bound the distance to the zeros of n² − ξ².
     double third_derivative(std::size_t cell, double z) const;
@@ -121,7 +131,17 @@ public:
     // n(z) − ξ for a ray level.
     double gap(const RayLevel& level, double z) const;
     // The same at a point of a known cell where n is known already (the quadrature's inner loop).
-    double gap_in_cell(const RayLevel& level, std::size_t cell, double z, double n_z) const;
+    // Inline: the quadrature calls it at every node.
+    double gap_in_cell(const RayLevel& level, std::size_t cell, double z, double n_z) const {
+        if (!level.anchored) {
+            if (exponential_) return exponential_gap(level, z);
+            return n_z - level.ray_parameter;
+        }
+        const std::size_t ca = level.anchor_cell;
+        if (!exponential_ && cell != ca && cell + 1 != ca && ca + 1 != cell)
+            return (n_z - level.anchor_index) + level.offset;
+        return anchored_gap_in_cell(level, cell, z, n_z);
+    }
 
     struct Run {
         double z_top = 0.0, z_bottom = 0.0;
@@ -160,6 +180,12 @@ private:
         double c[4] = {0.0, 0.0, 0.0, 0.0};  // cubic in t = z − z_top
     };
     void build_cells(double analysis_depth_m);
+    // gap_in_cell() of an unanchored level on the exponential profile, and of an anchored level
+    // (z in the anchor's cell or a neighbour of it, or the exponential profile).
+    double exponential_gap(const RayLevel& level, double z) const;
+    double anchored_gap_in_cell(const RayLevel& level, std::size_t cell, double z, double n_z) const;
+    // evaluate() for the exponential and generic cells.
+    void evaluate_formula(std::size_t cell, double z, double& n, double& dn_dz, double& d2n_dz2) const;
     void add_piece_cells(std::size_t piece, double z_top, double z_bottom);
     void build_runs();
     // The turning point between z_inside (gap > 0) and z_outside (gap <= 0) of one run; gap_inside:
@@ -183,6 +209,12 @@ private:
     std::vector<Cell> cells_;                          // from the surface down
     std::vector<double> cell_bottoms_;                 // cells_[i].z_bottom, for cell_at
     std::vector<double> cell_bottom_index_;            // n there, from cells_[i]'s formula
+    // cell_at's index: the depth range cut into equal buckets, bucket i from bucket_edges_[i] down
+    // to bucket_edges_[i + 1]; the answer for any z in it lies in bucket_cells_[i] (first, last].
+    double bucket_floor_ = 0.0;
+    std::vector<double> bucket_edges_;
+    std::vector<std::pair<std::uint32_t, std::uint32_t>> bucket_cells_;
+    void build_cell_buckets();
     std::vector<Run> runs_;                            // from the surface down
     std::vector<double> run_bottoms_;                  // runs_[i].z_bottom
     static constexpr std::size_t no_run = static_cast<std::size_t>(-1);
