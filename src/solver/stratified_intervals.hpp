@@ -6,10 +6,10 @@
 #pragma once
 
 #include <cstddef>
+#include <cstdint>
 #include <limits>
 #include <memory>
 #include <mutex>
-#include <cstdint>
 #include <optional>
 #include <string>
 #include <vector>
