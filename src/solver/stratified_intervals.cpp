@@ -433,19 +433,21 @@ std::pair<double, double> StratifiedProfile::minimum_index(double z_low, double 
     return {best, best_z};
 }
 
+double StratifiedProfile::approximate_gap(const RayLevel& level, double n) {
+    return level.anchored ? (n - level.anchor_index) + level.offset : n - level.ray_parameter;
+}
+
 bool StratifiedProfile::clearly_inside(const RayLevel& level, double n) const {
     // gap() at a run's end differs from this by a few rounding errors of n at most (another
     // cell's formula, or n − n(anchor) taken through a shared boundary).
-    const double approximate = level.anchored ? (n - level.anchor_index) + level.offset : n - level.ray_parameter;
-    return approximate > 1e-12 * (1.0 + std::abs(n));
+    return approximate_gap(level, n) > 1e-12 * (1.0 + std::abs(n));
 }
 
 bool StratifiedProfile::clearly_outside(const RayLevel& level, double n) const {
     // Tables only: formula profiles keep gap() at every run end (their anchored levels in deep
     // ice can differ from the stored n by more than this margin).
     if (!all_cubic_) return false;
-    const double approximate = level.anchored ? (n - level.anchor_index) + level.offset : n - level.ray_parameter;
-    return approximate < -1e-12 * (1.0 + std::abs(n));
+    return approximate_gap(level, n) < -1e-12 * (1.0 + std::abs(n));
 }
 
 bool StratifiedProfile::is_local_minimum(double z) const {
@@ -456,7 +458,7 @@ double StratifiedProfile::boundary_gap(const RayLevel& level, std::size_t cell) 
     // n at the boundary from the table of boundary values first: its sign decides unless n − ξ is
     // within a few rounding errors of zero (then the cells' formulas, as gap() takes them).
     const double n = cell_bottom_index_[cell];
-    const double approximate = level.anchored ? (n - level.anchor_index) + level.offset : n - level.ray_parameter;
+    const double approximate = approximate_gap(level, n);
     if (std::abs(approximate) > 1e-12 * (1.0 + std::abs(n))) return approximate;
     // Within rounding of the root at the boundary itself: left to the solver on gap().
     return std::numeric_limits<double>::quiet_NaN();

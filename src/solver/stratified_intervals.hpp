@@ -195,6 +195,9 @@ private:
     // n − ξ at the bottom of a cell from the stored n there; NaN where that is within rounding of 0.
     double boundary_gap(const RayLevel& level, std::size_t cell) const;
     bool is_local_minimum(double z) const;
+    // n − ξ from a known n: through the anchor's n for an anchored level (to a few rounding errors
+    // of n, which the two tests below allow for).
+    static double approximate_gap(const RayLevel& level, double n);
     // Whether n − ξ at a point where n is known is positive beyond any doubt (no need for gap()).
     bool clearly_inside(const RayLevel& level, double n) const;
     // The same for n − ξ < 0, on tables (no need for gap() either).
