@@ -434,37 +434,20 @@ private:
         return better(low, high).v;
     }
 
-    // Between two samples whose slopes differ in sign: a sample where X − R changes sign (then
-    // the caller brackets a root on each side of it), or the extremum itself when X − R keeps its
-    // sign there. The slope's sign change is bracketed by regula falsi with bisection every third
-    // step (so it cannot stall on one end); it stops early once the quadratic model of X about
-    // the last sample, f − slope²/(2 X″) with X″ from the bracket's slopes, puts the extremum well
-    // on the same side of R as the samples (the extremum is then no root, and further steps
-    // would only confirm it).
+    // The extremum of X between two samples whose slopes differ in sign: TOMS748 on the slope, to
+    // 1e-14 of v. (Stopping early once a quadratic model put the extremum clear of R was tried:
+    // it missed roots where X is far from quadratic, next to a flat stretch of a table.)
     Sample extremum_between(const Sample& a, const Sample& b) const {
-        Sample lo = a, hi = b;  // lo.slope and hi.slope differ in sign
-        Sample last = std::abs(a.f) <= std::abs(b.f) ? a : b;
-        const double sign = a.f > 0.0 ? 1.0 : -1.0;
-        for (int iteration = 0; iteration < 100; ++iteration) {
-            const double width = hi.v - lo.v;
-            if (std::abs(width) <= 1e-14 * std::max(std::abs(lo.v), std::abs(hi.v))) break;
-            double v = lo.v + width * (lo.slope / (lo.slope - hi.slope));
-            if (iteration % 3 == 2 || !(v > std::min(lo.v, hi.v) && v < std::max(lo.v, hi.v))) v = lo.v + 0.5 * width;
+        auto slope = [&](double v) {
             const Sample s = evaluate(v);
-            if (!std::isfinite(s.f) || !std::isfinite(s.slope)) return s;
-            if (s.f == 0.0 || s.f * sign < 0.0) return s;
-            last = s;
-            if (s.slope == 0.0) break;
-            if ((s.slope < 0.0) == (lo.slope < 0.0)) lo = s;
-            else hi = s;
-            const double curvature = (hi.slope - lo.slope) / (hi.v - lo.v);
-            if (curvature != 0.0 && std::isfinite(curvature)) {
-                const double extremum = s.f - s.slope * s.slope / (2.0 * curvature);
-                // The extremum's f has the samples' sign with a margin of half of f itself.
-                if (extremum * sign > 0.5 * std::abs(s.f)) break;
-            }
-        }
-        return last;
+            return std::isfinite(s.slope) ? s.slope : 0.0;
+        };
+        std::uintmax_t iterations = 100;
+        auto tolerance = [](double lo, double hi) {
+            return std::abs(hi - lo) <= 1e-14 * std::max(std::abs(lo), std::abs(hi));
+        };
+        const auto bracket = boost::math::tools::toms748_solve(slope, a.v, b.v, a.slope, b.slope, tolerance, iterations);
+        return evaluate(0.5 * (bracket.first + bracket.second));
     }
 
     RangeLegs& legs_;
