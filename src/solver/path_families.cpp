@@ -459,16 +459,16 @@ private:
 
 // The ranges of ξ in [0, min n between the ends): cut where an end of the pair's interval can
 // change kind or jump, i.e. at each new lowest n met going outward from the ends (a local minimum
-// of n lower than everything between it and the ends), and at n of the surface and of the bottom
-// when they are such record lows.
+// of n or a flat stretch, StratifiedProfile::stationary_z, lower than everything between it and
+// the ends), and at n of the surface and of the bottom when they are such record lows.
 std::vector<RayParameterRange> ray_parameter_ranges(const StratifiedProfile& profile, double z_low, double z_high) {
     const auto [top, top_z] = profile.minimum_index(z_low, z_high);
     struct Cut {
         double ray_parameter, anchor_z;
-        bool at_minimum;  // n of a local minimum (not of the surface, the bottom or between the ends)
+        bool at_minimum;  // n of a local minimum or a flat stretch (not of the surface, the bottom or between the ends)
     };
     std::vector<Cut> cuts{{top, top_z, false}};
-    const auto& minima = profile.local_minima_z();  // from the surface down
+    const auto& minima = profile.stationary_z();  // from the surface down
     double lowest = top;
     auto consider = [&](double z, bool at_minimum) {
         const double n = profile.index(z);

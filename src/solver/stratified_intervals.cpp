@@ -388,6 +388,8 @@ void StratifiedProfile::build_runs() {
         }
         add_parts(i, std::move(extrema));
     }
+    for (const Monotone& part : parts)
+        if (part.direction == 0) stationary_z_.insert(stationary_z_.end(), {part.z_top, part.z_bottom});
     for (const Monotone& part : parts) {
         double nt, nb, g, k;
         evaluate(cell_at(part.z_top, -1), part.z_top, nt, g, k);
@@ -403,6 +405,9 @@ void StratifiedProfile::build_runs() {
     }
     for (std::size_t i = 0; i + 1 < runs_.size(); ++i)
         if (runs_[i].direction < 0 && runs_[i + 1].direction > 0) minima_z_.push_back(runs_[i].z_bottom);
+    stationary_z_.insert(stationary_z_.end(), minima_z_.begin(), minima_z_.end());
+    std::sort(stationary_z_.begin(), stationary_z_.end(), std::greater<>());
+    stationary_z_.erase(std::unique(stationary_z_.begin(), stationary_z_.end()), stationary_z_.end());
     // For interval_around: the nearest run above with a lower n at its top, and the nearest run
     // below with a lower n at its bottom (the runs in between cannot hold the end first).
     const std::size_t count = runs_.size();

@@ -151,6 +151,11 @@ public:
     const std::vector<Run>& runs() const { return runs_; }
     // Local minima of n (z where a run falling with depth meets one growing with depth).
     const std::vector<double>& local_minima_z() const { return minima_z_; }
+    // Where an end of an accessible interval jumps as ξ crosses n there, from the surface down:
+    // the local minima of n and both ends of every stretch where n is constant (a table's flat
+    // segment). Next to such a stretch a ray with ξ just below its n crosses it nearly horizontally
+    // (X → ∞), one with ξ just above turns at its far edge; the ranges of ξ are cut there.
+    const std::vector<double>& stationary_z() const { return stationary_z_; }
     // The smallest n on [z_low, z_high] and a depth where it is reached.
     std::pair<double, double> minimum_index(double z_low, double z_high) const;
 
@@ -224,6 +229,7 @@ private:
     std::vector<std::size_t> upper_lower_top_;         // see build_runs
     std::vector<std::size_t> lower_lower_bottom_;
     std::vector<double> minima_z_;
+    std::vector<double> stationary_z_;
     struct LazySnellTables {
         std::once_flag made;
         std::shared_ptr<SnellCellTables> tables;

@@ -112,7 +112,8 @@ StratifiedArrivalTable::StratifiedArrivalTable(const FirnModel& model, const Str
         for (bool upward : {true, false}) families_.push_back({upward, ends});
 
     // The ranges of ξ: cut at every n where an accessible interval can change its kinds of ends
-    // (each local minimum of n, the surface, the bottom or floor), below the largest n of a level.
+    // (each local minimum of n and flat stretch, the surface, the bottom or floor), below the
+    // largest n of a level.
     double top = 0.0, top_z = 0.0;
     for (double z : levels_) {
         const double n = profile.index(z);
@@ -123,7 +124,7 @@ StratifiedArrivalTable::StratifiedArrivalTable(const FirnModel& model, const Str
         const double n = profile.index(z);
         if (n < top && n > 0.0) cuts.emplace_back(n, z);
     };
-    for (double z : profile.local_minima_z()) consider(z);
+    for (double z : profile.stationary_z()) consider(z);
     consider(0.0);
     consider(profile.bottom_z() ? *profile.bottom_z() : profile.floor_z());
     std::sort(cuts.begin(), cuts.end(), [](const auto& a, const auto& b) { return a.first > b.first; });
@@ -231,9 +232,9 @@ StratifiedArrivalTable::StratifiedArrivalTable(const FirnModel& model, const Str
 
 double StratifiedArrivalTable::memory_estimate_bytes(const StratifiedProfile& profile, std::size_t source_rows,
                                                     const StratifiedTableOptions& options) {
-    // As the constructor: a range per local minimum of n, the top, the surface and the floor;
+    // As the constructor: a range per stationary point of n, the top, the surface and the floor;
     // per range the uniform samples, the geometric ones toward v = 0 and at most 64 toward v = 1.
-    const double ranges = static_cast<double>(profile.local_minima_z().size()) + 3.0;
+    const double ranges = static_cast<double>(profile.stationary_z().size()) + 3.0;
     const double per_range = std::max<double>(samples_per_range_minimum, options.ray_parameters / ranges);
     const double samples = ranges * (per_range + divergent_end_samples + 64.0 + 1.0);
     const double levels = static_cast<double>(source_rows) + 1.0;
