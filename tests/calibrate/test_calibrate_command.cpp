@@ -102,7 +102,7 @@ TEST_CASE("calibrate bad inputs name what and where, with their exit codes", "[c
     CHECK_THAT(r.err, Catch::Contains("lonely.csv:4:") && Catch::Contains("pulser 'q' has one pulse only"));
 
     r = run_firnray(demo_calibration({"--fix", "scale_depth=30"}));
-    CHECK(r.exit_code == 4);
+    CHECK(r.exit_code == 2);
     CHECK_THAT(r.err, Catch::Contains("--fix") && Catch::Contains("no parameter 'scale_depth'") &&
                           Catch::Contains("did you mean 'scale_depth_m'"));
 

@@ -14,6 +14,7 @@
 #include "cli/common.hpp"
 #include "cli/exit_codes.hpp"
 #include "cli/output_set.hpp"
+#include "core/errors.hpp"
 #include "core/text.hpp"
 #include "io/csv_reader.hpp"  // parse_number of a whole field
 #include "model/density.hpp"
@@ -104,7 +105,16 @@ int run_calibrate(const CalibrateArguments& a) {
     const auto model = load_model_or_default(a.model_path);
     options.control = make_run_control(a.run, "calibrate");
     options.control.progress = nullptr;  // the iterations are short; Ctrl-C still stops them
-    const CalibrationResult result = calibrate_profile(*model, station, times, kind, options);
+    const CalibrationResult result = [&] {
+        try {
+            return calibrate_profile(*model, station, times, kind, options);
+        } catch (const DataInputError& e) {
+            // A --fix naming no parameter of the profile is a bad option value (exit 2), like a
+            // malformed one; the library finds it before any path is computed.
+            if (e.where().key == "--fix") throw UsageError("--fix", e.reason());
+            throw;
+        }
+    }();
 
     outputs.set_writer(a.output, [&](std::ostream& out) {
         if (a.format == "json") write_calibration_json(out, result, station);
@@ -210,9 +220,9 @@ Examples:
       --density-rule kovacs --log-sigma-n 0.01
       holds n_deep (deep ice is known better than the firn) and adds a density log to the fit.
 
-Exit codes: 0 ok, 2 usage (a malformed --fix), 3 bad model or station file (or a start model of
-another kind than --fit), 4 bad times or log file (unknown channel, a pulser with one pulse, a
---fix naming no parameter of the profile), 5 the fit did not converge or cannot determine a
+Exit codes: 0 ok, 2 usage (a malformed --fix, or one naming no parameter of the profile), 3 bad
+model or station file (or a start model of another kind than --fit), 4 bad times or log file
+(unknown channel, a pulser with one pulse), 5 the fit did not converge or cannot determine a
 parameter, 6 output not written, 130 interrupted.)");
     cmd->callback([a, &slot] { slot.run = [a] { return run_calibrate(*a); }; });
 }
