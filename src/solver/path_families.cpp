@@ -267,6 +267,7 @@ private:
                 const Interval top = pending.back();
                 pending.pop_back();
                 if (top.j - top.i <= 1 || far_from_r(top.a, top.b)) {
+                    if (top.j - top.i <= 1) split_below_finest(top.a, top.b, 0, samples);
                     samples.push_back(top.b);
                     continue;
                 }
@@ -277,6 +278,26 @@ private:
             }
         }
         return samples;
+    }
+
+    // An interval of the finest spacing whose end slopes have one sign but disagree with its secant
+    // by more than a factor 3 (X − R of one sign at both ends, and near enough R for the larger
+    // slope to reach it): X turns twice inside (a bump between two cells of a table, say), which
+    // may cross R twice with no sign change of X − R or of the slope at the samples. It is halved
+    // until its pieces agree with their secants or are far from R, at most 8 times more; the
+    // samples are added in order of v.
+    void split_below_finest(const Sample& a, const Sample& b, int depth, std::vector<Sample>& samples) const {
+        if (depth >= 8) return;
+        if (!std::isfinite(a.f) || !std::isfinite(b.f) || !std::isfinite(a.slope) || !std::isfinite(b.slope)) return;
+        if (!(a.f * b.f > 0.0) || !(a.slope * b.slope > 0.0)) return;
+        const double width = b.v - a.v, secant = (b.f - a.f) / width;
+        const double ra = a.slope / secant, rb = b.slope / secant;
+        if (ra >= 1.0 / 3.0 && ra <= 3.0 && rb >= 1.0 / 3.0 && rb <= 3.0) return;
+        if (std::min(std::abs(a.f), std::abs(b.f)) > 2.0 * width * std::max(std::abs(a.slope), std::abs(b.slope))) return;
+        const Sample m = evaluate(0.5 * (a.v + b.v));
+        split_below_finest(a, m, depth + 1, samples);
+        samples.push_back(m);
+        split_below_finest(m, b, depth + 1, samples);
     }
 
     // Where X diverges (or the family ends) at v = 0 or 1, step toward it until X exceeds R with X

@@ -5,7 +5,8 @@
 // turns at the far edge of the stretch instead. X(ξ) therefore diverges and jumps inside what was
 // one range of ξ, and the paths on both sides of it are checked against an independent reference.
 //
-// Reference: the Snell integrals by Boost.Math tanh_sinh quadrature (tests/support/snell_integrals.hpp),
+// Reference: the Snell integrals by Boost.Math tanh_sinh quadrature (test::turn_above in
+// tests/support/snell_integrals.hpp),
 // with the turning point found by bisection on the table's own n(z) and n − ξ written about it by
 // the Taylor series of the piece's cubic. A source/receiver pair with R = X_ref(ξ0) must have a
 // path of family U with ray parameter ξ0 and the reference time at ξ0.
@@ -35,58 +36,6 @@ std::shared_ptr<TableProfile> log_with_flat_stretch() {
         std::vector<double>{1.340, 1.3495, n_flat, n_flat, 1.368, 1.40, 1.45, 1.52, 1.62, 1.71, 1.765, 1.78});
 }
 
-std::size_t piece_of(const IndexProfile& profile, double z) {
-    std::size_t piece = 0;
-    for (double join : profile.joins_z())
-        if (z < join) ++piece;
-    return piece;
-}
-
-struct Reference {
-    double distance_m = 0.0, time_s = 0.0, turning_z = 0.0;
-};
-
-// Family U from z_source and z_receiver (both below the stretch) up to the turning point of ξ.
-Reference family_u(const TableProfile& table, double xi, double z_source, double z_receiver) {
-    const std::vector<double> knots(table.joins_z().begin(), table.joins_z().end());  // highest first
-    const std::vector<double> breaks(knots.rbegin(), knots.rend());
-    // The turning point: the shallowest depth below which n > ξ all the way down to the pair.
-    double inside = std::max(z_source, z_receiver), outside = 0.0;
-    for (double z = inside; z < 0.0; z += 1e-3)
-        if (table.index(z) <= xi) {
-            outside = z;
-            break;
-        }
-    for (int i = 0; i < 200; ++i) {
-        const double middle = 0.5 * (inside + outside);
-        (table.index(middle) > xi ? inside : outside) = middle;
-    }
-    const double z_t = inside;
-    const std::size_t piece = piece_of(table, z_t - 1e-12);
-    double n_t, g_t, k_t, n_b, g_b, k_b;
-    table.piece_index(piece, z_t, n_t, g_t, k_t);
-    table.piece_index(piece, z_t - 1e-3, n_b, g_b, k_b);
-    const double third = (k_t - k_b) / 1e-3;
-    const double piece_bottom = piece < knots.size() ? knots[piece] : -1e9;
-    // n − ξ in the turning point's piece as n(z) − n(z_t): the integrals of ξ' = n(z_t), within a
-    // rounding error of ξ (which moves X by ∂X/∂ξ·1e-16, nothing), where adding n(z_t) − ξ itself
-    // would move the root of the 1/√ singularity by 1e-16/n′ and X by √ of that (1e-5 m and more
-    // where n′ is small, next to the stretch).
-    auto gap = [&](double z, double below_top) {
-        if (z < piece_bottom) return table.index(z) - xi;
-        const double w = below_top;
-        return w * (-g_t + w * (0.5 * k_t - w * third / 6.0));
-    };
-    Reference out;
-    out.turning_z = z_t;
-    for (double z_end : {z_source, z_receiver}) {
-        const auto leg = test::snell_integrals(table, xi, z_end, z_t, gap, breaks, false);
-        out.distance_m += leg.distance_m;
-        out.time_s += leg.optical_path_m / speed_of_light;
-    }
-    return out;
-}
-
 }  // namespace
 
 TEST_CASE("the ends of a flat stretch of a table are stationary points of n where the ranges of ξ are cut "
@@ -111,7 +60,7 @@ TEST_CASE("paths crossing a flat stretch nearly horizontally, and paths turning 
     for (const double offset : {-1e-4, -1e-6, -1e-8, 1e-8, 1e-6, 1e-4}) {
         const double xi = n_flat + offset;
         for (auto [zs, zr] : {std::pair{-50.0, -90.0}, std::pair{-12.0, -5.0}, std::pair{-140.0, -140.0}}) {
-            const Reference ref = family_u(*table, xi, zs, zr);
+            const test::TurnAbove ref = test::turn_above(*table, xi, zs, zr);
             INFO(std::setprecision(15) << "ξ = n_flat " << offset << ", pair " << zs << " to " << zr << " at R = " << ref.distance_m
                                << " m, turning at " << ref.turning_z);
             REQUIRE(ref.turning_z > (offset < 0.0 ? -2.0 : -2.7));

@@ -5,12 +5,14 @@
 // near it (the `gap` callback receives the distance to the upper end for that).
 #pragma once
 
+#include <algorithm>
 #include <cmath>
 #include <functional>
 #include <vector>
 
 #include <boost/math/quadrature/tanh_sinh.hpp>
 
+#include "core/constants.hpp"
 #include "model/index_profile.hpp"
 
 namespace firnray::test {
@@ -53,6 +55,60 @@ inline SnellIntegrals snell_integrals(const IndexProfile& profile, double xi, do
 // The plain gap n(z) − ξ, for legs with no turning end.
 inline std::function<double(double, double)> plain_gap(const IndexProfile& profile, double xi) {
     return [&profile, xi](double z, double) { return profile.index(z) - xi; };
+}
+
+// A path turning above both ends (family U) of a table profile, from the Snell integrals above:
+// the turning point by bisection on the table's own n(z) (the shallowest depth below which n > ξ
+// all the way down to the ends, searched upward in 1 mm steps), and n − ξ in its piece written
+// about it by the Taylor series of the piece's cubic.
+struct TurnAbove {
+    double distance_m = 0.0, time_s = 0.0, turning_z = 0.0;
+};
+
+inline std::size_t piece_holding(const IndexProfile& profile, double z) {
+    std::size_t piece = 0;
+    for (double join : profile.joins_z())
+        if (z < join) ++piece;
+    return piece;
+}
+
+inline TurnAbove turn_above(const IndexProfile& table, double xi, double z_source, double z_receiver) {
+    const std::vector<double> knots(table.joins_z().begin(), table.joins_z().end());  // highest first
+    const std::vector<double> breaks(knots.rbegin(), knots.rend());
+    double inside = std::max(z_source, z_receiver), outside = 0.0;
+    for (double z = inside; z < 0.0; z += 1e-3)
+        if (table.index(z) <= xi) {
+            outside = z;
+            break;
+        }
+    for (int i = 0; i < 200; ++i) {
+        const double middle = 0.5 * (inside + outside);
+        (table.index(middle) > xi ? inside : outside) = middle;
+    }
+    const double z_t = inside;
+    const std::size_t piece = piece_holding(table, z_t - 1e-12);
+    double n_t, g_t, k_t, n_b, g_b, k_b;
+    table.piece_index(piece, z_t, n_t, g_t, k_t);
+    table.piece_index(piece, z_t - 1e-3, n_b, g_b, k_b);
+    const double third = (k_t - k_b) / 1e-3;
+    const double piece_bottom = piece < knots.size() ? knots[piece] : -1e9;
+    // n − ξ in the turning point's piece as n(z) − n(z_t): the integrals of ξ' = n(z_t), within a
+    // rounding error of ξ (which moves X by ∂X/∂ξ·1e-16, nothing), where adding n(z_t) − ξ itself
+    // would move the root of the 1/√ singularity by 1e-16/n′ and X by √ of that (1e-5 m and more
+    // where n′ is small).
+    auto gap = [&](double z, double below_top) {
+        if (z < piece_bottom) return table.index(z) - xi;
+        const double w = below_top;
+        return w * (-g_t + w * (0.5 * k_t - w * third / 6.0));
+    };
+    TurnAbove out;
+    out.turning_z = z_t;
+    for (double z_end : {z_source, z_receiver}) {
+        const auto leg = snell_integrals(table, xi, z_end, z_t, gap, breaks, false);
+        out.distance_m += leg.distance_m;
+        out.time_s += leg.optical_path_m / speed_of_light;
+    }
+    return out;
 }
 
 }  // namespace firnray::test
