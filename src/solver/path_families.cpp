@@ -206,7 +206,14 @@ public:
                 found.push_back(root_between(a, b));
             } else if (std::isfinite(a.f) && std::isfinite(b.f) && b.f != 0.0 && std::isfinite(a.slope) &&
                        std::isfinite(b.slope) && a.slope * b.slope < 0.0) {
-                // An extremum inside: two roots if it reaches across R.
+                // An extremum inside: two roots if it reaches across R. A minimum where X − R < 0 at
+                // both samples, or a maximum where it is > 0, cannot;
+                // it is skipped when, besides, |X − R| at both exceeds twice what the larger slope
+                // covers over the interval (X turning more than once in between could not reach R).
+                const bool minimum = a.slope < 0.0;
+                const bool may_cross = minimum ? a.f > 0.0 : a.f < 0.0;
+                const double reach = 2.0 * (b.v - a.v) * std::max(std::abs(a.slope), std::abs(b.slope));
+                if (!may_cross && std::min(std::abs(a.f), std::abs(b.f)) > reach) continue;
                 const Sample e = extremum_between(a, b);
                 if (e.f == 0.0) found.push_back(e.v);
                 else if (std::isfinite(e.f) && e.f * a.f < 0.0) {
@@ -280,19 +287,20 @@ private:
         return samples;
     }
 
-    // An interval of the finest spacing whose end slopes have one sign but disagree with its secant
-    // by more than a factor 3 (X − R of one sign at both ends, and near enough R for the larger
-    // slope to reach it): X turns twice inside (a bump between two cells of a table, say), which
-    // may cross R twice with no sign change of X − R or of the slope at the samples. It is halved
-    // until its pieces agree with their secants or are far from R, at most 8 times more; the
-    // samples are added in order of v.
+    // An interval of the finest spacing whose end slopes have one sign and are both more than 3
+    // times steeper than its secant, or of the other sign than the secant (X − R of one sign at
+    // both ends, and near enough R for the larger slope to reach it): X turns twice inside (a bump
+    // between two cells of a table, say), which may cross R twice with no sign change of X − R or
+    // of the slope at the samples. (Next to a divergent end one slope is much steeper and the other
+    // much flatter than the secant: X is monotone there.) It is halved until this no longer holds,
+    // at most 8 times more; the samples are added in order of v.
     void split_below_finest(const Sample& a, const Sample& b, int depth, std::vector<Sample>& samples) const {
         if (depth >= 8) return;
         if (!std::isfinite(a.f) || !std::isfinite(b.f) || !std::isfinite(a.slope) || !std::isfinite(b.slope)) return;
         if (!(a.f * b.f > 0.0) || !(a.slope * b.slope > 0.0)) return;
         const double width = b.v - a.v, secant = (b.f - a.f) / width;
         const double ra = a.slope / secant, rb = b.slope / secant;
-        if (ra >= 1.0 / 3.0 && ra <= 3.0 && rb >= 1.0 / 3.0 && rb <= 3.0) return;
+        if (!(ra < 0.0 || (ra > 3.0 && rb > 3.0))) return;
         if (std::min(std::abs(a.f), std::abs(b.f)) > 2.0 * width * std::max(std::abs(a.slope), std::abs(b.slope))) return;
         const Sample m = evaluate(0.5 * (a.v + b.v));
         split_below_finest(a, m, depth + 1, samples);
