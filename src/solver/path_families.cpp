@@ -424,6 +424,15 @@ private:
                 double newton = -best.f / best.slope;
                 if (std::abs(newton) <= eps * std::abs(best.v) && std::abs(best.f) <= 1e-9 * (1.0 + distance_))
                     return best.v;
+                // Within 1e-7 R of R, with a slope that the bracket's secant confirms to 10 % (it is
+                // less accurate next to a turning end), the Newton step itself ends the search without
+                // another level: it leaves X − R of the order of X″·step² (1e-12 R and less), and the
+                // time is corrected to first order in X − R anyway (make_path).
+                const double finish = best.v + newton;
+                const double secant = (high.f - low.f) / (high.v - low.v);
+                if (std::abs(best.f) <= 1e-7 * distance_ && std::abs(secant / best.slope - 1.0) < 0.1 &&
+                    finish > std::min(low.v, high.v) && finish < std::max(low.v, high.v))
+                    return finish;
                 // A bracket spanning a factor 4 or more in the distance d to an end of the range (v or
                 // 1 − v) lies where X goes like log d (next to a double root, docs/physics.md §8.3):
                 // there Newton's step is taken in log d, which follows that shape.
