@@ -5,7 +5,8 @@
 #include <cmath>
 #include <cstdint>
 #include <limits>
-#include <unordered_map>
+#include <utility>
+#include <vector>
 
 #include <boost/math/tools/roots.hpp>
 #include <fmt/format.h>
@@ -99,8 +100,9 @@ public:
     double dxi_dv(double v) const { return -2.0 * (range_.high - range_.low) * v; }
 
     LegSet& at(double v) {
-        auto found = cache_.find(v);
-        if (found != cache_.end()) return found->second;
+        // The latest levels first: a search asks again for the samples it just made.
+        for (auto it = cache_.rbegin(); it != cache_.rend(); ++it)
+            if (it->first == v) return it->second;
         LegSet set;
         set.level = level(v);
         const auto interval = profile_.interval_around(set.level, z_source_);
@@ -117,7 +119,8 @@ public:
             set.receiver_index = z_receiver_ == high ? 1 : count - 1;
             if (set.has_lower) set.points[count++] = lower_endpoint(*interval);
         }
-        return cache_.emplace(v, std::move(set)).first->second;
+        cache_.emplace_back(v, set);
+        return cache_.back().second;
     }
 
     LegIntegrals leg(LegSet& set, LegName name) const {
@@ -150,7 +153,9 @@ private:
     const StratifiedProfile& profile_;
     RayParameterRange range_;
     double z_source_, z_receiver_;
-    std::unordered_map<double, LegSet> cache_;
+    // The levels met so far (a few dozen per range). A reference returned by at() is used before
+    // the next call, which may move the elements.
+    std::vector<std::pair<double, LegSet>> cache_;
 };
 
 // X and dX/dξ of a family from the legs of its range; empty when it does not exist there.
