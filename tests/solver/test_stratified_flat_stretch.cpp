@@ -6,9 +6,8 @@
 // one range of ξ, and the paths on both sides of it are checked against an independent reference.
 //
 // Reference: the Snell integrals by Boost.Math tanh_sinh quadrature (test::turn_above in
-// tests/support/snell_integrals.hpp),
-// with the turning point found by bisection on the table's own n(z) and n − ξ written about it by
-// the Taylor series of the piece's cubic. A source/receiver pair with R = X_ref(ξ0) must have a
+// tests/support/snell_integrals.hpp), with the turning point found by bisection on the table's own
+// n(z) and n − ξ written about it by the Taylor series of the piece's cubic. A source/receiver pair with R = X_ref(ξ0) must have a
 // path of family U with ray parameter ξ0 and the reference time at ξ0.
 #include <catch2/catch.hpp>
 
