@@ -212,9 +212,9 @@ public:
             } else if (std::isfinite(a.f) && std::isfinite(b.f) && b.f != 0.0 && std::isfinite(a.slope) &&
                        std::isfinite(b.slope) && a.slope * b.slope < 0.0) {
                 // An extremum inside: two roots if it reaches across R. A minimum where X − R < 0 at
-                // both samples, or a maximum where it is > 0, cannot;
-                // it is skipped when, besides, |X − R| at both exceeds twice what the larger slope
-                // covers over the interval (X turning more than once in between could not reach R).
+                // both samples, or a maximum where it is > 0, cannot; it is skipped when, besides,
+                // |X − R| at both exceeds twice what the larger slope covers over the interval (X
+                // turning more than once in between could not reach R then).
                 const bool minimum = a.slope < 0.0;
                 const bool may_cross = minimum ? a.f > 0.0 : a.f < 0.0;
                 const double reach = 2.0 * (b.v - a.v) * std::max(std::abs(a.slope), std::abs(b.slope));
@@ -306,7 +306,8 @@ private:
         const double width = b.v - a.v, secant = (b.f - a.f) / width;
         const double ra = a.slope / secant, rb = b.slope / secant;
         if (!(ra < 0.0 || (ra > 3.0 && rb > 3.0))) return;
-        if (std::min(std::abs(a.f), std::abs(b.f)) > 2.0 * width * std::max(std::abs(a.slope), std::abs(b.slope))) return;
+        const double reach = 2.0 * width * std::max(std::abs(a.slope), std::abs(b.slope));
+        if (std::min(std::abs(a.f), std::abs(b.f)) > reach) return;
         const Sample m = evaluate(0.5 * (a.v + b.v));
         split_below_finest(a, m, depth + 1, samples);
         samples.push_back(m);
@@ -508,7 +509,8 @@ std::vector<RayParameterRange> ray_parameter_ranges(const StratifiedProfile& pro
     const auto [top, top_z] = profile.minimum_index(z_low, z_high);
     struct Cut {
         double ray_parameter, anchor_z;
-        bool at_minimum;  // n of a local minimum or a flat stretch (not of the surface, the bottom or between the ends)
+        // n of a local minimum or a flat stretch (not of the surface, the bottom or between the ends)
+        bool at_minimum;
     };
     std::vector<Cut> cuts{{top, top_z, false}};
     const auto& minima = profile.stationary_z();  // from the surface down
