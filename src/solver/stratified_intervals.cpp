@@ -543,6 +543,11 @@ double StratifiedProfile::solve_turning(const RayLevel& level, double z_inside, 
                 if (in_bracket(z + candidate) && std::abs(candidate) < std::abs(step)) step = candidate;
         }
         if (!std::isfinite(step) && slope != 0.0) step = -g / slope;
+        // Converged: the model's step is within a few dozen ulps of z, the resolution of n − ξ
+        // where n is rounded to its ulp (the neighbours are tried below). Tested before the
+        // safeguard, which would refuse such steps once they stop halving and bisect a bracket
+        // whose other end may be far.
+        if (std::abs(step) <= 64.0 * std::numeric_limits<double>::epsilon() * std::abs(z)) break;
         double next = z + step;
         if (!std::isfinite(step) || !in_bracket(next) || std::abs(step) > 0.5 * step_before_last)
             next = 0.5 * (inside + outside);
