@@ -69,6 +69,19 @@ struct Sample {
     double slope = not_a_number;  // dX/dv
 };
 
+// Two samples with X − R and the slope finite and each of one sign across them.
+bool one_signed(const Sample& a, const Sample& b) {
+    if (!std::isfinite(a.f) || !std::isfinite(b.f) || !std::isfinite(a.slope) || !std::isfinite(b.slope)) return false;
+    return a.f * b.f > 0.0 && a.slope * b.slope > 0.0;
+}
+
+// |X − R| at both samples more than twice what the larger of their slopes covers between them:
+// X cannot reach R in between unless its slope grows beyond both.
+bool beyond_reach(const Sample& a, const Sample& b) {
+    const double reach = 2.0 * (b.v - a.v) * std::max(std::abs(a.slope), std::abs(b.slope));
+    return std::min(std::abs(a.f), std::abs(b.f)) > reach;
+}
+
 // The legs any family of one range of ξ is made of, for one ξ (distance and derivative only).
 // They are sums of the pieces between the interval's ends and the two end points, taken from the
 // top down (upper end, source and receiver in depth order, lower end): each piece is integrated
@@ -217,8 +230,7 @@ public:
                 // turning more than once in between could not reach R then).
                 const bool minimum = a.slope < 0.0;
                 const bool may_cross = minimum ? a.f > 0.0 : a.f < 0.0;
-                const double reach = 2.0 * (b.v - a.v) * std::max(std::abs(a.slope), std::abs(b.slope));
-                if (!may_cross && std::min(std::abs(a.f), std::abs(b.f)) > reach) continue;
+                if (!may_cross && beyond_reach(a, b)) continue;
                 const Sample e = extremum_between(a, b);
                 if (e.f == 0.0) found.push_back(e.v);
                 else if (std::isfinite(e.f) && e.f * a.f < 0.0) {
@@ -252,14 +264,11 @@ private:
             return i == 0 && range_.high_is_cut ? evaluate(cut_limit_v) : evaluate(static_cast<double>(i) / finest);
         };
         auto far_from_r = [](const Sample& a, const Sample& b) {
-            if (!std::isfinite(a.f) || !std::isfinite(b.f) || !std::isfinite(a.slope) || !std::isfinite(b.slope))
-                return false;
-            if (!(a.f * b.f > 0.0) || !(a.slope * b.slope > 0.0)) return false;
-            const double width = b.v - a.v, secant = (b.f - a.f) / width;
+            if (!one_signed(a, b)) return false;
+            const double secant = (b.f - a.f) / (b.v - a.v);
             const double ra = a.slope / secant, rb = b.slope / secant;
             if (!(ra >= 1.0 / 3.0 && ra <= 3.0 && rb >= 1.0 / 3.0 && rb <= 3.0)) return false;
-            const double reach = 2.0 * width * std::max(std::abs(a.slope), std::abs(b.slope));
-            return std::min(std::abs(a.f), std::abs(b.f)) > reach;
+            return beyond_reach(a, b);
         };
         struct Interval {
             int i, j;
@@ -300,14 +309,10 @@ private:
     // much flatter than the secant: X is monotone there.) It is halved until this no longer holds,
     // at most 8 times more; the samples are added in order of v.
     void split_below_finest(const Sample& a, const Sample& b, int depth, std::vector<Sample>& samples) const {
-        if (depth >= 8) return;
-        if (!std::isfinite(a.f) || !std::isfinite(b.f) || !std::isfinite(a.slope) || !std::isfinite(b.slope)) return;
-        if (!(a.f * b.f > 0.0) || !(a.slope * b.slope > 0.0)) return;
-        const double width = b.v - a.v, secant = (b.f - a.f) / width;
+        if (depth >= 8 || !one_signed(a, b)) return;
+        const double secant = (b.f - a.f) / (b.v - a.v);
         const double ra = a.slope / secant, rb = b.slope / secant;
-        if (!(ra < 0.0 || (ra > 3.0 && rb > 3.0))) return;
-        const double reach = 2.0 * width * std::max(std::abs(a.slope), std::abs(b.slope));
-        if (std::min(std::abs(a.f), std::abs(b.f)) > reach) return;
+        if (!(ra < 0.0 || (ra > 3.0 && rb > 3.0)) || beyond_reach(a, b)) return;
         const Sample m = evaluate(0.5 * (a.v + b.v));
         split_below_finest(a, m, depth + 1, samples);
         samples.push_back(m);
@@ -435,8 +440,8 @@ private:
                 // another level: it leaves X − R of the order of X″·step² (1e-12 R and less), and the
                 // time is corrected to first order in X − R anyway (make_path).
                 const double finish = best.v + newton;
-                const double secant = (high.f - low.f) / (high.v - low.v);
-                if (std::abs(best.f) <= 1e-7 * distance_ && std::abs(secant / best.slope - 1.0) < 0.1 &&
+                const double bracket_slope = (high.f - low.f) / (high.v - low.v);
+                if (std::abs(best.f) <= 1e-7 * distance_ && std::abs(bracket_slope / best.slope - 1.0) < 0.1 &&
                     finish > std::min(low.v, high.v) && finish < std::max(low.v, high.v))
                     return finish;
                 // A bracket spanning a factor 4 or more in the distance d to an end of the range (v or

@@ -442,17 +442,19 @@ double StratifiedProfile::approximate_gap(const RayLevel& level, double n) {
     return level.anchored ? (n - level.anchor_index) + level.offset : n - level.ray_parameter;
 }
 
+double StratifiedProfile::rounding_margin(double n) { return 1e-12 * (1.0 + std::abs(n)); }
+
 bool StratifiedProfile::clearly_inside(const RayLevel& level, double n) const {
     // gap() at a run's end differs from this by a few rounding errors of n at most (another
     // cell's formula, or n − n(anchor) taken through a shared boundary).
-    return approximate_gap(level, n) > 1e-12 * (1.0 + std::abs(n));
+    return approximate_gap(level, n) > rounding_margin(n);
 }
 
 bool StratifiedProfile::clearly_outside(const RayLevel& level, double n) const {
     // Tables only: formula profiles keep gap() at every run end (their anchored levels in deep
     // ice can differ from the stored n by more than this margin).
     if (!all_cubic_) return false;
-    return approximate_gap(level, n) < -1e-12 * (1.0 + std::abs(n));
+    return approximate_gap(level, n) < -rounding_margin(n);
 }
 
 bool StratifiedProfile::is_local_minimum(double z) const {
@@ -464,9 +466,9 @@ double StratifiedProfile::boundary_gap(const RayLevel& level, std::size_t cell) 
     // within a few rounding errors of zero (then the cells' formulas, as gap() takes them).
     const double n = cell_bottom_index_[cell];
     const double approximate = approximate_gap(level, n);
-    if (std::abs(approximate) > 1e-12 * (1.0 + std::abs(n))) return approximate;
+    if (std::abs(approximate) > rounding_margin(n)) return approximate;
     // Within rounding of the root at the boundary itself: left to the solver on gap().
-    return std::numeric_limits<double>::quiet_NaN();
+    return not_a_number;
 }
 
 double StratifiedProfile::solve_turning(const RayLevel& level, double z_inside, double z_outside,
@@ -553,7 +555,7 @@ double StratifiedProfile::solve_turning(const RayLevel& level, double z_inside, 
             next = 0.5 * (inside + outside);
         step_before_last = last_step;
         last_step = std::abs(next - z);
-        // Converged: the step is within a few ulps (the neighbours are tried below).
+        // Converged: a bisection step within a few ulps (the neighbours are tried below).
         if (last_step <= 4.0 * std::numeric_limits<double>::epsilon() * std::abs(z)) break;
         z = next;
     }

@@ -203,6 +203,8 @@ private:
     // n − ξ from a known n: through the anchor's n for an anchored level (to a few rounding errors
     // of n, which the two tests below allow for).
     static double approximate_gap(const RayLevel& level, double n);
+    // How far approximate_gap may be from gap(): a few rounding errors of n, with room to spare.
+    static double rounding_margin(double n);
     // Whether n − ξ at a point where n is known is positive beyond any doubt (no need for gap()).
     bool clearly_inside(const RayLevel& level, double n) const;
     // The same for n − ξ < 0, on tables (no need for gap() either).
