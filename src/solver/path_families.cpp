@@ -716,17 +716,22 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
 
     const double distance = horizontal_distance_m;
     std::vector<StratifiedPath> paths;
-    // Equal depths where n is constant around them: the horizontal straight line.
+    // Equal depths where n′ = 0: the horizontal straight line is a ray (nothing bends it). Where n
+    // is constant around the pair, and at a local extremum of n (the axis of a duct at a maximum).
     if (z_source == z_receiver) {
-        const std::size_t cell = profile.cell_at(z_source);
         double n, dn, d2n;
-        profile.evaluate(cell, z_source, n, dn, d2n);
+        profile.evaluate(profile.cell_at(z_source), z_source, n, dn, d2n);
         // Constant to the last bit over the pair (deep ice of a smooth profile, where dn/dz ~ 1e-25
         // and the refracted path differs from the straight line by nothing a double holds).
         const double flat = 1e-15 * n, span = std::max(distance, 1.0);
-        if (std::abs(dn) * span <= flat && std::abs(d2n) * span * span <= flat &&
-            std::abs(profile.index_difference(z_source + 1e-3, z_source)) <= flat &&
-            std::abs(profile.index_difference(std::max(z_source - 1e-3, floor), z_source)) <= flat) {
+        const bool constant = std::abs(dn) * span <= flat && std::abs(d2n) * span * span <= flat &&
+                              std::abs(profile.index_difference(z_source + 1e-3, z_source)) <= flat &&
+                              std::abs(profile.index_difference(std::max(z_source - 1e-3, floor), z_source)) <= flat;
+        const auto& runs = profile.runs();
+        bool extremum = false;
+        for (std::size_t i = 0; i + 1 < runs.size(); ++i)
+            if (runs[i].z_bottom == z_source && runs[i].direction * runs[i + 1].direction < 0) extremum = true;
+        if (constant || extremum) {
             StratifiedPath path;
             path.family = "direct";
             path.ray_parameter = n;
@@ -734,7 +739,20 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
             path.length_m = distance;
             path.launch_zenith_rad = path.arrival_zenith_rad = pi / 2.0;
             path.distance_derivative = infinity;
-            path.derivative_cosines = distance / n;  // the homogeneous limit: L_eff = n·√((R/ξ)·R/n) = R
+            // The vertical spread of neighbouring rays, δz = δθ·J: from δz″ = (n″/n)·δz (the
+            // paraxial ray equation about a horizontal ray), J = sin(kR)/k at a maximum of n
+            // (k² = −n″/n; the rays refocus on the axis every π/k), sinh(kR)/k at a minimum, R
+            // where n″ = 0, with n″ the mean of the two sides of a knot. derivative_cosines = J/n
+            // (so that L_eff = n·√((R/ξ)·J/n) = √(R·J), R in the homogeneous limit).
+            double spread = distance;
+            if (extremum) {
+                double n_above, dn_above, d2n_above, n_below, dn_below, d2n_below;
+                profile.evaluate(profile.cell_at(z_source, 1), z_source, n_above, dn_above, d2n_above);
+                profile.evaluate(profile.cell_at(z_source, -1), z_source, n_below, dn_below, d2n_below);
+                const double k2 = -0.5 * (d2n_above + d2n_below) / n, k = std::sqrt(std::abs(k2)), kr = k * distance;
+                if (kr > 1e-8) spread = std::abs(k2 > 0.0 ? std::sin(kr) : std::sinh(kr)) / k;
+            }
+            path.derivative_cosines = spread / n;
             if (options.attenuation) path.attenuation_exponent = distance / options.attenuation->length_m(z_source);
             paths.push_back(path);
         }
