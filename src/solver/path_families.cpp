@@ -210,8 +210,10 @@ public:
     // Every v in [0, 1] with X(v) = R.
     std::vector<double> roots() {
         std::vector<Sample> samples = scan();
-        approach_end(samples, true);
+        // The end at v = 1 first: approach_end reads the samples next to an end from the front or
+        // the back of the list, and each call appends its own at the back.
         approach_end(samples, false);
+        approach_end(samples, true);
         std::sort(samples.begin(), samples.end(), [](const Sample& a, const Sample& b) { return a.v < b.v; });
         std::vector<double> found;
         for (std::size_t i = 0; i < samples.size(); ++i) {
@@ -409,9 +411,12 @@ private:
     // the better end of the bracket cost one evaluation each where TOMS748 spent about twenty per
     // root on this problem; safeguarded as in rtsafe (Numerical Recipes, common practice): a step
     // that leaves the bracket or does not at least halve the step before the last one is replaced
-    // by bisection, so it never does worse than bisection. A Newton step below the tolerance ends
-    // the search only where X − R is already within 1e-9 of R (an inaccurate slope, e.g. next to a
-    // turning end, cannot stop it early); the end with the smaller |X − R| is returned, as before.
+    // by bisection, so it never does worse than bisection. The first point is the root of the
+    // cubic through the bracket's values and slopes (hermite_root) where that applies. A Newton
+    // step below the resolution of v ends the search only where X − R is already within 1e-7 of R
+    // (an inaccurate slope, e.g. next to a turning end, cannot stop it early); so does an X − R
+    // within 1e-13 of R, a few times X's own rounding; the end with the smaller |X − R| is
+    // returned, as before.
     double refine_root(Sample low, Sample high) const {
         const double eps = std::numeric_limits<double>::epsilon();
         auto close = [&](double lo, double hi) { return std::abs(hi - lo) <= 2.0 * eps * std::max(std::abs(lo), std::abs(hi)); };
@@ -422,6 +427,9 @@ private:
         // stall on one end; every third refusal in a row bisects (common practice).
         double f_low = low.f, f_high = high.f;
         int kept = 0, refusals = 0;  // kept: +1 low kept last time, −1 high, 0 neither
+        // The first point: the root of the cubic through both ends' values and slopes, where it
+        // is monotone (what the scan left in a bracket mostly is).
+        double first_guess = hermite_root(low, high);
         for (int iteration = 0; iteration < 200 && !close(low.v, high.v); ++iteration) {
             const Sample best = better(low, high);
             double v = 0.5 * (low.v + high.v);
@@ -433,7 +441,10 @@ private:
             double step = v - best.v;
             if (std::isfinite(best.slope) && best.slope != 0.0) {
                 double newton = -best.f / best.slope;
-                if (std::abs(newton) <= eps * std::abs(best.v) && std::abs(best.f) <= 1e-9 * (1.0 + distance_))
+                // Converged: X − R at the level of X's own rounding, or a Newton step below the
+                // resolution of v where X − R is within the bound of the finish below.
+                if (std::abs(best.f) <= 1e-13 * (1.0 + distance_) ||
+                    (std::abs(newton) <= eps * std::abs(best.v) && std::abs(best.f) <= 1e-7 * (1.0 + distance_)))
                     return best.v;
                 // Within 1e-7 R of R, with a slope that the bracket's secant confirms to 10 % (it is
                 // less accurate next to a turning end), the Newton step itself ends the search without
@@ -463,6 +474,11 @@ private:
                     refusals = 0;
                 }
             }
+            if (!std::isnan(first_guess)) {
+                v = first_guess;
+                step = v - best.v;
+                first_guess = not_a_number;
+            }
             step_before_last = last_step;
             last_step = std::abs(step);
             if (!(v > std::min(low.v, high.v) && v < std::max(low.v, high.v))) break;
@@ -483,20 +499,84 @@ private:
         return better(low, high).v;
     }
 
-    // The extremum of X between two samples whose slopes differ in sign: TOMS748 on the slope, to
-    // 1e-14 of v. (Stopping early once a quadratic model put the extremum clear of R was tried:
-    // it missed roots where X is far from quadratic, next to a flat stretch of a table.)
+    // The root of the cubic Hermite interpolant of X − R between two samples of opposite signs,
+    // when both slopes are finite and of the secant's sign, and the ends lie within a factor 4 of
+    // each other in their distance to the ends of the range (not where X goes like a logarithm,
+    // see refine_root); NaN otherwise. Found by safeguarded Newton on the cubic itself.
+    static double hermite_root(const Sample& a, const Sample& b) {
+        const double h = b.v - a.v;
+        if (!std::isfinite(a.f) || !std::isfinite(b.f) || !std::isfinite(a.slope) || !std::isfinite(b.slope)) return not_a_number;
+        const double secant = (b.f - a.f) / h;
+        if (!(a.slope * secant > 0.0 && b.slope * secant > 0.0) || !(a.f * b.f < 0.0)) return not_a_number;
+        const double low = std::min(a.v, b.v), high = std::max(a.v, b.v);
+        const double d_low = std::min(low, 1.0 - low), d_high = std::min(high, 1.0 - high);
+        if (!(d_low > 0.0 && d_high > 0.0) || std::max(d_low, d_high) >= 4.0 * std::min(d_low, d_high)) return not_a_number;
+        // p(t) on t in [0, 1] from a to b, and p′(t).
+        const double ma = a.slope * h, mb = b.slope * h;
+        auto cubic = [&](double t, double& derivative) {
+            const double t2 = t * t, t3 = t2 * t;
+            derivative = (6.0 * t2 - 6.0 * t) * a.f + (3.0 * t2 - 4.0 * t + 1.0) * ma + (6.0 * t - 6.0 * t2) * b.f +
+                         (3.0 * t2 - 2.0 * t) * mb;
+            return (2.0 * t3 - 3.0 * t2 + 1.0) * a.f + (t3 - 2.0 * t2 + t) * ma + (3.0 * t2 - 2.0 * t3) * b.f +
+                   (t3 - t2) * mb;
+        };
+        double t_low = 0.0, t_high = 1.0;  // p(t_low) has a.f's sign
+        double t = a.f / (a.f - b.f);
+        for (int iteration = 0; iteration < 40; ++iteration) {
+            double derivative = 0.0;
+            const double p = cubic(t, derivative);
+            if (p == 0.0) break;
+            ((p > 0.0) == (a.f > 0.0) ? t_low : t_high) = t;
+            double next = t - p / derivative;
+            if (!(next > std::min(t_low, t_high) && next < std::max(t_low, t_high))) next = 0.5 * (t_low + t_high);
+            if (std::abs(next - t) <= 1e-15) {
+                t = next;
+                break;
+            }
+            t = next;
+        }
+        const double v = a.v + t * h;
+        return v > low && v < high ? v : not_a_number;
+    }
+
+    // The extremum of X between two samples whose slopes differ in sign (a sample there), or a
+    // sample between them where X − R has the other sign than at `a` (the extremum crosses R: a
+    // root on each side of it). False position on the slope with the Illinois rule and every
+    // third step a bisection (common practice), to 1e-14 of v. It stops early, with the better
+    // end, once the bracket left is beyond_reach (X − R of a's sign at both of its ends): the
+    // extremum cannot reach R then, by the test that lets roots() skip the search altogether.
+    // (Stopping once a quadratic model put the extremum clear of R was tried: it missed roots
+    // where X is far from quadratic, next to a flat stretch of a table.)
     Sample extremum_between(const Sample& a, const Sample& b) const {
-        auto slope = [&](double v) {
-            const Sample s = evaluate(v);
-            return std::isfinite(s.slope) ? s.slope : 0.0;
-        };
-        std::uintmax_t iterations = 100;
-        auto tolerance = [](double lo, double hi) {
-            return std::abs(hi - lo) <= 1e-14 * std::max(std::abs(lo), std::abs(hi));
-        };
-        const auto bracket = boost::math::tools::toms748_solve(slope, a.v, b.v, a.slope, b.slope, tolerance, iterations);
-        return evaluate(0.5 * (bracket.first + bracket.second));
+        auto slope_of = [](const Sample& s) { return std::isfinite(s.slope) ? s.slope : 0.0; };
+        Sample low = a, high = b;
+        double s_low = slope_of(a), s_high = slope_of(b);
+        int kept = 0;  // +1: low kept last time, −1: high
+        for (int iteration = 0; iteration < 100; ++iteration) {
+            if (std::abs(high.v - low.v) <= 1e-14 * std::max(std::abs(low.v), std::abs(high.v))) break;
+            double v = 0.5 * (low.v + high.v);
+            if (iteration % 3 != 2 && s_high != s_low) {
+                const double secant = low.v - s_low * (high.v - low.v) / (s_high - s_low);
+                if (secant > std::min(low.v, high.v) && secant < std::max(low.v, high.v)) v = secant;
+            }
+            const Sample m = evaluate(v);
+            if (!std::isfinite(m.f) || m.f * a.f <= 0.0) return m;
+            const double s_m = slope_of(m);
+            if (s_m == 0.0) return m;
+            if ((s_m > 0.0) == (slope_of(a) > 0.0)) {
+                low = m;
+                s_low = s_m;
+                if (kept == 1) s_high *= 0.5;
+                kept = 1;
+            } else {
+                high = m;
+                s_high = s_m;
+                if (kept == -1) s_low *= 0.5;
+                kept = -1;
+            }
+            if (beyond_reach(low, high)) return std::abs(low.f) <= std::abs(high.f) ? low : high;
+        }
+        return evaluate(0.5 * (low.v + high.v));
     }
 
     RangeLegs& legs_;
@@ -629,6 +709,73 @@ StratifiedPath make_path(const StratifiedProfile& profile, const RayLevel& level
     return path;
 }
 
+// A lower bound on the horizontal distance any ray with ray parameter ξ' >= ξ covers between the
+// depths a and b, where n > ξ' on the way: dx/dz = ξ'/√(n² − ξ'²) grows with ξ' and falls with n,
+// so each cell adds at least its height times that value at its largest n.
+double distance_floor(const StratifiedProfile& profile, double a, double b, double xi) {
+    const double top = std::max(a, b), bottom = std::min(a, b);
+    double sum = 0.0;
+    for (std::size_t cell = profile.cell_at(top, -1); cell < profile.cell_count(); ++cell) {
+        const double height = std::min(top, profile.cell_top(cell)) - std::max(bottom, profile.cell_bottom(cell));
+        if (!(height > 0.0)) break;
+        const double n = profile.cell_max_index(cell);
+        if (n > xi) sum += height * xi / std::sqrt((n - xi) * (n + xi));
+    }
+    return sum;
+}
+
+// A lower bound on X of a family over a range of ξ >= xi_low whose accessible intervals all reach
+// up to at least reach_up and down to at least reach_low: each leg covers at least the depths
+// between its ends as far as those reaches.
+double family_distance_floor(const StratifiedProfile& profile, const PathFamily& family, double z_source,
+                             double z_receiver, double reach_up, double reach_low, double xi_low) {
+    if (family.ends == 0) return distance_floor(profile, z_source, z_receiver, xi_low);
+    const bool first_upper = family.starts_upward, last_upper = is_upper_end(family, family.ends - 1);
+    double x = distance_floor(profile, z_source, first_upper ? reach_up : reach_low, xi_low) +
+               distance_floor(profile, z_receiver, last_upper ? reach_up : reach_low, xi_low);
+    if (family.ends >= 2) x += (family.ends - 1) * distance_floor(profile, reach_up, reach_low, xi_low);
+    return x;
+}
+
+// The ranges (indices into `ranges`, from the highest ξ down) where the direct path's X = R may
+// lie: X of the direct leg grows with ξ at fixed ends (∂X/∂ξ = ∫ n²/Q³ dz > 0) and does not care
+// where the interval ends, so the range is found by bisection over X at the ranges' bounds, each
+// the direct leg alone. A root within 1e-9 of a bound counts for both ranges beside it. Empty
+// when the direct path cannot reach R.
+std::pair<std::size_t, std::size_t> direct_ranges(const StratifiedProfile& profile,
+                                                  const std::vector<RayParameterRange>& ranges, double z_source,
+                                                  double z_receiver, double distance) {
+    const std::size_t count = ranges.size();
+    if (count == 0) return {1, 0};
+    // X at bound b: the top of range b (b < count), the bottom of the last (b = count).
+    std::vector<double> known(count + 1, not_a_number);
+    auto x_at = [&](std::size_t b) {
+        if (std::isnan(known[b])) {
+            const RayLevel level = b < count ? RayLevel::anchored_at(profile, ranges[b].anchor_z, 0.0)
+                                             : RayLevel::plain(ranges[count - 1].low);
+            const double x = leg_integrals(profile, level, {z_source}, {z_receiver}, false, false).distance_m;
+            known[b] = std::isfinite(x) ? x : infinity;
+        }
+        return known[b];
+    };
+    // The first bound in [0, count] where `beyond` holds (it holds from there on), by bisection.
+    auto first_bound = [&](auto beyond) {
+        std::size_t low = 0, high = count + 1;
+        while (low < high) {
+            const std::size_t middle = (low + high) / 2;
+            if (beyond(middle)) high = middle;
+            else low = middle + 1;
+        }
+        return low;
+    };
+    const double tolerance = 1e-9 * distance;
+    // Range i lies between bounds i and i + 1: it may hold the root when X(i) >= R and X(i + 1) <= R.
+    const std::size_t below = first_bound([&](std::size_t b) { return x_at(b) < distance - tolerance; });
+    const std::size_t at_or_below = first_bound([&](std::size_t b) { return x_at(b) <= distance + tolerance; });
+    if (below == 0 || at_or_below > count) return {1, 0};
+    return {at_or_below == 0 ? 0 : at_or_below - 1, std::min(below - 1, count - 1)};
+}
+
 bool same_path(const StratifiedPath& a, const StratifiedPath& b) {
     return std::abs(a.ray_parameter - b.ray_parameter) <= 1e-12 * std::max(1.0, a.ray_parameter) &&
            std::abs(a.time_s - b.time_s) <= 1e-15 && std::abs(a.launch_zenith_rad - b.launch_zenith_rad) <= 1e-9 &&
@@ -759,15 +906,33 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
     }
 
     const double z_low = std::min(z_source, z_receiver), z_high = std::max(z_source, z_receiver);
-    for (const RayParameterRange& range : ray_parameter_ranges(profile, z_low, z_high)) {
+    const std::vector<RayParameterRange> ranges = ray_parameter_ranges(profile, z_low, z_high);
+    const auto [direct_first, direct_last] =
+        z_source != z_receiver ? direct_ranges(profile, ranges, z_source, z_receiver, distance)
+                               : std::pair<std::size_t, std::size_t>{1, 0};
+    // How far every interval of the ranges met so far reaches: for ξ below the n of a cut beyond
+    // the pair's ends, the interval holds the cut's depth (everything between has a larger n).
+    double reach_up = z_high, reach_low = z_low;
+    for (std::size_t r = 0; r < ranges.size(); ++r) {
+        const RayParameterRange& range = ranges[r];
+        reach_up = std::max(reach_up, range.anchor_z);
+        reach_low = std::min(reach_low, range.anchor_z);
+        // The families that may reach R here: the direct path in its own ranges only, the others
+        // where the least distance they could cover in this range does not already exceed R.
+        std::vector<PathFamily> families;
+        if (r >= direct_first && r <= direct_last) families.push_back({z_receiver > z_source, 0});
+        for (int ends = 1; ends <= options.max_bounces; ++ends)
+            for (bool upward : {true, false}) {
+                const PathFamily family{upward, ends};
+                if (family_distance_floor(profile, family, z_source, z_receiver, reach_up, reach_low, range.low) <=
+                    distance * (1.0 + 1e-9))
+                    families.push_back(family);
+            }
+        if (families.empty()) continue;
         // The kinds of the ends in this range, from its middle.
         const RayLevel middle = RayLevel::anchored_at(profile, range.anchor_z, 0.25 * (range.high - range.low));
         const auto interval = profile.interval_around(middle, z_source);
         if (!interval || !interval->contains(z_receiver)) continue;
-        std::vector<PathFamily> families;
-        if (z_source != z_receiver) families.push_back({z_receiver > z_source, 0});
-        for (int ends = 1; ends <= options.max_bounces; ++ends)
-            for (bool upward : {true, false}) families.push_back({upward, ends});
         RangeLegs range_legs(profile, range, z_source, z_receiver);
         for (const PathFamily& family : families) {
             if (family_is_degenerate(family, *interval, z_source, z_receiver, options.bottom_paths)) continue;

@@ -95,6 +95,28 @@ StratifiedProfile::StratifiedProfile(std::shared_ptr<const IndexProfile> profile
     }
     build_cell_buckets();
     build_runs();
+    // The largest n on each cell: at its ends or at a run's end inside it (the only extrema).
+    for (std::size_t i = 0; i < cells_.size(); ++i) {
+        double n, dn, d2n, largest = cell_bottom_index_[i];
+        evaluate(i, cells_[i].z_top, n, dn, d2n);
+        largest = std::max(largest, n);
+        for (const Run& run : runs_)
+            if (run.z_bottom < cells_[i].z_top && run.z_bottom > cells_[i].z_bottom) {
+                evaluate(i, run.z_bottom, n, dn, d2n);
+                largest = std::max(largest, n);
+            }
+        if (cells_[i].form == Form::generic) {
+            // Its extrema were found by sampling: samples too, and their spread as a margin.
+            double smallest = largest;
+            for (int k = 1; k < 32; ++k) {
+                evaluate(i, cells_[i].z_top + (cells_[i].z_bottom - cells_[i].z_top) * k / 32.0, n, dn, d2n);
+                largest = std::max(largest, n);
+                smallest = std::min(smallest, n);
+            }
+            largest += largest - smallest;
+        }
+        cell_max_index_.push_back(largest);
+    }
 }
 
 void StratifiedProfile::build_cell_buckets() {

@@ -120,6 +120,8 @@ public:
     // d³n/dz³ of a cell's formula at z: exact for cubic and exponential cells, 0 for the others
     // (their cells are short, see above). Used to bound the distance to the zeros of n² − ξ².
     double third_derivative(std::size_t cell, double z) const;
+    // The largest n on a cell (at an end or at an extremum of n inside it).
+    double cell_max_index(std::size_t cell) const { return cell_max_index_[cell]; }
     // Whether a cell is kept as a cubic (a table's piece): its expansions about any point are exact.
     bool is_cubic(std::size_t cell) const { return cells_[cell].form == Form::cubic; }
     double index(double z) const;
@@ -219,6 +221,7 @@ private:
     std::vector<Cell> cells_;                          // from the surface down
     std::vector<double> cell_bottoms_;                 // cells_[i].z_bottom, for cell_at
     std::vector<double> cell_bottom_index_;            // n there, from cells_[i]'s formula
+    std::vector<double> cell_max_index_;               // see cell_max_index
     // cell_at's index: the depth range cut into equal buckets, bucket i from bucket_edges_[i] down
     // to bucket_edges_[i + 1]; the answer for any z in it lies in bucket_cells_[i] (first, last].
     double bucket_floor_ = 0.0;
