@@ -53,10 +53,14 @@ void require(bool ok, const std::string& message, const char* key) {
     if (!ok) throw DataInputError(message, {"", 0, key});
 }
 
-// One range of ξ in which the interval's ends keep their kinds: ξ = n(anchor) − span·v², v ∈ [0, 1].
+// One range of ξ in which the interval's ends keep their kinds, taken as ξ(v), v ∈ [0, 1] (see
+// RangeLegs::level).
 struct RayParameterRange {
     double high = 0.0, low = 0.0;
-    double anchor_z = 0.0;
+    double anchor_z = 0.0;  // n(anchor_z) = high
+    // n(low_anchor_z) = low, where `low` is n at a depth (not ξ = 0).
+    bool low_anchored = false;
+    double low_anchor_z = 0.0;
     // `high` is n at a local minimum of n beyond the ends: at ξ = high exactly the pair's interval is
     // that of the range above (a ray turning at the minimum instead of crossing it), so v = 0
     // itself does not belong to this range. (At n of the surface or the bottom both sides agree.)
@@ -107,10 +111,35 @@ public:
     RangeLegs(const StratifiedProfile& profile, const RayParameterRange& range, double z_source, double z_receiver)
         : profile_(profile), range_(range), z_source_(z_source), z_receiver_(z_receiver) {}
 
+    // ξ(v) = high − span·v², as an offset from n at the depth of `high`. Where `low` is n at a
+    // depth too, v > 1/2 takes ξ = low + span·d²·(7 − 8d), d = 1 − v, as an offset from n there
+    // instead: the same ξ and dξ/dv at v = 1/2, and n − ξ resolved next to either end far below a
+    // rounding error of ξ (roots next to a double root at either end, where X grows like the
+    // logarithm of ξ's distance to it).
     RayLevel level(double v) const {
-        return RayLevel::anchored_at(profile_, range_.anchor_z, (range_.high - range_.low) * v * v);
+        const double span = range_.high - range_.low;
+        if (!range_.low_anchored || v <= 0.5) return RayLevel::anchored_at(profile_, range_.anchor_z, span * v * v);
+        const double d = 1.0 - v;
+        return RayLevel::anchored_at(profile_, range_.low_anchor_z, -span * d * d * (7.0 - 8.0 * d));
     }
-    double dxi_dv(double v) const { return -2.0 * (range_.high - range_.low) * v; }
+    double dxi_dv(double v) const {
+        const double span = range_.high - range_.low;
+        if (!range_.low_anchored || v <= 0.5) return -2.0 * span * v;
+        const double d = 1.0 - v;
+        return -span * d * (14.0 - 24.0 * d);
+    }
+    // |ξ − ξ(end)| at v, and (about) the distance from the end in v (v or 1 − v) where it equals
+    // `offset`, for the small offsets asked.
+    double offset_from_end(double v, bool at_zero) const {
+        const double span = range_.high - range_.low, d = 1.0 - v;
+        if (at_zero) return span * v * v;
+        return range_.low_anchored ? span * d * d * (7.0 - 8.0 * d) : span * (1.0 - v * v);
+    }
+    double distance_for_offset(double offset, bool at_zero) const {
+        const double span = range_.high - range_.low;
+        if (at_zero) return std::sqrt(offset / span);
+        return range_.low_anchored ? std::sqrt(offset / (7.0 * span)) : offset / (2.0 * span);
+    }
 
     LegSet& at(double v) {
         // The latest levels first: a search asks again for the samples it just made.
@@ -195,7 +224,9 @@ class FamilySearch {
 public:
     FamilySearch(RangeLegs& legs, const RayParameterRange& range, const PathFamily& family, double distance,
                  int samples)
-        : legs_(legs), range_(range), family_(family), distance_(distance), samples_(samples) {}
+        : legs_(legs), range_(range), family_(family), distance_(distance), samples_(samples),
+          cut_limit_v_(legs.distance_for_offset(cut_limit_offset * (range.high - range.low), true)),
+          cut_limit_d_(legs.distance_for_offset(cut_limit_offset * (range.high - range.low), false)) {}
 
     Sample evaluate(double v) const {
         Sample s;
@@ -241,6 +272,7 @@ public:
                 }
             }
         }
+        found.erase(std::remove_if(found.begin(), found.end(), [](double v) { return std::isnan(v); }), found.end());
         std::sort(found.begin(), found.end());
         found.erase(std::unique(found.begin(), found.end()), found.end());
         return found;
@@ -263,7 +295,7 @@ private:
     std::vector<Sample> scan() const {
         const int finest = samples_;
         auto sample_at = [&](int i) {
-            return i == 0 && range_.high_is_cut ? evaluate(cut_limit_v) : evaluate(static_cast<double>(i) / finest);
+            return i == 0 && range_.high_is_cut ? evaluate(cut_limit_v_) : evaluate(static_cast<double>(i) / finest);
         };
         auto far_from_r = [](const Sample& a, const Sample& b) {
             if (!one_signed(a, b)) return false;
@@ -331,21 +363,22 @@ private:
         const Sample& next = at_zero ? samples[1] : samples[samples.size() - 2];
         // Only where X diverges, or where the family exists next to an end that is itself degenerate.
         if (std::isfinite(end.f) || (std::isnan(end.f) && !std::isfinite(next.f))) return;
-        // No closer to the end than a few rounding errors of ξ: rays whose ξ lies within that of a
-        // double root (a local minimum of n) are not resolved by a double ξ anyway.
-        const double spacing = 1.0 / samples_, span = range_.high - range_.low;
+        // How close to the end: down to the cut limits where the end's ξ is n at a depth (v = 0
+        // always, v = 1 with low_anchored: ξ(v) resolves n − ξ there far below a rounding error of
+        // ξ), else no closer than a few rounding errors of ξ (a little more, so that rounding does
+        // not put it below).
+        const double spacing = 1.0 / samples_;
+        const bool resolved = at_zero || range_.low_anchored;
         const double closest = closest_offset();
         auto distance_of = [&](double v) { return at_zero ? v : 1.0 - v; };
-        // The smallest distance that keeps ξ at least `closest` from the end (a little more, so that
-        // rounding does not put it below).
-        const double nearest = (1.0 + 1e-6) * (at_zero ? std::sqrt(closest / span) : closest / (2.0 * span));
+        const double nearest = resolved ? (at_zero ? cut_limit_v_ : cut_limit_d_)
+                                        : (1.0 + 1e-6) * legs_.distance_for_offset(closest, at_zero);
         Sample previous = next;
         double distance = 0.5 * spacing;
         for (int j = 1; j <= 200; ++j) {
             const double v = at_zero ? distance : 1.0 - distance;
             if (v <= 0.0 || v >= 1.0) break;
-            const double offset_from_end = at_zero ? span * v * v : span * (1.0 - v * v);
-            if (offset_from_end < closest) break;
+            if (!resolved && legs_.offset_from_end(v, at_zero) < closest) break;
             const Sample s = evaluate(v);
             samples.push_back(s);
             const bool growing_toward_end = at_zero ? s.slope < 0.0 : s.slope > 0.0;
@@ -368,11 +401,12 @@ private:
         }
     }
 
-    // The closest to an end of the range that ξ is taken: a few rounding errors of ξ (rays whose ξ
-    // lies within that of a double root, a local minimum of n, are not resolved by a double ξ).
+    // The closest to an end of the range without a depth (ξ = 0) that ξ is taken: a few rounding
+    // errors of ξ.
     double closest_offset() const { return 4.0 * std::numeric_limits<double>::epsilon() * range_.high; }
-    // The first sample of a range whose v = 0 is a cut: n − ξ = span·1e-24 there.
-    static constexpr double cut_limit_v = 1e-12;
+    // The first sample of a range whose v = 0 is a cut: n − ξ = span·1e-24 there (cut_limit_v_), and
+    // about as close as roots are sought next to a divergent v = 1 (1 − v >= cut_limit_d_).
+    static constexpr double cut_limit_offset = 1e-24;
 
     // X − R with a divergent X taken as just above R (its slope then unknown).
     Sample finite(Sample s) const {
@@ -383,6 +417,7 @@ private:
         return s;
     }
 
+    // The root of X − R between two samples of opposite signs (NaN: none within the limits above).
     double root_between(const Sample& a, const Sample& b) const {
         Sample low = finite(a), high = finite(b);
         if (low.f == 0.0) return low.v;
@@ -390,7 +425,7 @@ private:
         // A root next to v = 0 can lie many decades below the first sample (equal depths in deep
         // ice: n − ξ ~ 1e-19 where X = R, X ∝ v there): close in on it geometrically first, which
         // keeps the refinement below within its iterations.
-        if (low.v == 0.0 || low.v == cut_limit_v) {
+        if (low.v == 0.0 || low.v == cut_limit_v_) {
             for (int k = 0; k < 120; ++k) {
                 const double vm = 0.25 * high.v;
                 if (!(vm > low.v)) break;
@@ -401,6 +436,24 @@ private:
                     break;
                 }
                 high = m;
+            }
+        }
+        // The same toward v = 1 where X diverges there and the range's low end has a depth (a
+        // double root that ξ(v) resolves to far below a rounding error of ξ).
+        // No root is sought closer to it than cut_limit_d_, as none is next to v = 0.
+        if (b.v == 1.0 && std::isinf(b.f) && range_.low_anchored) {
+            for (int k = 0; k < 120; ++k) {
+                const double d = std::max(0.25 * (1.0 - low.v), cut_limit_d_);
+                const double vm = 1.0 - d;
+                if (!(vm > low.v && vm < high.v)) return not_a_number;
+                const Sample m = finite(evaluate(vm));
+                if (m.f == 0.0) return vm;
+                if ((m.f < 0.0) == (high.f < 0.0)) {
+                    high = m;
+                    break;
+                }
+                low = m;
+                if (d == cut_limit_d_) return not_a_number;
             }
         }
         return refine_root(low, high);
@@ -448,12 +501,15 @@ private:
                     return best.v;
                 // Within 1e-7 R of R, with a slope that the bracket's secant confirms to 10 % (it is
                 // less accurate next to a turning end), the Newton step itself ends the search without
-                // another level: it leaves X − R of the order of X″·step² (1e-12 R and less), and the
-                // time is corrected to first order in X − R anyway (make_path).
+                // another level where it leaves X − R below 1e-12 R: X″·step²/2 with X″ from the
+                // slopes at the bracket's ends (X is far from linear in v next to v = 0, where ξ
+                // goes like v²). The time is corrected to first order in X − R anyway (make_path).
                 const double finish = best.v + newton;
                 const double bracket_slope = (high.f - low.f) / (high.v - low.v);
+                const double curvature = std::abs((high.slope - low.slope) / (high.v - low.v));
                 if (std::abs(best.f) <= 1e-7 * distance_ && std::abs(bracket_slope / best.slope - 1.0) < 0.1 &&
-                    finish > std::min(low.v, high.v) && finish < std::max(low.v, high.v))
+                    0.5 * curvature * newton * newton <= 1e-12 * distance_ && finish > std::min(low.v, high.v) &&
+                    finish < std::max(low.v, high.v))
                     return finish;
                 // A bracket spanning a factor 4 or more in the distance d to an end of the range (v or
                 // 1 − v) lies where X goes like log d (next to a double root, docs/physics.md §8.3):
@@ -584,6 +640,7 @@ private:
     PathFamily family_;
     double distance_;
     int samples_;
+    double cut_limit_v_, cut_limit_d_;
 };
 
 // The ranges of ξ in [0, min n between the ends): cut where an end of the pair's interval can
@@ -617,9 +674,11 @@ std::vector<RayParameterRange> ray_parameter_ranges(const StratifiedProfile& pro
     std::sort(cuts.begin(), cuts.end(), [](const Cut& a, const Cut& b) { return a.ray_parameter > b.ray_parameter; });
     std::vector<RayParameterRange> ranges;
     for (std::size_t i = 0; i < cuts.size(); ++i) {
-        const double low = i + 1 < cuts.size() ? cuts[i + 1].ray_parameter : 0.0;
+        const bool last = i + 1 == cuts.size();
+        const double low = last ? 0.0 : cuts[i + 1].ray_parameter;
         if (cuts[i].ray_parameter > low)
-            ranges.push_back({cuts[i].ray_parameter, low, cuts[i].anchor_z, i > 0 && cuts[i].at_minimum});
+            ranges.push_back({cuts[i].ray_parameter, low, cuts[i].anchor_z, !last, last ? 0.0 : cuts[i + 1].anchor_z,
+                              i > 0 && cuts[i].at_minimum});
     }
     return ranges;
 }

@@ -1,0 +1,106 @@
+// Paths that turn just short of a local minimum of n (ξ = n_min + ρ, ρ > 0 tiny). Next to such a
+// double root a ray runs nearly horizontally along the minimum and X grows like log(1/ρ), so for a
+// long enough R the turning point sits within nanometres of the minimum and ρ lies far below a
+// rounding error of ξ itself. The finder takes ξ next to either end of a range as an offset from n
+// at that end's depth; these paths lie next to the lower end of their range.
+//
+// Reference (independent of the finder): the Snell integrals of family U by Boost.Math tanh_sinh
+// quadrature. In the table's piece below the minimum, n − n_min is the piece's own cubic written
+// about the minimum, P(δ) = n′δ + n″δ²/2 + n‴δ³/6 (δ = z − z_min, the coefficients from the table's
+// piece_index), so that n − ξ = P(δ) − P(δ_t) = (δ − δ_t)·(n′ + n″(δ + δ_t)/2 + n‴(δ² + δδ_t + δ_t²)/6)
+// holds no cancellation; the turning point δ_t solves P(δ_t) = ρ by Newton's method, and
+// δ = δ_t − u² removes the inverse square root. Below that piece n − ξ = (n(z) − n_min) − ρ.
+#include <catch2/catch.hpp>
+
+#include <cmath>
+#include <iomanip>
+#include <vector>
+
+#include <boost/math/quadrature/tanh_sinh.hpp>
+
+#include "core/constants.hpp"
+#include "model/model_file.hpp"
+#include "solver/path_families.hpp"
+#include "support/run_cli.hpp"
+#include "support/snell_integrals.hpp"
+
+using namespace firnray;
+
+namespace {
+
+struct Grazing {
+    double distance_m = 0.0, time_s = 0.0, turning_z = 0.0;
+};
+
+// Family U from z_source and z_receiver (both below z_min) turning ρ above n_min just below z_min.
+Grazing grazing_below(const IndexProfile& table, double z_min, double rho, double z_source, double z_receiver) {
+    const std::size_t piece = test::piece_holding(table, z_min - 1e-9);
+    double n_m, slope, curvature, n_1, slope_1, curvature_1;
+    table.piece_index(piece, z_min, n_m, slope, curvature);
+    table.piece_index(piece, z_min - 1e-3, n_1, slope_1, curvature_1);
+    const double third = (curvature - curvature_1) / 1e-3;  // n″ is linear on a cubic piece
+    auto p = [&](double d) { return d * (slope + d * (0.5 * curvature + d * third / 6.0)); };
+    auto p_prime = [&](double d) { return slope + d * (curvature + 0.5 * d * third); };
+    double d_t = -std::sqrt(2.0 * rho / curvature);
+    for (int i = 0; i < 100; ++i) d_t -= (p(d_t) - rho) / p_prime(d_t);
+    const double xi = n_m + rho;
+    double piece_bottom = -1e9;
+    for (double join : table.joins_z())
+        if (join < z_min - 1e-9) {
+            piece_bottom = join;
+            break;
+        }
+    const double d_b = piece_bottom - z_min;
+    // The part in the minimum's piece, in u (δ = δ_t − u²), one leg's worth.
+    boost::math::quadrature::tanh_sinh<double> quad;
+    auto factor = [&](double u) {
+        const double d = d_t - u * u;
+        const double q = -(slope + 0.5 * curvature * (d + d_t) + third * (d * d + d * d_t + d_t * d_t) / 6.0);
+        const double n = n_m + p(d);
+        return std::make_pair(n, std::sqrt(q * (n + xi)));
+    };
+    const double u_end = std::sqrt(d_t - d_b);
+    const double x_piece = quad.integrate([&](double u) { auto [n, s] = factor(u); return 2.0 * xi / s; }, 0.0, u_end);
+    const double ct_piece =
+        quad.integrate([&](double u) { auto [n, s] = factor(u); return 2.0 * n * n / s; }, 0.0, u_end);
+    auto gap = [&](double z, double) { return (table.index(z) - n_m) - rho; };
+    const std::vector<double> knots(table.joins_z().begin(), table.joins_z().end());
+    const std::vector<double> breaks(knots.rbegin(), knots.rend());
+    Grazing out;
+    out.turning_z = z_min + d_t;
+    for (double z_end : {z_source, z_receiver}) {
+        const auto below = test::snell_integrals(table, xi, z_end, piece_bottom, gap, breaks, false);
+        out.distance_m += x_piece + below.distance_m;
+        out.time_s += (ct_piece + below.optical_path_m) / speed_of_light;
+    }
+    return out;
+}
+
+}  // namespace
+
+TEST_CASE("paths turning just short of a local minimum of a measured log (ξ − n_min from 1e-6 down to 1e-21) "
+          "are found with the time of tanh_sinh quadrature of the Snell integrals (Boost.Math) within 0.01 ns",
+          "[solver][stratified]") {
+    // models/halvard-log.toml: n has a local minimum at a knot 6 m deep, lower than everything
+    // down to the pair below it.
+    const FirnModel model = load_model_file(test::source_path("models/halvard-log.toml"));
+    const StratifiedProfile profile(model.index);
+    double z_min = 0.0;
+    for (double z : profile.local_minima_z())
+        if (z < -5.5 && z > -6.5) z_min = z;
+    REQUIRE(z_min != 0.0);
+    const double z_source = -20.0, z_receiver = -35.0;
+    for (const double rho : {1e-6, 1e-9, 1e-12, 1e-15, 1e-18, 1e-21}) {
+        const Grazing ref = grazing_below(*model.index, z_min, rho, z_source, z_receiver);
+        INFO(std::setprecision(12) << "ξ − n_min " << rho << ", R " << ref.distance_m << " m, turning at "
+                                   << ref.turning_z << " m");
+        const auto paths = find_stratified_paths(profile, z_source, z_receiver, ref.distance_m);
+        const StratifiedPath* match = nullptr;
+        for (const auto& path : paths)
+            if (path.family == "U" && path.turns.size() == 1 && std::abs(path.turns[0].z_m - ref.turning_z) < 1e-6)
+                match = &path;
+        REQUIRE(match != nullptr);
+        CHECK(std::abs(match->time_s - ref.time_s) < 0.01e-9);
+        CHECK(match->turns[0].z_m < z_min);
+    }
+}
