@@ -86,6 +86,16 @@ bool beyond_reach(const Sample& a, const Sample& b) {
     return std::min(std::abs(a.f), std::abs(b.f)) > reach;
 }
 
+// An extremum of X between two samples that turns away from R (a minimum where X − R < 0 at both,
+// or a maximum where it is > 0), with both beyond_reach: roots() skips the search for such an
+// extremum, and so the scan need not look closer at it.
+bool turns_away_from_r(const Sample& a, const Sample& b) {
+    if (!std::isfinite(a.f) || !std::isfinite(b.f) || !std::isfinite(a.slope) || !std::isfinite(b.slope)) return false;
+    const bool minimum_below = a.f < 0.0 && b.f < 0.0 && a.slope < 0.0 && b.slope > 0.0;
+    const bool maximum_above = a.f > 0.0 && b.f > 0.0 && a.slope > 0.0 && b.slope < 0.0;
+    return (minimum_below || maximum_above) && beyond_reach(a, b);
+}
+
 // The legs any family of one range of ξ is made of, for one ξ (distance and derivative only).
 // They are sums of the pieces between the interval's ends and the two end points, taken from the
 // top down (upper end, source and receiver in depth order, lower end): each piece is integrated
@@ -261,9 +271,7 @@ public:
                 // both samples, or a maximum where it is > 0, cannot; it is skipped when, besides,
                 // |X − R| at both exceeds twice what the larger slope covers over the interval (X
                 // turning more than once in between could not reach R then).
-                const bool minimum = a.slope < 0.0;
-                const bool may_cross = minimum ? a.f > 0.0 : a.f < 0.0;
-                if (!may_cross && beyond_reach(a, b)) continue;
+                if (turns_away_from_r(a, b)) continue;
                 const Sample e = extremum_between(a, b);
                 if (e.f == 0.0) found.push_back(e.v);
                 else if (std::isfinite(e.f) && e.f * a.f < 0.0) {
@@ -298,6 +306,7 @@ private:
             return i == 0 && range_.high_is_cut ? evaluate(cut_limit_v_) : evaluate(static_cast<double>(i) / finest);
         };
         auto far_from_r = [](const Sample& a, const Sample& b) {
+            if (turns_away_from_r(a, b)) return true;
             if (!one_signed(a, b)) return false;
             const double secant = (b.f - a.f) / (b.v - a.v);
             const double ra = a.slope / secant, rb = b.slope / secant;
@@ -361,8 +370,11 @@ private:
     void approach_end(std::vector<Sample>& samples, bool at_zero) {
         const Sample& end = at_zero ? samples.front() : samples.back();
         const Sample& next = at_zero ? samples[1] : samples[samples.size() - 2];
-        // Only where X diverges, or where the family exists next to an end that is itself degenerate.
+        // Only where X diverges, or where the family exists next to an end that is itself degenerate;
+        // and not where the scan's last sample before the end already has X above R and growing
+        // toward it.
         if (std::isfinite(end.f) || (std::isnan(end.f) && !std::isfinite(next.f))) return;
+        if (std::isfinite(next.f) && next.f > 0.0 && (at_zero ? next.slope < 0.0 : next.slope > 0.0)) return;
         // How close to the end: down to the cut limits where the end's ξ is n at a depth (v = 0
         // always, v = 1 with low_anchored: ξ(v) resolves n − ξ there far below a rounding error of
         // ξ), else no closer than a few rounding errors of ξ (a little more, so that rounding does
