@@ -119,7 +119,9 @@ struct LegSet {
 class RangeLegs {
 public:
     RangeLegs(const StratifiedProfile& profile, const RayParameterRange& range, double z_source, double z_receiver)
-        : profile_(profile), range_(range), z_source_(z_source), z_receiver_(z_receiver) {}
+        : profile_(profile), range_(range), z_source_(z_source), z_receiver_(z_receiver) {
+        cache_.reserve(32);  // a range's levels, most of the time
+    }
 
     // ξ(v) = high − span·v², as an offset from n at the depth of `high`. Where `low` is n at a
     // depth too, v > 1/2 takes ξ = low + span·d²·(7 − 8d), d = 1 − v, as an offset from n there
