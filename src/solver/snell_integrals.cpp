@@ -84,7 +84,7 @@ struct SnellCellTables {
     // singularities (σ or ρ < 0) lie at least π off the real axis: pieces σ (toward the high end)
     // or ρ (toward the low end) in [Δ 2^(−j−2), Δ 2^(−j−1)], j < turn_levels, in the variable
     // log σ or log ρ; the four series are x/ξ, c·T, s and √σ·dx/dξ (the turning end moving).
-    static constexpr int turn_levels = 60;
+    static constexpr int turn_levels = 90;
     struct TurnCell {
         bool tabulated = false;
         double z_high = 0.0, z_low = 0.0;  // the ends where n is largest and smallest
