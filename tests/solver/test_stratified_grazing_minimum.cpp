@@ -35,17 +35,37 @@ struct Grazing {
     double distance_m = 0.0, time_s = 0.0, turning_z = 0.0;
 };
 
+// The cubic of the table's piece on one side of z_min (side +1 above, −1 below) written about z_min:
+// n = n_m + P(δ), P(δ) = slope·δ + curvature·δ²/2 + third·δ³/6.
+struct CubicAbout {
+    double n_m = 0.0, slope = 0.0, curvature = 0.0, third = 0.0;
+    double rise(double d) const { return d * (slope + d * (0.5 * curvature + d * third / 6.0)); }
+};
+CubicAbout cubic_about(const IndexProfile& table, double z_min, double side) {
+    const std::size_t piece = test::piece_holding(table, z_min + side * 1e-9);
+    CubicAbout c;
+    double n_1, slope_1, curvature_1;
+    table.piece_index(piece, z_min, c.n_m, c.slope, c.curvature);
+    table.piece_index(piece, z_min + side * 1e-3, n_1, slope_1, curvature_1);
+    c.third = (curvature_1 - c.curvature) / (side * 1e-3);  // n″ is linear on a cubic piece
+    return c;
+}
+
+// The local minimum of n in models/halvard-log.toml at the knot 6 m deep.
+double minimum_at_6_m(const StratifiedProfile& profile) {
+    double z_min = 0.0;
+    for (double z : profile.local_minima_z())
+        if (z < -5.5 && z > -6.5) z_min = z;
+    return z_min;
+}
+
 // Family U from z_source and z_receiver (both below z_min) turning ρ above n_min just below z_min.
 Grazing grazing_below(const IndexProfile& table, double z_min, double rho, double z_source, double z_receiver) {
-    const std::size_t piece = test::piece_holding(table, z_min - 1e-9);
-    double n_m, slope, curvature, n_1, slope_1, curvature_1;
-    table.piece_index(piece, z_min, n_m, slope, curvature);
-    table.piece_index(piece, z_min - 1e-3, n_1, slope_1, curvature_1);
-    const double third = (curvature - curvature_1) / 1e-3;  // n″ is linear on a cubic piece
-    auto p = [&](double d) { return d * (slope + d * (0.5 * curvature + d * third / 6.0)); };
+    const CubicAbout c = cubic_about(table, z_min, -1.0);
+    const double n_m = c.n_m, slope = c.slope, curvature = c.curvature, third = c.third;
     auto p_prime = [&](double d) { return slope + d * (curvature + 0.5 * d * third); };
     double d_t = -std::sqrt(2.0 * rho / curvature);
-    for (int i = 0; i < 100; ++i) d_t -= (p(d_t) - rho) / p_prime(d_t);
+    for (int i = 0; i < 100; ++i) d_t -= (c.rise(d_t) - rho) / p_prime(d_t);
     const double xi = n_m + rho;
     double piece_bottom = -1e9;
     for (double join : table.joins_z())
@@ -59,7 +79,7 @@ Grazing grazing_below(const IndexProfile& table, double z_min, double rho, doubl
     auto factor = [&](double u) {
         const double d = d_t - u * u;
         const double q = -(slope + 0.5 * curvature * (d + d_t) + third * (d * d + d * d_t + d_t * d_t) / 6.0);
-        const double n = n_m + p(d);
+        const double n = n_m + c.rise(d);
         return std::make_pair(n, std::sqrt(q * (n + xi)));
     };
     const double u_end = std::sqrt(d_t - d_b);
@@ -86,17 +106,12 @@ std::pair<double, double> direct_across(const IndexProfile& table, double z_min,
     double x = 0.0, ct = 0.0;
     for (const double side : {1.0, -1.0}) {  // the half above z_min, then the one below
         const double z_end = side > 0.0 ? std::max(z_a, z_b) : std::min(z_a, z_b);
-        const std::size_t piece = test::piece_holding(table, z_min + side * 1e-9);
-        double n_m, slope, curvature, n_1, slope_1, curvature_1;
-        table.piece_index(piece, z_min, n_m, slope, curvature);
-        table.piece_index(piece, z_min + side * 1e-3, n_1, slope_1, curvature_1);
-        const double third = (curvature_1 - curvature) / (side * 1e-3);
-        const double xi = n_m - rho;
+        const CubicAbout c = cubic_about(table, z_min, side);
+        const double xi = c.n_m - rho;
         // δ = z − z_min, t in [0, |z_end − z_min|] from z_min: t itself is exact next to the peak.
         auto values = [&](double t) {
-            const double d = side * t;
-            const double rise = d * (slope + d * (0.5 * curvature + d * third / 6.0));  // n − n_min
-            const double n = n_m + rise;
+            const double rise = c.rise(side * t);  // n − n_min
+            const double n = c.n_m + rise;
             return std::make_pair(n, std::sqrt((rise + rho) * (n + xi)));
         };
         const double length = std::abs(z_end - z_min);
@@ -115,9 +130,7 @@ TEST_CASE("paths turning just short of a local minimum of a measured log (ξ −
     // down to the pair below it.
     const FirnModel model = load_model_file(test::source_path("models/halvard-log.toml"));
     const StratifiedProfile profile(model.index);
-    double z_min = 0.0;
-    for (double z : profile.local_minima_z())
-        if (z < -5.5 && z > -6.5) z_min = z;
+    const double z_min = minimum_at_6_m(profile);
     REQUIRE(z_min != 0.0);
     const double z_source = -20.0, z_receiver = -35.0;
     for (const double rho : {1e-6, 1e-9, 1e-12, 1e-15, 1e-18, 1e-21}) {
@@ -142,9 +155,7 @@ TEST_CASE("direct paths across a local minimum of a measured log between the end
     // written about it hold over the whole leg.
     const FirnModel model = load_model_file(test::source_path("models/halvard-log.toml"));
     const StratifiedProfile profile(model.index);
-    double z_min = 0.0;
-    for (double z : profile.local_minima_z())
-        if (z < -5.5 && z > -6.5) z_min = z;
+    const double z_min = minimum_at_6_m(profile);
     REQUIRE(z_min != 0.0);
     const double z_source = z_min + 0.4, z_receiver = z_min - 0.7;
     REQUIRE(test::piece_holding(*model.index, z_source) + 1 == test::piece_holding(*model.index, z_receiver));
