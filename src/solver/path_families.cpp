@@ -3,12 +3,10 @@
 #include <algorithm>
 #include <array>
 #include <cmath>
-#include <cstdint>
 #include <limits>
 #include <utility>
 #include <vector>
 
-#include <boost/math/tools/roots.hpp>
 #include <fmt/format.h>
 
 #include "core/constants.hpp"
