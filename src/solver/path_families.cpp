@@ -71,10 +71,21 @@ struct Sample {
     double slope = not_a_number;  // dX/dv
 };
 
+// X − R and the slope finite at both samples.
+bool finite_pair(const Sample& a, const Sample& b) {
+    return std::isfinite(a.f) && std::isfinite(b.f) && std::isfinite(a.slope) && std::isfinite(b.slope);
+}
+
 // Two samples with X − R and the slope finite and each of one sign across them.
-bool one_signed(const Sample& a, const Sample& b) {
-    if (!std::isfinite(a.f) || !std::isfinite(b.f) || !std::isfinite(a.slope) || !std::isfinite(b.slope)) return false;
-    return a.f * b.f > 0.0 && a.slope * b.slope > 0.0;
+bool one_signed(const Sample& a, const Sample& b) { return finite_pair(a, b) && a.f * b.f > 0.0 && a.slope * b.slope > 0.0; }
+
+// A bracket of v whose ends' distances d to the nearer end of the range (v for a bracket within
+// [0, 1/2], else 1 − v) differ by a factor 4 or more: next to a double root X goes like log d
+// there (docs/physics.md §8.3), far from a polynomial in v.
+bool spans_decades(double a, double b) {
+    const bool near_zero = std::max(a, b) <= 0.5;
+    const double d_a = near_zero ? a : 1.0 - a, d_b = near_zero ? b : 1.0 - b;
+    return d_a > 0.0 && d_b > 0.0 && std::max(d_a, d_b) >= 4.0 * std::min(d_a, d_b);
 }
 
 // |X − R| at both samples more than twice what the larger of their slopes covers between them:
@@ -88,7 +99,7 @@ bool beyond_reach(const Sample& a, const Sample& b) {
 // or a maximum where it is > 0), with both beyond_reach: roots() skips the search for such an
 // extremum, and so the scan need not look closer at it.
 bool turns_away_from_r(const Sample& a, const Sample& b) {
-    if (!std::isfinite(a.f) || !std::isfinite(b.f) || !std::isfinite(a.slope) || !std::isfinite(b.slope)) return false;
+    if (!finite_pair(a, b)) return false;
     const bool minimum_below = a.f < 0.0 && b.f < 0.0 && a.slope < 0.0 && b.slope > 0.0;
     const bool maximum_above = a.f > 0.0 && b.f > 0.0 && a.slope > 0.0 && b.slope < 0.0;
     return (minimum_below || maximum_above) && beyond_reach(a, b);
@@ -265,12 +276,9 @@ public:
             if (!std::isfinite(a.f) && !std::isfinite(b.f)) continue;
             if (a.f * b.f < 0.0 || (std::isinf(a.f) && b.f < 0.0) || (std::isinf(b.f) && a.f < 0.0)) {
                 found.push_back(root_between(a, b));
-            } else if (std::isfinite(a.f) && std::isfinite(b.f) && b.f != 0.0 && std::isfinite(a.slope) &&
-                       std::isfinite(b.slope) && a.slope * b.slope < 0.0) {
-                // An extremum inside: two roots if it reaches across R. A minimum where X − R < 0 at
-                // both samples, or a maximum where it is > 0, cannot; it is skipped when, besides,
-                // |X − R| at both exceeds twice what the larger slope covers over the interval (X
-                // turning more than once in between could not reach R then).
+            } else if (finite_pair(a, b) && b.f != 0.0 && a.slope * b.slope < 0.0) {
+                // An extremum inside: two roots if it reaches across R (not searched where it
+                // turns away from R).
                 if (turns_away_from_r(a, b)) continue;
                 const Sample e = extremum_between(a, b);
                 if (e.f == 0.0) found.push_back(e.v);
@@ -523,12 +531,10 @@ private:
                     0.5 * curvature * newton * newton <= 1e-12 * distance_ && finish > std::min(low.v, high.v) &&
                     finish < std::max(low.v, high.v))
                     return finish;
-                // A bracket spanning a factor 4 or more in the distance d to an end of the range (v or
-                // 1 − v) lies where X goes like log d (next to a double root, docs/physics.md §8.3):
-                // there Newton's step is taken in log d, which follows that shape.
-                const bool near_zero = std::max(low.v, high.v) <= 0.5;
-                const double d_low = near_zero ? low.v : 1.0 - low.v, d_high = near_zero ? high.v : 1.0 - high.v;
-                if (d_low > 0.0 && d_high > 0.0 && std::max(d_low, d_high) >= 4.0 * std::min(d_low, d_high)) {
+                // Where X goes like log d (spans_decades), Newton's step is taken in log d, which
+                // follows that shape.
+                if (spans_decades(low.v, high.v)) {
+                    const bool near_zero = std::max(low.v, high.v) <= 0.5;
                     const double d = near_zero ? best.v : 1.0 - best.v;
                     const double d_slope = near_zero ? best.slope : -best.slope;  // dX/dd
                     const double d_target = d * std::exp(-best.f / (d * d_slope));
@@ -568,17 +574,15 @@ private:
     }
 
     // The root of the cubic Hermite interpolant of X − R between two samples of opposite signs,
-    // when both slopes are finite and of the secant's sign, and the ends lie within a factor 4 of
-    // each other in their distance to the ends of the range (not where X goes like a logarithm,
-    // see refine_root); NaN otherwise. Found by safeguarded Newton on the cubic itself.
+    // when both slopes are finite and of the secant's sign, inside the range and not where X goes
+    // like a logarithm (spans_decades); NaN otherwise. Found by safeguarded Newton on the cubic.
     static double hermite_root(const Sample& a, const Sample& b) {
         const double h = b.v - a.v;
-        if (!std::isfinite(a.f) || !std::isfinite(b.f) || !std::isfinite(a.slope) || !std::isfinite(b.slope)) return not_a_number;
+        if (!finite_pair(a, b)) return not_a_number;
         const double secant = (b.f - a.f) / h;
         if (!(a.slope * secant > 0.0 && b.slope * secant > 0.0) || !(a.f * b.f < 0.0)) return not_a_number;
         const double low = std::min(a.v, b.v), high = std::max(a.v, b.v);
-        const double d_low = std::min(low, 1.0 - low), d_high = std::min(high, 1.0 - high);
-        if (!(d_low > 0.0 && d_high > 0.0) || std::max(d_low, d_high) >= 4.0 * std::min(d_low, d_high)) return not_a_number;
+        if (!(low > 0.0 && high < 1.0) || spans_decades(low, high)) return not_a_number;
         // p(t) on t in [0, 1] from a to b, and p′(t).
         const double ma = a.slope * h, mb = b.slope * h;
         auto cubic = [&](double t, double& derivative) {
@@ -795,18 +799,29 @@ double distance_floor(const StratifiedProfile& profile, double a, double b, doub
     return sum;
 }
 
-// A lower bound on X of a family over a range of ξ >= xi_low whose accessible intervals all reach
-// up to at least reach_up and down to at least reach_low: each leg covers at least the depths
-// between its ends as far as those reaches.
-double family_distance_floor(const StratifiedProfile& profile, const PathFamily& family, double z_source,
-                             double z_receiver, double reach_up, double reach_low, double xi_low) {
-    if (family.ends == 0) return distance_floor(profile, z_source, z_receiver, xi_low);
-    const bool first_upper = family.starts_upward, last_upper = is_upper_end(family, family.ends - 1);
-    double x = distance_floor(profile, z_source, first_upper ? reach_up : reach_low, xi_low) +
-               distance_floor(profile, z_receiver, last_upper ? reach_up : reach_low, xi_low);
-    if (family.ends >= 2) x += (family.ends - 1) * distance_floor(profile, reach_up, reach_low, xi_low);
-    return x;
-}
+// Lower bounds on X of every family with ends over a range of ξ >= xi_low whose accessible
+// intervals all reach up to at least reach_up and down to at least reach_low: each leg covers at
+// least the depths between its ends as far as those reaches. Each span once (the traversal only
+// for families of two ends or more).
+class FamilyDistanceFloor {
+public:
+    FamilyDistanceFloor(const StratifiedProfile& profile, double z_source, double z_receiver, double reach_up,
+                        double reach_low, double xi_low, bool traversals)
+        : source_up_(distance_floor(profile, z_source, reach_up, xi_low)),
+          source_low_(distance_floor(profile, z_source, reach_low, xi_low)),
+          receiver_up_(distance_floor(profile, z_receiver, reach_up, xi_low)),
+          receiver_low_(distance_floor(profile, z_receiver, reach_low, xi_low)),
+          traversal_(traversals ? distance_floor(profile, reach_up, reach_low, xi_low) : 0.0) {}
+
+    double of(const PathFamily& family) const {
+        const bool last_upper = is_upper_end(family, family.ends - 1);
+        return (family.starts_upward ? source_up_ : source_low_) + (last_upper ? receiver_up_ : receiver_low_) +
+               (family.ends - 1) * traversal_;
+    }
+
+private:
+    double source_up_, source_low_, receiver_up_, receiver_low_, traversal_;
+};
 
 // The ranges (indices into `ranges`, from the highest ξ down) where the direct path's X = R may
 // lie: X of the direct leg grows with ξ at fixed ends (∂X/∂ξ = ∫ n²/Q³ dz > 0) and does not care
@@ -992,13 +1007,13 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
         // where the least distance they could cover in this range does not already exceed R.
         std::vector<PathFamily> families;
         if (r >= direct_first && r <= direct_last) families.push_back({z_receiver > z_source, 0});
-        for (int ends = 1; ends <= options.max_bounces; ++ends)
-            for (bool upward : {true, false}) {
-                const PathFamily family{upward, ends};
-                if (family_distance_floor(profile, family, z_source, z_receiver, reach_up, reach_low, range.low) <=
-                    distance * (1.0 + 1e-9))
-                    families.push_back(family);
-            }
+        if (options.max_bounces > 0) {
+            const FamilyDistanceFloor floor(profile, z_source, z_receiver, reach_up, reach_low, range.low,
+                                            options.max_bounces >= 2);
+            for (int ends = 1; ends <= options.max_bounces; ++ends)
+                for (bool upward : {true, false})
+                    if (floor.of({upward, ends}) <= distance * (1.0 + 1e-9)) families.push_back({upward, ends});
+        }
         if (families.empty()) continue;
         // The kinds of the ends in this range, from its middle.
         const RayLevel middle = RayLevel::anchored_at(profile, range.anchor_z, 0.25 * (range.high - range.low));
