@@ -128,7 +128,16 @@ void connect_blocks(const RaySolver& solver, const std::vector<PathPair>& pairs,
         for (std::size_t i = b * pairs_per_block; i < std::min(pairs.size(), (b + 1) * pairs_per_block); ++i) {
             PairPaths result = connect_pair(solver, pairs[i], options);
             if (addition && result.error.empty()) addition(pairs[i], result);
-            formatter.append_pair(block.text, first_index + i, pairs[i], result);
+            // A value the output refuses (not finite) fails this pair alone, as an error row.
+            const std::size_t row_start = block.text.size();
+            try {
+                formatter.append_pair(block.text, first_index + i, pairs[i], result);
+            } catch (const NumericalError& e) {
+                block.text.resize(row_start);
+                result = PairPaths{};
+                result.error = std::string("numerical failure: ") + e.what();
+                formatter.append_pair(block.text, first_index + i, pairs[i], result);
+            }
             block.paths += result.paths.size();
             block.failed += !result.error.empty();
             block.shadowed += result.error.empty() && result.paths.empty();

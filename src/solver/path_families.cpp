@@ -976,7 +976,9 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
             // paraxial ray equation about a horizontal ray), J = sin(kR)/k at a maximum of n
             // (k² = −n″/n; the rays refocus on the axis every π/k), sinh(kR)/k at a minimum, R
             // where n″ = 0, with n″ the mean of the two sides of a knot. derivative_cosines = J/n
-            // (so that L_eff = n·√((R/ξ)·J/n) = √(R·J), R in the homogeneous limit).
+            // (so that L_eff = n·√((R/ξ)·J/n) = √(R·J), R in the homogeneous limit). At a minimum
+            // the neighbouring rays leave the line like e^(kR): where sinh(kR) exceeds a double
+            // (kR above about 710), the line carries no field a double holds and is left out.
             double spread = distance;
             if (extremum) {
                 double n_above, dn_above, d2n_above, n_below, dn_below, d2n_below;
@@ -987,7 +989,7 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
             }
             path.derivative_cosines = spread / n;
             if (options.attenuation) path.attenuation_exponent = distance / options.attenuation->length_m(z_source);
-            paths.push_back(path);
+            if (std::isfinite(spread)) paths.push_back(path);
         }
     }
 

@@ -249,3 +249,43 @@ TEST_CASE("connect_batch_stream: an empty batch is refused before anything is wr
     CHECK(out.str().empty());
     CHECK_THROWS_AS(PathPairReader(test::write_file(dir + "/cols.csv", "source_x_m\n1\n")), DataInputError);
 }
+
+TEST_CASE("connect_batch: a pair whose output the writer refuses (a field not finite) becomes an error row, and the "
+          "batch goes on",
+          "[paths]") {
+    auto model = std::make_shared<FirnModel>(*test::model_with(std::make_shared<ExponentialProfile>(1.78, 1.35, 40.0)));
+    const ClosedFormSolver solver(model);
+    std::vector<PathPair> pairs(3);
+    for (std::size_t i = 0; i < pairs.size(); ++i) {
+        pairs[i].input_line = static_cast<int>(i) + 2;
+        pairs[i].name = "p" + std::to_string(i);
+        pairs[i].source = {0.0, 0.0, -50.0};
+        pairs[i].receiver = {100.0 + 50.0 * static_cast<double>(i), 0.0, -20.0};
+    }
+    const BatchFormatter csv(PathFormat::csv, {std::make_shared<FirnModel>(solver.model()), solver.name()}, pairs);
+    // The CSV formatter, except that a pair at index 1 with paths is refused as the writer
+    // refuses a non-finite value (io/csv_writer.cpp).
+    struct Refusing : PairFormatter {
+        const BatchFormatter& inner;
+        explicit Refusing(const BatchFormatter& f) : inner(f) {}
+        std::string begin() const override { return inner.begin(); }
+        void append_pair(std::string& out, std::size_t index, const PathPair& pair, const PairPaths& result) const override {
+            inner.append_pair(out, index, pair, result);
+            if (index == 1 && !result.paths.empty())
+                throw NumericalError("the output field 'spreading_m' is +infinite");
+        }
+        std::string end(std::size_t n, std::size_t failed) const override { return inner.end(n, failed); }
+    } refusing(csv);
+    const BatchRun run = connect_batch(solver, pairs, {}, refusing, 2);
+    CHECK(run.pairs == 3u);
+    CHECK(run.failed == 1u);
+    const CsvTable table = parse_csv(run.text, "batch");
+    std::size_t rows_of_p1 = 0;
+    for (const auto& row : table.rows)
+        if (row.fields[1] == "p1") {
+            ++rows_of_p1;
+            CHECK(row.fields.back().find("numerical failure") != std::string::npos);
+        }
+    CHECK(rows_of_p1 == 1u);
+    CHECK(run.paths == connect_pair(solver, pairs[0], {}).paths.size() + connect_pair(solver, pairs[2], {}).paths.size());
+}

@@ -51,3 +51,32 @@ TEST_CASE("equal depths on the axis of a duct or at a minimum of n are joined by
     // Off the axis by a millimetre there is no such line; the paths found are rays that turn.
     for (const auto& p : find_stratified_paths(profile, -20.001, -20.001, 7.0, options)) CHECK(p.family != "direct");
 }
+
+TEST_CASE("at a minimum of n the straight line's spreading grows like sinh(kR)/k (paraxial ray equation, "
+          "from memory), and where that exceeds a double the line is left out, never a path with an infinite spreading",
+          "[solver][stratified]") {
+    const StratifiedProfile profile(lens_and_soft_layer());
+    const double z = -30.0, n = profile.index(z);
+    double n_above, g_above, k_above, n_below, g_below, k_below;
+    profile.evaluate(profile.cell_at(z, 1), z, n_above, g_above, k_above);
+    profile.evaluate(profile.cell_at(z, -1), z, n_below, g_below, k_below);
+    const double k = std::sqrt(0.5 * (k_above + k_below) / n);
+    REQUIRE(k > 0.0);
+    // kR = 50: the line, with J = sinh(kR)/k; kR = 1000: sinh overflows, no line.
+    for (const double kr : {50.0, 1000.0}) {
+        const double distance = kr / k;
+        INFO("kR " << kr << ", R " << distance << " m");
+        const auto paths = find_stratified_paths(profile, z, z, distance);
+        const StratifiedPath* line = nullptr;
+        for (const auto& p : paths) {
+            CHECK(std::isfinite(p.derivative_cosines));
+            if (p.ray_parameter == n && p.family == "direct") line = &p;
+        }
+        if (kr < 700.0) {
+            REQUIRE(line != nullptr);
+            CHECK(line->derivative_cosines * n == Approx(std::sinh(kr) / k).epsilon(1e-12));
+        } else {
+            CHECK(line == nullptr);
+        }
+    }
+}
