@@ -59,10 +59,13 @@ struct RayParameterRange {
     // n(low_anchor_z) = low, where `low` is n at a depth (not ξ = 0).
     bool low_anchored = false;
     double low_anchor_z = 0.0;
-    // `high` is n at a local minimum of n beyond the ends: at ξ = high exactly the pair's interval is
-    // that of the range above (a ray turning at the minimum instead of crossing it), so v = 0
-    // itself does not belong to this range. (At n of the surface or the bottom both sides agree.)
-    bool high_is_cut = false;
+    // `high` is n at a local minimum of n between the pair's depths, or at one of them where n′ = 0
+    // (the first range's only): the direct path grazes it at v = 0, where its X diverges, and roots
+    // are sought down to v = 0 itself, as closely as ξ(v) resolves it. Every other range is sampled from just inside
+    // v = 0 (FamilySearch::end_v0_): at a local minimum beyond the ends ξ = high exactly belongs to
+    // the range above (a ray turning at the minimum instead of crossing it), and elsewhere (n at an
+    // end of the pair, the surface or the bottom) both agree to far below the roots' tolerance.
+    bool top_diverges = false;
 };
 
 struct Sample {
@@ -247,7 +250,9 @@ public:
                  int samples)
         : legs_(legs), range_(range), family_(family), distance_(distance), samples_(samples),
           cut_limit_v_(legs.distance_for_offset(cut_limit_offset * (range.high - range.low), true)),
-          cut_limit_d_(legs.distance_for_offset(cut_limit_offset * (range.high - range.low), false)) {}
+          cut_limit_d_(legs.distance_for_offset(cut_limit_offset * (range.high - range.low), false)),
+          end_v0_(range.top_diverges ? not_a_number : cut_limit_v_),
+          end_v1_(range.low_anchored ? 1.0 - cut_limit_d_ : not_a_number) {}
 
     Sample evaluate(double v) const {
         Sample s;
@@ -295,26 +300,34 @@ public:
     }
 
 private:
-    // Samples of X − R at v = i / scan_samples, sorted by v: the quarters first, then the middle
-    // of every interval that could hide a root, down to the finest spacing. An interval is left
-    // unsplit only when nothing there comes near R: X finite at both ends, X − R of one sign and
-    // the slopes of one sign, the end slopes within a factor 3 of the secant's (X monotone on it,
-    // as far as the cubic through its ends tells), and |X − R| at each end more than twice what
-    // the larger end slope would cover over the whole interval. Intervals where X crosses R, turns,
-    // diverges or ends are split to the finest spacing, as are all near R (where two close roots
-    // at a fold can hide between samples).
-    // Where v = 0 is a local minimum of n, the range's own limit there is taken just inside, far
-    // below a rounding error of ξ (the anchored level resolves n − ξ there): X may tend to a value
-    // (a kink of n) or diverge (a smooth minimum, X ~ log) on this side, while at the cut itself it
-    // is the other range's. root_between closes in on a root between it and the first sample
-    // geometrically, as from v = 0.
+    // Samples of X − R at v = i / scan_samples, sorted by v: v = 0, 1/2 and 1 first, then the
+    // middle of every interval that could hide a root, down to the finest spacing. An interval is
+    // left unsplit only when nothing there comes near R: X finite at both ends, X − R of one sign
+    // and the slopes of one sign, the end slopes within a factor 3 of the secant's (X monotone on
+    // it, as far as the cubic through its ends tells), and |X − R| at each end more than twice
+    // what the larger end slope would cover over the whole interval. Intervals where X crosses R,
+    // turns, diverges or ends are split to the finest spacing, as are all near R (where two close
+    // roots at a fold can hide between samples).
+    // v = 0 and v = 1 themselves are taken just inside, far below a rounding error of ξ (the
+    // anchored levels resolve n − ξ there; end_v0_, end_v1_), where the range's end is n at a
+    // depth: X may tend to a value there (a kink of n, or n at an end of the pair) or diverge (a
+    // smooth minimum, X ~ log), while at the end itself it may be the next range's. Only the
+    // first range's v = 0 is taken exactly where X diverges there (top_diverges), and the last
+    // range's v = 1 (ξ = 0). root_between closes in on a root between a limit sample and the next
+    // one in log distance. Next to a limit an interval is also left unsplit when X is monotone in
+    // a variable in which it is smooth there (end_monotone): in the logarithm of the distance to
+    // a double root it then holds one root if X − R changes sign across it, else none (its finest
+    // spacing in v, 1/samples, would resolve nothing of the decades below it anyway).
     std::vector<Sample> scan() const {
         const int finest = samples_;
         auto sample_at = [&](int i) {
-            return i == 0 && range_.high_is_cut ? evaluate(cut_limit_v_) : evaluate(static_cast<double>(i) / finest);
+            if (i == 0 && !range_.top_diverges) return evaluate(end_v0_);
+            if (i == finest && range_.low_anchored) return evaluate(end_v1_);
+            return evaluate(static_cast<double>(i) / finest);
         };
-        auto far_from_r = [](const Sample& a, const Sample& b) {
+        auto far_from_r = [&](const Sample& a, const Sample& b) {
             if (turns_away_from_r(a, b)) return true;
+            if (const auto settled = end_monotone(a, b)) return *settled;
             if (!one_signed(a, b)) return false;
             const double secant = (b.f - a.f) / (b.v - a.v);
             const double ra = a.slope / secant, rb = b.slope / secant;
@@ -325,14 +338,17 @@ private:
             int i, j;
             Sample a, b;
         };
-        const int quarter = std::max(1, finest / 4);
+        const int half = std::max(1, finest / 2);
         std::vector<int> starts;
-        for (int i = 0; i < finest; i += quarter) starts.push_back(i);
+        for (int i = 0; i < finest; i += half) starts.push_back(i);
         starts.push_back(finest);
         std::vector<Sample> coarse;
         for (int i : starts) coarse.push_back(sample_at(i));
-        std::vector<Sample> samples{coarse.front()};
+        std::vector<Sample> samples;
+        samples.reserve(2 * finest + 16);  // room for what approach_end adds, mostly
+        samples.push_back(coarse.front());
         std::vector<Interval> pending;
+        pending.reserve(16);
         for (std::size_t k = 0; k + 1 < starts.size(); ++k) {
             pending.push_back({starts[k], starts[k + 1], coarse[k], coarse[k + 1]});
             while (!pending.empty()) {
@@ -350,6 +366,36 @@ private:
             }
         }
         return samples;
+    }
+
+    // For an interval [a, b] with one end at a limit sample of the range (end_v0_ or end_v1_) and
+    // X finite with a slope at both: whether it can be left unsplit, judged in a variable in which
+    // X is smooth next to that end, where v is not (ξ goes like v² or (1 − v)² there). Next to a
+    // double root (X diverging) that is L = ln w, w = |ξ − ξ(end)|: X is close to linear in L
+    // (docs/physics.md §8.3). Where X has a finite limit it is w itself. In either, where the
+    // slopes at both ends are within a factor 3 of the secant (monotone, as far as the cubic in
+    // that variable tells), the interval holds no root if X − R keeps its sign with |X − R| beyond
+    // what the larger slope covers: true. In L it also holds exactly one where X − R changes sign
+    // (true: the finest spacing in v would resolve nothing of the decades of L below it anyway).
+    // False where monotone otherwise; empty where this does not apply (the rules in v decide).
+    std::optional<bool> end_monotone(const Sample& a, const Sample& b) const {
+        const bool at_zero = a.v == end_v0_, at_one = b.v == end_v1_;
+        if (at_zero == at_one || !finite_pair(a, b)) return std::nullopt;
+        const double w_a = legs_.offset_from_end(a.v, at_zero), w_b = legs_.offset_from_end(b.v, at_zero);
+        // dX/dw = (dX/dv)/(dw/dv), with dw/dv = ∓dξ/dv.
+        const double x_a = a.slope / (at_zero ? -legs_.dxi_dv(a.v) : legs_.dxi_dv(a.v));
+        const double x_b = b.slope / (at_zero ? -legs_.dxi_dv(b.v) : legs_.dxi_dv(b.v));
+        for (const bool logarithmic : {true, false}) {
+            const double l_a = logarithmic ? std::log(w_a) : w_a, l_b = logarithmic ? std::log(w_b) : w_b;
+            const double s_a = logarithmic ? x_a * w_a : x_a, s_b = logarithmic ? x_b * w_b : x_b;
+            const double secant = (b.f - a.f) / (l_b - l_a);
+            const double ra = s_a / secant, rb = s_b / secant;
+            if (!(ra >= 1.0 / 3.0 && ra <= 3.0 && rb >= 1.0 / 3.0 && rb <= 3.0)) continue;
+            if (a.f * b.f < 0.0) return logarithmic;
+            const double reach = 2.0 * std::abs(l_b - l_a) * std::max(std::abs(s_a), std::abs(s_b));
+            return a.f * b.f > 0.0 && std::min(std::abs(a.f), std::abs(b.f)) > reach;
+        }
+        return std::nullopt;
     }
 
     // An interval of the finest spacing whose end slopes have one sign and are both more than 3
@@ -425,8 +471,18 @@ private:
     // errors of ξ.
     double closest_offset() const { return 4.0 * std::numeric_limits<double>::epsilon() * range_.high; }
     // The first sample of a range whose v = 0 is a cut: n − ξ = span·1e-24 there (cut_limit_v_), and
-    // about as close as roots are sought next to a divergent v = 1 (1 − v >= cut_limit_d_).
+    // the last where its low end has a depth: ξ − low about the same (1 − v = cut_limit_d_).
     static constexpr double cut_limit_offset = 1e-24;
+
+    // The factor on the distance d to an end (v, or 1 − v) of a step from sample s toward it:
+    // Newton's step in ln d to X = R (X about linear in ln d next to a double root), kept within
+    // [1e-4, 1/4]; 1/4 where the slope does not point toward R that way (X ∝ d, say).
+    static double log_step(const Sample& s, bool at_zero) {
+        const double d = at_zero ? s.v : 1.0 - s.v;
+        const double per_log = (at_zero ? s.slope : -s.slope) * d;  // dX/d(ln d)
+        const double factor = std::exp(-s.f / per_log);
+        return factor > 0.0 && factor < 1.0 ? std::clamp(factor, 1e-4, 0.25) : 0.25;
+    }
 
     // X − R with a divergent X taken as just above R (its slope then unknown).
     Sample finite(Sample s) const {
@@ -443,11 +499,12 @@ private:
         if (low.f == 0.0) return low.v;
         if (high.f == 0.0) return high.v;
         // A root next to v = 0 can lie many decades below the first sample (equal depths in deep
-        // ice: n − ξ ~ 1e-19 where X = R, X ∝ v there): close in on it geometrically first, which
-        // keeps the refinement below within its iterations.
-        if (low.v == 0.0 || low.v == cut_limit_v_) {
+        // ice: n − ξ ~ 1e-19 where X = R, X ∝ v there; a double root at a cut, X ~ ln v): close in
+        // on it first by steps in ln v (log_step), which keeps the refinement below within its
+        // iterations.
+        if (low.v == 0.0 || low.v == end_v0_) {
             for (int k = 0; k < 120; ++k) {
-                const double vm = 0.25 * high.v;
+                const double vm = log_step(high, true) * high.v;
                 if (!(vm > low.v)) break;
                 const Sample m = finite(evaluate(vm));
                 if (m.f == 0.0) return vm;
@@ -458,14 +515,16 @@ private:
                 high = m;
             }
         }
-        // The same toward v = 1 where X diverges there and the range's low end has a depth (a
-        // double root that ξ(v) resolves to far below a rounding error of ξ).
-        // No root is sought closer to it than cut_limit_d_, as none is next to v = 0.
-        if (b.v == 1.0 && std::isinf(b.f) && range_.low_anchored) {
+        // The same toward v = 1 from its limit sample (the range's low end has a depth: a double
+        // root that ξ(v) resolves to far below a rounding error of ξ). Where the steps reach the
+        // limit the root lies between the last step and it, unless X is not even finite there.
+        if (b.v == end_v1_) {
             for (int k = 0; k < 120; ++k) {
-                const double d = std::max(0.25 * (1.0 - low.v), cut_limit_d_);
-                const double vm = 1.0 - d;
-                if (!(vm > low.v && vm < high.v)) return not_a_number;
+                const double vm = 1.0 - std::max(log_step(low, false) * (1.0 - low.v), cut_limit_d_);
+                if (!(vm > low.v && vm < high.v)) {
+                    if (!std::isfinite(b.f)) return not_a_number;
+                    break;
+                }
                 const Sample m = finite(evaluate(vm));
                 if (m.f == 0.0) return vm;
                 if ((m.f < 0.0) == (high.f < 0.0)) {
@@ -473,7 +532,6 @@ private:
                     break;
                 }
                 low = m;
-                if (d == cut_limit_d_) return not_a_number;
             }
         }
         return refine_root(low, high);
@@ -657,6 +715,8 @@ private:
     double distance_;
     int samples_;
     double cut_limit_v_, cut_limit_d_;
+    // The range's own limits taken as its first and last samples (NaN where v = 0 or 1 itself is).
+    double end_v0_, end_v1_;
 };
 
 // The ranges of ξ in [0, min n between the ends): cut where an end of the pair's interval can
@@ -667,26 +727,26 @@ std::vector<RayParameterRange> ray_parameter_ranges(const StratifiedProfile& pro
     const auto [top, top_z] = profile.minimum_index(z_low, z_high);
     struct Cut {
         double ray_parameter, anchor_z;
-        // n of a local minimum or a flat stretch (not of the surface, the bottom or between the ends)
-        bool at_minimum;
     };
-    std::vector<Cut> cuts{{top, top_z, false}};
+    std::vector<Cut> cuts{{top, top_z}};
     const auto& minima = profile.stationary_z();  // from the surface down
+    const bool top_is_stationary = (top_z > z_low && top_z < z_high) ||
+                                   std::binary_search(minima.begin(), minima.end(), top_z, std::greater<>());
     double lowest = top;
-    auto consider = [&](double z, bool at_minimum) {
+    auto consider = [&](double z) {
         const double n = profile.index(z);
         if (n < lowest && n > 0.0) {
-            cuts.push_back({n, z, at_minimum});
+            cuts.push_back({n, z});
             lowest = n;
         }
     };
     for (auto it = minima.rbegin(); it != minima.rend(); ++it)
-        if (*it > z_high) consider(*it, true);
-    consider(0.0, false);
+        if (*it > z_high) consider(*it);
+    consider(0.0);
     lowest = top;
     for (double z : minima)
-        if (z < z_low) consider(z, true);
-    consider(profile.bottom_z() ? *profile.bottom_z() : profile.floor_z(), false);
+        if (z < z_low) consider(z);
+    consider(profile.bottom_z() ? *profile.bottom_z() : profile.floor_z());
     std::sort(cuts.begin(), cuts.end(), [](const Cut& a, const Cut& b) { return a.ray_parameter > b.ray_parameter; });
     std::vector<RayParameterRange> ranges;
     for (std::size_t i = 0; i < cuts.size(); ++i) {
@@ -694,7 +754,7 @@ std::vector<RayParameterRange> ray_parameter_ranges(const StratifiedProfile& pro
         const double low = last ? 0.0 : cuts[i + 1].ray_parameter;
         if (cuts[i].ray_parameter > low)
             ranges.push_back({cuts[i].ray_parameter, low, cuts[i].anchor_z, !last, last ? 0.0 : cuts[i + 1].anchor_z,
-                              i > 0 && cuts[i].at_minimum});
+                              i == 0 && top_is_stationary});
     }
     return ranges;
 }
@@ -786,11 +846,12 @@ StratifiedPath make_path(const StratifiedProfile& profile, const RayLevel& level
 
 // A lower bound on the horizontal distance any ray with ray parameter ξ' >= ξ covers between the
 // depths a and b, where n > ξ' on the way: dx/dz = ξ'/√(n² − ξ'²) grows with ξ' and falls with n,
-// so each cell adds at least its height times that value at its largest n.
-double distance_floor(const StratifiedProfile& profile, double a, double b, double xi) {
+// so each cell adds at least its height times that value at its largest n. The sum stops once it
+// exceeds `enough` (a bound beyond it decides nothing more).
+double distance_floor(const StratifiedProfile& profile, double a, double b, double xi, double enough) {
     const double top = std::max(a, b), bottom = std::min(a, b);
     double sum = 0.0;
-    for (std::size_t cell = profile.cell_at(top, -1); cell < profile.cell_count(); ++cell) {
+    for (std::size_t cell = profile.cell_at(top, -1); cell < profile.cell_count() && sum <= enough; ++cell) {
         const double height = std::min(top, profile.cell_top(cell)) - std::max(bottom, profile.cell_bottom(cell));
         if (!(height > 0.0)) break;
         const double n = profile.cell_max_index(cell);
@@ -802,16 +863,16 @@ double distance_floor(const StratifiedProfile& profile, double a, double b, doub
 // Lower bounds on X of every family with ends over a range of ξ >= xi_low whose accessible
 // intervals all reach up to at least reach_up and down to at least reach_low: each leg covers at
 // least the depths between its ends as far as those reaches. Each span once (the traversal only
-// for families of two ends or more).
+// for families of two ends or more), each summed no further than beyond `enough`.
 class FamilyDistanceFloor {
 public:
     FamilyDistanceFloor(const StratifiedProfile& profile, double z_source, double z_receiver, double reach_up,
-                        double reach_low, double xi_low, bool traversals)
-        : source_up_(distance_floor(profile, z_source, reach_up, xi_low)),
-          source_low_(distance_floor(profile, z_source, reach_low, xi_low)),
-          receiver_up_(distance_floor(profile, z_receiver, reach_up, xi_low)),
-          receiver_low_(distance_floor(profile, z_receiver, reach_low, xi_low)),
-          traversal_(traversals ? distance_floor(profile, reach_up, reach_low, xi_low) : 0.0) {}
+                        double reach_low, double xi_low, bool traversals, double enough)
+        : source_up_(distance_floor(profile, z_source, reach_up, xi_low, enough)),
+          source_low_(distance_floor(profile, z_source, reach_low, xi_low, enough)),
+          receiver_up_(distance_floor(profile, z_receiver, reach_up, xi_low, enough)),
+          receiver_low_(distance_floor(profile, z_receiver, reach_low, xi_low, enough)),
+          traversal_(traversals ? distance_floor(profile, reach_up, reach_low, xi_low, enough) : 0.0) {}
 
     double of(const PathFamily& family) const {
         const bool last_upper = is_upper_end(family, family.ends - 1);
@@ -1010,11 +1071,12 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
         std::vector<PathFamily> families;
         if (r >= direct_first && r <= direct_last) families.push_back({z_receiver > z_source, 0});
         if (options.max_bounces > 0) {
+            const double reachable = distance * (1.0 + 1e-9);
             const FamilyDistanceFloor floor(profile, z_source, z_receiver, reach_up, reach_low, range.low,
-                                            options.max_bounces >= 2);
+                                            options.max_bounces >= 2, reachable);
             for (int ends = 1; ends <= options.max_bounces; ++ends)
                 for (bool upward : {true, false})
-                    if (floor.of({upward, ends}) <= distance * (1.0 + 1e-9)) families.push_back({upward, ends});
+                    if (floor.of({upward, ends}) <= reachable) families.push_back({upward, ends});
         }
         if (families.empty()) continue;
         // The kinds of the ends in this range, from its middle.
