@@ -475,13 +475,14 @@ private:
     static constexpr double cut_limit_offset = 1e-24;
 
     // The factor on the distance d to an end (v, or 1 − v) of a step from sample s toward it:
-    // Newton's step in ln d to X = R (X about linear in ln d next to a double root), kept within
-    // [1e-4, 1/4]; 1/4 where the slope does not point toward R that way (X ∝ d, say).
+    // Newton's step in ln d to half of |X − R| past R (X about linear in ln d next to a double
+    // root, so that the step mostly brackets the root closely), kept within [1e-4, 0.9]; 1/4 where
+    // the slope does not point toward R that way.
     static double log_step(const Sample& s, bool at_zero) {
         const double d = at_zero ? s.v : 1.0 - s.v;
         const double per_log = (at_zero ? s.slope : -s.slope) * d;  // dX/d(ln d)
-        const double factor = std::exp(-s.f / per_log);
-        return factor > 0.0 && factor < 1.0 ? std::clamp(factor, 1e-4, 0.25) : 0.25;
+        const double factor = std::exp(-1.5 * s.f / per_log);
+        return factor > 0.0 && factor < 1.0 ? std::clamp(factor, 1e-4, 0.9) : 0.25;
     }
 
     // X − R with a divergent X taken as just above R (its slope then unknown).
@@ -498,11 +499,11 @@ private:
         Sample low = finite(a), high = finite(b);
         if (low.f == 0.0) return low.v;
         if (high.f == 0.0) return high.v;
-        // A root next to v = 0 can lie many decades below the first sample (equal depths in deep
-        // ice: n − ξ ~ 1e-19 where X = R, X ∝ v there; a double root at a cut, X ~ ln v): close in
-        // on it first by steps in ln v (log_step), which keeps the refinement below within its
-        // iterations.
-        if (low.v == 0.0 || low.v == end_v0_) {
+        // A root next to v = 0 itself can lie many decades below the first sample (equal depths in
+        // deep ice: n − ξ ~ 1e-19 where X = R, X ∝ v there; a double root, X ~ ln v): close in on it
+        // first by steps in ln v (log_step), which keeps the refinement below within its
+        // iterations. From a limit sample with X finite the refinement works in ln v itself.
+        if (low.v == 0.0 || (low.v == end_v0_ && !std::isfinite(a.f))) {
             for (int k = 0; k < 120; ++k) {
                 const double vm = log_step(high, true) * high.v;
                 if (!(vm > low.v)) break;
@@ -515,16 +516,12 @@ private:
                 high = m;
             }
         }
-        // The same toward v = 1 from its limit sample (the range's low end has a depth: a double
-        // root that ξ(v) resolves to far below a rounding error of ξ). Where the steps reach the
-        // limit the root lies between the last step and it, unless X is not even finite there.
-        if (b.v == end_v1_) {
+        // The same toward v = 1 where X is not finite even at its limit sample (the range's low end
+        // has a depth: a double root that ξ(v) resolves to far below a rounding error of ξ).
+        if (b.v == end_v1_ && !std::isfinite(b.f)) {
             for (int k = 0; k < 120; ++k) {
                 const double vm = 1.0 - std::max(log_step(low, false) * (1.0 - low.v), cut_limit_d_);
-                if (!(vm > low.v && vm < high.v)) {
-                    if (!std::isfinite(b.f)) return not_a_number;
-                    break;
-                }
+                if (!(vm > low.v && vm < high.v)) return not_a_number;
                 const Sample m = finite(evaluate(vm));
                 if (m.f == 0.0) return vm;
                 if ((m.f < 0.0) == (high.f < 0.0)) {
@@ -561,11 +558,20 @@ private:
         // The first point: the root of the cubic through both ends' values and slopes, where it
         // is monotone (what the scan left in a bracket mostly is).
         double first_guess = hermite_root(low, high);
+        Sample latest = low.v == high.v ? low : high, before_latest = low;  // the last two evaluated
         for (int iteration = 0; iteration < 200 && !close(low.v, high.v); ++iteration) {
             const Sample best = better(low, high);
-            double v = 0.5 * (low.v + high.v);
+            // Bisection and false position in v, or in L = ln d where X goes like ln d
+            // (spans_decades; d the distance to the nearer end of the range).
+            const bool logarithmic = spans_decades(low.v, high.v), near_zero = std::max(low.v, high.v) <= 0.5;
+            auto to_variable = [&](double x) { return logarithmic ? std::log(near_zero ? x : 1.0 - x) : x; };
+            auto from_variable = [&](double l) {
+                return logarithmic ? (near_zero ? std::exp(l) : 1.0 - std::exp(l)) : l;
+            };
+            const double l_low = to_variable(low.v), l_high = to_variable(high.v);
+            double v = from_variable(0.5 * (l_low + l_high));
             if (refusals % 3 != 2 && f_high != f_low) {
-                const double secant = low.v - f_low * (high.v - low.v) / (f_high - f_low);
+                const double secant = from_variable(l_low - f_low * (l_high - l_low) / (f_high - f_low));
                 if (secant > std::min(low.v, high.v) && secant < std::max(low.v, high.v)) v = secant;
             }
             ++refusals;
@@ -577,22 +583,30 @@ private:
                 if (std::abs(best.f) <= 1e-13 * (1.0 + distance_) ||
                     (std::abs(newton) <= eps * std::abs(best.v) && std::abs(best.f) <= 1e-7 * (1.0 + distance_)))
                     return best.v;
-                // Within 1e-7 R of R, with a slope that the bracket's secant confirms to 10 % (it is
-                // less accurate next to a turning end), the Newton step itself ends the search without
-                // another level where it leaves X − R below 1e-12 R: X″·step²/2 with X″ from the
-                // slopes at the bracket's ends (X is far from linear in v next to v = 0, where ξ
-                // goes like v²). The time is corrected to first order in X − R anyway (make_path).
+                // Within 1e-7 R of R, with a slope that the secant from the nearest other sample
+                // confirms to 10 % (it is less accurate next to a turning end), the Newton step
+                // itself ends the search without another level where it leaves X − R below 1e-12 R:
+                // X″·step²/2 with X″ from the slopes at the two (X is far from linear in v next to
+                // v = 0, where ξ goes like v²). The nearest other sample: the other end of the
+                // bracket, or the sample evaluated before `best` where that lies closer (the
+                // iterates approach a root from one side). The time is corrected to first order in
+                // X − R anyway (make_path).
+                const Sample& other = best.v == low.v ? high : low;
+                const Sample& previous = best.v == latest.v ? before_latest : latest;
+                const Sample& near = std::abs(previous.v - best.v) < std::abs(other.v - best.v) &&
+                                             previous.v != best.v && std::isfinite(previous.slope)
+                                         ? previous
+                                         : other;
                 const double finish = best.v + newton;
-                const double bracket_slope = (high.f - low.f) / (high.v - low.v);
-                const double curvature = std::abs((high.slope - low.slope) / (high.v - low.v));
-                if (std::abs(best.f) <= 1e-7 * distance_ && std::abs(bracket_slope / best.slope - 1.0) < 0.1 &&
+                const double near_slope = (best.f - near.f) / (best.v - near.v);
+                const double curvature = std::abs((best.slope - near.slope) / (best.v - near.v));
+                if (std::abs(best.f) <= 1e-7 * distance_ && std::abs(near_slope / best.slope - 1.0) < 0.1 &&
                     0.5 * curvature * newton * newton <= 1e-12 * distance_ && finish > std::min(low.v, high.v) &&
                     finish < std::max(low.v, high.v))
                     return finish;
                 // Where X goes like log d (spans_decades), Newton's step is taken in log d, which
                 // follows that shape.
-                if (spans_decades(low.v, high.v)) {
-                    const bool near_zero = std::max(low.v, high.v) <= 0.5;
+                if (logarithmic) {
                     const double d = near_zero ? best.v : 1.0 - best.v;
                     const double d_slope = near_zero ? best.slope : -best.slope;  // dX/dd
                     const double d_target = d * std::exp(-best.f / (d * d_slope));
@@ -616,6 +630,8 @@ private:
             if (!(v > std::min(low.v, high.v) && v < std::max(low.v, high.v))) break;
             const Sample s = finite(evaluate(v));
             if (s.f == 0.0) return v;
+            before_latest = latest;
+            latest = s;
             if ((s.f < 0.0) == (low.f < 0.0)) {
                 low = s;
                 f_low = s.f;
