@@ -556,8 +556,11 @@ private:
         double f_low = low.f, f_high = high.f;
         int kept = 0, refusals = 0;  // kept: +1 low kept last time, −1 high, 0 neither
         // The first point: the root of the cubic through both ends' values and slopes, where it
-        // is monotone (what the scan left in a bracket mostly is).
+        // is monotone (what the scan left in a bracket mostly is); where X goes like ln d over
+        // the bracket, Newton's step in ln d from its end nearer the range's end, where the slope
+        // is closest to the logarithm's (X − R about linear in ln d).
         double first_guess = hermite_root(low, high);
+        if (spans_decades(low.v, high.v)) first_guess = log_newton(std::max(low.v, high.v) <= 0.5 ? low : high, low, high);
         Sample latest = low.v == high.v ? low : high, before_latest = low;  // the last two evaluated
         for (int iteration = 0; iteration < 200 && !close(low.v, high.v); ++iteration) {
             const Sample best = better(low, high);
@@ -587,22 +590,28 @@ private:
                 // confirms to 10 % (it is less accurate next to a turning end), the Newton step
                 // itself ends the search without another level where it leaves X − R below 1e-12 R:
                 // X″·step²/2 with X″ from the slopes at the two (X is far from linear in v next to
-                // v = 0, where ξ goes like v²). The nearest other sample: the other end of the
-                // bracket, or the sample evaluated before `best` where that lies closer (the
-                // iterates approach a root from one side). The time is corrected to first order in
-                // X − R anyway (make_path).
+                // v = 0, where ξ goes like v²). All in L = ln d where the bracket spans decades (X
+                // close to linear there, and the step taken in it). The nearest other sample: the
+                // other end of the bracket, or the sample evaluated before `best` where that lies
+                // closer (the iterates approach a root from one side). The time is corrected to
+                // first order in X − R anyway (make_path).
                 const Sample& other = best.v == low.v ? high : low;
                 const Sample& previous = best.v == latest.v ? before_latest : latest;
                 const Sample& near = std::abs(previous.v - best.v) < std::abs(other.v - best.v) &&
                                              previous.v != best.v && std::isfinite(previous.slope)
                                          ? previous
                                          : other;
-                const double finish = best.v + newton;
-                const double near_slope = (best.f - near.f) / (best.v - near.v);
-                const double curvature = std::abs((best.slope - near.slope) / (best.v - near.v));
-                if (std::abs(best.f) <= 1e-7 * distance_ && std::abs(near_slope / best.slope - 1.0) < 0.1 &&
-                    0.5 * curvature * newton * newton <= 1e-12 * distance_ && finish > std::min(low.v, high.v) &&
-                    finish < std::max(low.v, high.v))
+                auto slope_in_variable = [&](const Sample& x) {
+                    return logarithmic ? x.slope * (near_zero ? x.v : -(1.0 - x.v)) : x.slope;
+                };
+                const double l_best = to_variable(best.v), l_near = to_variable(near.v);
+                const double best_slope = slope_in_variable(best), step_in_variable = -best.f / best_slope;
+                const double finish = from_variable(l_best + step_in_variable);
+                const double near_slope = (best.f - near.f) / (l_best - l_near);
+                const double curvature = std::abs((best_slope - slope_in_variable(near)) / (l_best - l_near));
+                if (std::abs(best.f) <= 1e-7 * distance_ && std::abs(near_slope / best_slope - 1.0) < 0.1 &&
+                    0.5 * curvature * step_in_variable * step_in_variable <= 1e-12 * distance_ &&
+                    finish > std::min(low.v, high.v) && finish < std::max(low.v, high.v))
                     return finish;
                 // Where X goes like log d (spans_decades), Newton's step is taken in log d, which
                 // follows that shape.
@@ -645,6 +654,17 @@ private:
             }
         }
         return better(low, high).v;
+    }
+
+    // Newton's step in L = ln d (d the distance to the nearer end of the range) from sample s, where
+    // it lands strictly inside [low, high]; NaN otherwise.
+    static double log_newton(const Sample& s, const Sample& low, const Sample& high) {
+        if (!std::isfinite(s.f) || !std::isfinite(s.slope) || s.slope == 0.0) return not_a_number;
+        const bool near_zero = std::max(low.v, high.v) <= 0.5;
+        const double d = near_zero ? s.v : 1.0 - s.v;
+        const double d_target = d * std::exp(-s.f / (d * (near_zero ? s.slope : -s.slope)));
+        const double v = near_zero ? d_target : 1.0 - d_target;
+        return v > std::min(low.v, high.v) && v < std::max(low.v, high.v) ? v : not_a_number;
     }
 
     // The root of the cubic Hermite interpolant of X − R between two samples of opposite signs,
