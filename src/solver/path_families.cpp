@@ -59,13 +59,15 @@ struct RayParameterRange {
     // n(low_anchor_z) = low, where `low` is n at a depth (not ξ = 0).
     bool low_anchored = false;
     double low_anchor_z = 0.0;
-    // `high` is n at a local minimum of n between the pair's depths, or at one of them where n′ = 0
-    // (the first range's only): the direct path grazes it at v = 0, where its X diverges, and roots
-    // are sought down to v = 0 itself, as closely as ξ(v) resolves it. Every other range is sampled from just inside
-    // v = 0 (FamilySearch::end_v0_): at a local minimum beyond the ends ξ = high exactly belongs to
-    // the range above (a ray turning at the minimum instead of crossing it), and elsewhere (n at an
-    // end of the pair, the surface or the bottom) both agree to far below the roots' tolerance.
-    bool top_diverges = false;
+    // The first range: `high` is the smallest n between the pair's depths, and roots are sought
+    // down to v = 0 itself, as closely as ξ(v) resolves it: X may diverge there (a local minimum
+    // between them, where the direct path grazes it), or tend to 0 like n − ξ to a high power (a
+    // refracted path between equal depths in deep ice, where n′ ~ 1e-17 per metre: X = R at
+    // n − ξ ~ 1e-31). Every other range is sampled from just inside v = 0
+    // (FamilySearch::end_v0_): at a local minimum beyond the ends ξ = high exactly belongs to the
+    // range above (a ray turning at the minimum instead of crossing it), and at n of the surface
+    // or the bottom both agree to far below the roots' tolerance.
+    bool first = false;
 };
 
 struct Sample {
@@ -108,24 +110,75 @@ bool turns_away_from_r(const Sample& a, const Sample& b) {
     return (minimum_below || maximum_above) && beyond_reach(a, b);
 }
 
-// The legs any family of one range of ξ is made of, for one ξ (distance and derivative only).
-// They are sums of the pieces between the interval's ends and the two end points, taken from the
-// top down (upper end, source and receiver in depth order, lower end): each piece is integrated
-// once, when first needed, and serves every family of the range.
+// The legs of every family at one ray level, as sums of the pieces between the accessible
+// interval's ends and the pair's ends, taken from the top down (upper end, source and receiver in
+// depth order, lower end when the interval has one): each piece is integrated once, when first
+// needed, and serves every family (and both legs of a family that share it).
 enum LegName : int { source_receiver, source_upper, upper_receiver, source_lower, lower_receiver, traversal, leg_names };
 
+class LegPieces {
+public:
+    LegPieces() = default;
+    LegPieces(const StratifiedProfile& profile, const RayLevel& level, const AccessibleInterval& interval,
+              double z_source, double z_receiver, bool with_time_and_length, const AttenuationProfile* attenuation)
+        : profile_(&profile), level_(level), interval_(interval),
+          has_lower_(interval.lower_kind != LowerEndKind::unbounded), with_time_(with_time_and_length),
+          attenuation_(attenuation) {
+        points_[count_++] = upper_endpoint(interval);
+        const double high = std::max(z_source, z_receiver), low = std::min(z_source, z_receiver);
+        points_[count_++] = {high};
+        if (low != high) points_[count_++] = {low};
+        source_index_ = z_source == high ? 1 : count_ - 1;
+        receiver_index_ = z_receiver == high ? 1 : count_ - 1;
+        if (has_lower_) points_[count_++] = lower_endpoint(interval);
+    }
+
+    const AccessibleInterval& interval() const { return interval_; }
+    bool has_lower() const { return has_lower_; }
+
+    LegIntegrals leg(LegName name) {
+        const std::size_t lower = count_ - 1;
+        std::size_t a = 0, b = 0;
+        switch (name) {
+            case source_receiver: a = source_index_, b = receiver_index_; break;
+            case source_upper: a = 0, b = source_index_; break;
+            case upper_receiver: a = 0, b = receiver_index_; break;
+            case source_lower: a = source_index_, b = lower; break;
+            case lower_receiver: a = receiver_index_, b = lower; break;
+            case traversal: a = 0, b = lower; break;
+            case leg_names: break;
+        }
+        if (a > b) std::swap(a, b);
+        LegIntegrals sum;
+        for (std::size_t i = a; i < b; ++i) add(sum, piece(i));
+        return sum;
+    }
+
+private:
+    const LegIntegrals& piece(std::size_t i) {
+        if (!computed_[i]) {
+            pieces_[i] = leg_integrals(*profile_, level_, points_[i + 1], points_[i], with_time_, true, attenuation_);
+            computed_[i] = true;
+        }
+        return pieces_[i];
+    }
+
+    const StratifiedProfile* profile_ = nullptr;
+    RayLevel level_;
+    AccessibleInterval interval_;
+    bool has_lower_ = false, with_time_ = false;
+    const AttenuationProfile* attenuation_ = nullptr;
+    std::array<LegEndpoint, 4> points_{};
+    std::size_t count_ = 0, source_index_ = 0, receiver_index_ = 0;
+    std::array<bool, 3> computed_{};
+    std::array<LegIntegrals, 3> pieces_{};  // pieces_[i]: between points_[i] and points_[i + 1]
+};
+
+// One ray level of a range's search (distance and derivative only); empty pieces where the pair's
+// interval does not hold the receiver.
 struct LegSet {
-    bool valid = false;
-    bool has_lower = false;
-    AccessibleInterval interval;
     RayLevel level;
-    // From the top down: the upper end, the pair's ends (one point where they are at one depth),
-    // the lower end when there is one.
-    std::array<LegEndpoint, 4> points{};
-    std::size_t point_count = 0;
-    std::size_t source_index = 0, receiver_index = 0;
-    std::array<bool, 3> computed{};
-    std::array<LegIntegrals, 3> pieces{};  // pieces[i]: between points[i] and points[i + 1]
+    std::optional<LegPieces> pieces;
 };
 
 class RangeLegs {
@@ -172,50 +225,13 @@ public:
         LegSet set;
         set.level = level(v);
         const auto interval = profile_.interval_around(set.level, z_source_);
-        if (interval && interval->contains(z_receiver_)) {
-            set.valid = true;
-            set.interval = *interval;
-            set.has_lower = interval->lower_kind != LowerEndKind::unbounded;
-            auto& count = set.point_count;
-            set.points[count++] = upper_endpoint(*interval);
-            const double high = std::max(z_source_, z_receiver_), low = std::min(z_source_, z_receiver_);
-            set.points[count++] = {high};
-            if (low != high) set.points[count++] = {low};
-            set.source_index = z_source_ == high ? 1 : count - 1;
-            set.receiver_index = z_receiver_ == high ? 1 : count - 1;
-            if (set.has_lower) set.points[count++] = lower_endpoint(*interval);
-        }
-        cache_.emplace_back(v, set);
+        if (interval && interval->contains(z_receiver_))
+            set.pieces.emplace(profile_, set.level, *interval, z_source_, z_receiver_, false, nullptr);
+        cache_.emplace_back(v, std::move(set));
         return cache_.back().second;
     }
 
-    LegIntegrals leg(LegSet& set, LegName name) const {
-        const std::size_t lower = set.point_count - 1;
-        std::size_t a = 0, b = 0;
-        switch (name) {
-            case source_receiver: a = set.source_index, b = set.receiver_index; break;
-            case source_upper: a = 0, b = set.source_index; break;
-            case upper_receiver: a = 0, b = set.receiver_index; break;
-            case source_lower: a = set.source_index, b = lower; break;
-            case lower_receiver: a = set.receiver_index, b = lower; break;
-            case traversal: a = 0, b = lower; break;
-            case leg_names: break;
-        }
-        if (a > b) std::swap(a, b);
-        LegIntegrals sum;
-        for (std::size_t i = a; i < b; ++i) add(sum, piece(set, i));
-        return sum;
-    }
-
 private:
-    const LegIntegrals& piece(LegSet& set, std::size_t i) const {
-        if (!set.computed[i]) {
-            set.pieces[i] = leg_integrals(profile_, set.level, set.points[i + 1], set.points[i], false);
-            set.computed[i] = true;
-        }
-        return set.pieces[i];
-    }
-
     const StratifiedProfile& profile_;
     RayParameterRange range_;
     double z_source_, z_receiver_;
@@ -224,20 +240,22 @@ private:
     std::vector<std::pair<double, LegSet>> cache_;
 };
 
-// X and dX/dξ of a family from the legs of its range; empty when it does not exist there.
-std::optional<std::pair<double, double>> family_distance(RangeLegs& legs, LegSet& set, const PathFamily& family) {
-    if (!set.valid) return std::nullopt;
+// X and dX/dξ of a family from the legs of one level of its range; empty when it does not exist
+// there.
+std::optional<std::pair<double, double>> family_distance(LegSet& set, const PathFamily& family) {
+    if (!set.pieces) return std::nullopt;
+    LegPieces& legs = *set.pieces;
     if (family.ends == 0) {
-        const LegIntegrals direct = legs.leg(set, source_receiver);
+        const LegIntegrals direct = legs.leg(source_receiver);
         return std::pair{direct.distance_m, direct.distance_derivative};
     }
     const bool meets_lower = family.ends >= 2 || !family.starts_upward;
-    if (meets_lower && !set.has_lower) return std::nullopt;
-    const LegIntegrals first = legs.leg(set, family.starts_upward ? source_upper : source_lower);
-    const LegIntegrals last = legs.leg(set, is_upper_end(family, family.ends - 1) ? upper_receiver : lower_receiver);
+    if (meets_lower && !legs.has_lower()) return std::nullopt;
+    const LegIntegrals first = legs.leg(family.starts_upward ? source_upper : source_lower);
+    const LegIntegrals last = legs.leg(is_upper_end(family, family.ends - 1) ? upper_receiver : lower_receiver);
     double x = first.distance_m + last.distance_m, dx = first.distance_derivative + last.distance_derivative;
     if (family.ends >= 2) {
-        const LegIntegrals full = legs.leg(set, traversal);
+        const LegIntegrals full = legs.leg(traversal);
         x += (family.ends - 1) * full.distance_m;
         dx += (family.ends - 1) * full.distance_derivative;
     }
@@ -251,13 +269,13 @@ public:
         : legs_(legs), range_(range), family_(family), distance_(distance), samples_(samples),
           cut_limit_v_(legs.distance_for_offset(cut_limit_offset * (range.high - range.low), true)),
           cut_limit_d_(legs.distance_for_offset(cut_limit_offset * (range.high - range.low), false)),
-          end_v0_(range.top_diverges ? not_a_number : cut_limit_v_),
+          end_v0_(range.first ? not_a_number : cut_limit_v_),
           end_v1_(range.low_anchored ? 1.0 - cut_limit_d_ : not_a_number) {}
 
     Sample evaluate(double v) const {
         Sample s;
         s.v = v;
-        const auto x = family_distance(legs_, legs_.at(v), family_);
+        const auto x = family_distance(legs_.at(v), family_);
         if (!x) return s;
         s.f = x->first - distance_;
         s.slope = x->second * legs_.dxi_dv(v);
@@ -310,10 +328,10 @@ private:
     // roots at a fold can hide between samples).
     // v = 0 and v = 1 themselves are taken just inside, far below a rounding error of ξ (the
     // anchored levels resolve n − ξ there; end_v0_, end_v1_), where the range's end is n at a
-    // depth: X may tend to a value there (a kink of n, or n at an end of the pair) or diverge (a
+    // depth beyond the pair: X may tend to a value there (a kink of n, the surface) or diverge (a
     // smooth minimum, X ~ log), while at the end itself it may be the next range's. Only the
-    // first range's v = 0 is taken exactly where X diverges there (top_diverges), and the last
-    // range's v = 1 (ξ = 0). root_between closes in on a root between a limit sample and the next
+    // first range's v = 0 is taken exactly (RayParameterRange::first), and the last range's v = 1
+    // (ξ = 0). root_between closes in on a root between a limit sample and the next
     // one in log distance. Next to a limit an interval is also left unsplit when X is monotone in
     // a variable in which it is smooth there (end_monotone): in the logarithm of the distance to
     // a double root it then holds one root if X − R changes sign across it, else none (its finest
@@ -321,7 +339,7 @@ private:
     std::vector<Sample> scan() const {
         const int finest = samples_;
         auto sample_at = [&](int i) {
-            if (i == 0 && !range_.top_diverges) return evaluate(end_v0_);
+            if (i == 0 && !range_.first) return evaluate(end_v0_);
             if (i == finest && range_.low_anchored) return evaluate(end_v1_);
             return evaluate(static_cast<double>(i) / finest);
         };
@@ -766,8 +784,6 @@ std::vector<RayParameterRange> ray_parameter_ranges(const StratifiedProfile& pro
     };
     std::vector<Cut> cuts{{top, top_z}};
     const auto& minima = profile.stationary_z();  // from the surface down
-    const bool top_is_stationary = (top_z > z_low && top_z < z_high) ||
-                                   std::binary_search(minima.begin(), minima.end(), top_z, std::greater<>());
     double lowest = top;
     auto consider = [&](double z) {
         const double n = profile.index(z);
@@ -790,7 +806,7 @@ std::vector<RayParameterRange> ray_parameter_ranges(const StratifiedProfile& pro
         const double low = last ? 0.0 : cuts[i + 1].ray_parameter;
         if (cuts[i].ray_parameter > low)
             ranges.push_back({cuts[i].ray_parameter, low, cuts[i].anchor_z, !last, last ? 0.0 : cuts[i + 1].anchor_z,
-                              i == 0 && top_is_stationary});
+                              i == 0});
     }
     return ranges;
 }
@@ -1009,19 +1025,17 @@ std::optional<FamilyLegs> family_legs(const StratifiedProfile& profile, const Ra
     }
     const bool meets_lower = family.ends >= 2 || !family.starts_upward;
     if (meets_lower && interval->lower_kind == LowerEndKind::unbounded) return std::nullopt;
-    const LegEndpoint upper = upper_endpoint(*interval);
-    const LegEndpoint lower = meets_lower ? lower_endpoint(*interval) : LegEndpoint{};
-    const LegEndpoint first = family.starts_upward ? upper : lower;
-    const LegEndpoint last = is_upper_end(family, family.ends - 1) ? upper : lower;
-    const LegIntegrals first_leg = leg_integrals(profile, level, source, first, with_time_and_length, true, attenuation);
-    const LegIntegrals last_leg = leg_integrals(profile, level, last, receiver, with_time_and_length, true, attenuation);
+    // The same pieces as the search's (LegPieces), so that X here is the X it found the root of.
+    LegPieces legs(profile, level, *interval, z_source, z_receiver, with_time_and_length, attenuation);
+    const LegIntegrals first_leg = legs.leg(family.starts_upward ? source_upper : source_lower);
+    const LegIntegrals last_leg = legs.leg(is_upper_end(family, family.ends - 1) ? upper_receiver : lower_receiver);
     add(out.total, first_leg);
     add(out.total, last_leg);
     out.first_leg_m = first_leg.distance_m;
     if (family.ends >= 2) {
-        const LegIntegrals traversal = leg_integrals(profile, level, upper, lower, with_time_and_length, true, attenuation);
-        add(out.total, traversal, family.ends - 1);
-        out.traversal_m = traversal.distance_m;
+        const LegIntegrals full = legs.leg(traversal);
+        add(out.total, full, family.ends - 1);
+        out.traversal_m = full.distance_m;
     }
     return out;
 }
