@@ -914,26 +914,34 @@ double distance_floor(const StratifiedProfile& profile, double a, double b, doub
 
 // Lower bounds on X of every family with ends over a range of ξ >= xi_low whose accessible
 // intervals all reach up to at least reach_up and down to at least reach_low: each leg covers at
-// least the depths between its ends as far as those reaches. Each span once (the traversal only
-// for families of two ends or more), each summed no further than beyond `enough`.
+// least the depths between its ends as far as those reaches. Each span at most once, when first
+// needed, and summed no further than beyond `enough` (past which a family is left out anyway).
 class FamilyDistanceFloor {
 public:
     FamilyDistanceFloor(const StratifiedProfile& profile, double z_source, double z_receiver, double reach_up,
-                        double reach_low, double xi_low, bool traversals, double enough)
-        : source_up_(distance_floor(profile, z_source, reach_up, xi_low, enough)),
-          source_low_(distance_floor(profile, z_source, reach_low, xi_low, enough)),
-          receiver_up_(distance_floor(profile, z_receiver, reach_up, xi_low, enough)),
-          receiver_low_(distance_floor(profile, z_receiver, reach_low, xi_low, enough)),
-          traversal_(traversals ? distance_floor(profile, reach_up, reach_low, xi_low, enough) : 0.0) {}
+                        double reach_low, double xi_low, double enough)
+        : profile_(profile), xi_low_(xi_low), enough_(enough),
+          spans_{{{z_source, reach_up}, {z_source, reach_low}, {z_receiver, reach_up}, {z_receiver, reach_low},
+                  {reach_up, reach_low}}} {}
 
-    double of(const PathFamily& family) const {
-        const bool last_upper = is_upper_end(family, family.ends - 1);
-        return (family.starts_upward ? source_up_ : source_low_) + (last_upper ? receiver_up_ : receiver_low_) +
-               (family.ends - 1) * traversal_;
+    // Whether the family's floor does not exceed `enough`.
+    bool may_reach(const PathFamily& family) {
+        double sum = span(family.starts_upward ? source_up : source_low);
+        if (sum <= enough_) sum += span(is_upper_end(family, family.ends - 1) ? receiver_up : receiver_low);
+        if (sum <= enough_ && family.ends >= 2) sum += (family.ends - 1) * span(traversal_span);
+        return sum <= enough_;
     }
 
 private:
-    double source_up_, source_low_, receiver_up_, receiver_low_, traversal_;
+    enum Span : std::size_t { source_up, source_low, receiver_up, receiver_low, traversal_span, spans };
+    double span(Span i) {
+        if (std::isnan(floors_[i])) floors_[i] = distance_floor(profile_, spans_[i].first, spans_[i].second, xi_low_, enough_);
+        return floors_[i];
+    }
+    const StratifiedProfile& profile_;
+    double xi_low_, enough_;
+    std::array<std::pair<double, double>, spans> spans_;  // the depths between which each is taken
+    std::array<double, spans> floors_{not_a_number, not_a_number, not_a_number, not_a_number, not_a_number};
 };
 
 // The ranges (indices into `ranges`, from the highest ξ down) where the direct path's X = R may
@@ -1118,20 +1126,32 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
         reach_low = std::min(reach_low, range.anchor_z);
         // The families that may reach R here: the direct path in its own ranges only, the others
         // where the least distance they could cover in this range does not already exceed R.
+        // The kinds of the ends in this range, from its middle; found when first needed.
+        std::optional<std::optional<AccessibleInterval>> middle_interval;
+        auto interval_of_range = [&]() -> const std::optional<AccessibleInterval>& {
+            if (!middle_interval) {
+                const RayLevel middle = RayLevel::anchored_at(profile, range.anchor_z, 0.25 * (range.high - range.low));
+                middle_interval = profile.interval_around(middle, z_source);
+            }
+            return *middle_interval;
+        };
         std::vector<PathFamily> families;
         if (r >= direct_first && r <= direct_last) families.push_back({z_receiver > z_source, 0});
         if (options.max_bounces > 0) {
-            const double reachable = distance * (1.0 + 1e-9);
-            const FamilyDistanceFloor floor(profile, z_source, z_receiver, reach_up, reach_low, range.low,
-                                            options.max_bounces >= 2, reachable);
+            FamilyDistanceFloor floor(profile, z_source, z_receiver, reach_up, reach_low, range.low,
+                                      distance * (1.0 + 1e-9));
             for (int ends = 1; ends <= options.max_bounces; ++ends)
-                for (bool upward : {true, false})
-                    if (floor.of({upward, ends}) <= reachable) families.push_back({upward, ends});
+                for (bool upward : {true, false}) {
+                    // A family that needs a lower end where the range's intervals have none is not
+                    // bounded from below at all (the floor of its lower legs would be meaningless).
+                    const bool meets_lower = ends >= 2 || !upward;
+                    if (meets_lower && (!interval_of_range() || interval_of_range()->lower_kind == LowerEndKind::unbounded))
+                        continue;
+                    if (floor.may_reach({upward, ends})) families.push_back({upward, ends});
+                }
         }
         if (families.empty()) continue;
-        // The kinds of the ends in this range, from its middle.
-        const RayLevel middle = RayLevel::anchored_at(profile, range.anchor_z, 0.25 * (range.high - range.low));
-        const auto interval = profile.interval_around(middle, z_source);
+        const auto& interval = interval_of_range();
         if (!interval || !interval->contains(z_receiver)) continue;
         RangeLegs range_legs(profile, range, z_source, z_receiver);
         for (const PathFamily& family : families) {
