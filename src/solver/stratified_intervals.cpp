@@ -287,14 +287,11 @@ double StratifiedProfile::index(double z) const {
     return n;
 }
 
-double StratifiedProfile::divided_difference(std::size_t cell, double z, double z_ref) const {
+double StratifiedProfile::formula_divided_difference(std::size_t cell, double z, double z_ref) const {
     const Cell& c = cells_[cell];
     const double delta = z - z_ref;
     switch (c.form) {
-        case Form::cubic: {
-            const double t = z - c.z_top, s = z_ref - c.z_top;
-            return c.c[1] + c.c[2] * (t + s) + c.c[3] * (t * t + t * s + s * s);
-        }
+        case Form::cubic: return divided_difference(cell, z, z_ref);
         case Form::exponential: {
             const double e = exp_b_ * std::exp(exp_c_ * z_ref);
             return delta == 0.0 ? -exp_c_ * e : -e * std::expm1(exp_c_ * delta) / delta;
@@ -334,19 +331,6 @@ double StratifiedProfile::gap(const RayLevel& level, double z) const {
 
 double StratifiedProfile::exponential_gap(const RayLevel& level, double z) const {
     return (exp_a_ - level.ray_parameter) - exp_b_ * std::exp(exp_c_ * std::min(z, 0.0));
-}
-
-double StratifiedProfile::anchored_gap_in_cell(const RayLevel& level, std::size_t cell, double z, double n_z) const {
-    const double za = level.anchor_z;
-    if (exponential_) return -exp_b_ * std::exp(exp_c_ * za) * std::expm1(exp_c_ * (z - za)) + level.offset;
-    const std::size_t ca = level.anchor_cell;
-    if (cell == ca) return divided_difference(cell, z, za) * (z - za) + level.offset;
-    if (cell + 1 == ca || ca + 1 == cell) {
-        const double boundary = cell < ca ? cells_[cell].z_bottom : cells_[cell].z_top;
-        return divided_difference(cell, z, boundary) * (z - boundary) +
-               divided_difference(ca, boundary, za) * (boundary - za) + level.offset;
-    }
-    return (n_z - level.anchor_index) + level.offset;
 }
 
 void StratifiedProfile::build_runs() {

@@ -5,6 +5,7 @@
 // that the Snell integrals (solver/snell_integrals.hpp) can evaluate n without virtual calls.
 #pragma once
 
+#include <cmath>
 #include <cstddef>
 #include <cstdint>
 #include <limits>
@@ -126,8 +127,13 @@ public:
     bool is_cubic(std::size_t cell) const { return cells_[cell].form == Form::cubic; }
     double index(double z) const;
     // (n(z) − n(z_ref)) / (z − z_ref) for two points of one cell, without cancellation; dn/dz at
-    // z_ref when z = z_ref.
-    double divided_difference(std::size_t cell, double z, double z_ref) const;
+    // z_ref when z = z_ref. Inline for cubic cells, as evaluate().
+    double divided_difference(std::size_t cell, double z, double z_ref) const {
+        const Cell& c = cells_[cell];
+        if (c.form != Form::cubic) return formula_divided_difference(cell, z, z_ref);
+        const double t = z - c.z_top, s = z_ref - c.z_top;
+        return c.c[1] + c.c[2] * (t + s) + c.c[3] * (t * t + t * s + s * s);
+    }
     // n(z) − n(z_ref) for any two depths, exact to rounding when they are close.
     double index_difference(double z, double z_ref) const;
     // n(z) − ξ for a ray level.
@@ -190,9 +196,22 @@ private:
     // gap_in_cell() of an unanchored level on the exponential profile, and of an anchored level
     // (z in the anchor's cell or a neighbour of it, or the exponential profile).
     double exponential_gap(const RayLevel& level, double z) const;
-    double anchored_gap_in_cell(const RayLevel& level, std::size_t cell, double z, double n_z) const;
+    double anchored_gap_in_cell(const RayLevel& level, std::size_t cell, double z, double n_z) const {
+        const double za = level.anchor_z;
+        if (exponential_) return -exp_b_ * std::exp(exp_c_ * za) * std::expm1(exp_c_ * (z - za)) + level.offset;
+        const std::size_t ca = level.anchor_cell;
+        if (cell == ca) return divided_difference(cell, z, za) * (z - za) + level.offset;
+        if (cell + 1 == ca || ca + 1 == cell) {
+            const double boundary = cell < ca ? cells_[cell].z_bottom : cells_[cell].z_top;
+            return divided_difference(cell, z, boundary) * (z - boundary) +
+                   divided_difference(ca, boundary, za) * (boundary - za) + level.offset;
+        }
+        return (n_z - level.anchor_index) + level.offset;
+    }
     // evaluate() for the exponential and generic cells.
     void evaluate_formula(std::size_t cell, double z, double& n, double& dn_dz, double& d2n_dz2) const;
+    // divided_difference() for the exponential and generic cells.
+    double formula_divided_difference(std::size_t cell, double z, double z_ref) const;
     void add_piece_cells(std::size_t piece, double z_top, double z_bottom);
     void build_runs();
     // The turning point between z_inside (gap > 0) and z_outside (gap <= 0) of one run; gap_inside:
