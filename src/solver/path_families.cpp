@@ -577,8 +577,9 @@ private:
         // is monotone (what the scan left in a bracket mostly is); where X goes like ln d over
         // the bracket, Newton's step in ln d from its end nearer the range's end, where the slope
         // is closest to the logarithm's (X − R about linear in ln d).
-        double first_guess = hermite_root(low, high);
-        if (spans_decades(low.v, high.v)) first_guess = log_newton(std::max(low.v, high.v) <= 0.5 ? low : high, low, high);
+        double first_guess = spans_decades(low.v, high.v)
+                                 ? log_newton(std::max(low.v, high.v) <= 0.5 ? low : high, low, high)
+                                 : hermite_root(low, high);
         Sample latest = low.v == high.v ? low : high, before_latest = low;  // the last two evaluated
         for (int iteration = 0; iteration < 200 && !close(low.v, high.v); ++iteration) {
             const Sample best = better(low, high);
