@@ -948,8 +948,15 @@ void StratifiedArrivalTable::arrivals(std::size_t index, double distance_m, std:
                                   distance_m, out);
                 continue;
             }
-            // Beyond a logarithmic tail's last sample at u_floor there is no root to find.
-            if (exact.sampled_to_end && distance_m > samples.back().distance_m) continue;
+            // Beyond a logarithmic tail's last sample (at u_floor or the edge) there is no root to
+            // find; within the pair finder's residual of it the last sample itself is one, as there.
+            if (exact.sampled_to_end && distance_m > samples.back().distance_m) {
+                const Exact::TailSample& last = samples.back();
+                if (distance_m - last.distance_m <= stratified_root_residual * (1.0 + distance_m))
+                    add_exact_arrival(row, exact.family, exact_point(row, exact.family, exact.anchor_z, exact.side * last.u * last.u),
+                                      exact.anchor_z, exact.side, distance_m, out);
+                continue;
+            }
             // Nor beyond the other tails' last samples when every u left there is known to stay
             // short of R by more than what add_exact_arrival accepts.
             if (distance_m - stratified_root_residual * (1.0 + distance_m) > exact.beyond_samples_max_m) continue;
