@@ -27,6 +27,15 @@ constexpr int divergent_end_samples = 20;
 // Folds whose extremum lies less than this beyond the sampled one are not refined (see build_row).
 constexpr double fold_refinement_threshold_m = 1e-6;
 
+// Where the regula falsi of solve_between and solve_in_tail stops when X − R does not come within
+// its tolerance: a bracket of 1e-15 relative in u, or of 1e-9 in ln u next to a local minimum of n,
+// where n − ξ (∝ u²) is then resolved to 2e-9 relative and X to about 1e-8 m. Where that offset is
+// below about 1e-21 X itself carries noise (centimetres to a metre: the turning depth, nanometres
+// from the minimum, is resolved only to a rounding error of z), which no finer bracket resolves.
+double bracket_resolution(bool logarithmic, double lo, double hi) {
+    return logarithmic ? 1e-9 : 1e-15 * std::max(std::abs(lo), std::abs(hi));
+}
+
 bool is_upper_end(const PathFamily& family, int j) { return family.starts_upward == (j % 2 == 0); }
 
 // The kind of a family in an interval, as find_stratified_paths names it.
@@ -137,6 +146,8 @@ StratifiedArrivalTable::StratifiedArrivalTable(const FirnModel& model, const Str
         range.high = cuts[i].first;
         range.low = i + 1 < cuts.size() ? cuts[i + 1].first : 0.0;
         range.anchor_z = cuts[i].second;
+        range.low_anchored = i + 1 < cuts.size();
+        if (range.low_anchored) range.low_anchor_z = cuts[i + 1].second;
         range.first = samples_.size();
         range.count = static_cast<std::size_t>(per_range);
         const double span = range.high - range.low;
@@ -154,23 +165,27 @@ StratifiedArrivalTable::StratifiedArrivalTable(const FirnModel& model, const Str
             offsets.push_back(span * v * v);
         }
         // The same toward v = 1, where the range meets the next cut (a local minimum of n too) from
-        // above: there X diverges like ln(1/(ξ − n_min)) and the roots of a map lie down to
-        // ξ − n_min of a few rounding errors of ξ, so the steps go on until ξ − n_min (computed
-        // directly, not as 1 − v, which would stop at 1e-16 of v) reaches that resolution.
+        // above: there X diverges like ln(1/(ξ − n_min)), so the steps go on until ξ − n_min
+        // (computed directly, not as 1 − v, which would stop at 1e-16 of v) reaches a few rounding
+        // errors of ξ; the tails of build_row go on from there. Where the low end is n at a depth,
+        // these samples are offsets from n there (negative: ξ above it), which resolves ξ − n_min
+        // to full precision, as next to v = 0.
+        const std::size_t toward_low = offsets.size();
         const double resolution = 32.0 * std::numeric_limits<double>::epsilon() * range.high;
         for (int j = 1; j <= 64; ++j) {
             const double w = first_step * std::ldexp(1.0, -j);  // 1 − v
             const double above_low = span * w * (2.0 - w);      // span (1 − v²)
             if (j > divergent_end_samples && above_low < resolution) break;
-            offsets.push_back(span - above_low);
+            offsets.push_back(range.low_anchored ? -above_low : span - above_low);
         }
-        offsets.push_back(span);
+        offsets.push_back(range.low_anchored ? 0.0 : span);
         range.count = offsets.size();
-        for (const double offset : offsets) {
+        for (std::size_t j = 0; j < offsets.size(); ++j) {
             SampleLevel sample;
-            sample.offset = offset;
-            sample.anchor_z = range.anchor_z;
-            sample.ray_parameter = range.high - sample.offset;
+            sample.offset = offsets[j];
+            const bool from_low = range.low_anchored && j >= toward_low;
+            sample.anchor_z = from_low ? range.low_anchor_z : range.anchor_z;
+            sample.ray_parameter = (from_low ? range.low : range.high) - sample.offset;
             sample.range = ranges_.size();
             samples_.push_back(sample);
         }
@@ -244,10 +259,14 @@ double StratifiedArrivalTable::memory_estimate_bytes(const StratifiedProfile& pr
     // Per sample: its level and about one accessible interval per duct, plus the outer one.
     const double per_sample = samples * (sizeof(SampleLevel) + (ranges / 2.0 + 1.0) * sizeof(IntervalLegs));
     // Per row: the end points of every family, and a run and a refined fold or tail per family
-    // and range at most, each with its bracketing points.
+    // and range at most, each with its bracketing points; and the exact samples of the tails next
+    // to minima, 4 per family and range (a tail holds at most about 20, but only ends that are the
+    // pair's cuts have tails: on the 200-point log of bench_stratified_maps at most 24 tails and
+    // 340 samples in a row, for 9 families and 30 ranges).
     const double per_row = static_cast<double>(source_rows) *
                            (sizeof(Row) + families * end_samples * sizeof(Point) +
-                            families * ranges * (sizeof(Run) + sizeof(Exact) + 2 * sizeof(double) * 2));
+                            families * ranges *
+                                (sizeof(Run) + sizeof(Exact) + 2 * sizeof(double) * 2 + 4 * sizeof(Exact::TailSample)));
     return legs + per_sample + per_row;
 }
 
@@ -357,25 +376,54 @@ StratifiedArrivalTable::Point StratifiedArrivalTable::exact_point(const Row& row
     return p;
 }
 
-double StratifiedArrivalTable::offset_from(double anchor_z, const Point& p) const {
+double StratifiedArrivalTable::signed_offset(double anchor_z, const Point& p) const {
     if (anchor_z == p.anchor_z) return p.offset;
-    return std::max(0.0, profile_->index_difference(anchor_z, p.anchor_z) + p.offset);
+    return profile_->index_difference(anchor_z, p.anchor_z) + p.offset;
+}
+
+double StratifiedArrivalTable::offset_from(double anchor_z, const Point& p) const {
+    return std::max(0.0, signed_offset(anchor_z, p));
+}
+
+double StratifiedArrivalTable::closest_offset(const Row& row, double anchor_z, double side) const {
+    // The pair finder seeks roots next to an end of one of its ranges of ξ that is n at a depth
+    // down to |ξ − n| = 1e-24 of that range (path_families.cpp, cut_limit_offset); its ranges for
+    // this pair are cut at row.pair_cuts. The map stops where it does, so that the two agree on
+    // which positions such a ray reaches.
+    const double n = profile_->index(anchor_z);
+    const auto& cuts = row.pair_cuts;
+    std::size_t i = 0;
+    for (std::size_t j = 1; j < cuts.size(); ++j)
+        if (std::abs(cuts[j] - n) < std::abs(cuts[i] - n)) i = j;
+    double span = 0.0;
+    if (!cuts.empty() && std::abs(cuts[i] - n) <= 4.0 * std::numeric_limits<double>::epsilon() * n) {
+        if (side > 0.0) span = cuts[i] - (i + 1 < cuts.size() ? cuts[i + 1] : 0.0);
+        else if (i > 0) span = cuts[i - 1] - cuts[i];
+    }
+    // Not an end of the pair's ranges (X does not diverge there for this pair, as a rule): the
+    // map's own range of ξ next to it.
+    if (!(span > 0.0))
+        for (const Range& range : ranges_) {
+            const double range_span = range.high - range.low;
+            if (side > 0.0 && range.anchor_z == anchor_z) span = range_span;
+            if (side < 0.0 && range.low_anchored && range.low_anchor_z == anchor_z) span = range_span;
+        }
+    if (!(span > 0.0)) span = n;
+    return 1e-24 * span;
 }
 
 StratifiedArrivalTable::Point StratifiedArrivalTable::solve_between(const Row& row, int family, double anchor_z,
-                                                                    double u_low, double u_high, double distance_m,
-                                                                    bool increasing_in_u) const {
-    // Regula falsi (Illinois) on X − R in u = √(n(anchor) − ξ), or in ln u when the bracket
+                                                                    double side, double u_low, double u_high,
+                                                                    double distance_m, bool increasing_in_u,
+                                                                    bool logarithmic) const {
+    // Regula falsi (Illinois) on X − R in u = √|n(anchor) − ξ|, or in ln u when the bracket
     // reaches the anchor itself (a divergent end, where X grows like ln(1/u)); points where X is
     // not finite count as beyond R (they lie toward the divergent end).
-    const double u_closest = std::sqrt(64.0 * std::numeric_limits<double>::epsilon() * std::max(1.0, row.limit));
-    const bool logarithmic = u_low <= u_closest;
-    if (logarithmic) u_low = std::min(u_closest, 0.5 * u_high);
     auto to_u = [&](double t) { return logarithmic ? std::exp(t) : t; };
     const double orientation = increasing_in_u ? 1.0 : -1.0;
     auto evaluate = [&](double t, Point& p) {
         const double u = to_u(t);
-        p = exact_point(row, family, anchor_z, u * u);
+        p = exact_point(row, family, anchor_z, side * u * u);
         if (!p.valid || !std::isfinite(p.distance)) return infinity;
         return orientation * (p.distance - distance_m);
     };
@@ -403,19 +451,26 @@ StratifiedArrivalTable::Point StratifiedArrivalTable::solve_between(const Row& r
             if (retained == 1) f_lo *= 0.5;
             retained = 1;
         }
-        if (std::abs(hi - lo) <= 1e-15 * std::max(std::abs(lo), std::abs(hi))) break;
+        if (std::abs(hi - lo) <= bracket_resolution(logarithmic, lo, hi)) break;
     }
     return std::abs(f_lo) <= std::abs(f_hi) ? p_lo : p_hi;
 }
 
-void StratifiedArrivalTable::sample_tail(const Row& row, Exact& tail, double u_a, double u_b) const {
-    // As solve_between: in ln u down to a few rounding errors of ξ when the divergent end is the
-    // anchor itself, else in u toward u_b, with the distance to the divergent end shrinking by 8
-    // per sample (X grows like the logarithm of that distance next to a minimum of n).
+void StratifiedArrivalTable::sample_tail(const Row& row, Exact& tail, const Point& reference) const {
+    // As solve_between: in ln u down to u_floor when the divergent end is the anchor itself (the
+    // anchored levels resolve n − ξ there far below a rounding error of ξ), else in u toward u_b,
+    // with the distance to the divergent end shrinking by 8 per sample (X grows like the
+    // logarithm of that distance next to a minimum of n).
+    const double u_a = tail.u_a, u_b = tail.u_b;
     const double u_closest = std::sqrt(64.0 * std::numeric_limits<double>::epsilon() * std::max(1.0, row.limit));
     tail.logarithmic = std::min(u_a, u_b) <= u_closest;
-    const double u_last = tail.logarithmic ? std::min(u_closest, 0.5 * u_a) : u_b;
+    if (tail.logarithmic) tail.u_floor = std::min(std::sqrt(closest_offset(row, tail.anchor_z, tail.side)), u_a);
+    const double u_last = tail.logarithmic ? tail.u_floor : u_b;
     const double resolution = 4.0 * std::numeric_limits<double>::epsilon() * std::max(u_a, u_b);
+    auto keep = [&](double u, const Point& p) {
+        if (tail.tail_samples.empty()) tail.first = p;
+        tail.tail_samples.push_back({u, p.distance, p.time, p.attenuation, p.length});
+    };
     double previous = -infinity;
     for (int k = 0; k < 64; ++k) {
         const double step = std::ldexp(1.0, -3 * k);
@@ -427,22 +482,85 @@ void StratifiedArrivalTable::sample_tail(const Row& row, Exact& tail, double u_a
             const double from = tail.tail_samples.empty() ? u_a : tail.tail_samples.back().u;
             int left = 0;
             for (double v = std::nextafter(from, u_b); v != u_b && left < 16; v = std::nextafter(v, u_b), ++left) {
-                const Point p = exact_point(row, tail.family, tail.anchor_z, v * v);
+                const Point p = exact_point(row, tail.family, tail.anchor_z, tail.side * v * v);
                 if (p.valid && std::isfinite(p.distance)) reach = std::max(reach, p.distance);
             }
             if (left < 16 && !tail.tail_samples.empty()) tail.beyond_samples_max_m = reach;
             break;
         }
-        const Point p = exact_point(row, tail.family, tail.anchor_z, u * u);
-        // Only while X stays finite and grows: beyond, cells fall back to the whole bracket.
-        if (!p.valid || !std::isfinite(p.distance) || !(p.distance > previous)) break;
-        tail.tail_samples.push_back({u, p.distance});
+        const Point p = exact_point(row, tail.family, tail.anchor_z, tail.side * u * u);
+        // Next to a double root X grows by the same amount per factor of u, so a logarithmic
+        // tail whose second sample is no farther than its first does not diverge at all (a family
+        // whose interval changes its kind of end at the cut, say, away from the pair): no tail.
+        if (tail.logarithmic && tail.tail_samples.size() == 1 && p.valid && std::isfinite(p.distance) &&
+            p.distance <= previous) {
+            tail.tail_samples.clear();
+            break;
+        }
+        if (!p.valid || !std::isfinite(p.distance) || !(p.distance > previous)) {
+            // Next to a local minimum of n the turning depth is itself a double: where n − ξ is
+            // below about 1e-26 it is resolved to a rounding error of z, and X jumps to +∞ there.
+            // The pair finder finds no root beyond that edge either (a jump is no root): close in
+            // on it in ln u (12 halvings leave X a few millimetres short of it) and end the tail.
+            if (tail.logarithmic && !tail.tail_samples.empty()) {
+                double good = tail.tail_samples.back().u, bad = u;
+                for (int i = 0; i < 12; ++i) {
+                    const double middle = std::sqrt(good * bad);
+                    const Point m = exact_point(row, tail.family, tail.anchor_z, tail.side * middle * middle);
+                    if (m.valid && std::isfinite(m.distance) && m.distance > previous) {
+                        keep(middle, m);
+                        previous = m.distance;
+                        good = middle;
+                    } else {
+                        bad = middle;
+                    }
+                }
+                tail.sampled_to_end = true;
+            }
+            // Elsewhere, beyond the last sample cells fall back to the whole bracket.
+            break;
+        }
+        keep(u, p);
         previous = p.distance;
         if (tail.logarithmic && u == u_last) {
             tail.sampled_to_end = true;
             break;
         }
     }
+    if (!tail.logarithmic) return;
+    // Next to a double root X = A + B·s, s = −ln|n − ξ|, so a cell between two samples is
+    // interpolated (add_tail_arrival) rather than solved, once the tail is seen to be that line:
+    // the slope B of its first segment and over the whole tail within 5 % of the slope from the
+    // point before the tail (`reference`, on the same side of the end; else of the first segment).
+    // Next to a flat stretch of n (X like 1/u) the slopes differ by factors of 8 and cells are
+    // solved exactly.
+    //
+    // Where |n − ξ| is below about 1e-21 the computed X carries noise, centimetres to a metre: the
+    // turning depth, nanometres from the minimum, is resolved only to a rounding error of z. The
+    // noise is not in the ray (X of the exact ray is the line), and T carries the same shift as X
+    // (dT = ξ/c·dX at a turning point, where the ray is horizontal), so the samples stay on the
+    // line T(X) while X − R, solved for exactly there, would be decided by that noise: those
+    // segments are interpolated too, with the slope of the first segment.
+    auto& samples = tail.tail_samples;
+    if (samples.size() < 2) return;
+    auto s_of = [](double u) { return -2.0 * std::log(u); };
+    auto slope_between = [&](double u_0, double x_0, double u_1, double x_1) {
+        const double ds = s_of(u_1) - s_of(u_0);
+        return ds > 0.0 ? (x_1 - x_0) / ds : not_a_number;
+    };
+    const double first = slope_between(samples[0].u, samples[0].distance_m, samples[1].u, samples[1].distance_m);
+    const double whole =
+        slope_between(samples.front().u, samples.front().distance_m, samples.back().u, samples.back().distance_m);
+    double expected = not_a_number;
+    if (reference.valid && std::isfinite(reference.distance)) {
+        const double offset = tail.side * signed_offset(tail.anchor_z, reference);
+        if (offset > 0.0)
+            expected = slope_between(std::sqrt(offset), reference.distance, samples[0].u, samples[0].distance_m);
+    }
+    if (!(expected > 0.0)) expected = samples.size() >= 3 ? first : not_a_number;
+    auto agrees = [&](double slope) { return std::abs(slope - expected) <= 0.05 * expected; };
+    if (!(expected > 0.0) || !agrees(first) || !agrees(whole)) return;
+    for (std::size_t k = 0; k + 1 < samples.size(); ++k) samples[k].slope = first;
 }
 
 StratifiedArrivalTable::Point StratifiedArrivalTable::solve_in_tail(const Row& row, const Exact& tail, std::size_t k,
@@ -455,13 +573,15 @@ StratifiedArrivalTable::Point StratifiedArrivalTable::solve_in_tail(const Row& r
     auto to_u = [&](double t) { return tail.logarithmic ? std::exp(t) : t; };
     double lo = to_t(a.u), hi = to_t(b.u), f_lo = a.distance_m - distance_m, f_hi = b.distance_m - distance_m;
     Point p, p_lo, p_hi;
-    const double tolerance = 1e-7 * (1.0 + distance_m);
+    // Next to a local minimum of n a tenth of the residual add_exact_arrival accepts (X may carry
+    // noise far above 1e-7 there, see sample_tail).
+    const double tolerance = (tail.logarithmic ? 1e-6 : 1e-7) * (1.0 + distance_m);
     int retained = 0;  // +1: lo kept twice in a row, −1: hi kept twice
     for (int i = 0; i < 100; ++i) {
         double t = (lo * f_hi - hi * f_lo) / (f_hi - f_lo);
         if (!(t > std::min(lo, hi) && t < std::max(lo, hi))) t = 0.5 * (lo + hi);
         const double u = to_u(t);
-        p = exact_point(row, tail.family, tail.anchor_z, u * u);
+        p = exact_point(row, tail.family, tail.anchor_z, tail.side * u * u);
         const double f = p.valid && std::isfinite(p.distance) ? p.distance - distance_m : infinity;
         if (std::abs(f) <= tolerance) return p;
         if (f < 0.0) {
@@ -474,10 +594,10 @@ StratifiedArrivalTable::Point StratifiedArrivalTable::solve_in_tail(const Row& r
             if (retained == 1) f_lo *= 0.5;
             retained = 1;
         }
-        if (std::abs(hi - lo) <= 1e-15 * std::max(std::abs(lo), std::abs(hi))) break;
+        if (std::abs(hi - lo) <= bracket_resolution(tail.logarithmic, lo, hi)) break;
     }
-    if (!p_lo.valid) p_lo = exact_point(row, tail.family, tail.anchor_z, a.u * a.u);
-    if (!p_hi.valid) p_hi = exact_point(row, tail.family, tail.anchor_z, b.u * b.u);
+    if (!p_lo.valid) p_lo = exact_point(row, tail.family, tail.anchor_z, tail.side * a.u * a.u);
+    if (!p_hi.valid) p_hi = exact_point(row, tail.family, tail.anchor_z, tail.side * b.u * b.u);
     return std::abs(f_lo) <= std::abs(f_hi) ? p_lo : p_hi;
 }
 
@@ -488,6 +608,29 @@ void StratifiedArrivalTable::build_row(std::size_t index) {
     const auto [limit, limit_z] = profile_->minimum_index(z_low, z_high);
     row.limit = limit;
     row.limit_z = limit_z;
+    row.limit_inside = limit_z > z_low && limit_z < z_high;
+    {
+        // As ray_parameter_ranges in path_families.cpp: the limit, then every n lower than all
+        // met so far going up from the upper end (stationary points of n, then the surface) and
+        // going down from the lower end (stationary points, then the bottom or the floor).
+        auto& cuts = row.pair_cuts;
+        cuts.push_back(limit);
+        const auto& stationary = profile_->stationary_z();  // from the surface down
+        double lowest = limit;
+        auto consider = [&](double z) {
+            const double n = profile_->index(z);
+            if (n < lowest && n > 0.0) cuts.push_back(n), lowest = n;
+        };
+        for (auto it = stationary.rbegin(); it != stationary.rend(); ++it)
+            if (*it > z_high) consider(*it);
+        consider(0.0);
+        lowest = limit;
+        for (const double z : stationary)
+            if (z < z_low) consider(z);
+        consider(profile_->bottom_z() ? *profile_->bottom_z() : profile_->floor_z());
+        std::sort(cuts.begin(), cuts.end(), std::greater<>());
+        cuts.erase(std::unique(cuts.begin(), cuts.end()), cuts.end());
+    }
     for (std::size_t r = 0; r < ranges_.size(); ++r)
         if (limit <= ranges_[r].high && limit > ranges_[r].low) {
             row.limit_range = r;
@@ -509,8 +652,15 @@ void StratifiedArrivalTable::build_row(std::size_t index) {
             u_first = std::sqrt(offset_from(limit_z, sample));
         }
         // At ξ = limit exactly the ray is horizontal at an end (or grazes a minimum of n between
-        // them) and the accessible interval only touches that end: start a few rounding errors below.
-        const double u_closest = std::sqrt(64.0 * std::numeric_limits<double>::epsilon() * limit);
+        // them) and the accessible interval only touches that end: start a little below, at a few
+        // rounding errors of ξ or, where the first table sample is closer than that (the limit is
+        // a local minimum of n between the ends, a cut of the ranges whose samples come within
+        // 1e-15 of it), a quarter of the geometric step below those (the anchored levels resolve
+        // n − ξ there). A tail of build_row goes on toward a local minimum from there.
+        const double u_geometric = u_first / end_uniform_samples * std::pow(4.0, -static_cast<int>(end_geometric_samples));
+        const double u_closest = has_sample ? std::min(std::sqrt(64.0 * std::numeric_limits<double>::epsilon() * limit),
+                                                       0.25 * u_geometric)
+                                            : std::sqrt(64.0 * std::numeric_limits<double>::epsilon() * limit);
         // Uniform in u, and geometric below the first step: X is smooth in u next to a turning end
         // and grows like ln(1/u) next to a minimum of n between the ends.
         row.end_u.push_back(u_closest);
@@ -564,8 +714,9 @@ void StratifiedArrivalTable::build_row(std::size_t index) {
                     fold.b = e + 1;
                     fold.maximum = run.increasing;
                     fold.sampled_m = points[e].distance;
-                    fold.anchor_z = before.offset <= after.offset ? before.anchor_z : after.anchor_z;
-                    if (e - 1 < end_samples) fold.anchor_z = before.anchor_z;
+                    // The end points' anchor for a fold among them, else the range's top (the
+                    // samples next to its low end are offsets from n there, of the other sign).
+                    fold.anchor_z = e - 1 < end_samples ? before.anchor_z : ranges_[r].anchor_z;
                     const double u_a = u_of(offset_from(fold.anchor_z, before)),
                                  u_b = u_of(offset_from(fold.anchor_z, after));
                     // The parabola through the three samples estimates how far the true extremum
@@ -595,31 +746,62 @@ void StratifiedArrivalTable::build_row(std::size_t index) {
                 p = run.last;
             }
             // Divergent ends: a finite point next to one where X is infinite, or next to the row's
-            // end point when that is not a path (a local minimum of n between the ends).
+            // end point when that is not a path (a local minimum of n between the ends). Each tail
+            // is taken in u = √|n(anchor) − ξ| from the divergent point's anchor (n there is the
+            // end's ξ where the divergence is a double root), on the side of the finite point.
+            auto add_tail = [&](std::size_t q, std::size_t b, double anchor_z, double u_b) {
+                // The position on the other side of q, farther from the divergent end.
+                const std::size_t away = b > q ? q - 1 : q + 1;
+                const Point reference = away < positions && away != b ? point_at(row, f, r, away) : Point{};
+                Exact tail;
+                tail.family = f;
+                tail.range = r;
+                tail.a = q;
+                tail.b = b;
+                tail.tail = true;
+                tail.sampled_m = points[q].distance;
+                tail.exact_m = infinity;
+                tail.anchor_z = anchor_z;
+                const double offset = signed_offset(anchor_z, point_at(row, f, r, q));
+                tail.side = offset < 0.0 ? -1.0 : 1.0;
+                tail.u_a = std::sqrt(std::abs(offset));
+                tail.u_b = u_b;
+                sample_tail(row, tail, reference);
+                if (tail.logarithmic && tail.tail_samples.empty()) return;  // no divergence after all
+                row.exact.push_back(tail);
+                visible.emplace_back(tail.sampled_m, infinity);
+            };
             for (std::size_t q = 0; q < positions; ++q) {
                 if (!finite(q)) continue;
                 for (const std::size_t b : {q - 1, q + 1}) {
                     if (b >= positions) continue;
-                    const bool diverges = points[b].valid && std::isinf(points[b].distance);
+                    // At a cut itself (ξ = n at a stationary point of n) the legs may have no
+                    // distance at all (a turning point on a flat stretch): an end too where X grows
+                    // toward it, as the pair finder takes it.
+                    const bool at_cut = b >= end_samples && points[b].exists && !finite(b) &&
+                                        point_at(row, f, r, b).offset == 0.0;
+                    const std::size_t before_q = b > q ? q - 1 : q + 1;
+                    const bool grows_to_cut = at_cut && before_q < positions && finite(before_q) &&
+                                              points[q].distance > points[before_q].distance;
+                    const bool diverges = (points[b].valid && std::isinf(points[b].distance)) || grows_to_cut;
                     const bool limit_end = b < end_samples && b < q && row.has_end && row.limit_range == r && !points[b].valid;
                     if (!diverges && !limit_end) continue;
-                    Exact tail;
-                    tail.family = f;
-                    tail.range = r;
-                    tail.a = q;
-                    tail.b = b;
-                    tail.tail = true;
-                    tail.sampled_m = points[q].distance;
-                    tail.exact_m = infinity;
-                    const Point divergent = point_at(row, f, r, b);
-                    tail.anchor_z = limit_end ? row.limit_z : divergent.anchor_z;
-                    const double u_a = std::sqrt(offset_from(tail.anchor_z, point_at(row, f, r, q)));
-                    const double u_b = limit_end ? row.end_u[b] : std::sqrt(offset_from(tail.anchor_z, divergent));
-                    sample_tail(row, tail, u_a, u_b);
-                    row.exact.push_back(tail);
-                    visible.emplace_back(tail.sampled_m, infinity);
+                    if (limit_end) {
+                        add_tail(q, b, row.limit_z, row.end_u[b]);
+                    } else {
+                        const Point divergent = point_at(row, f, r, b);
+                        const Point finite_point = point_at(row, f, r, q);
+                        const double side = signed_offset(divergent.anchor_z, finite_point) < 0.0 ? -1.0 : 1.0;
+                        add_tail(q, b, divergent.anchor_z, std::sqrt(std::max(0.0, side * signed_offset(divergent.anchor_z, divergent))));
+                    }
                 }
             }
+            // The row's end point itself, when the limit is a local minimum of n between the ends:
+            // it lies a few rounding errors of ξ from the limit, and X goes on growing beyond it,
+            // toward the limit, far below a rounding error of ξ.
+            if (row.has_end && row.limit_range == r && row.limit_inside && positions > 1 && finite(0) && finite(1) &&
+                points[0].distance > points[1].distance)
+                add_tail(0, 0, row.limit_z, 0.0);
         }
     }
     std::sort(visible.begin(), visible.end());
@@ -637,6 +819,32 @@ void StratifiedArrivalTable::add_arrival(const Row& row, const Point& a, const P
     const InterpolatedArrival at = interpolate_arrival({a.distance, a.time, a.ray_parameter, a.attenuation, a.length},
                                                        {b.distance, b.time, b.ray_parameter, b.attenuation, b.length},
                                                        distance_m);
+    add_interpolated(row, a, at, distance_m, out);
+}
+
+void StratifiedArrivalTable::add_tail_arrival(const Row& row, const Exact& tail, std::size_t k, double distance_m,
+                                              std::vector<MapArrival>& out) const {
+    // X = A + B·s with s = −ln ρ, ρ = |n(anchor) − ξ| = u², B the sample's slope (sample_tail). The time is the cubic Hermite in distance with dT/dX = ξ/c at both ends, as on
+    // the runs: ξ changes by less than ρ at the first sample (below 1e-13) along the tail, so T is
+    // linear in X to far better than a femtosecond. ξ and dX/dξ = side·B/ρ (for the spreading)
+    // come from the line in s.
+    const Exact::TailSample& a = tail.tail_samples[k];
+    const Exact::TailSample& b = tail.tail_samples[k + 1];
+    const double n_anchor = profile_->index(tail.anchor_z);
+    const double rho_a = a.u * a.u, rho_b = b.u * b.u;
+    const double s_a = -std::log(rho_a);
+    const double slope = a.slope;
+    const double rho = std::exp(-(s_a + (distance_m - a.distance_m) / slope));
+    const double xi_a = n_anchor - tail.side * rho_a, xi_b = n_anchor - tail.side * rho_b;
+    InterpolatedArrival at = interpolate_arrival({a.distance_m, a.time_s, xi_a, a.attenuation, a.length_m},
+                                                 {b.distance_m, b.time_s, xi_b, b.attenuation, b.length_m}, distance_m);
+    at.ray_parameter = n_anchor - tail.side * rho;
+    at.distance_derivative = tail.side * slope / rho;
+    add_interpolated(row, tail.first, at, distance_m, out);
+}
+
+void StratifiedArrivalTable::add_interpolated(const Row& row, const Point& a, const InterpolatedArrival& at,
+                                              double distance_m, std::vector<MapArrival>& out) const {
     const double xi = at.ray_parameter, attenuation = at.attenuation, length = at.length_m;
 
     MapArrival arrival;
@@ -677,16 +885,18 @@ void StratifiedArrivalTable::add_arrival(const Row& row, const Point& a, const P
 }
 
 void StratifiedArrivalTable::add_exact_arrival(const Row& row, int family, const Point& root, double anchor_z,
-                                               double distance_m, std::vector<MapArrival>& out) const {
+                                               double side, double distance_m, std::vector<MapArrival>& out) const {
     if (!root.valid || !std::isfinite(root.distance)) return;
-    // A jump of X across R (ξ not resolved by a double there) is not a root.
-    if (std::abs(root.distance - distance_m) > 1e-6 * (1.0 + distance_m)) return;
+    // A jump of X across R (ξ not resolved by a double there) is not a root; the bound is the pair
+    // finder's, which leaves room for the noise of X next to a local minimum of n (above).
+    if (std::abs(root.distance - distance_m) > stratified_root_residual * (1.0 + distance_m)) return;
     Point corrected = root;
     // First-order correction for the root's residual: dT/dR = ξ/c along a family.
     corrected.time += root.ray_parameter * (distance_m - root.distance) / speed_of_light;
     corrected.distance = distance_m;
-    const double offset = offset_from(anchor_z, root);
-    Point neighbour = exact_point(row, family, anchor_z, offset * (1.0 + 1e-7) + 1e-15);
+    // A neighbour a little farther from the anchor's n, on the root's side, for dX/dξ.
+    const double offset = side * std::max(0.0, side * signed_offset(anchor_z, root));
+    Point neighbour = exact_point(row, family, anchor_z, offset * (1.0 + 1e-7) + side * 1e-15);
     if (!neighbour.valid || !std::isfinite(neighbour.distance) || neighbour.distance == root.distance) neighbour = corrected;
     std::vector<MapArrival> one;
     add_arrival(row, corrected, neighbour, distance_m, one);
@@ -722,9 +932,6 @@ void StratifiedArrivalTable::arrivals(std::size_t index, double distance_m, std:
         }
     }
     for (const Exact& exact : row.exact) {
-        const Point a = point_at(row, exact.family, exact.range, exact.a);
-        const Point b = point_at(row, exact.family, exact.range, exact.b);
-        const double u_a = std::sqrt(offset_from(exact.anchor_z, a));
         if (exact.tail) {
             if (distance_m <= exact.sampled_m) continue;
             const auto& samples = exact.tail_samples;
@@ -733,26 +940,39 @@ void StratifiedArrivalTable::arrivals(std::size_t index, double distance_m, std:
                 const auto above = std::upper_bound(samples.begin(), samples.end(), distance_m,
                                                     [](double d, const Exact::TailSample& s) { return d < s.distance_m; });
                 const auto k = static_cast<std::size_t>(above - samples.begin()) - 1;
-                add_exact_arrival(row, exact.family, solve_in_tail(row, exact, k, distance_m), exact.anchor_z, distance_m,
-                                  out);
+                if (samples[k].slope > 0.0) {
+                    add_tail_arrival(row, exact, k, distance_m, out);
+                    continue;
+                }
+                add_exact_arrival(row, exact.family, solve_in_tail(row, exact, k, distance_m), exact.anchor_z, exact.side,
+                                  distance_m, out);
                 continue;
             }
-            // Beyond a logarithmic tail's last sample solve_between would look no closer to the end
-            // (its u_closest) and find nothing.
-            if (exact.sampled_to_end && distance_m > samples.back().distance_m) continue;
-            // Nor can it beyond the other tails' last samples when every u left there is known
-            // to stay short of R by more than what add_exact_arrival accepts.
-            if (distance_m - 1e-6 * (1.0 + distance_m) > exact.beyond_samples_max_m) continue;
-            // u of the divergent end: the anchor itself for the row's end point, else b's sample;
-            // beyond the last sample the bracket starts there.
-            const double u_b = exact.b < end_samples && !b.valid ? row.end_u[exact.b] : std::sqrt(offset_from(exact.anchor_z, b));
-            const bool increasing = u_b > u_a;
-            const double u_start = samples.size() >= 2 && distance_m >= samples.back().distance_m ? samples.back().u : u_a;
-            const Point root = solve_between(row, exact.family, exact.anchor_z, std::min(u_start, u_b),
-                                             std::max(u_start, u_b), distance_m, increasing);
-            add_exact_arrival(row, exact.family, root, exact.anchor_z, distance_m, out);
+            // Beyond a logarithmic tail's last sample (at u_floor or the edge) there is no root to
+            // find; within the pair finder's residual of it the last sample itself is one, as there.
+            if (exact.sampled_to_end && distance_m > samples.back().distance_m) {
+                const Exact::TailSample& last = samples.back();
+                if (distance_m - last.distance_m <= stratified_root_residual * (1.0 + distance_m))
+                    add_exact_arrival(row, exact.family, exact_point(row, exact.family, exact.anchor_z, exact.side * last.u * last.u),
+                                      exact.anchor_z, exact.side, distance_m, out);
+                continue;
+            }
+            // Nor beyond the other tails' last samples when every u left there is known to stay
+            // short of R by more than what add_exact_arrival accepts.
+            if (distance_m - stratified_root_residual * (1.0 + distance_m) > exact.beyond_samples_max_m) continue;
+            // Beyond the last sample the bracket starts there; a logarithmic one ends at u_floor.
+            const double u_b = exact.logarithmic ? exact.u_floor : exact.u_b;
+            const bool increasing = u_b > exact.u_a;
+            const double u_start =
+                samples.size() >= 2 && distance_m >= samples.back().distance_m ? samples.back().u : exact.u_a;
+            const Point root = solve_between(row, exact.family, exact.anchor_z, exact.side, std::min(u_start, u_b),
+                                             std::max(u_start, u_b), distance_m, increasing, exact.logarithmic);
+            add_exact_arrival(row, exact.family, root, exact.anchor_z, exact.side, distance_m, out);
             continue;
         }
+        const Point a = point_at(row, exact.family, exact.range, exact.a);
+        const Point b = point_at(row, exact.family, exact.range, exact.b);
+        const double u_a = std::sqrt(offset_from(exact.anchor_z, a));
         const bool inside = exact.maximum ? distance_m > exact.sampled_m && distance_m <= exact.exact_m
                                           : distance_m < exact.sampled_m && distance_m >= exact.exact_m;
         if (!inside) continue;
@@ -763,9 +983,9 @@ void StratifiedArrivalTable::arrivals(std::size_t index, double distance_m, std:
         for (const double u_end : {u_a, u_b}) {
             const bool toward_extremum_up = u_end < u_e;  // u grows from the end to the extremum
             const bool increasing = toward_extremum_up == exact.maximum;
-            const Point root = solve_between(row, exact.family, exact.anchor_z, std::min(u_end, u_e), std::max(u_end, u_e),
-                                             distance_m, increasing);
-            add_exact_arrival(row, exact.family, root, exact.anchor_z, distance_m, out);
+            const Point root = solve_between(row, exact.family, exact.anchor_z, 1.0, std::min(u_end, u_e),
+                                             std::max(u_end, u_e), distance_m, increasing);
+            add_exact_arrival(row, exact.family, root, exact.anchor_z, 1.0, distance_m, out);
         }
     }
     std::sort(out.begin(), out.end(), [](const MapArrival& a, const MapArrival& b) { return a.time_s < b.time_s; });

@@ -8,8 +8,12 @@
 // any two levels of one interval is a sum of those cumulative legs. Arrivals are interpolated with
 // cubic Hermite polynomials in distance whose slopes are dT/dX = ξ/c, as in ArrivalTable; at folds
 // of X(ξ) and where X diverges (ξ next to a local minimum of n) they are solved exactly with
-// family_legs. Ranges are parametrised ξ = n(anchor) − span·v² (anchor: the range's top), which
-// resolves rays near a local minimum of n or near n_deep without cancellation.
+// family_legs. Ranges are parametrised ξ = n(anchor) − span·v² (anchor: the range's top; the
+// samples next to its low end are offsets from n there), which resolves rays near a local minimum
+// of n or near n_deep without cancellation. Past the last sample of a family that diverges next to
+// a local minimum, exact samples go on toward the minimum's n on that side down to where the pair
+// finder stops (1e-24 of its range of ξ); cells between them are interpolated in ln|ξ − n_min|
+// where X is seen to be linear in it, and solved exactly elsewhere.
 #pragma once
 
 #include <cstddef>
@@ -65,6 +69,10 @@ public:
 private:
     struct Range {
         double high = 0.0, low = 0.0, anchor_z = 0.0;
+        // n(low_anchor_z) = low where `low` is n at a depth (every range but the last, which ends at
+        // ξ = 0): the samples next to it are offsets from n there (ξ = n(low_anchor_z) + ρ).
+        bool low_anchored = false;
+        double low_anchor_z = 0.0;
         std::size_t first = 0, count = 0;  // its samples: first .. first + count − 1, ξ decreasing
     };
     struct IntervalLegs {  // one accessible interval of one ξ sample
@@ -104,15 +112,29 @@ private:
         double sampled_m = 0.0;           // X at the sampled extremum (or at a, for a tail)
         double exact_m = 0.0;             // the refined extremum (+inf for a tail)
         double anchor_z = 0.0, u_extremum = 0.0;
+        // ξ = n(anchor_z) − side·u²: side −1 for a tail approached from above n(anchor_z) (a ray
+        // turning just beside a local minimum of n at the low end of a range), else +1.
+        double side = 1.0;
+        // For a tail: u at a and at the divergent end (0 where that end is n(anchor_z) itself).
+        double u_a = 0.0, u_b = 0.0;
+        // For a logarithmic tail: the closest u to the divergent end that a root is sought at, as
+        // the pair finder (n − ξ = 1e-24 of the pair's range of ξ there, docs/physics.md §8.2).
+        double u_floor = 0.0;
         // For a tail: exact points from a toward the divergent end, X growing (u geometric toward
         // it), so that a cell's root is bracketed by two of them and found in a few steps.
         struct TailSample {
             double u = 0.0, distance_m = 0.0;
+            double time_s = 0.0, attenuation = 0.0, length_m = 0.0;
+            // dX/ds, s = −ln|n − ξ|, from this sample to the next where X is that line next to a
+            // double root (sample_tail): a cell between them is interpolated (add_tail_arrival),
+            // not solved. NaN elsewhere.
+            double slope = std::numeric_limits<double>::quiet_NaN();
         };
         std::vector<TailSample> tail_samples;
+        Point first;  // the first sample whole: the path's kind and reflections along the tail
         bool logarithmic = false;  // the divergent end is u = 0 itself: solve in ln u
-        // The samples reach the closest u that a root is sought at (logarithmic tails): beyond the
-        // last one's distance there is no root to find.
+        // The samples reach u_floor (logarithmic tails): beyond the last one's distance there is no
+        // root to find.
         bool sampled_to_end = false;
         // For the other tails, when the samples stop within a few ulps of u of the divergent end:
         // the largest X at any u left between them and that end (every such u evaluated), so
@@ -123,6 +145,12 @@ private:
         std::size_t source_level = 0;
         double limit = 0.0, limit_z = 0.0;  // ξ must stay below n between the ends
         std::size_t limit_range = 0;
+        // The limit is a local minimum of n strictly between the ends: X diverges toward it.
+        bool limit_inside = false;
+        // The ξ at which the pair finder cuts its ranges for this pair (the limit, then each new
+        // lowest n met going outward from the ends), from the largest: where the logarithmic tails
+        // stop (u_floor).
+        std::vector<double> pair_cuts;
         std::size_t skipped = 0;            // samples of the limit range at or above the limit
         bool has_end = false;
         // Per family, end_samples points from ξ = limit (i = 0) toward the first table sample,
@@ -147,14 +175,27 @@ private:
     Reach reach_at(const Row& row, int family, std::size_t range, std::size_t position) const;
     Point point_at(const Row& row, int family, std::size_t range, std::size_t position) const;
     Point exact_point(const Row& row, int family, double anchor_z, double offset) const;
+    // n(anchor_z) − ξ at p: signed, and clamped at 0.
+    double signed_offset(double anchor_z, const Point& p) const;
     double offset_from(double anchor_z, const Point& p) const;
-    Point solve_between(const Row& row, int family, double anchor_z, double u_low, double u_high, double distance_m,
-                        bool increasing_in_u) const;
-    void sample_tail(const Row& row, Exact& tail, double u_a, double u_b) const;
+    // The closest ξ − n(anchor_z) (on the side of a tail) at which the pair finder seeks roots.
+    double closest_offset(const Row& row, double anchor_z, double side) const;
+    // Regula falsi between u_low and u_high, ξ = n(anchor_z) − side·u²; in ln u when `logarithmic`
+    // (u_low is then the floor itself, the divergent end being u = 0).
+    Point solve_between(const Row& row, int family, double anchor_z, double side, double u_low, double u_high,
+                        double distance_m, bool increasing_in_u, bool logarithmic = false) const;
+    // reference: the point before the tail's first (farther from the divergent end), if any.
+    void sample_tail(const Row& row, Exact& tail, const Point& reference) const;
     Point solve_in_tail(const Row& row, const Exact& tail, std::size_t k, double distance_m) const;
     void add_arrival(const Row& row, const Point& a, const Point& b, double distance_m, std::vector<MapArrival>& out) const;
-    void add_exact_arrival(const Row& row, int family, const Point& root, double anchor_z, double distance_m,
-                           std::vector<MapArrival>& out) const;
+    // An arrival from an interpolated ray (kind and reflections from `named`).
+    void add_interpolated(const Row& row, const Point& named, const InterpolatedArrival& at, double distance_m,
+                          std::vector<MapArrival>& out) const;
+    // A cell between samples k and k + 1 of a logarithmic tail where X is linear in ln u.
+    void add_tail_arrival(const Row& row, const Exact& tail, std::size_t k, double distance_m,
+                          std::vector<MapArrival>& out) const;
+    void add_exact_arrival(const Row& row, int family, const Point& root, double anchor_z, double side,
+                           double distance_m, std::vector<MapArrival>& out) const;
     void build_row(std::size_t index);
 
     const FirnModel* model_;
