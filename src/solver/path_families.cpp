@@ -919,16 +919,26 @@ double distance_floor(const StratifiedProfile& profile, double a, double b, doub
 // needed, and summed no further than beyond `enough` (past which a family is left out anyway).
 class FamilyDistanceFloor {
 public:
+    // n_least: a lower bound on n over every span (the range's top: everything between the pair
+    // and the cuts met so far has a larger n).
     FamilyDistanceFloor(const StratifiedProfile& profile, double z_source, double z_receiver, double reach_up,
-                        double reach_low, double xi_low, double enough)
+                        double reach_low, double xi_low, double n_least, double enough)
         : profile_(profile), xi_low_(xi_low), enough_(enough),
+          slope_ceiling_(xi_low / std::sqrt((n_least - xi_low) * (n_least + xi_low))),
           spans_{{{z_source, reach_up}, {z_source, reach_low}, {z_receiver, reach_up}, {z_receiver, reach_low},
                   {reach_up, reach_low}}} {}
 
-    // Whether the family's floor does not exceed `enough`.
+    // Whether the family's floor does not exceed `enough`. Not summed where even the bound from
+    // above (each span's height times dx/dz at n_least) stays within `enough`.
     bool may_reach(const PathFamily& family) {
-        double sum = span(family.starts_upward ? source_up : source_low);
-        if (sum <= enough_) sum += span(is_upper_end(family, family.ends - 1) ? receiver_up : receiver_low);
+        const Span first = family.starts_upward ? source_up : source_low;
+        const Span last = is_upper_end(family, family.ends - 1) ? receiver_up : receiver_low;
+        auto height = [&](Span i) { return std::abs(spans_[i].first - spans_[i].second); };
+        const double ceiling =
+            slope_ceiling_ * (height(first) + height(last) + (family.ends - 1) * height(traversal_span));
+        if (ceiling <= enough_) return true;
+        double sum = span(first);
+        if (sum <= enough_) sum += span(last);
         if (sum <= enough_ && family.ends >= 2) sum += (family.ends - 1) * span(traversal_span);
         return sum <= enough_;
     }
@@ -940,7 +950,7 @@ private:
         return floors_[i];
     }
     const StratifiedProfile& profile_;
-    double xi_low_, enough_;
+    double xi_low_, enough_, slope_ceiling_;
     std::array<std::pair<double, double>, spans> spans_;  // the depths between which each is taken
     std::array<double, spans> floors_{not_a_number, not_a_number, not_a_number, not_a_number, not_a_number};
 };
@@ -1139,7 +1149,7 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
         std::vector<PathFamily> families;
         if (r >= direct_first && r <= direct_last) families.push_back({z_receiver > z_source, 0});
         if (options.max_bounces > 0) {
-            FamilyDistanceFloor floor(profile, z_source, z_receiver, reach_up, reach_low, range.low,
+            FamilyDistanceFloor floor(profile, z_source, z_receiver, reach_up, reach_low, range.low, range.high,
                                       distance * (1.0 + 1e-9));
             for (int ends = 1; ends <= options.max_bounces; ++ends)
                 for (bool upward : {true, false}) {
