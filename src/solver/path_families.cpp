@@ -959,7 +959,9 @@ private:
 // lie: X of the direct leg grows with ξ at fixed ends (∂X/∂ξ = ∫ n²/Q³ dz > 0) and does not care
 // where the interval ends, so the range is found by bisection over X at the ranges' bounds, each
 // the direct leg alone. A root within 1e-9 of a bound counts for both ranges beside it. Empty
-// when the direct path cannot reach R.
+// when the direct path cannot reach R. A bound's X is integrated only where bounds on it do not
+// decide already: from below distance_floor, from above the height between the ends times dx/dz at
+// the smallest n between them (the first range's top).
 std::pair<std::size_t, std::size_t> direct_ranges(const StratifiedProfile& profile,
                                                   const std::vector<RayParameterRange>& ranges, double z_source,
                                                   double z_receiver, double distance) {
@@ -987,9 +989,23 @@ std::pair<std::size_t, std::size_t> direct_ranges(const StratifiedProfile& profi
         return low;
     };
     const double tolerance = 1e-9 * distance;
+    const double n_least = ranges.front().high, height = std::abs(z_source - z_receiver);
+    // Whether X at bound b lies below `level` (or at it too, with `or_at`).
+    auto lies_below = [&](std::size_t b, double level, bool or_at) {
+        if (std::isnan(known[b])) {
+            const double xi = b < count ? ranges[b].high : ranges[count - 1].low;
+            if (xi < n_least) {
+                const double ceiling = height * xi / std::sqrt((n_least - xi) * (n_least + xi));
+                if (ceiling < level) return true;
+            }
+            const double floor = distance_floor(profile, z_source, z_receiver, xi, level);
+            if (floor > level) return false;
+        }
+        return or_at ? x_at(b) <= level : x_at(b) < level;
+    };
     // Range i lies between bounds i and i + 1: it may hold the root when X(i) >= R and X(i + 1) <= R.
-    const std::size_t below = first_bound([&](std::size_t b) { return x_at(b) < distance - tolerance; });
-    const std::size_t at_or_below = first_bound([&](std::size_t b) { return x_at(b) <= distance + tolerance; });
+    const std::size_t below = first_bound([&](std::size_t b) { return lies_below(b, distance - tolerance, false); });
+    const std::size_t at_or_below = first_bound([&](std::size_t b) { return lies_below(b, distance + tolerance, true); });
     if (below == 0 || at_or_below > count) return {1, 0};
     return {at_or_below == 0 ? 0 : at_or_below - 1, std::min(below - 1, count - 1)};
 }
