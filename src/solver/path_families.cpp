@@ -174,12 +174,9 @@ private:
     std::array<LegIntegrals, 3> pieces_{};  // pieces_[i]: between points_[i] and points_[i + 1]
 };
 
-// One ray level of a range's search (distance and derivative only); empty pieces where the pair's
+// One ray level of a range's search (distance and derivative only); empty where the pair's
 // interval does not hold the receiver.
-struct LegSet {
-    RayLevel level;
-    std::optional<LegPieces> pieces;
-};
+using LegSet = std::optional<LegPieces>;
 
 class RangeLegs {
 public:
@@ -223,10 +220,10 @@ public:
         for (auto it = cache_.rbegin(); it != cache_.rend(); ++it)
             if (it->first == v) return it->second;
         LegSet set;
-        set.level = level(v);
-        const auto interval = profile_.interval_around(set.level, z_source_);
+        const RayLevel at_v = level(v);
+        const auto interval = profile_.interval_around(at_v, z_source_);
         if (interval && interval->contains(z_receiver_))
-            set.pieces.emplace(profile_, set.level, *interval, z_source_, z_receiver_, false, nullptr);
+            set.emplace(profile_, at_v, *interval, z_source_, z_receiver_, false, nullptr);
         cache_.emplace_back(v, std::move(set));
         return cache_.back().second;
     }
@@ -243,8 +240,8 @@ private:
 // X and dX/dξ of a family from the legs of one level of its range; empty when it does not exist
 // there.
 std::optional<std::pair<double, double>> family_distance(LegSet& set, const PathFamily& family) {
-    if (!set.pieces) return std::nullopt;
-    LegPieces& legs = *set.pieces;
+    if (!set) return std::nullopt;
+    LegPieces& legs = *set;
     if (family.ends == 0) {
         const LegIntegrals direct = legs.leg(source_receiver);
         return std::pair{direct.distance_m, direct.distance_derivative};
@@ -503,6 +500,37 @@ private:
         return factor > 0.0 && factor < 1.0 ? std::clamp(factor, 1e-4, 0.9) : 0.25;
     }
 
+    // Steps in ln d (log_step) from the bracket's sample farther from an end of the range (v = 0
+    // with at_zero, else v = 1, not closer than cut_limit_d_ there) toward it until X − R changes
+    // sign, narrowing [low, high]. True, with `root` set, where a step lands on X = R exactly, or
+    // where the steps toward v = 1 reach its limit without a sign change (root NaN: none there);
+    // false where the bracket is left to the refinement.
+    bool close_in(Sample& low, Sample& high, bool at_zero, double& root) const {
+        Sample& far = at_zero ? high : low;
+        const Sample& end = at_zero ? low : high;
+        for (int k = 0; k < 120; ++k) {
+            const double d = at_zero ? log_step(far, true) * far.v
+                                     : std::max(log_step(far, false) * (1.0 - far.v), cut_limit_d_);
+            const double vm = at_zero ? d : 1.0 - d;
+            if (!(vm > low.v && vm < high.v)) {
+                if (at_zero) return false;
+                root = not_a_number;
+                return true;
+            }
+            const Sample m = finite(evaluate(vm));
+            if (m.f == 0.0) {
+                root = vm;
+                return true;
+            }
+            if ((m.f < 0.0) == (end.f < 0.0)) {
+                (at_zero ? low : high) = m;
+                return false;
+            }
+            far = m;
+        }
+        return false;
+    }
+
     // X − R with a divergent X taken as just above R (its slope then unknown).
     Sample finite(Sample s) const {
         if (!std::isfinite(s.f)) {
@@ -518,37 +546,14 @@ private:
         if (low.f == 0.0) return low.v;
         if (high.f == 0.0) return high.v;
         // A root next to v = 0 itself can lie many decades below the first sample (equal depths in
-        // deep ice: n − ξ ~ 1e-19 where X = R, X ∝ v there; a double root, X ~ ln v): close in on it
-        // first by steps in ln v (log_step), which keeps the refinement below within its
-        // iterations. From a limit sample with X finite the refinement works in ln v itself.
-        if (low.v == 0.0 || (low.v == end_v0_ && !std::isfinite(a.f))) {
-            for (int k = 0; k < 120; ++k) {
-                const double vm = log_step(high, true) * high.v;
-                if (!(vm > low.v)) break;
-                const Sample m = finite(evaluate(vm));
-                if (m.f == 0.0) return vm;
-                if ((m.f < 0.0) == (low.f < 0.0)) {
-                    low = m;
-                    break;
-                }
-                high = m;
-            }
-        }
-        // The same toward v = 1 where X is not finite even at its limit sample (the range's low end
-        // has a depth: a double root that ξ(v) resolves to far below a rounding error of ξ).
-        if (b.v == end_v1_ && !std::isfinite(b.f)) {
-            for (int k = 0; k < 120; ++k) {
-                const double vm = 1.0 - std::max(log_step(low, false) * (1.0 - low.v), cut_limit_d_);
-                if (!(vm > low.v && vm < high.v)) return not_a_number;
-                const Sample m = finite(evaluate(vm));
-                if (m.f == 0.0) return vm;
-                if ((m.f < 0.0) == (high.f < 0.0)) {
-                    high = m;
-                    break;
-                }
-                low = m;
-            }
-        }
+        // deep ice: n − ξ ~ 1e-19 where X = R, X ∝ v there; a double root, X ~ ln v), and so next to
+        // v = 1 where X is not finite even at its limit sample (the range's low end has a depth: a
+        // double root that ξ(v) resolves to far below a rounding error of ξ): close in on it first
+        // (close_in), which keeps the refinement below within its iterations. From a limit sample
+        // with X finite the refinement works in ln d itself.
+        double root = 0.0;
+        if ((low.v == 0.0 || (low.v == end_v0_ && !std::isfinite(a.f))) && close_in(low, high, true, root)) return root;
+        if (b.v == end_v1_ && !std::isfinite(b.f) && close_in(low, high, false, root)) return root;
         return refine_root(low, high);
     }
 
