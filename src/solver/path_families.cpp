@@ -487,7 +487,7 @@ private:
     double closest_offset() const { return 4.0 * std::numeric_limits<double>::epsilon() * range_.high; }
     // The first sample of a range whose v = 0 is a cut: n − ξ = span·1e-24 there (cut_limit_v_), and
     // the last where its low end has a depth: ξ − low about the same (1 − v = cut_limit_d_).
-    static constexpr double cut_limit_offset = 1e-24;
+    static constexpr double cut_limit_offset = stratified_cut_limit;
 
     // The factor on the distance d to an end (v, or 1 − v) of a step from sample s toward it:
     // Newton's step in ln d to half of |X − R| past R (X about linear in ln d next to a double
@@ -779,33 +779,9 @@ private:
     double end_v0_, end_v1_;
 };
 
-// The ranges of ξ in [0, min n between the ends): cut where an end of the pair's interval can
-// change kind or jump, i.e. at each new lowest n met going outward from the ends (a local minimum
-// of n or a flat stretch, StratifiedProfile::stationary_z, lower than everything between it and
-// the ends), and at n of the surface and of the bottom when they are such record lows.
+// The ranges of ξ in [0, min n between the ends), between the cuts of ray_parameter_cuts.
 std::vector<RayParameterRange> ray_parameter_ranges(const StratifiedProfile& profile, double z_low, double z_high) {
-    const auto [top, top_z] = profile.minimum_index(z_low, z_high);
-    struct Cut {
-        double ray_parameter, anchor_z;
-    };
-    std::vector<Cut> cuts{{top, top_z}};
-    const auto& minima = profile.stationary_z();  // from the surface down
-    double lowest = top;
-    auto consider = [&](double z) {
-        const double n = profile.index(z);
-        if (n < lowest && n > 0.0) {
-            cuts.push_back({n, z});
-            lowest = n;
-        }
-    };
-    for (auto it = minima.rbegin(); it != minima.rend(); ++it)
-        if (*it > z_high) consider(*it);
-    consider(0.0);
-    lowest = top;
-    for (double z : minima)
-        if (z < z_low) consider(z);
-    consider(profile.bottom_z() ? *profile.bottom_z() : profile.floor_z());
-    std::sort(cuts.begin(), cuts.end(), [](const Cut& a, const Cut& b) { return a.ray_parameter > b.ray_parameter; });
+    const std::vector<RayParameterCut> cuts = ray_parameter_cuts(profile, z_low, z_high);
     std::vector<RayParameterRange> ranges;
     for (std::size_t i = 0; i < cuts.size(); ++i) {
         const bool last = i + 1 == cuts.size();
@@ -1042,6 +1018,30 @@ const char* to_string(PathTurnKind kind) {
         case PathTurnKind::bottom_reflection: return "bottom-reflection";
     }
     return "turning";
+}
+
+std::vector<RayParameterCut> ray_parameter_cuts(const StratifiedProfile& profile, double z_low, double z_high) {
+    const auto [top, top_z] = profile.minimum_index(z_low, z_high);
+    std::vector<RayParameterCut> cuts{{top, top_z}};
+    const auto& minima = profile.stationary_z();  // from the surface down
+    double lowest = top;
+    auto consider = [&](double z) {
+        const double n = profile.index(z);
+        if (n < lowest && n > 0.0) {
+            cuts.push_back({n, z});
+            lowest = n;
+        }
+    };
+    for (auto it = minima.rbegin(); it != minima.rend(); ++it)
+        if (*it > z_high) consider(*it);
+    consider(0.0);
+    lowest = top;
+    for (double z : minima)
+        if (z < z_low) consider(z);
+    consider(profile.bottom_z() ? *profile.bottom_z() : profile.floor_z());
+    std::sort(cuts.begin(), cuts.end(),
+              [](const RayParameterCut& a, const RayParameterCut& b) { return a.ray_parameter > b.ray_parameter; });
+    return cuts;
 }
 
 std::string PathFamily::label() const {

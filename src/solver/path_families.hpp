@@ -87,6 +87,22 @@ struct StratifiedPathOptions {
     std::shared_ptr<const AttenuationProfile> attenuation;
 };
 
+// Where the accessible interval of a pair between depths z_low <= z_high can change the kinds of
+// its ends or jump, as ξ falls: the smallest n between the depths, then each new lowest n met going
+// outward from them (a local minimum of n or a flat stretch, StratifiedProfile::stationary_z, lower
+// than everything between it and the pair; n of the surface and of the bottom or floor when they
+// are such record lows), each with its depth; from the largest ξ down (equal values kept). The
+// pair finder searches each range of ξ between two cuts; the map tables stop where it does.
+struct RayParameterCut {
+    double ray_parameter = 0.0;
+    double anchor_z = 0.0;  // n(anchor_z) = ray_parameter
+};
+std::vector<RayParameterCut> ray_parameter_cuts(const StratifiedProfile& profile, double z_low, double z_high);
+
+// How close to a cut, as a fraction of the range of ξ beside it, roots are sought (n − ξ there,
+// far below a rounding error of ξ: the ranges' ξ are offsets from n at the cut's depth).
+inline constexpr double stratified_cut_limit = 1e-24;
+
 // The largest relative miss |X − R| / (1 + R) of a path found: beyond it a sign change of X − R is
 // a jump (ξ not resolved by a double), not a root.
 inline constexpr double stratified_root_residual = 1e-5;

@@ -409,7 +409,7 @@ double StratifiedArrivalTable::closest_offset(const Row& row, double anchor_z, d
             if (side < 0.0 && range.low_anchored && range.low_anchor_z == anchor_z) span = range_span;
         }
     if (!(span > 0.0)) span = n;
-    return 1e-24 * span;
+    return stratified_cut_limit * span;
 }
 
 StratifiedArrivalTable::Point StratifiedArrivalTable::solve_between(const Row& row, int family, double anchor_z,
@@ -609,28 +609,9 @@ void StratifiedArrivalTable::build_row(std::size_t index) {
     row.limit = limit;
     row.limit_z = limit_z;
     row.limit_inside = limit_z > z_low && limit_z < z_high;
-    {
-        // As ray_parameter_ranges in path_families.cpp: the limit, then every n lower than all
-        // met so far going up from the upper end (stationary points of n, then the surface) and
-        // going down from the lower end (stationary points, then the bottom or the floor).
-        auto& cuts = row.pair_cuts;
-        cuts.push_back(limit);
-        const auto& stationary = profile_->stationary_z();  // from the surface down
-        double lowest = limit;
-        auto consider = [&](double z) {
-            const double n = profile_->index(z);
-            if (n < lowest && n > 0.0) cuts.push_back(n), lowest = n;
-        };
-        for (auto it = stationary.rbegin(); it != stationary.rend(); ++it)
-            if (*it > z_high) consider(*it);
-        consider(0.0);
-        lowest = limit;
-        for (const double z : stationary)
-            if (z < z_low) consider(z);
-        consider(profile_->bottom_z() ? *profile_->bottom_z() : profile_->floor_z());
-        std::sort(cuts.begin(), cuts.end(), std::greater<>());
-        cuts.erase(std::unique(cuts.begin(), cuts.end()), cuts.end());
-    }
+    // The pair finder's cuts for this pair (ray_parameter_cuts), once each.
+    for (const RayParameterCut& cut : ray_parameter_cuts(*profile_, z_low, z_high))
+        if (row.pair_cuts.empty() || cut.ray_parameter != row.pair_cuts.back()) row.pair_cuts.push_back(cut.ray_parameter);
     for (std::size_t r = 0; r < ranges_.size(); ++r)
         if (limit <= ranges_[r].high && limit > ranges_[r].low) {
             row.limit_range = r;

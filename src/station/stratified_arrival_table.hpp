@@ -147,9 +147,8 @@ private:
         std::size_t limit_range = 0;
         // The limit is a local minimum of n strictly between the ends: X diverges toward it.
         bool limit_inside = false;
-        // The ξ at which the pair finder cuts its ranges for this pair (the limit, then each new
-        // lowest n met going outward from the ends), from the largest: where the logarithmic tails
-        // stop (u_floor).
+        // The ξ at which the pair finder cuts its ranges for this pair (ray_parameter_cuts, each
+        // value once), from the largest: where the logarithmic tails stop (u_floor).
         std::vector<double> pair_cuts;
         std::size_t skipped = 0;            // samples of the limit range at or above the limit
         bool has_end = false;
