@@ -47,8 +47,10 @@ StratifiedPathKind kind_of(const PathFamily& family, const AccessibleInterval& i
     return interval.upper_kind == UpperEndKind::turning ? StratifiedPathKind::refracted : StratifiedPathKind::reflected;
 }
 
-void require(bool ok, const std::string& message, const char* key) {
-    if (!ok) throw DataInputError(message, {"", 0, key});
+// The message is formatted only where the check fails (a pair costs a few microseconds).
+template <class Message>
+void require(bool ok, const char* key, const Message& message) {
+    if (!ok) throw DataInputError(message(), {"", 0, key});
 }
 
 // One range of ξ in which the interval's ends keep their kinds, taken as ξ(v), v ∈ [0, 1] (see
@@ -178,11 +180,27 @@ private:
 // interval does not hold the receiver.
 using LegSet = std::optional<LegPieces>;
 
+// A sample interval of FamilySearch::scan, between grid points i and j.
+struct ScanInterval {
+    int i, j;
+    Sample a, b;
+};
+
+// The working lists of a pair's searches, kept from one range and family to the next so that
+// they allocate only while they grow.
+struct SearchBuffers {
+    std::vector<std::pair<double, LegSet>> levels;  // RangeLegs: the levels of the range
+    std::vector<Sample> samples;
+    std::vector<ScanInterval> pending;
+    std::vector<double> found;
+};
+
 class RangeLegs {
 public:
-    RangeLegs(const StratifiedProfile& profile, const RayParameterRange& range, double z_source, double z_receiver)
-        : profile_(profile), range_(range), z_source_(z_source), z_receiver_(z_receiver) {
-        cache_.reserve(32);  // a range's levels, most of the time
+    RangeLegs(const StratifiedProfile& profile, const RayParameterRange& range, double z_source, double z_receiver,
+              std::vector<std::pair<double, LegSet>>& cache)
+        : profile_(profile), range_(range), z_source_(z_source), z_receiver_(z_receiver), cache_(cache) {
+        cache_.clear();
     }
 
     // ξ(v) = high − span·v², as an offset from n at the depth of `high`. Where `low` is n at a
@@ -234,7 +252,7 @@ private:
     double z_source_, z_receiver_;
     // The levels met so far (a few dozen per range). A reference returned by at() is used before
     // the next call, which may move the elements.
-    std::vector<std::pair<double, LegSet>> cache_;
+    std::vector<std::pair<double, LegSet>>& cache_;
 };
 
 // X and dX/dξ of a family from the legs of one level of its range; empty when it does not exist
@@ -262,8 +280,8 @@ std::optional<std::pair<double, double>> family_distance(LegSet& set, const Path
 class FamilySearch {
 public:
     FamilySearch(RangeLegs& legs, const RayParameterRange& range, const PathFamily& family, double distance,
-                 int samples)
-        : legs_(legs), range_(range), family_(family), distance_(distance), samples_(samples),
+                 int samples, SearchBuffers& buffers)
+        : legs_(legs), buffers_(buffers), range_(range), family_(family), distance_(distance), samples_(samples),
           cut_limit_v_(legs.distance_for_offset(cut_limit_offset * (range.high - range.low), true)),
           cut_limit_d_(legs.distance_for_offset(cut_limit_offset * (range.high - range.low), false)),
           end_v0_(range.first ? not_a_number : cut_limit_v_),
@@ -279,15 +297,17 @@ public:
         return s;
     }
 
-    // Every v in [0, 1] with X(v) = R.
-    std::vector<double> roots() {
-        std::vector<Sample> samples = scan();
+    // Every v in [0, 1] with X(v) = R (valid until the next search on the same buffers).
+    const std::vector<double>& roots() {
+        std::vector<Sample>& samples = buffers_.samples;
+        scan(samples);
         // The end at v = 1 first: approach_end reads the samples next to an end from the front or
         // the back of the list, and each call appends its own at the back.
         approach_end(samples, false);
         approach_end(samples, true);
         std::sort(samples.begin(), samples.end(), [](const Sample& a, const Sample& b) { return a.v < b.v; });
-        std::vector<double> found;
+        std::vector<double>& found = buffers_.found;
+        found.clear();
         for (std::size_t i = 0; i < samples.size(); ++i) {
             const Sample& a = samples[i];
             if (a.f == 0.0) found.push_back(a.v);
@@ -333,7 +353,7 @@ private:
     // a variable in which it is smooth there (end_monotone): in the logarithm of the distance to
     // a double root it then holds one root if X − R changes sign across it, else none (its finest
     // spacing in v, 1/samples, would resolve nothing of the decades below it anyway).
-    std::vector<Sample> scan() const {
+    void scan(std::vector<Sample>& samples) const {
         const int finest = samples_;
         auto sample_at = [&](int i) {
             if (i == 0 && !range_.first) return evaluate(end_v0_);
@@ -349,25 +369,23 @@ private:
             if (!(ra >= 1.0 / 3.0 && ra <= 3.0 && rb >= 1.0 / 3.0 && rb <= 3.0)) return false;
             return beyond_reach(a, b);
         };
-        struct Interval {
-            int i, j;
-            Sample a, b;
-        };
+        // The coarse grid: i = 0, finest/2 (rounded down) and its multiples, and finest (at most 4
+        // points: finest >= 4).
         const int half = std::max(1, finest / 2);
-        std::vector<int> starts;
-        for (int i = 0; i < finest; i += half) starts.push_back(i);
-        starts.push_back(finest);
-        std::vector<Sample> coarse;
-        for (int i : starts) coarse.push_back(sample_at(i));
-        std::vector<Sample> samples;
-        samples.reserve(2 * finest + 16);  // room for what approach_end adds, mostly
+        std::array<int, 5> starts{};
+        std::array<Sample, 5> coarse{};
+        std::size_t count = 0;
+        for (int i = 0; i < finest; i += half) starts[count++] = i;
+        starts[count++] = finest;
+        for (std::size_t k = 0; k < count; ++k) coarse[k] = sample_at(starts[k]);
+        samples.clear();
         samples.push_back(coarse.front());
-        std::vector<Interval> pending;
-        pending.reserve(16);
-        for (std::size_t k = 0; k + 1 < starts.size(); ++k) {
+        std::vector<ScanInterval>& pending = buffers_.pending;
+        pending.clear();
+        for (std::size_t k = 0; k + 1 < count; ++k) {
             pending.push_back({starts[k], starts[k + 1], coarse[k], coarse[k + 1]});
             while (!pending.empty()) {
-                const Interval top = pending.back();
+                const ScanInterval top = pending.back();
                 pending.pop_back();
                 if (top.j - top.i <= 1 || far_from_r(top.a, top.b)) {
                     if (top.j - top.i <= 1) split_below_finest(top.a, top.b, 0, samples);
@@ -380,7 +398,6 @@ private:
                 pending.push_back({top.i, middle, top.a, m});
             }
         }
-        return samples;
     }
 
     // For an interval [a, b] with one end at a limit sample of the range (end_v0_ or end_v1_) and
@@ -770,6 +787,7 @@ private:
     }
 
     RangeLegs& legs_;
+    SearchBuffers& buffers_;
     RayParameterRange range_;
     PathFamily family_;
     double distance_;
@@ -1084,19 +1102,20 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
                                                   double horizontal_distance_m, const StratifiedPathOptions& options) {
     const double floor = profile.floor_z();
     for (auto [z, key] : {std::pair{z_source, "source z"}, std::pair{z_receiver, "receiver z"}})
-        require(std::isfinite(z) && z <= 0.0 && z >= floor,
-                fmt::format("the {} = {} m must be in the ice, between {} m and the surface", key,
-                            number_for_message(z), number_for_message(floor)),
-                key);
-    require(std::isfinite(horizontal_distance_m) && horizontal_distance_m >= 0.0,
-            fmt::format("the horizontal distance must be a finite number of metres >= 0 (got {})",
-                        number_for_message(horizontal_distance_m)),
-            "horizontal distance");
-    require(z_source != z_receiver || horizontal_distance_m > 0.0, "the source and the receiver coincide", "receiver z");
-    require(options.max_bounces >= 0 && options.max_bounces <= 64,
-            fmt::format("max_bounces must be between 0 and 64 (got {})", options.max_bounces), "max_bounces");
-    require(options.scan_samples >= 4 && options.scan_samples <= 10000,
-            fmt::format("scan_samples must be between 4 and 10000 (got {})", options.scan_samples), "scan_samples");
+        require(std::isfinite(z) && z <= 0.0 && z >= floor, key, [&] {
+            return fmt::format("the {} = {} m must be in the ice, between {} m and the surface", key,
+                               number_for_message(z), number_for_message(floor));
+        });
+    require(std::isfinite(horizontal_distance_m) && horizontal_distance_m >= 0.0, "horizontal distance", [&] {
+        return fmt::format("the horizontal distance must be a finite number of metres >= 0 (got {})",
+                           number_for_message(horizontal_distance_m));
+    });
+    require(z_source != z_receiver || horizontal_distance_m > 0.0, "receiver z",
+            [] { return std::string("the source and the receiver coincide"); });
+    require(options.max_bounces >= 0 && options.max_bounces <= 64, "max_bounces",
+            [&] { return fmt::format("max_bounces must be between 0 and 64 (got {})", options.max_bounces); });
+    require(options.scan_samples >= 4 && options.scan_samples <= 10000, "scan_samples",
+            [&] { return fmt::format("scan_samples must be between 4 and 10000 (got {})", options.scan_samples); });
 
     const double distance = horizontal_distance_m;
     std::vector<StratifiedPath> paths;
@@ -1152,6 +1171,8 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
     // How far every interval of the ranges met so far reaches: for ξ below the n of a cut beyond
     // the pair's ends, the interval holds the cut's depth (everything between has a larger n).
     double reach_up = z_high, reach_low = z_low;
+    SearchBuffers buffers;
+    std::vector<PathFamily> families;
     for (std::size_t r = 0; r < ranges.size(); ++r) {
         const RayParameterRange& range = ranges[r];
         reach_up = std::max(reach_up, range.anchor_z);
@@ -1167,7 +1188,7 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
             }
             return *middle_interval;
         };
-        std::vector<PathFamily> families;
+        families.clear();
         if (r >= direct_first && r <= direct_last) families.push_back({z_receiver > z_source, 0});
         if (options.max_bounces > 0) {
             FamilyDistanceFloor floor(profile, z_source, z_receiver, reach_up, reach_low, range.low, range.high,
@@ -1185,10 +1206,10 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
         if (families.empty()) continue;
         const auto& interval = interval_of_range();
         if (!interval || !interval->contains(z_receiver)) continue;
-        RangeLegs range_legs(profile, range, z_source, z_receiver);
+        RangeLegs range_legs(profile, range, z_source, z_receiver, buffers.levels);
         for (const PathFamily& family : families) {
             if (family_is_degenerate(family, *interval, z_source, z_receiver, options.bottom_paths)) continue;
-            FamilySearch search(range_legs, range, family, distance, options.scan_samples);
+            FamilySearch search(range_legs, range, family, distance, options.scan_samples, buffers);
             for (double v : search.roots()) {
                 const RayLevel level = range_legs.level(v);
                 const auto legs =

@@ -688,42 +688,40 @@ public:
         const double u0 = std::sqrt(e), u1 = std::sqrt(e + length);
         // One panel from a turning point; from a root beyond a fixed end, panels doubling in u,
         // because ∂x/∂ξ there goes like 1/u² (the other integrands are smooth in u either way).
-        std::vector<std::pair<double, double>> panels;
-        if (u0 == 0.0 || u1 <= 2.0 * u0) {
-            panels.emplace_back(u0, u1);
-        } else {
-            for (double a = u0; a < u1; a *= 2.0) panels.emplace_back(a, std::min(u1, 2.0 * a));
-        }
-        const GaussRule& r = rule(panels.size() == 1 ? 16 : 10);
+        // Panel k is [u0·2^k, min(u1, u0·2^(k+1))] (the whole [u0, u1] where it is one).
+        const bool one_panel = u0 == 0.0 || u1 <= 2.0 * u0;
+        const GaussRule& r = rule(one_panel ? 16 : 10);
         double by_parts_q = 0.0, by_parts_inverse = 0.0;  // ∫ Q h′ |dz| and ∫ h′/Q |dz|, h = 1/(n n′)
-        for (std::size_t node = 0; node < r.nodes.size() * panels.size(); ++node) {
-            const std::size_t i = node % r.nodes.size();
-            const auto [pa, pb] = panels[node / r.nodes.size()];
+        for (double pa = u0;; pa *= 2.0) {
+            const double pb = one_panel ? u1 : std::min(u1, 2.0 * pa);
             const double centre = 0.5 * (pa + pb), half = 0.5 * (pb - pa);
-            const double u = centre + half * r.nodes[i], w = half * r.weights[i];
-            const double rise = (u - u0) * (u + u0);  // u² − e: distance from the end, exactly
-            const double z = z_end + inward * rise;
-            double n, dn, d2n;
-            profile_.evaluate(cell, z, n, dn, d2n);
-            const double difference = profile_.divided_difference(cell, z, z_end) * inward;  // d(n)/d(rise)
-            const double gap_over_u2 = (g0 + difference * rise) / (u * u);
-            const double k = std::sqrt((kind == LegEnd::turning ? difference : gap_over_u2) * (n + xi_));  // Q/u
-            sums_.x += w * 2.0 * xi_ / k;
-            if (with_time_) {
-                sums_.optical += w * 2.0 * n * n / k;
-                sums_.length += w * 2.0 * n / k;
-                if (attenuation_) sums_.attenuation += w * 2.0 * n / (k * attenuation_->length_m(z));
-            }
-            if (with_derivative_) {
-                if (kind == LegEnd::turning) {
-                    const double nn = n * dn;
-                    const double h_prime = -(dn * dn + n * d2n) / (nn * nn);
-                    by_parts_q += w * 2.0 * u * u * k * h_prime;
-                    by_parts_inverse += w * 2.0 * h_prime / k;
-                } else {
-                    sums_.derivative += w * 2.0 * n * n / (u * u * k * k * k);
+            for (std::size_t i = 0; i < r.nodes.size(); ++i) {
+                const double u = centre + half * r.nodes[i], w = half * r.weights[i];
+                const double rise = (u - u0) * (u + u0);  // u² − e: distance from the end, exactly
+                const double z = z_end + inward * rise;
+                double n, dn, d2n;
+                profile_.evaluate(cell, z, n, dn, d2n);
+                const double difference = profile_.divided_difference(cell, z, z_end) * inward;  // d(n)/d(rise)
+                const double gap_over_u2 = (g0 + difference * rise) / (u * u);
+                const double k = std::sqrt((kind == LegEnd::turning ? difference : gap_over_u2) * (n + xi_));  // Q/u
+                sums_.x += w * 2.0 * xi_ / k;
+                if (with_time_) {
+                    sums_.optical += w * 2.0 * n * n / k;
+                    sums_.length += w * 2.0 * n / k;
+                    if (attenuation_) sums_.attenuation += w * 2.0 * n / (k * attenuation_->length_m(z));
+                }
+                if (with_derivative_) {
+                    if (kind == LegEnd::turning) {
+                        const double nn = n * dn;
+                        const double h_prime = -(dn * dn + n * d2n) / (nn * nn);
+                        by_parts_q += w * 2.0 * u * u * k * h_prime;
+                        by_parts_inverse += w * 2.0 * h_prime / k;
+                    } else {
+                        sums_.derivative += w * 2.0 * n * n / (u * u * k * k * k);
+                    }
                 }
             }
+            if (one_panel || !(2.0 * pa < u1)) break;
         }
         if (with_derivative_ && kind == LegEnd::turning) {
             // x over the piece by parts (ξ/Q = ξ h dQ/dz): with z_m the piece's far end and z_t the
