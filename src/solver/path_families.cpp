@@ -95,11 +95,13 @@ bool spans_decades(double a, double b) {
     return d_a > 0.0 && d_b > 0.0 && std::max(d_a, d_b) >= 4.0 * std::min(d_a, d_b);
 }
 
-// |X − R| at both samples more than twice what the larger of their slopes covers between them:
-// X cannot reach R in between unless its slope grows beyond both.
+// For two samples with X − R of one sign: X cannot reach R in between unless its slope somewhere
+// exceeds twice the larger of theirs, L. (With |dX/dv| <= 2L, X − R keeps its sign where
+// |f_a| + |f_b| > 2L·(b − a): the two cones from the ends do not reach R.) Also |X − R| at each
+// end more than a quarter of L·(b − a), so that one end near R is never passed over.
 bool beyond_reach(const Sample& a, const Sample& b) {
-    const double reach = 2.0 * (b.v - a.v) * std::max(std::abs(a.slope), std::abs(b.slope));
-    return std::min(std::abs(a.f), std::abs(b.f)) > reach;
+    const double reach = (b.v - a.v) * std::max(std::abs(a.slope), std::abs(b.slope));
+    return 0.5 * (std::abs(a.f) + std::abs(b.f)) > reach && std::min(std::abs(a.f), std::abs(b.f)) > 0.25 * reach;
 }
 
 // An extremum of X between two samples that turns away from R (a minimum where X − R < 0 at both,
