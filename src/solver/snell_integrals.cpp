@@ -133,6 +133,7 @@ private:
 namespace {
 
 constexpr double infinity = std::numeric_limits<double>::infinity();
+constexpr double not_a_number = std::numeric_limits<double>::quiet_NaN();
 
 // Gauss–Legendre nodes and weights on [−1, 1] (Newton on the Legendre recurrence).
 struct GaussRule {
@@ -291,7 +292,14 @@ public:
         double d2n = 0.0;
         profile_.evaluate(cell, root.z, root.n, root.slope, d2n);
         root.gap = profile_.gap_in_cell(level_, cell, root.z, root.n);
-        if (!(root.gap > 0.0) || !(d2n > 0.0)) return false;
+        // ξ at or above n of the minimum, to the last bit: a ray that meets it there runs along it
+        // for ever (x diverges like ∫ dδ/|δ|), and one with ξ above it cannot pass it at all. Taken as
+        // that limit at once, where panels shrinking toward z_m would stop at a large finite x.
+        if (!(root.gap > 0.0)) {
+            fail();
+            return true;
+        }
+        if (!(d2n > 0.0)) return false;
         root.half_curvature = 0.5 * d2n;
         const double third = profile_.third_derivative(cell, root.z);
         root.sixth_third = third / 6.0;
@@ -399,14 +407,19 @@ public:
     // their singularities in τ lie at ±iπ (that second zero), ±iπ/2 (n′ = 0, in the derivative's
     // h = 1/(n n′)) and at the cubic's third zero, beyond the part: the panels of
     // over_double_root. The ξ-derivative with the end moving is taken by parts as in end_piece.
-    // Cubic cells only, when the leg goes on beyond the cell and no turning-cell table serves it;
-    // not in the direct quadrature (which keeps the end piece). False when this does not apply.
-    bool turning_next_to_double_root(std::size_t cell, double z_t, int inward, double other_end_z) {
-        if (table_levels_ == 0 || failed_ || !profile_.is_cubic(cell)) return false;
-        const double boundary = inward > 0 ? profile_.cell_top(cell) : profile_.cell_bottom(cell);
-        if (!(inward > 0 ? other_end_z > boundary : other_end_z < boundary)) return false;
+    // Cubic cells only, when the leg goes on beyond the cell and no turning-cell table serves it, or
+    // ends at a fixed depth inside the cell (the part then reaches that end); not in the direct
+    // quadrature (which keeps the end piece). The depth the part reaches; NaN when this does not
+    // apply.
+    double turning_next_to_double_root(std::size_t cell, double z_t, int inward, LegEndpoint other_end) {
+        if (table_levels_ == 0 || failed_ || !profile_.is_cubic(cell)) return not_a_number;
+        double boundary = inward > 0 ? profile_.cell_top(cell) : profile_.cell_bottom(cell);
+        if (!(inward > 0 ? other_end.z > boundary : other_end.z < boundary)) {
+            if (other_end.kind != LegEnd::fixed) return not_a_number;
+            boundary = other_end.z;
+        }
         const double reach = (boundary - z_t) * inward;
-        if (!(reach > 0.0)) return false;
+        if (!(reach > 0.0)) return not_a_number;
         TurningRoot root;
         root.inward = inward;
         root.z = z_t;
@@ -414,7 +427,7 @@ public:
         profile_.evaluate(cell, z_t, root.n, n1, root.curvature);
         root.slope_in = n1 * inward;
         root.third = profile_.third_derivative(cell, z_t);
-        return turning_part(cell, root, boundary, reach);
+        return turning_part(cell, root, boundary, reach) ? boundary : not_a_number;
     }
 
     // The same for a turning cell's table (SnellCellTables::build_turn) where the cell's low end
@@ -866,17 +879,26 @@ LegIntegrals integrate_leg(const StratifiedProfile& profile, const RayLevel& lev
     double high = piece_high.used ? b.z - piece_high.length : b.z;
     // A turning end's cell from its table when the leg goes on beyond that cell (the other end's
     // piece then lies in its own cell, outside this one).
+    // A part from a turning end next to a double root may cover the whole leg (reached: the other
+    // end), where that end is fixed in the same cell and needs no end piece of its own.
+    double reached = not_a_number;
+    const LegEndpoint part_end_a = piece_high.used ? LegEndpoint{b.z, LegEnd::turning} : b;
+    const LegEndpoint part_end_b = piece_low.used ? LegEndpoint{a.z, LegEnd::turning} : a;
     if (a.kind == LegEnd::turning && quadrature.turning_cell(cell_low, +1, b.z, cell_high)) {
         low = profile.cell_top(cell_low);
-    } else if (a.kind == LegEnd::turning && quadrature.turning_next_to_double_root(cell_low, a.z, +1, b.z)) {
-        low = profile.cell_top(cell_low);
+    } else if (a.kind == LegEnd::turning &&
+               !std::isnan(reached = quadrature.turning_next_to_double_root(cell_low, a.z, +1, part_end_a))) {
+        low = reached;
     } else if (piece_low.used) {
         quadrature.end_piece(a.z, a.kind, +1, cell_low, g_low, slope_low, piece_low.length);
     }
-    if (b.kind == LegEnd::turning && quadrature.turning_cell(cell_high, -1, a.z, cell_low)) {
+    if (low >= b.z) {
+        // Done: the part from a reached b.
+    } else if (b.kind == LegEnd::turning && quadrature.turning_cell(cell_high, -1, a.z, cell_low)) {
         high = profile.cell_bottom(cell_high);
-    } else if (b.kind == LegEnd::turning && quadrature.turning_next_to_double_root(cell_high, b.z, -1, a.z)) {
-        high = profile.cell_bottom(cell_high);
+    } else if (b.kind == LegEnd::turning &&
+               !std::isnan(reached = quadrature.turning_next_to_double_root(cell_high, b.z, -1, part_end_b))) {
+        high = reached;
     } else if (piece_high.used) {
         quadrature.end_piece(b.z, b.kind, -1, cell_high, g_high, slope_high, piece_high.length);
     }
