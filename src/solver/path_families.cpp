@@ -201,7 +201,9 @@ class RangeLegs {
 public:
     RangeLegs(const StratifiedProfile& profile, const RayParameterRange& range, double z_source, double z_receiver,
               std::vector<std::pair<double, LegSet>>& cache)
-        : profile_(profile), range_(range), z_source_(z_source), z_receiver_(z_receiver), cache_(cache) {
+        : profile_(profile), range_(range), z_source_(z_source), z_receiver_(z_receiver),
+          at_high_(RayLevel::anchored_at(profile, range.anchor_z, 0.0)),
+          at_low_(range.low_anchored ? RayLevel::anchored_at(profile, range.low_anchor_z, 0.0) : at_high_), cache_(cache) {
         cache_.clear();
     }
 
@@ -212,9 +214,9 @@ public:
     // logarithm of ξ's distance to it).
     RayLevel level(double v) const {
         const double span = range_.high - range_.low;
-        if (!range_.low_anchored || v <= 0.5) return RayLevel::anchored_at(profile_, range_.anchor_z, span * v * v);
+        if (!range_.low_anchored || v <= 0.5) return at_high_.with_offset(span * v * v);
         const double d = 1.0 - v;
-        return RayLevel::anchored_at(profile_, range_.low_anchor_z, -span * d * d * (7.0 - 8.0 * d));
+        return at_low_.with_offset(-span * d * d * (7.0 - 8.0 * d));
     }
     double dxi_dv(double v) const {
         const double span = range_.high - range_.low;
@@ -252,6 +254,7 @@ private:
     const StratifiedProfile& profile_;
     RayParameterRange range_;
     double z_source_, z_receiver_;
+    RayLevel at_high_, at_low_;  // ξ = high and ξ = low, anchored at their depths (at_low_ where low_anchored)
     // The levels met so far (a few dozen per range). A reference returned by at() is used before
     // the next call, which may move the elements.
     std::vector<std::pair<double, LegSet>>& cache_;

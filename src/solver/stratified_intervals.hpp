@@ -41,6 +41,13 @@ struct RayLevel {
 
     static RayLevel plain(double ray_parameter);
     static RayLevel anchored_at(const StratifiedProfile& profile, double anchor_z, double offset);
+    // The same anchor with another offset (no lookup of the anchor's cell and n again).
+    RayLevel with_offset(double new_offset) const {
+        RayLevel level = *this;
+        level.offset = new_offset;
+        level.ray_parameter = anchor_index - new_offset;
+        return level;
+    }
 };
 
 enum class UpperEndKind : unsigned char { surface, turning };
