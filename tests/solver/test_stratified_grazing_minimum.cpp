@@ -24,6 +24,7 @@
 #include "core/constants.hpp"
 #include "model/model_file.hpp"
 #include "solver/path_families.hpp"
+#include "solver/snell_integrals.hpp"
 #include "support/run_cli.hpp"
 #include "support/snell_integrals.hpp"
 
@@ -99,6 +100,33 @@ Grazing grazing_below(const IndexProfile& table, double z_min, double rho, doubl
     return out;
 }
 
+// Family U with both ends inside the minimum's piece below it (the whole path within one cubic),
+// turning ρ above n_min: each leg from the turning point to its end in u, as above.
+Grazing grazing_in_piece(const IndexProfile& table, double z_min, double rho, double z_source, double z_receiver) {
+    const CubicAbout c = cubic_about(table, z_min, -1.0);
+    auto p_prime = [&](double d) { return c.slope + d * (c.curvature + 0.5 * d * c.third); };
+    double d_t = -std::sqrt(2.0 * rho / c.curvature);
+    for (int i = 0; i < 100; ++i) d_t -= (c.rise(d_t) - rho) / p_prime(d_t);
+    const double xi = c.n_m + rho;
+    boost::math::quadrature::tanh_sinh<double> quad;
+    Grazing out;
+    out.turning_z = z_min + d_t;
+    for (double z_end : {z_source, z_receiver}) {
+        auto factor = [&](double u) {
+            const double d = d_t - u * u;
+            const double q =
+                -(c.slope + 0.5 * c.curvature * (d + d_t) + c.third * (d * d + d * d_t + d_t * d_t) / 6.0);
+            const double n = c.n_m + c.rise(d);
+            return std::make_pair(n, std::sqrt(q * (n + xi)));
+        };
+        const double u_end = std::sqrt(d_t - (z_end - z_min));
+        out.distance_m += quad.integrate([&](double u) { auto [n, s] = factor(u); return 2.0 * xi / s; }, 0.0, u_end);
+        out.time_s +=
+            quad.integrate([&](double u) { auto [n, s] = factor(u); return 2.0 * n * n / s; }, 0.0, u_end) / speed_of_light;
+    }
+    return out;
+}
+
 // The direct leg from z_a to z_b across the minimum at z_min (the lowest n between them),
 // ξ = n_min − ρ: X and c·T.
 std::pair<double, double> direct_across(const IndexProfile& table, double z_min, double rho, double z_a, double z_b) {
@@ -168,5 +196,50 @@ TEST_CASE("direct paths across a local minimum of a measured log between the end
             if (path.family == "direct") match = &path;
         REQUIRE(match != nullptr);
         CHECK(std::abs(match->time_s - optical / speed_of_light) < 0.01e-9);
+    }
+}
+
+TEST_CASE("paths turning just short of a local minimum with both ends in the minimum's own cell (ξ − n_min from "
+          "1e-6 down to 1e-24) are found with the time of tanh_sinh quadrature of the Snell integrals (Boost.Math) "
+          "within 0.01 ns",
+          "[solver][stratified]") {
+    // The same minimum 6 m deep; both ends in its piece below, so that each leg runs from the
+    // turning point to a fixed depth inside one cell (snell_integrals.cpp, turning_next_to_double_root
+    // up to that depth). Down to 1e-24: the finder's samples next to a minimum reach n − ξ of 1e-24
+    // of their range of ξ.
+    const FirnModel model = load_model_file(test::source_path("models/halvard-log.toml"));
+    const StratifiedProfile profile(model.index);
+    const double z_min = minimum_at_6_m(profile);
+    REQUIRE(z_min != 0.0);
+    const double z_source = z_min - 0.3, z_receiver = z_min - 0.8;
+    REQUIRE(test::piece_holding(*model.index, z_source) == test::piece_holding(*model.index, z_receiver));
+    REQUIRE(test::piece_holding(*model.index, z_source) == test::piece_holding(*model.index, z_min - 1e-9));
+    for (const double rho : {1e-6, 1e-9, 1e-12, 1e-15, 1e-18, 1e-21, 1e-24}) {
+        const Grazing ref = grazing_in_piece(*model.index, z_min, rho, z_source, z_receiver);
+        INFO(std::setprecision(12) << "ξ − n_min " << rho << ", R " << ref.distance_m << " m, turning at "
+                                   << ref.turning_z << " m");
+        const auto paths = find_stratified_paths(profile, z_source, z_receiver, ref.distance_m);
+        const StratifiedPath* match = nullptr;
+        for (const auto& path : paths)
+            if (path.family == "U" && path.turns.size() == 1 && std::abs(path.turns[0].z_m - ref.turning_z) < 1e-6)
+                match = &path;
+        REQUIRE(match != nullptr);
+        CHECK(std::abs(match->time_s - ref.time_s) < 0.01e-9);
+    }
+}
+
+TEST_CASE("a leg across a local minimum of n with ξ equal to n there is infinitely long (the ray runs along the "
+          "minimum for ever: x diverges like the integral of 1/|z − z_min|, common practice)",
+          "[solver][stratified][snell tables]") {
+    const FirnModel model = load_model_file(test::source_path("models/halvard-log.toml"));
+    const StratifiedProfile profile(model.index);
+    const double z_min = minimum_at_6_m(profile);
+    REQUIRE(z_min != 0.0);
+    const RayLevel level = RayLevel::anchored_at(profile, z_min, 0.0);
+    for (const auto& [a, b] : {std::pair{z_min - 0.7, z_min + 0.4}, std::pair{z_min - 0.7, z_min}, std::pair{z_min, z_min + 0.4}}) {
+        INFO("from " << a << " to " << b << " m");
+        const LegIntegrals leg = leg_integrals(profile, level, {a}, {b});
+        CHECK(std::isinf(leg.distance_m));
+        CHECK(std::isinf(leg.optical_path_m));
     }
 }
