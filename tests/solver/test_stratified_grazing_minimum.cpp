@@ -17,6 +17,7 @@
 
 #include <cmath>
 #include <iomanip>
+#include <optional>
 #include <vector>
 
 #include <boost/math/quadrature/tanh_sinh.hpp>
@@ -60,58 +61,20 @@ double minimum_at_6_m(const StratifiedProfile& profile) {
     return z_min;
 }
 
-// Family U from z_source and z_receiver (both below z_min) turning ρ above n_min just below z_min.
-Grazing grazing_below(const IndexProfile& table, double z_min, double rho, double z_source, double z_receiver) {
-    const CubicAbout c = cubic_about(table, z_min, -1.0);
-    const double n_m = c.n_m, slope = c.slope, curvature = c.curvature, third = c.third;
-    auto p_prime = [&](double d) { return slope + d * (curvature + 0.5 * d * third); };
-    double d_t = -std::sqrt(2.0 * rho / curvature);
-    for (int i = 0; i < 100; ++i) d_t -= (c.rise(d_t) - rho) / p_prime(d_t);
-    const double xi = n_m + rho;
-    double piece_bottom = -1e9;
-    for (double join : table.joins_z())
-        if (join < z_min - 1e-9) {
-            piece_bottom = join;
-            break;
-        }
-    const double d_b = piece_bottom - z_min;
-    // The part in the minimum's piece, in u (δ = δ_t − u²), one leg's worth.
-    boost::math::quadrature::tanh_sinh<double> quad;
-    auto factor = [&](double u) {
-        const double d = d_t - u * u;
-        const double q = -(slope + 0.5 * curvature * (d + d_t) + third * (d * d + d * d_t + d_t * d_t) / 6.0);
-        const double n = n_m + c.rise(d);
-        return std::make_pair(n, std::sqrt(q * (n + xi)));
-    };
-    const double u_end = std::sqrt(d_t - d_b);
-    const double x_piece = quad.integrate([&](double u) { auto [n, s] = factor(u); return 2.0 * xi / s; }, 0.0, u_end);
-    const double ct_piece =
-        quad.integrate([&](double u) { auto [n, s] = factor(u); return 2.0 * n * n / s; }, 0.0, u_end);
-    auto gap = [&](double z, double) { return (table.index(z) - n_m) - rho; };
-    const std::vector<double> knots(table.joins_z().begin(), table.joins_z().end());
-    const std::vector<double> breaks(knots.rbegin(), knots.rend());
-    Grazing out;
-    out.turning_z = z_min + d_t;
-    for (double z_end : {z_source, z_receiver}) {
-        const auto below = test::snell_integrals(table, xi, z_end, piece_bottom, gap, breaks, false);
-        out.distance_m += x_piece + below.distance_m;
-        out.time_s += (ct_piece + below.optical_path_m) / speed_of_light;
-    }
-    return out;
-}
+// A ray turning ρ above n_min just below z_min: its turning point δ_t (δ = z − z_min) from the
+// piece's cubic by Newton's method, and x and c·T of one leg from there down to δ = d_end in the
+// same piece, in u (δ = δ_t − u²).
+struct TurningBelowMinimum {
+    CubicAbout c;
+    double d_t = 0.0, xi = 0.0;
 
-// Family U with both ends inside the minimum's piece below it (the whole path within one cubic),
-// turning ρ above n_min: each leg from the turning point to its end in u, as above.
-Grazing grazing_in_piece(const IndexProfile& table, double z_min, double rho, double z_source, double z_receiver) {
-    const CubicAbout c = cubic_about(table, z_min, -1.0);
-    auto p_prime = [&](double d) { return c.slope + d * (c.curvature + 0.5 * d * c.third); };
-    double d_t = -std::sqrt(2.0 * rho / c.curvature);
-    for (int i = 0; i < 100; ++i) d_t -= (c.rise(d_t) - rho) / p_prime(d_t);
-    const double xi = c.n_m + rho;
-    boost::math::quadrature::tanh_sinh<double> quad;
-    Grazing out;
-    out.turning_z = z_min + d_t;
-    for (double z_end : {z_source, z_receiver}) {
+    TurningBelowMinimum(const IndexProfile& table, double z_min, double rho) : c(cubic_about(table, z_min, -1.0)) {
+        auto p_prime = [&](double d) { return c.slope + d * (c.curvature + 0.5 * d * c.third); };
+        d_t = -std::sqrt(2.0 * rho / c.curvature);
+        for (int i = 0; i < 100; ++i) d_t -= (c.rise(d_t) - rho) / p_prime(d_t);
+        xi = c.n_m + rho;
+    }
+    std::pair<double, double> part(double d_end) const {
         auto factor = [&](double u) {
             const double d = d_t - u * u;
             const double q =
@@ -119,10 +82,48 @@ Grazing grazing_in_piece(const IndexProfile& table, double z_min, double rho, do
             const double n = c.n_m + c.rise(d);
             return std::make_pair(n, std::sqrt(q * (n + xi)));
         };
-        const double u_end = std::sqrt(d_t - (z_end - z_min));
-        out.distance_m += quad.integrate([&](double u) { auto [n, s] = factor(u); return 2.0 * xi / s; }, 0.0, u_end);
-        out.time_s +=
-            quad.integrate([&](double u) { auto [n, s] = factor(u); return 2.0 * n * n / s; }, 0.0, u_end) / speed_of_light;
+        boost::math::quadrature::tanh_sinh<double> quad;
+        const double u_end = std::sqrt(d_t - d_end);
+        const double x = quad.integrate([&](double u) { auto [n, s] = factor(u); return 2.0 * xi / s; }, 0.0, u_end);
+        const double ct = quad.integrate([&](double u) { auto [n, s] = factor(u); return 2.0 * n * n / s; }, 0.0, u_end);
+        return {x, ct};
+    }
+};
+
+// Family U from z_source and z_receiver (both below z_min) turning ρ above n_min just below z_min.
+Grazing grazing_below(const IndexProfile& table, double z_min, double rho, double z_source, double z_receiver) {
+    const TurningBelowMinimum turn(table, z_min, rho);
+    double piece_bottom = -1e9;
+    for (double join : table.joins_z())
+        if (join < z_min - 1e-9) {
+            piece_bottom = join;
+            break;
+        }
+    // The part in the minimum's piece, one leg's worth.
+    const auto [x_piece, ct_piece] = turn.part(piece_bottom - z_min);
+    const double n_m = turn.c.n_m;
+    auto gap = [&](double z, double) { return (table.index(z) - n_m) - rho; };
+    const std::vector<double> knots(table.joins_z().begin(), table.joins_z().end());
+    const std::vector<double> breaks(knots.rbegin(), knots.rend());
+    Grazing out;
+    out.turning_z = z_min + turn.d_t;
+    for (double z_end : {z_source, z_receiver}) {
+        const auto below = test::snell_integrals(table, turn.xi, z_end, piece_bottom, gap, breaks, false);
+        out.distance_m += x_piece + below.distance_m;
+        out.time_s += (ct_piece + below.optical_path_m) / speed_of_light;
+    }
+    return out;
+}
+
+// Family U with both ends inside the minimum's piece below it (the whole path within one cubic).
+Grazing grazing_in_piece(const IndexProfile& table, double z_min, double rho, double z_source, double z_receiver) {
+    const TurningBelowMinimum turn(table, z_min, rho);
+    Grazing out;
+    out.turning_z = z_min + turn.d_t;
+    for (double z_end : {z_source, z_receiver}) {
+        const auto [x, ct] = turn.part(z_end - z_min);
+        out.distance_m += x;
+        out.time_s += ct / speed_of_light;
     }
     return out;
 }
@@ -149,6 +150,16 @@ std::pair<double, double> direct_across(const IndexProfile& table, double z_min,
     return {x, ct};
 }
 
+// The path of family U turning at ref.turning_z (within 1e-6 m) among those found for the pair at
+// the reference's distance; null when there is none.
+std::optional<StratifiedPath> turning_path(const StratifiedProfile& profile, double z_source, double z_receiver,
+                                           const Grazing& ref) {
+    for (const auto& path : find_stratified_paths(profile, z_source, z_receiver, ref.distance_m))
+        if (path.family == "U" && path.turns.size() == 1 && std::abs(path.turns[0].z_m - ref.turning_z) < 1e-6)
+            return path;
+    return std::nullopt;
+}
+
 }  // namespace
 
 TEST_CASE("paths turning just short of a local minimum of a measured log (ξ − n_min from 1e-6 down to 1e-21) "
@@ -165,12 +176,8 @@ TEST_CASE("paths turning just short of a local minimum of a measured log (ξ −
         const Grazing ref = grazing_below(*model.index, z_min, rho, z_source, z_receiver);
         INFO(std::setprecision(12) << "ξ − n_min " << rho << ", R " << ref.distance_m << " m, turning at "
                                    << ref.turning_z << " m");
-        const auto paths = find_stratified_paths(profile, z_source, z_receiver, ref.distance_m);
-        const StratifiedPath* match = nullptr;
-        for (const auto& path : paths)
-            if (path.family == "U" && path.turns.size() == 1 && std::abs(path.turns[0].z_m - ref.turning_z) < 1e-6)
-                match = &path;
-        REQUIRE(match != nullptr);
+        const auto match = turning_path(profile, z_source, z_receiver, ref);
+        REQUIRE(match);
         CHECK(std::abs(match->time_s - ref.time_s) < 0.01e-9);
         CHECK(match->turns[0].z_m < z_min);
     }
@@ -218,12 +225,8 @@ TEST_CASE("paths turning just short of a local minimum with both ends in the min
         const Grazing ref = grazing_in_piece(*model.index, z_min, rho, z_source, z_receiver);
         INFO(std::setprecision(12) << "ξ − n_min " << rho << ", R " << ref.distance_m << " m, turning at "
                                    << ref.turning_z << " m");
-        const auto paths = find_stratified_paths(profile, z_source, z_receiver, ref.distance_m);
-        const StratifiedPath* match = nullptr;
-        for (const auto& path : paths)
-            if (path.family == "U" && path.turns.size() == 1 && std::abs(path.turns[0].z_m - ref.turning_z) < 1e-6)
-                match = &path;
-        REQUIRE(match != nullptr);
+        const auto match = turning_path(profile, z_source, z_receiver, ref);
+        REQUIRE(match);
         CHECK(std::abs(match->time_s - ref.time_s) < 0.01e-9);
     }
 }
