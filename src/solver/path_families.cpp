@@ -344,8 +344,8 @@ private:
     // middle of every interval that could hide a root, down to the finest spacing. An interval is
     // left unsplit only when nothing there comes near R: X finite at both ends, X − R of one sign
     // and the slopes of one sign, the end slopes within a factor 3 of the secant's (X monotone on
-    // it, as far as the cubic through its ends tells), and |X − R| at each end more than twice
-    // what the larger end slope would cover over the whole interval. Intervals where X crosses R,
+    // it, as far as the cubic through its ends tells), and X beyond reach of R there (beyond_reach).
+    // Intervals where X crosses R,
     // turns, diverges or ends are split to the finest spacing, as are all near R (where two close
     // roots at a fold can hide between samples).
     // v = 0 and v = 1 themselves are taken just inside, far below a rounding error of ξ (the
