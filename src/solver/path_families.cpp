@@ -1107,11 +1107,14 @@ std::optional<FamilyLegs> family_legs(const StratifiedProfile& profile, const Ra
 std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profile, double z_source, double z_receiver,
                                                   double horizontal_distance_m, const StratifiedPathOptions& options) {
     const double floor = profile.floor_z();
-    for (auto [z, key] : {std::pair{z_source, "source z"}, std::pair{z_receiver, "receiver z"}})
+    for (const auto& end : {std::pair{z_source, "source z"}, std::pair{z_receiver, "receiver z"}}) {
+        const double z = end.first;
+        const char* key = end.second;
         require(std::isfinite(z) && z <= 0.0 && z >= floor, key, [&] {
             return fmt::format("the {} = {} m must be in the ice, between {} m and the surface", key,
                                number_for_message(z), number_for_message(floor));
         });
+    }
     require(std::isfinite(horizontal_distance_m) && horizontal_distance_m >= 0.0, "horizontal distance", [&] {
         return fmt::format("the horizontal distance must be a finite number of metres >= 0 (got {})",
                            number_for_message(horizontal_distance_m));
