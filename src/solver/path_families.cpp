@@ -127,7 +127,7 @@ public:
               double z_source, double z_receiver, bool with_time_and_length, const AttenuationProfile* attenuation)
         : profile_(&profile), level_(level), interval_(interval),
           has_lower_(interval.lower_kind != LowerEndKind::unbounded), with_time_(with_time_and_length),
-          attenuation_(attenuation) {
+          attenuation_(attenuation), z_source_(z_source) {
         points_[count_++] = upper_endpoint(interval);
         const double high = std::max(z_source, z_receiver), low = std::min(z_source, z_receiver);
         points_[count_++] = {high};
@@ -161,10 +161,33 @@ public:
 private:
     const LegIntegrals& piece(std::size_t i) {
         if (!computed_[i]) {
-            pieces_[i] = leg_integrals(*profile_, level_, points_[i + 1], points_[i], with_time_, true, attenuation_);
+            if (!from_turning_cell(i)) {
+                pieces_[i] = leg_integrals(*profile_, level_, points_[i + 1], points_[i], with_time_, true, attenuation_);
+            }
             computed_[i] = true;
         }
         return pieces_[i];
+    }
+
+    // A piece from a turning end known to its cell only (interval_around with cell_only_turning):
+    // from that cell's table where it serves the piece (true), else the interval solved for its
+    // turning points before the piece is integrated (false).
+    bool from_turning_cell(std::size_t i) {
+        const bool upper = i == 0 && interval_.upper_approximate;
+        const bool lower = i + 2 == count_ && has_lower_ && interval_.lower_approximate;
+        if (!upper && !lower) return false;
+        const LegEndpoint& turning = upper ? points_[0] : points_[count_ - 1];
+        const LegEndpoint& fixed = upper ? points_[1] : points_[count_ - 2];
+        if (!attenuation_) {
+            if (const auto leg = leg_integrals_from_turning_cell(*profile_, level_, turning.z, fixed.z, with_time_)) {
+                pieces_[i] = *leg;
+                return true;
+            }
+        }
+        interval_ = *profile_->interval_around(level_, z_source_);
+        points_[0] = upper_endpoint(interval_);
+        if (has_lower_) points_[count_ - 1] = lower_endpoint(interval_);
+        return false;
     }
 
     const StratifiedProfile* profile_ = nullptr;
@@ -172,6 +195,7 @@ private:
     AccessibleInterval interval_;
     bool has_lower_ = false, with_time_ = false;
     const AttenuationProfile* attenuation_ = nullptr;
+    double z_source_ = 0.0;
     std::array<LegEndpoint, 4> points_{};
     std::size_t count_ = 0, source_index_ = 0, receiver_index_ = 0;
     std::array<bool, 3> computed_{};
@@ -243,7 +267,12 @@ public:
             if (it->first == v) return it->second;
         LegSet set;
         const RayLevel at_v = level(v);
-        const auto interval = profile_.interval_around(at_v, z_source_);
+        // Turning ends to their cells only (LegPieces solves for them where a piece needs it), but
+        // solved where the source or the receiver lies in such a cell.
+        auto interval = profile_.interval_around(at_v, z_source_, true);
+        if (interval && (shares_cell(interval->upper_approximate, interval->upper_z) ||
+                         shares_cell(interval->lower_approximate, interval->lower_z)))
+            interval = profile_.interval_around(at_v, z_source_);
         if (interval && interval->contains(z_receiver_))
             set.emplace(profile_, at_v, *interval, z_source_, z_receiver_, false, nullptr);
         cache_.emplace_back(v, std::move(set));
@@ -251,6 +280,14 @@ public:
     }
 
 private:
+    // An approximate turning end whose cell holds the source or the receiver (boundaries included).
+    bool shares_cell(bool approximate, double z) const {
+        if (!approximate) return false;
+        const std::size_t cell = profile_.cell_at(z);
+        const double top = profile_.cell_top(cell), bottom = profile_.cell_bottom(cell);
+        return (z_source_ <= top && z_source_ >= bottom) || (z_receiver_ <= top && z_receiver_ >= bottom);
+    }
+
     const StratifiedProfile& profile_;
     RayParameterRange range_;
     double z_source_, z_receiver_;

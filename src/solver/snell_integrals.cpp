@@ -755,6 +755,18 @@ public:
 
     Sums& sums() { return sums_; }
 
+    // The sums as a leg's integrals (attenuation: the profile the time and length were taken with,
+    // or null; uniform: its length where constant).
+    LegIntegrals result(const AttenuationProfile* attenuation, std::optional<double> uniform) const {
+        LegIntegrals out;
+        out.distance_m = sums_.x;
+        out.optical_path_m = sums_.optical;
+        out.length_m = sums_.length;
+        if (attenuation) out.attenuation_exponent = uniform ? sums_.length / *uniform : sums_.attenuation;
+        out.distance_derivative = with_derivative_ ? sums_.derivative : std::numeric_limits<double>::quiet_NaN();
+        return out;
+    }
+
 private:
     // ξ reaches n inside the leg (not a leg of one interval, or ξ within rounding of a local
     // minimum of n passed over), or the panels needed exceed any reasonable count: the leg is
@@ -903,13 +915,31 @@ LegIntegrals integrate_leg(const StratifiedProfile& profile, const RayLevel& lev
         quadrature.end_piece(b.z, b.kind, -1, cell_high, g_high, slope_high, piece_high.length);
     }
     quadrature.middle(low, high);
-    const Sums& s = quadrature.sums();
-    out.distance_m = s.x;
-    out.optical_path_m = s.optical;
-    out.length_m = s.length;
-    if (with_time_and_length && attenuation) out.attenuation_exponent = uniform ? s.length / *uniform : s.attenuation;
-    out.distance_derivative = with_derivative ? s.derivative : std::numeric_limits<double>::quiet_NaN();
-    return out;
+    return quadrature.result(with_time_and_length ? attenuation : nullptr, uniform);
+}
+
+std::optional<LegIntegrals> from_turning_cell(const StratifiedProfile& profile, const RayLevel& level, double turning_z,
+                                              double fixed_z, bool with_time_and_length, bool with_derivative) {
+    check_end(profile, fixed_z);
+    const int inward = fixed_z > turning_z ? +1 : -1;  // from the turning end toward the fixed end
+    LegQuadrature quadrature(profile, level, with_time_and_length, with_derivative, nullptr,
+                             std::numeric_limits<std::size_t>::max());
+    const std::size_t cell = profile.cell_at(turning_z), fixed_cell = profile.cell_at(fixed_z, -inward);
+    if (!quadrature.turning_cell(cell, inward, fixed_z, fixed_cell)) return std::nullopt;
+    // The rest as integrate_leg takes it: the fixed end's piece (up to half the leg, its height
+    // taken from the cell's depth here), then the middle.
+    double low = inward > 0 ? profile.cell_top(cell) : fixed_z, high = inward > 0 ? fixed_z : profile.cell_bottom(cell);
+    std::size_t piece_cell;
+    double g, slope;
+    bool double_root;
+    const auto piece = quadrature.plan_end(fixed_z, LegEnd::fixed, -inward, 0.5 * std::abs(fixed_z - turning_z), piece_cell,
+                                           g, slope, double_root);
+    if (piece.used) {
+        quadrature.end_piece(fixed_z, LegEnd::fixed, -inward, piece_cell, g, slope, piece.length);
+        (inward > 0 ? high : low) -= inward * piece.length;
+    }
+    quadrature.middle(low, high);
+    return quadrature.result(nullptr, std::nullopt);
 }
 
 }  // namespace
@@ -918,6 +948,12 @@ LegIntegrals leg_integrals(const StratifiedProfile& profile, const RayLevel& lev
                            bool with_time_and_length, bool with_derivative, const AttenuationProfile* attenuation) {
     return integrate_leg(profile, level, a, b, with_time_and_length, with_derivative, attenuation,
                          std::numeric_limits<std::size_t>::max());
+}
+
+std::optional<LegIntegrals> leg_integrals_from_turning_cell(const StratifiedProfile& profile, const RayLevel& level,
+                                                            double turning_z_in_cell, double fixed_z,
+                                                            bool with_time_and_length, bool with_derivative) {
+    return from_turning_cell(profile, level, turning_z_in_cell, fixed_z, with_time_and_length, with_derivative);
 }
 
 LegIntegrals leg_integrals_by_quadrature(const StratifiedProfile& profile, const RayLevel& level, LegEndpoint a,

@@ -51,6 +51,14 @@ LegIntegrals leg_integrals(const StratifiedProfile& profile, const RayLevel& lev
                            bool with_time_and_length = true, bool with_derivative = true,
                            const AttenuationProfile* attenuation = nullptr);
 
+// The leg from a turning end known to its cell only (its z anywhere inside the cell that holds the
+// turning point: StratifiedProfile::interval_around with cell_only_turning) to a fixed end beyond
+// that cell, where the cell's table serves the turning part (which needs the cell and ξ, not the
+// turning depth); empty where it does not (solve for the turning point then). No attenuation.
+std::optional<LegIntegrals> leg_integrals_from_turning_cell(const StratifiedProfile& profile, const RayLevel& level,
+                                                            double turning_z_in_cell, double fixed_z,
+                                                            bool with_time_and_length, bool with_derivative = true);
+
 // The same by quadrature alone, every cell included (the reference the tables are built from).
 LegIntegrals leg_integrals_by_quadrature(const StratifiedProfile& profile, const RayLevel& level, LegEndpoint a,
                                          LegEndpoint b, bool with_time_and_length = true, bool with_derivative = true,

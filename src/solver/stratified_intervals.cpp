@@ -478,7 +478,9 @@ double StratifiedProfile::boundary_gap(const RayLevel& level, std::size_t cell) 
 }
 
 double StratifiedProfile::solve_turning(const RayLevel& level, double z_inside, double z_outside,
-                                        double gap_inside) const {
+                                        double gap_inside, bool* cell_only) const {
+    const bool want_cell = cell_only != nullptr;
+    if (cell_only) *cell_only = false;
     auto f = [&](double z) { return gap(level, z); };
     // The bracketing solver on gap() over the whole span: for formula cells, and wherever the
     // faster path below meets rounding (it returns z_inside itself where gap() is 0 there).
@@ -512,6 +514,15 @@ double StratifiedProfile::solve_turning(const RayLevel& level, double z_inside, 
         else (downward ? outer : inner) = k;
     }
     const std::size_t cell = inner;
+    // Only the cell: a depth strictly inside it, between the bracket's ends (the root lies in
+    // (inside, outside]).
+    if (want_cell) {
+        const double middle = 0.5 * (inside + outside);
+        if (middle > cells_[cell].z_bottom && middle < cells_[cell].z_top) {
+            *cell_only = true;
+            return middle;
+        }
+    }
     // Steps from the quadratic model of n − ξ about the current point (the root of
     // g + g′δ + g″δ²/2 nearest to it; Newton where that has none), kept in the bracket
     // [inside, outside] and replaced by bisection where they leave it or stall (as in rtsafe,
@@ -574,7 +585,8 @@ double StratifiedProfile::solve_turning(const RayLevel& level, double z_inside, 
     return best;
 }
 
-std::optional<AccessibleInterval> StratifiedProfile::interval_around(const RayLevel& level, double z) const {
+std::optional<AccessibleInterval> StratifiedProfile::interval_around(const RayLevel& level, double z,
+                                                                    bool cell_only_turning) const {
     if (!std::isfinite(z) || z > 0.0 || z < floor_z_)
         throw DataInputError(fmt::format("depth z = {} m is outside the profile's range ({} m to 0)",
                                          number_for_message(z), number_for_message(floor_z_)));
@@ -613,7 +625,8 @@ std::optional<AccessibleInterval> StratifiedProfile::interval_around(const RayLe
             if (clearly_outside(level, runs_[j].index_top) || gap(level, top) <= 0.0) {
                 const double inside = j == r ? z : runs_[j].z_bottom;
                 out.upper_kind = UpperEndKind::turning;
-                out.upper_z = solve_turning(level, inside, top, j == r ? g : not_a_number);
+                out.upper_z = solve_turning(level, inside, top, j == r ? g : not_a_number,
+                                            cell_only_turning ? &out.upper_approximate : nullptr);
                 out.upper_double_root = out.upper_z == top && is_local_minimum(top);
                 break;
             }
@@ -637,7 +650,8 @@ std::optional<AccessibleInterval> StratifiedProfile::interval_around(const RayLe
             if (clearly_outside(level, runs_[j].index_bottom) || gap(level, bottom) <= 0.0) {
                 const double inside = j == r ? z : runs_[j].z_top;
                 out.lower_kind = LowerEndKind::turning;
-                out.lower_z = solve_turning(level, inside, bottom, j == r ? g : not_a_number);
+                out.lower_z = solve_turning(level, inside, bottom, j == r ? g : not_a_number,
+                                            cell_only_turning ? &out.lower_approximate : nullptr);
                 out.lower_double_root = out.lower_z == bottom && is_local_minimum(bottom);
                 break;
             }

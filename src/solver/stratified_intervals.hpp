@@ -65,6 +65,10 @@ struct AccessibleInterval {
     // horizontally and never arrives; every leg ending there is infinitely long (a limit).
     bool upper_double_root = false;
     bool lower_double_root = false;
+    // A turning end known to its cell only (interval_around with cell_only_turning): its z lies
+    // inside the cell that holds the turning point, not on it.
+    bool upper_approximate = false;
+    bool lower_approximate = false;
 
     bool contains(double z) const { return z <= upper_z && z >= lower_z; }
     // Bounded by turning points on both sides: the ray oscillates between them.
@@ -176,7 +180,11 @@ public:
 
     // The accessible interval around z for ray level `level`, empty when n(z) < ξ. At n(z) = ξ
     // exactly (z is a turning point) the side where n > ξ; empty when n has a maximum there.
-    std::optional<AccessibleInterval> interval_around(const RayLevel& level, double z) const;
+    // With cell_only_turning, a turning end on a table's cubic cells is placed inside the cell that
+    // holds it without solving for it (flagged approximate): for legs whose turning part comes from
+    // the cell's table, which needs the cell and ξ only.
+    std::optional<AccessibleInterval> interval_around(const RayLevel& level, double z,
+                                                      bool cell_only_turning = false) const;
     std::optional<AccessibleInterval> interval_around(double ray_parameter, double z) const {
         return interval_around(RayLevel::plain(ray_parameter), z);
     }
@@ -223,8 +231,11 @@ private:
     void build_runs();
     // The turning point between z_inside (gap > 0) and z_outside (gap <= 0) of one run; gap_inside:
     // gap() at z_inside when known (NaN: computed here).
+    // cell_only (not null): where the cell holding the turning point is found from the stored
+    // boundary values of a table's cells, a depth strictly inside that cell instead, with
+    // *cell_only set true (false where the point was solved for).
     double solve_turning(const RayLevel& level, double z_inside, double z_outside,
-                         double gap_inside = std::numeric_limits<double>::quiet_NaN()) const;
+                         double gap_inside = std::numeric_limits<double>::quiet_NaN(), bool* cell_only = nullptr) const;
     // n − ξ at the bottom of a cell from the stored n there; NaN where that is within rounding of 0.
     double boundary_gap(const RayLevel& level, std::size_t cell) const;
     bool is_local_minimum(double z) const;

@@ -445,3 +445,45 @@ TEST_CASE("tabulated legs from the lower-index end of each cell with n − ξ th
     WARN("from the lower-index end of each cell: largest relative difference from the direct quadrature "
          << worst << " in x, " << worst_derivative << " in ∂x/∂ξ (" << legs << " legs)");
 }
+
+TEST_CASE("legs from a turning end known only to its cell agree with the legs from the solved turning point, and "
+          "interval_around places such an end inside the cell that holds the solved one (the tables need the cell "
+          "and the ray parameter only, by construction)",
+          "[solver][stratified][snell tables]") {
+    // Levels across the whole range of n of the log, from fixed depths every 7.3 m: where the
+    // turning cell's table serves the leg the two agree to rounding; where it does not, the cell-only
+    // form declines and the solved leg is the answer.
+    const StratifiedProfile profile(layered_log());
+    int served = 0, declined = 0;
+    for (double z_start = -3.7; z_start > -199.0; z_start -= 7.3) {
+        for (int k = 1; k < 40; ++k) {
+            const RayLevel level = RayLevel::anchored_at(profile, z_start, 0.0025 * k);
+            const auto exact = profile.interval_around(level, z_start);
+            const auto coarse = profile.interval_around(level, z_start, true);
+            REQUIRE(exact.has_value() == coarse.has_value());
+            if (!exact || exact->upper_kind != UpperEndKind::turning) continue;
+            REQUIRE(coarse->upper_kind == UpperEndKind::turning);
+            INFO("from " << z_start << " m, ξ " << level.ray_parameter);
+            if (!coarse->upper_approximate) {
+                CHECK(coarse->upper_z == exact->upper_z);
+                continue;
+            }
+            const std::size_t cell = profile.cell_at(coarse->upper_z);
+            CHECK(exact->upper_z >= profile.cell_bottom(cell));
+            CHECK(exact->upper_z <= profile.cell_top(cell));
+            const auto from_cell = leg_integrals_from_turning_cell(profile, level, coarse->upper_z, z_start, true);
+            if (!from_cell) {
+                ++declined;
+                continue;
+            }
+            const LegIntegrals solved = leg_integrals(profile, level, {z_start}, {exact->upper_z, LegEnd::turning});
+            CHECK(from_cell->distance_m == Approx(solved.distance_m).epsilon(1e-13));
+            CHECK(from_cell->optical_path_m == Approx(solved.optical_path_m).epsilon(1e-13));
+            CHECK(from_cell->length_m == Approx(solved.length_m).epsilon(1e-13));
+            CHECK(from_cell->distance_derivative == Approx(solved.distance_derivative).epsilon(1e-12));
+            ++served;
+        }
+    }
+    CHECK(served > 200);
+    WARN("turning ends known to their cell: " << served << " legs from the cell's table, " << declined << " declined");
+}
