@@ -382,9 +382,8 @@ private:
     // left unsplit only when nothing there comes near R: X finite at both ends, X − R of one sign
     // and the slopes of one sign, the end slopes within a factor 3 of the secant's (X monotone on
     // it, as far as the cubic through its ends tells), and X beyond reach of R there (beyond_reach).
-    // Intervals where X crosses R,
-    // turns, diverges or ends are split to the finest spacing, as are all near R (where two close
-    // roots at a fold can hide between samples).
+    // Intervals where X crosses R, turns, diverges or ends are split to the finest spacing, as are
+    // all near R (where two close roots at a fold can hide between samples).
     // v = 0 and v = 1 themselves are taken just inside, far below a rounding error of ξ (the
     // anchored levels resolve n − ξ there; end_v0_, end_v1_), where the range's end is n at a
     // depth beyond the pair: X may tend to a value there (a kink of n, the surface) or diverge (a

@@ -918,8 +918,17 @@ LegIntegrals integrate_leg(const StratifiedProfile& profile, const RayLevel& lev
     return quadrature.result(with_time_and_length ? attenuation : nullptr, uniform);
 }
 
-std::optional<LegIntegrals> from_turning_cell(const StratifiedProfile& profile, const RayLevel& level, double turning_z,
-                                              double fixed_z, bool with_time_and_length, bool with_derivative) {
+}  // namespace
+
+LegIntegrals leg_integrals(const StratifiedProfile& profile, const RayLevel& level, LegEndpoint a, LegEndpoint b,
+                           bool with_time_and_length, bool with_derivative, const AttenuationProfile* attenuation) {
+    return integrate_leg(profile, level, a, b, with_time_and_length, with_derivative, attenuation,
+                         std::numeric_limits<std::size_t>::max());
+}
+
+std::optional<LegIntegrals> leg_integrals_from_turning_cell(const StratifiedProfile& profile, const RayLevel& level,
+                                                            double turning_z, double fixed_z, bool with_time_and_length,
+                                                            bool with_derivative) {
     check_end(profile, fixed_z);
     const int inward = fixed_z > turning_z ? +1 : -1;  // from the turning end toward the fixed end
     LegQuadrature quadrature(profile, level, with_time_and_length, with_derivative, nullptr,
@@ -940,20 +949,6 @@ std::optional<LegIntegrals> from_turning_cell(const StratifiedProfile& profile, 
     }
     quadrature.middle(low, high);
     return quadrature.result(nullptr, std::nullopt);
-}
-
-}  // namespace
-
-LegIntegrals leg_integrals(const StratifiedProfile& profile, const RayLevel& level, LegEndpoint a, LegEndpoint b,
-                           bool with_time_and_length, bool with_derivative, const AttenuationProfile* attenuation) {
-    return integrate_leg(profile, level, a, b, with_time_and_length, with_derivative, attenuation,
-                         std::numeric_limits<std::size_t>::max());
-}
-
-std::optional<LegIntegrals> leg_integrals_from_turning_cell(const StratifiedProfile& profile, const RayLevel& level,
-                                                            double turning_z_in_cell, double fixed_z,
-                                                            bool with_time_and_length, bool with_derivative) {
-    return from_turning_cell(profile, level, turning_z_in_cell, fixed_z, with_time_and_length, with_derivative);
 }
 
 LegIntegrals leg_integrals_by_quadrature(const StratifiedProfile& profile, const RayLevel& level, LegEndpoint a,

@@ -56,8 +56,8 @@ LegIntegrals leg_integrals(const StratifiedProfile& profile, const RayLevel& lev
 // that cell, where the cell's table serves the turning part (which needs the cell and ξ, not the
 // turning depth); empty where it does not (solve for the turning point then). No attenuation.
 std::optional<LegIntegrals> leg_integrals_from_turning_cell(const StratifiedProfile& profile, const RayLevel& level,
-                                                            double turning_z_in_cell, double fixed_z,
-                                                            bool with_time_and_length, bool with_derivative = true);
+                                                            double turning_z, double fixed_z, bool with_time_and_length,
+                                                            bool with_derivative = true);
 
 // The same by quadrature alone, every cell included (the reference the tables are built from).
 LegIntegrals leg_integrals_by_quadrature(const StratifiedProfile& profile, const RayLevel& level, LegEndpoint a,

@@ -479,7 +479,6 @@ double StratifiedProfile::boundary_gap(const RayLevel& level, std::size_t cell) 
 
 double StratifiedProfile::solve_turning(const RayLevel& level, double z_inside, double z_outside,
                                         double gap_inside, bool* cell_only) const {
-    const bool want_cell = cell_only != nullptr;
     if (cell_only) *cell_only = false;
     auto f = [&](double z) { return gap(level, z); };
     // The bracketing solver on gap() over the whole span: for formula cells, and wherever the
@@ -516,7 +515,7 @@ double StratifiedProfile::solve_turning(const RayLevel& level, double z_inside, 
     const std::size_t cell = inner;
     // Only the cell: a depth strictly inside it, between the bracket's ends (the root lies in
     // (inside, outside]).
-    if (want_cell) {
+    if (cell_only) {
         const double middle = 0.5 * (inside + outside);
         if (middle > cells_[cell].z_bottom && middle < cells_[cell].z_top) {
             *cell_only = true;
