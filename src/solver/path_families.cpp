@@ -96,17 +96,24 @@ bool spans_decades(double a, double b) {
 }
 
 // For two samples with X − R of one sign: X cannot reach R in between unless its slope somewhere
-// exceeds twice the larger of theirs, L. (With |dX/dv| <= 2L, X − R keeps its sign where
-// |f_a| + |f_b| > 2L·(b − a): the two cones from the ends do not reach R.) Also |X − R| at each
-// end more than a quarter of L·(b − a), so that one end near R is never passed over.
+// exceeds twice the largest of theirs and of the secant's, L. (With |dX/dv| <= 2L, X − R keeps
+// its sign where |f_a| + |f_b| > 2L·(b − a): the two cones from the ends do not reach R. The
+// secant's slope is reached somewhere in between, so a bound below it would not hold.) Also
+// |X − R| at each end more than a quarter of L·(b − a), so that one end near R is never passed over.
 bool beyond_reach(const Sample& a, const Sample& b) {
-    const double reach = (b.v - a.v) * std::max(std::abs(a.slope), std::abs(b.slope));
+    const double secant = (b.f - a.f) / (b.v - a.v);
+    const double reach = (b.v - a.v) * std::max({std::abs(a.slope), std::abs(b.slope), std::abs(secant)});
     return 0.5 * (std::abs(a.f) + std::abs(b.f)) > reach && std::min(std::abs(a.f), std::abs(b.f)) > 0.25 * reach;
 }
 
+// Two samples with X − R and the slope finite, X − R of one sign and beyond_reach: no root between
+// them, whatever the signs of the slopes (the cones of beyond_reach hold for any X whose slope
+// stays within 2L, with or without an extremum between). roots() skips the search for an
+// extremum there, and the scan need not look closer.
+bool out_of_reach(const Sample& a, const Sample& b) { return finite_pair(a, b) && a.f * b.f > 0.0 && beyond_reach(a, b); }
+
 // An extremum of X between two samples that turns away from R (a minimum where X − R < 0 at both,
-// or a maximum where it is > 0), with both beyond_reach: roots() skips the search for such an
-// extremum, and so the scan need not look closer at it.
+// or a maximum where it is > 0), with both beyond_reach.
 bool turns_away_from_r(const Sample& a, const Sample& b) {
     if (!finite_pair(a, b)) return false;
     const bool minimum_below = a.f < 0.0 && b.f < 0.0 && a.slope < 0.0 && b.slope > 0.0;
@@ -360,8 +367,8 @@ public:
                 found.push_back(root_between(a, b));
             } else if (finite_pair(a, b) && b.f != 0.0 && a.slope * b.slope < 0.0) {
                 // An extremum inside: two roots if it reaches across R (not searched where it
-                // turns away from R).
-                if (turns_away_from_r(a, b)) continue;
+                // cannot reach R).
+                if (out_of_reach(a, b)) continue;
                 const Sample e = extremum_between(a, b);
                 if (e.f == 0.0) found.push_back(e.v);
                 else if (std::isfinite(e.f) && e.f * a.f < 0.0) {
@@ -380,10 +387,10 @@ private:
     // Samples of X − R at v = i / scan_samples, sorted by v: v = 0, 1/2 and 1 first, then the
     // middle of every interval that could hide a root, down to the finest spacing. An interval is
     // left unsplit only when nothing there comes near R: X finite at both ends, X − R of one sign
-    // and the slopes of one sign, the end slopes within a factor 3 of the secant's (X monotone on
-    // it, as far as the cubic through its ends tells), and X beyond reach of R there (beyond_reach).
-    // Intervals where X crosses R, turns, diverges or ends are split to the finest spacing, as are
-    // all near R (where two close roots at a fold can hide between samples).
+    // and X beyond reach of R there (out_of_reach; the slopes may differ in sign: an extremum
+    // inside cannot reach R either). Intervals where X crosses R, diverges or ends are split to
+    // the finest spacing, as are all near R (where two close roots at a fold can hide between
+    // samples).
     // v = 0 and v = 1 themselves are taken just inside, far below a rounding error of ξ (the
     // anchored levels resolve n − ξ there; end_v0_, end_v1_), where the range's end is n at a
     // depth beyond the pair: X may tend to a value there (a kink of n, the surface) or diverge (a
@@ -404,11 +411,7 @@ private:
         auto far_from_r = [&](const Sample& a, const Sample& b) {
             if (turns_away_from_r(a, b)) return true;
             if (const auto settled = end_monotone(a, b)) return *settled;
-            if (!one_signed(a, b)) return false;
-            const double secant = (b.f - a.f) / (b.v - a.v);
-            const double ra = a.slope / secant, rb = b.slope / secant;
-            if (!(ra >= 1.0 / 3.0 && ra <= 3.0 && rb >= 1.0 / 3.0 && rb <= 3.0)) return false;
-            return beyond_reach(a, b);
+            return out_of_reach(a, b);
         };
         // The coarse grid: i = 0, finest/2 (rounded down) and its multiples, and finest (at most 4
         // points: finest >= 4).
