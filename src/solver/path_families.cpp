@@ -61,14 +61,15 @@ struct RayParameterRange {
     // n(low_anchor_z) = low, where `low` is n at a depth (not ξ = 0).
     bool low_anchored = false;
     double low_anchor_z = 0.0;
-    // The first range: `high` is the smallest n between the pair's depths, and roots are sought
-    // down to v = 0 itself, as closely as ξ(v) resolves it: X may diverge there (a local minimum
-    // between them, where the direct path grazes it), or tend to 0 like n − ξ to a high power (a
-    // refracted path between equal depths in deep ice, where n′ ~ 1e-17 per metre: X = R at
-    // n − ξ ~ 1e-31). Every other range is sampled from just inside v = 0
-    // (FamilySearch::end_v0_): at a local minimum beyond the ends ξ = high exactly belongs to the
-    // range above (a ray turning at the minimum instead of crossing it), and at n of the surface
-    // or the bottom both agree to far below the roots' tolerance.
+    // The first range: `high` is the smallest n between the pair's depths, and where X is finite
+    // at v = 0 itself roots are sought down to it, as closely as ξ(v) resolves it: X may tend to 0
+    // there like n − ξ to a high power (a refracted path between equal depths in deep ice, where
+    // n′ ~ 1e-17 per metre: X = R at n − ξ ~ 1e-31). Every other range, and the first where X is
+    // not finite at v = 0 (a smooth local minimum between the ends, where the direct path grazes
+    // it and X diverges), is sampled from just inside v = 0 (FamilySearch::end_v0_): at a local
+    // minimum beyond the ends ξ = high exactly belongs to the range above (a ray turning at the
+    // minimum instead of crossing it), and at n of the surface or the bottom both agree to far
+    // below the roots' tolerance.
     bool first = false;
 };
 
@@ -333,7 +334,7 @@ public:
         : legs_(legs), buffers_(buffers), range_(range), family_(family), distance_(distance), samples_(samples),
           cut_limit_v_(legs.distance_for_offset(cut_limit_offset * (range.high - range.low), true)),
           cut_limit_d_(legs.distance_for_offset(cut_limit_offset * (range.high - range.low), false)),
-          end_v0_(range.first ? not_a_number : cut_limit_v_),
+          end_v0_(range.first ? not_a_number : cut_limit_v_),  // see roots()
           end_v1_(range.low_anchored ? 1.0 - cut_limit_d_ : not_a_number) {}
 
     Sample evaluate(double v) const {
@@ -349,6 +350,9 @@ public:
     // Every v in [0, 1] with X(v) = R (valid until the next search on the same buffers).
     const std::vector<double>& roots() {
         std::vector<Sample>& samples = buffers_.samples;
+        // The first range's v = 0 itself where X is finite there, else its limit sample like the
+        // other ranges' (RayParameterRange::first).
+        if (range_.first && !std::isfinite(evaluate(0.0).f)) end_v0_ = cut_limit_v_;
         scan(samples);
         // The end at v = 1 first: approach_end reads the samples next to an end from the front or
         // the back of the list, and each call appends its own at the back.
@@ -395,7 +399,7 @@ private:
     // anchored levels resolve n − ξ there; end_v0_, end_v1_), where the range's end is n at a
     // depth beyond the pair: X may tend to a value there (a kink of n, the surface) or diverge (a
     // smooth minimum, X ~ log), while at the end itself it may be the next range's. Only the
-    // first range's v = 0 is taken exactly (RayParameterRange::first), and the last range's v = 1
+    // first range's v = 0 is taken exactly, where X is finite there (RayParameterRange::first), and the last range's v = 1
     // (ξ = 0). root_between closes in on a root between a limit sample and the next
     // one in log distance. Next to a limit an interval is also left unsplit when X is monotone in
     // a variable in which it is smooth there (end_monotone): in the logarithm of the distance to
@@ -404,7 +408,7 @@ private:
     void scan(std::vector<Sample>& samples) const {
         const int finest = samples_;
         auto sample_at = [&](int i) {
-            if (i == 0 && !range_.first) return evaluate(end_v0_);
+            if (i == 0 && !std::isnan(end_v0_)) return evaluate(end_v0_);
             if (i == finest && range_.low_anchored) return evaluate(end_v1_);
             return evaluate(static_cast<double>(i) / finest);
         };
@@ -451,9 +455,11 @@ private:
     // (docs/physics.md §8.3). Where X has a finite limit it is w itself. In either, where the
     // slopes at both ends are within a factor 3 of the secant (monotone, as far as the cubic in
     // that variable tells), the interval holds no root if X − R keeps its sign with |X − R| beyond
-    // what the larger slope covers: true. In L it also holds exactly one where X − R changes sign
-    // (true: the finest spacing in v would resolve nothing of the decades of L below it anyway).
-    // False where monotone otherwise; empty where this does not apply (the rules in v decide).
+    // what the larger slope covers: true. In L it holds exactly one where X − R changes sign, and
+    // none where it keeps its sign, near R or not (true either way: halving in v would end at the
+    // finest spacing, an interval from the limit sample that spans nearly all the decades of L
+    // and is left unsplit, having resolved nothing of them). False where monotone otherwise; empty
+    // where this does not apply (the rules in v decide).
     std::optional<bool> end_monotone(const Sample& a, const Sample& b) const {
         const bool at_zero = a.v == end_v0_, at_one = b.v == end_v1_;
         if (at_zero == at_one || !finite_pair(a, b)) return std::nullopt;
@@ -467,7 +473,7 @@ private:
             const double secant = (b.f - a.f) / (l_b - l_a);
             const double ra = s_a / secant, rb = s_b / secant;
             if (!(ra >= 1.0 / 3.0 && ra <= 3.0 && rb >= 1.0 / 3.0 && rb <= 3.0)) continue;
-            if (a.f * b.f < 0.0) return logarithmic;
+            if (logarithmic) return true;
             const double reach = 2.0 * std::abs(l_b - l_a) * std::max(std::abs(s_a), std::abs(s_b));
             return a.f * b.f > 0.0 && std::min(std::abs(a.f), std::abs(b.f)) > reach;
         }
