@@ -214,11 +214,81 @@ private:
 // interval does not hold the receiver.
 using LegSet = std::optional<LegPieces>;
 
-// A sample interval of FamilySearch::scan, between grid points i and j.
+// A sample interval of FamilySearch::scan, between grid points i and j; `error`: the error of the
+// cubic through its parent's ends at its parent's middle (NaN: none known, see cubic_settles).
 struct ScanInterval {
     int i, j;
     Sample a, b;
+    double error = not_a_number;
 };
+
+// The cubic Hermite interpolant of X − R between two samples with finite values and slopes, in
+// t = (v − a.v)/(b.v − a.v) on [0, 1]: p(t) = c0 + c1·t + c2·t² + c3·t³, p′ = dp/dt.
+struct HermiteCubic {
+    double h, c0, c1, c2, c3;
+    HermiteCubic(const Sample& a, const Sample& b)
+        : h(b.v - a.v), c0(a.f), c1(h * a.slope), c2(-3.0 * a.f - 2.0 * h * a.slope + 3.0 * b.f - h * b.slope),
+          c3(2.0 * a.f + h * a.slope - 2.0 * b.f + h * b.slope) {}
+    double value(double t) const { return c0 + t * (c1 + t * (c2 + t * c3)); }
+    double derivative(double t) const { return c1 + t * (2.0 * c2 + t * 3.0 * c3); }
+    // The zeros of p′ strictly inside (0, 1); their count.
+    int turning_points(double (&t)[2]) const {
+        int count = 0;
+        auto keep = [&](double x) {
+            if (x > 0.0 && x < 1.0) t[count++] = x;
+        };
+        const double qa = 3.0 * c3, qb = 2.0 * c2, qc = c1;
+        if (qa == 0.0) {
+            if (qb != 0.0) keep(-qc / qb);
+        } else if (const double d = qb * qb - 4.0 * qa * qc; d >= 0.0) {
+            const double root = std::sqrt(d);
+            keep((-qb - root) / (2.0 * qa));
+            keep((-qb + root) / (2.0 * qa));
+        }
+        return count;
+    }
+};
+
+// How far X strays from the cubic through the ends of [a, b] at a sample m between them: the
+// error in X − R plus a quarter of the interval times the error in the slope (NaN where a value
+// or a slope is not finite).
+double cubic_error(const Sample& a, const Sample& b, const Sample& m) {
+    if (!finite_pair(a, b) || !finite_pair(m, m)) return not_a_number;
+    const HermiteCubic cubic(a, b);
+    const double t = (m.v - a.v) / cubic.h;
+    return std::abs(m.f - cubic.value(t)) + 0.25 * cubic.h * std::abs(m.slope - cubic.derivative(t) / cubic.h);
+}
+
+// Whether the cubic through a half's ends settles it, given `error`, the error of the cubic
+// through its parent's ends at the parent's middle (cubic_error): a half's cubic errs about 16
+// times less (the error of cubic interpolation goes like the fourth power of the interval), so
+// `error` bounds it with room to spare. No root where X − R keeps its sign and the cubic's |X − R|
+// stays above twice `error` all along; exactly one where X − R changes sign, the cubic is
+// monotone and its slope in t stays above four times `error` (X′ = p′ + δ′, δ′ about `error` in t).
+// False where no error is known.
+bool cubic_settles(const Sample& a, const Sample& b, double error) {
+    if (!(error >= 0.0) || !finite_pair(a, b)) return false;
+    const HermiteCubic cubic(a, b);
+    double turning[2];
+    const int turnings = cubic.turning_points(turning);
+    if (a.f * b.f > 0.0) {
+        double least = std::min(std::abs(a.f), std::abs(b.f));
+        for (int k = 0; k < turnings; ++k) {
+            const double value = cubic.value(turning[k]);
+            if (value * a.f <= 0.0) return false;
+            least = std::min(least, std::abs(value));
+        }
+        return least > 2.0 * error;
+    }
+    if (!(a.f * b.f < 0.0) || turnings > 0) return false;
+    // The least |p′| on [0, 1]: at an end or at the vertex of the parabola p′.
+    double least = std::min(std::abs(cubic.derivative(0.0)), std::abs(cubic.derivative(1.0)));
+    if (cubic.c3 != 0.0) {
+        const double vertex = -cubic.c2 / (3.0 * cubic.c3);
+        if (vertex > 0.0 && vertex < 1.0) least = std::min(least, std::abs(cubic.derivative(vertex)));
+    }
+    return least > 4.0 * error;
+}
 
 // The working lists of a pair's searches, kept from one range and family to the next so that
 // they allocate only while they grow.
@@ -392,19 +462,21 @@ private:
     // middle of every interval that could hide a root, down to the finest spacing. An interval is
     // left unsplit only when nothing there comes near R: X finite at both ends, X − R of one sign
     // and X beyond reach of R there (out_of_reach; the slopes may differ in sign: an extremum
-    // inside cannot reach R either). Intervals where X crosses R, diverges or ends are split to
-    // the finest spacing, as are all near R (where two close roots at a fold can hide between
+    // inside cannot reach R either); or when the cubic through its ends settles it, its error
+    // known from the cubic through its parent's ends at the parent's middle (cubic_settles: no
+    // root, or exactly one). Other intervals where X crosses R, diverges or ends are split to the
+    // finest spacing, as are all near R (where two close roots at a fold can hide between
     // samples).
     // v = 0 and v = 1 themselves are taken just inside, far below a rounding error of ξ (the
     // anchored levels resolve n − ξ there; end_v0_, end_v1_), where the range's end is n at a
     // depth beyond the pair: X may tend to a value there (a kink of n, the surface) or diverge (a
     // smooth minimum, X ~ log), while at the end itself it may be the next range's. Only the
-    // first range's v = 0 is taken exactly, where X is finite there (RayParameterRange::first), and the last range's v = 1
-    // (ξ = 0). root_between closes in on a root between a limit sample and the next
-    // one in log distance. Next to a limit an interval is also left unsplit when X is monotone in
-    // a variable in which it is smooth there (end_monotone): in the logarithm of the distance to
-    // a double root it then holds one root if X − R changes sign across it, else none (its finest
-    // spacing in v, 1/samples, would resolve nothing of the decades below it anyway).
+    // first range's v = 0 is taken exactly, where X is finite there (RayParameterRange::first),
+    // and the last range's v = 1 (ξ = 0). root_between closes in on a root between a limit sample
+    // and the next one in log distance. Next to a limit an interval is also left unsplit when X is
+    // monotone in a variable in which it is smooth there (end_monotone): in the logarithm of the
+    // distance to a double root it then holds one root if X − R changes sign across it, else none
+    // (its finest spacing in v, 1/samples, would resolve nothing of the decades below it anyway).
     void scan(std::vector<Sample>& samples) const {
         const int finest = samples_;
         auto sample_at = [&](int i) {
@@ -412,10 +484,11 @@ private:
             if (i == finest && range_.low_anchored) return evaluate(end_v1_);
             return evaluate(static_cast<double>(i) / finest);
         };
-        auto far_from_r = [&](const Sample& a, const Sample& b) {
+        auto far_from_r = [&](const ScanInterval& interval) {
+            const Sample &a = interval.a, &b = interval.b;
             if (turns_away_from_r(a, b)) return true;
             if (const auto settled = end_monotone(a, b)) return *settled;
-            return out_of_reach(a, b);
+            return out_of_reach(a, b) || cubic_settles(a, b, interval.error);
         };
         // The coarse grid: i = 0, finest/2 (rounded down) and its multiples, and finest (at most 4
         // points: finest >= 4).
@@ -435,15 +508,16 @@ private:
             while (!pending.empty()) {
                 const ScanInterval top = pending.back();
                 pending.pop_back();
-                if (top.j - top.i <= 1 || far_from_r(top.a, top.b)) {
+                if (top.j - top.i <= 1 || far_from_r(top)) {
                     if (top.j - top.i <= 1) split_below_finest(top.a, top.b, 0, samples);
                     samples.push_back(top.b);
                     continue;
                 }
                 const int middle = (top.i + top.j) / 2;
                 const Sample m = sample_at(middle);
-                pending.push_back({middle, top.j, m, top.b});  // the right half after the left
-                pending.push_back({top.i, middle, top.a, m});
+                const double error = cubic_error(top.a, top.b, m);
+                pending.push_back({middle, top.j, m, top.b, error});  // the right half after the left
+                pending.push_back({top.i, middle, top.a, m, error});
             }
         }
     }
@@ -453,8 +527,9 @@ private:
     // X is smooth next to that end, where v is not (ξ goes like v² or (1 − v)² there). Next to a
     // double root (X diverging) that is L = ln w, w = |ξ − ξ(end)|: X is close to linear in L
     // (docs/physics.md §8.3). Where X has a finite limit it is w itself. In either, where the
-    // slopes at both ends are within a factor 3 of the secant (monotone, as far as the cubic in
-    // that variable tells), the interval holds no root if X − R keeps its sign with |X − R| beyond
+    // cubic through both ends' values and slopes in that variable is monotone (Fritsch and
+    // Carlson's condition: with α and β the end slopes over the secant's, α, β >= 0 and
+    // α² + β² <= 9; it was α and β within a factor 3 of 1 before), the interval holds no root if X − R keeps its sign with |X − R| beyond
     // what the larger slope covers: true. In L it holds exactly one where X − R changes sign, and
     // none where it keeps its sign, near R or not (true either way: halving in v would end at the
     // finest spacing, an interval from the limit sample that spans nearly all the decades of L
@@ -472,7 +547,7 @@ private:
             const double s_a = logarithmic ? x_a * w_a : x_a, s_b = logarithmic ? x_b * w_b : x_b;
             const double secant = (b.f - a.f) / (l_b - l_a);
             const double ra = s_a / secant, rb = s_b / secant;
-            if (!(ra >= 1.0 / 3.0 && ra <= 3.0 && rb >= 1.0 / 3.0 && rb <= 3.0)) continue;
+            if (!(ra >= 0.0 && rb >= 0.0 && ra * ra + rb * rb <= 9.0)) continue;
             if (logarithmic) return true;
             const double reach = 2.0 * std::abs(l_b - l_a) * std::max(std::abs(s_a), std::abs(s_b));
             return a.f * b.f > 0.0 && std::min(std::abs(a.f), std::abs(b.f)) > reach;
@@ -907,23 +982,39 @@ double derivative_cosines(const StratifiedProfile& profile, const RayLevel& leve
     return 0.0;
 }
 
+// The level moved by the Newton step for X − R = `residual` (R − X) with ∂X/∂ξ = `derivative`,
+// where that step is finite, below 1e-9 of ξ and below half of the anchored offset; else the level
+// itself.
+RayLevel corrected_level(const RayLevel& level, double residual, double derivative) {
+    const double step = residual / derivative;
+    if (!std::isfinite(step) || step == 0.0 || !(std::abs(step) <= 1e-9 * level.ray_parameter)) return level;
+    if (!level.anchored) return RayLevel::plain(level.ray_parameter + step);
+    if (!(std::abs(step) <= 0.5 * std::abs(level.offset))) return level;
+    return level.with_offset(level.offset - step);
+}
+
 StratifiedPath make_path(const StratifiedProfile& profile, const RayLevel& level, const PathFamily& family,
                          const FamilyLegs& legs, double z_source, double z_receiver, double distance) {
     StratifiedPath path;
     path.kind = kind_of(family, legs.interval);
     path.family = family.label();
-    const double xi = level.ray_parameter;
-    path.ray_parameter = xi;
     // First-order correction for the root's residual: dT/dR = ξ/c along a family.
-    path.time_s = (legs.total.optical_path_m + xi * (distance - legs.total.distance_m)) / speed_of_light;
+    path.time_s = (legs.total.optical_path_m + level.ray_parameter * (distance - legs.total.distance_m)) / speed_of_light;
+    // And ξ itself by the Newton step that the residual and ∂X/∂ξ at the root give (no further
+    // integration): the search stops once that step would leave X − R below 1e-12 R, a few 1e-13
+    // of ξ, which angles near the critical angle of the surface amplify tenfold. Only a step small
+    // against ξ and against n − ξ at the anchor (a level next to a double root keeps its digits).
+    const RayLevel at = corrected_level(level, distance - legs.total.distance_m, legs.total.distance_derivative);
+    const double xi = at.ray_parameter;
+    path.ray_parameter = xi;
     path.length_m = legs.total.length_m;
     path.distance_derivative = legs.total.distance_derivative;
     path.attenuation_exponent = legs.total.attenuation_exponent;
     auto zenith_up = [&](double z) {
-        const double n = profile.index(z), g = std::max(0.0, profile.gap(level, z));
+        const double n = profile.index(z), g = std::max(0.0, profile.gap(at, z));
         return std::atan2(xi, std::sqrt(g * (n + xi)));
     };
-    path.derivative_cosines = derivative_cosines(profile, level, family, legs.total.distance_derivative, z_source,
+    path.derivative_cosines = derivative_cosines(profile, at, family, legs.total.distance_derivative, z_source,
                                                  z_receiver);
     const bool launch_up = family.ends == 0 ? z_receiver > z_source : family.starts_upward;
     const bool arrive_up = family.ends == 0 ? launch_up : !is_upper_end(family, family.ends - 1);
