@@ -762,7 +762,10 @@ private:
                 // close to linear there, and the step taken in it). The nearest other sample: the
                 // other end of the bracket, or the sample evaluated before `best` where that lies
                 // closer (the iterates approach a root from one side). The time is corrected to
-                // first order in X − R anyway (make_path).
+                // first order in X − R anyway (make_path), and so is ξ. A step that rounds to `best`
+                // itself ends it too: v resolves the root no better (next to v = 1, where d = 1 − v
+                // moves by 1e-16 per ulp, X can move by 1e-4 m per ulp of v), and the bracket would
+                // only have shrunk to two ulps around it, a dozen levels later, to the same end.
                 const Sample& other = best.v == low.v ? high : low;
                 const Sample& previous = best.v == latest.v ? before_latest : latest;
                 const Sample& near = std::abs(previous.v - best.v) < std::abs(other.v - best.v) &&
@@ -779,7 +782,7 @@ private:
                 const double curvature = std::abs((best_slope - slope_in_variable(near)) / (l_best - l_near));
                 if (std::abs(best.f) <= 1e-3 * distance_ && std::abs(near_slope / best_slope - 1.0) < 0.1 &&
                     0.5 * curvature * step_in_variable * step_in_variable <= 1e-12 * distance_ &&
-                    finish > std::min(low.v, high.v) && finish < std::max(low.v, high.v))
+                    (finish == best.v || (finish > std::min(low.v, high.v) && finish < std::max(low.v, high.v))))
                     return finish;
                 // Where X goes like log d (spans_decades), Newton's step is taken in log d, which
                 // follows that shape.
