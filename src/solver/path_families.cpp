@@ -529,8 +529,8 @@ private:
     // (docs/physics.md §8.3). Where X has a finite limit it is w itself. In either, where the
     // cubic through both ends' values and slopes in that variable is monotone (Fritsch and
     // Carlson's condition: with α and β the end slopes over the secant's, α, β >= 0 and
-    // α² + β² <= 9; it was α and β within a factor 3 of 1 before), the interval holds no root if X − R keeps its sign with |X − R| beyond
-    // what the larger slope covers: true. In L it holds exactly one where X − R changes sign, and
+    // α² + β² <= 9), the interval holds no root if X − R keeps its sign with |X − R| beyond what
+    // the larger slope covers: true. In L it holds exactly one where X − R changes sign, and
     // none where it keeps its sign, near R or not (true either way: halving in v would end at the
     // finest spacing, an interval from the limit sample that spans nearly all the decades of L
     // and is left unsplit, having resolved nothing of them). False where monotone otherwise; empty
@@ -752,13 +752,13 @@ private:
                 if (std::abs(best.f) <= 1e-13 * (1.0 + distance_) ||
                     (std::abs(newton) <= eps * std::abs(best.v) && std::abs(best.f) <= 1e-7 * (1.0 + distance_)))
                     return best.v;
-                // Within 1e-3 R of R (1e-7, then 1e-5 before; at 1e-3 the same paths with times the
-                // same to 1e-9 ns and lengths to 2e-8 m, and 1.2 % fewer levels: the bound on
-                // X″·step²/2 is what keeps the accuracy), with a slope that the secant from the nearest other sample
-                // confirms to 10 % (it is less accurate next to a turning end), the Newton step
-                // itself ends the search without another level where it leaves X − R below 1e-12 R:
-                // X″·step²/2 with X″ from the slopes at the two (X is far from linear in v next to
-                // v = 0, where ξ goes like v²). All in L = ln d where the bracket spans decades (X
+                // Within 1e-3 R of R (the bound on X″·step²/2 below is what keeps the accuracy: 1e-5
+                // R gave the same times to 1e-9 ns and lengths to 2e-8 m, with 1.2 % more levels),
+                // with a slope that the secant from the nearest other sample confirms to 10 % (it is
+                // less accurate next to a turning end), the Newton step itself ends the search
+                // without another level where it leaves X − R below 1e-12 R: X″·step²/2 with X″
+                // from the slopes at the two (X is far from linear in v next to v = 0, where ξ goes
+                // like v²). All in L = ln d where the bracket spans decades (X
                 // close to linear there, and the step taken in it). The nearest other sample: the
                 // other end of the bracket, or the sample evaluated before `best` where that lies
                 // closer (the iterates approach a root from one side). The time is corrected to
