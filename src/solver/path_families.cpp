@@ -399,9 +399,12 @@ std::optional<std::pair<double, double>> family_distance(LegSet& set, const Path
 
 class FamilySearch {
 public:
+    // fixed_ends: every leg of the family runs between depths that do not move with ξ (the pair's,
+    // the surface, the bottom), so that X grows with ξ across the range (∂X/∂ξ = ∫ n²/Q³ dz > 0).
     FamilySearch(RangeLegs& legs, const RayParameterRange& range, const PathFamily& family, double distance,
-                 int samples, SearchBuffers& buffers)
+                 int samples, SearchBuffers& buffers, bool fixed_ends)
         : legs_(legs), buffers_(buffers), range_(range), family_(family), distance_(distance), samples_(samples),
+          fixed_ends_(fixed_ends),
           cut_limit_v_(legs.distance_for_offset(cut_limit_offset * (range.high - range.low), true)),
           cut_limit_d_(legs.distance_for_offset(cut_limit_offset * (range.high - range.low), false)),
           end_v0_(range.first ? not_a_number : cut_limit_v_),  // see roots()
@@ -419,6 +422,7 @@ public:
 
     // Every v in [0, 1] with X(v) = R (valid until the next search on the same buffers).
     const std::vector<double>& roots() {
+        if (fixed_ends_ && !range_.first && monotone_root()) return buffers_.found;
         std::vector<Sample>& samples = buffers_.samples;
         // The first range's v = 0 itself where X is finite there, else its limit sample like the
         // other ranges' (RayParameterRange::first).
@@ -458,6 +462,21 @@ public:
     }
 
 private:
+    // The root of a family with fixed ends (X monotone over the range) into buffers_.found: none
+    // unless X − R changes sign between the range's two limit samples, else the one between them,
+    // refined from there. False (nothing found) where X is not finite at both.
+    bool monotone_root() const {
+        const Sample a = evaluate(end_v0_), b = evaluate(range_.low_anchored ? end_v1_ : 1.0);
+        if (!std::isfinite(a.f) || !std::isfinite(b.f)) return false;
+        std::vector<double>& found = buffers_.found;
+        found.clear();
+        double root = not_a_number;
+        if (a.f == 0.0 || b.f == 0.0) root = a.f == 0.0 ? a.v : b.v;
+        else if (a.f * b.f < 0.0) root = root_between(a, b);
+        if (!std::isnan(root)) found.push_back(root);
+        return true;
+    }
+
     // Samples of X − R at v = i / scan_samples, sorted by v: v = 0, 1/2 and 1 first, then the
     // middle of every interval that could hide a root, down to the finest spacing. An interval is
     // left unsplit only when nothing there comes near R: X finite at both ends, X − R of one sign
@@ -922,6 +941,7 @@ private:
     PathFamily family_;
     double distance_;
     int samples_;
+    bool fixed_ends_;
     double cut_limit_v_, cut_limit_d_;
     // The range's own limits taken as its first and last samples (NaN where v = 0 or 1 itself is).
     double end_v0_, end_v1_;
@@ -939,6 +959,17 @@ std::vector<RayParameterRange> ray_parameter_ranges(const StratifiedProfile& pro
                               i == 0});
     }
     return ranges;
+}
+
+// Whether every end of the family in an interval with these kinds of ends is a reflection (the
+// surface above, the bottom below), so that its legs run between fixed depths. Not the direct path
+// (its own ranges, direct_ranges).
+bool legs_have_fixed_ends(const PathFamily& family, const AccessibleInterval& interval) {
+    if (family.ends == 0) return false;
+    const bool meets_upper = family.ends >= 2 || family.starts_upward;
+    const bool meets_lower = family.ends >= 2 || !family.starts_upward;
+    return (!meets_upper || interval.upper_kind == UpperEndKind::surface) &&
+           (!meets_lower || interval.lower_kind == LowerEndKind::bottom);
 }
 
 bool family_is_degenerate(const PathFamily& family, const AccessibleInterval& interval, double z_source,
@@ -1358,7 +1389,8 @@ std::vector<StratifiedPath> find_stratified_paths(const StratifiedProfile& profi
         RangeLegs range_legs(profile, range, z_source, z_receiver, buffers.levels);
         for (const PathFamily& family : families) {
             if (family_is_degenerate(family, *interval, z_source, z_receiver, options.bottom_paths)) continue;
-            FamilySearch search(range_legs, range, family, distance, options.scan_samples, buffers);
+            FamilySearch search(range_legs, range, family, distance, options.scan_samples, buffers,
+                                legs_have_fixed_ends(family, *interval));
             for (double v : search.roots()) {
                 const RayLevel level = range_legs.level(v);
                 const auto legs =
