@@ -867,23 +867,14 @@ private:
         if (!(a.slope * secant > 0.0 && b.slope * secant > 0.0) || !(a.f * b.f < 0.0)) return not_a_number;
         const double low = std::min(a.v, b.v), high = std::max(a.v, b.v);
         if (!(low > 0.0 && high < 1.0) || spans_decades(low, high)) return not_a_number;
-        // p(t) on t in [0, 1] from a to b, and p′(t).
-        const double ma = a.slope * h, mb = b.slope * h;
-        auto cubic = [&](double t, double& derivative) {
-            const double t2 = t * t, t3 = t2 * t;
-            derivative = (6.0 * t2 - 6.0 * t) * a.f + (3.0 * t2 - 4.0 * t + 1.0) * ma + (6.0 * t - 6.0 * t2) * b.f +
-                         (3.0 * t2 - 2.0 * t) * mb;
-            return (2.0 * t3 - 3.0 * t2 + 1.0) * a.f + (t3 - 2.0 * t2 + t) * ma + (3.0 * t2 - 2.0 * t3) * b.f +
-                   (t3 - t2) * mb;
-        };
+        const HermiteCubic cubic(a, b);  // p(t) on t in [0, 1] from a to b
         double t_low = 0.0, t_high = 1.0;  // p(t_low) has a.f's sign
         double t = a.f / (a.f - b.f);
         for (int iteration = 0; iteration < 40; ++iteration) {
-            double derivative = 0.0;
-            const double p = cubic(t, derivative);
+            const double p = cubic.value(t);
             if (p == 0.0) break;
             ((p > 0.0) == (a.f > 0.0) ? t_low : t_high) = t;
-            double next = t - p / derivative;
+            double next = t - p / cubic.derivative(t);
             if (!(next > std::min(t_low, t_high) && next < std::max(t_low, t_high))) next = 0.5 * (t_low + t_high);
             if (std::abs(next - t) <= 1e-15) {
                 t = next;
