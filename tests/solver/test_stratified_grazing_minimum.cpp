@@ -61,6 +61,13 @@ double minimum_at_6_m(const StratifiedProfile& profile) {
     return z_min;
 }
 
+// models/halvard-log.toml, its profile and that minimum (0 where the log has none there).
+struct HalvardMinimum {
+    FirnModel model = load_model_file(test::source_path("models/halvard-log.toml"));
+    StratifiedProfile profile{model.index};
+    double z_min = minimum_at_6_m(profile);
+};
+
 // A ray turning ρ above n_min just below z_min: its turning point δ_t (δ = z − z_min) from the
 // piece's cubic by Newton's method, and x and c·T of one leg from there down to δ = d_end in the
 // same piece, in u (δ = δ_t − u²).
@@ -160,6 +167,17 @@ std::optional<StratifiedPath> turning_path(const StratifiedProfile& profile, dou
     return std::nullopt;
 }
 
+// That path, required, with its time within 0.01 ns of the reference's.
+StratifiedPath check_turning_path(const StratifiedProfile& profile, double z_source, double z_receiver,
+                                  const Grazing& ref, double rho) {
+    INFO(std::setprecision(12) << "ξ − n_min " << rho << ", R " << ref.distance_m << " m, turning at "
+                               << ref.turning_z << " m");
+    const auto match = turning_path(profile, z_source, z_receiver, ref);
+    REQUIRE(match);
+    CHECK(std::abs(match->time_s - ref.time_s) < 0.01e-9);
+    return *match;
+}
+
 }  // namespace
 
 TEST_CASE("paths turning just short of a local minimum of a measured log (ξ − n_min from 1e-6 down to 1e-21) "
@@ -167,19 +185,13 @@ TEST_CASE("paths turning just short of a local minimum of a measured log (ξ −
           "[solver][stratified]") {
     // models/halvard-log.toml: n has a local minimum at a knot 6 m deep, lower than everything
     // down to the pair below it.
-    const FirnModel model = load_model_file(test::source_path("models/halvard-log.toml"));
-    const StratifiedProfile profile(model.index);
-    const double z_min = minimum_at_6_m(profile);
-    REQUIRE(z_min != 0.0);
+    const HalvardMinimum log;
+    REQUIRE(log.z_min != 0.0);
     const double z_source = -20.0, z_receiver = -35.0;
     for (const double rho : {1e-6, 1e-9, 1e-12, 1e-15, 1e-18, 1e-21}) {
-        const Grazing ref = grazing_below(*model.index, z_min, rho, z_source, z_receiver);
-        INFO(std::setprecision(12) << "ξ − n_min " << rho << ", R " << ref.distance_m << " m, turning at "
-                                   << ref.turning_z << " m");
-        const auto match = turning_path(profile, z_source, z_receiver, ref);
-        REQUIRE(match);
-        CHECK(std::abs(match->time_s - ref.time_s) < 0.01e-9);
-        CHECK(match->turns[0].z_m < z_min);
+        const Grazing ref = grazing_below(*log.model.index, log.z_min, rho, z_source, z_receiver);
+        INFO("ξ − n_min " << rho);
+        CHECK(check_turning_path(log.profile, z_source, z_receiver, ref, rho).turns[0].z_m < log.z_min);
     }
 }
 
@@ -188,16 +200,14 @@ TEST_CASE("direct paths across a local minimum of a measured log between the end
           "[solver][stratified]") {
     // The same minimum 6 m deep; both ends within its two pieces of the table, so that the cubics
     // written about it hold over the whole leg.
-    const FirnModel model = load_model_file(test::source_path("models/halvard-log.toml"));
-    const StratifiedProfile profile(model.index);
-    const double z_min = minimum_at_6_m(profile);
-    REQUIRE(z_min != 0.0);
-    const double z_source = z_min + 0.4, z_receiver = z_min - 0.7;
-    REQUIRE(test::piece_holding(*model.index, z_source) + 1 == test::piece_holding(*model.index, z_receiver));
+    const HalvardMinimum log;
+    REQUIRE(log.z_min != 0.0);
+    const double z_source = log.z_min + 0.4, z_receiver = log.z_min - 0.7;
+    REQUIRE(test::piece_holding(*log.model.index, z_source) + 1 == test::piece_holding(*log.model.index, z_receiver));
     for (const double rho : {1e-6, 1e-9, 1e-12, 1e-15, 1e-18, 1e-21}) {
-        const auto [distance, optical] = direct_across(*model.index, z_min, rho, z_source, z_receiver);
+        const auto [distance, optical] = direct_across(*log.model.index, log.z_min, rho, z_source, z_receiver);
         INFO(std::setprecision(12) << "n_min − ξ " << rho << ", R " << distance << " m");
-        const auto paths = find_stratified_paths(profile, z_source, z_receiver, distance);
+        const auto paths = find_stratified_paths(log.profile, z_source, z_receiver, distance);
         const StratifiedPath* match = nullptr;
         for (const auto& path : paths)
             if (path.family == "direct") match = &path;
@@ -214,34 +224,28 @@ TEST_CASE("paths turning just short of a local minimum with both ends in the min
     // turning point to a fixed depth inside one cell (snell_integrals.cpp, turning_next_to_double_root
     // up to that depth). Down to 1e-24: the finder's samples next to a minimum reach n − ξ of 1e-24
     // of their range of ξ.
-    const FirnModel model = load_model_file(test::source_path("models/halvard-log.toml"));
-    const StratifiedProfile profile(model.index);
-    const double z_min = minimum_at_6_m(profile);
-    REQUIRE(z_min != 0.0);
-    const double z_source = z_min - 0.3, z_receiver = z_min - 0.8;
-    REQUIRE(test::piece_holding(*model.index, z_source) == test::piece_holding(*model.index, z_receiver));
-    REQUIRE(test::piece_holding(*model.index, z_source) == test::piece_holding(*model.index, z_min - 1e-9));
+    const HalvardMinimum log;
+    REQUIRE(log.z_min != 0.0);
+    const double z_source = log.z_min - 0.3, z_receiver = log.z_min - 0.8;
+    REQUIRE(test::piece_holding(*log.model.index, z_source) == test::piece_holding(*log.model.index, z_receiver));
+    REQUIRE(test::piece_holding(*log.model.index, z_source) ==
+            test::piece_holding(*log.model.index, log.z_min - 1e-9));
     for (const double rho : {1e-6, 1e-9, 1e-12, 1e-15, 1e-18, 1e-21, 1e-24}) {
-        const Grazing ref = grazing_in_piece(*model.index, z_min, rho, z_source, z_receiver);
-        INFO(std::setprecision(12) << "ξ − n_min " << rho << ", R " << ref.distance_m << " m, turning at "
-                                   << ref.turning_z << " m");
-        const auto match = turning_path(profile, z_source, z_receiver, ref);
-        REQUIRE(match);
-        CHECK(std::abs(match->time_s - ref.time_s) < 0.01e-9);
+        const Grazing ref = grazing_in_piece(*log.model.index, log.z_min, rho, z_source, z_receiver);
+        check_turning_path(log.profile, z_source, z_receiver, ref, rho);
     }
 }
 
 TEST_CASE("a leg across a local minimum of n with ξ equal to n there is infinitely long (the ray runs along the "
           "minimum for ever: x diverges like the integral of 1/|z − z_min|, common practice)",
           "[solver][stratified][snell tables]") {
-    const FirnModel model = load_model_file(test::source_path("models/halvard-log.toml"));
-    const StratifiedProfile profile(model.index);
-    const double z_min = minimum_at_6_m(profile);
-    REQUIRE(z_min != 0.0);
-    const RayLevel level = RayLevel::anchored_at(profile, z_min, 0.0);
+    const HalvardMinimum log;
+    REQUIRE(log.z_min != 0.0);
+    const RayLevel level = RayLevel::anchored_at(log.profile, log.z_min, 0.0);
+    const double z_min = log.z_min;
     for (const auto& [a, b] : {std::pair{z_min - 0.7, z_min + 0.4}, std::pair{z_min - 0.7, z_min}, std::pair{z_min, z_min + 0.4}}) {
         INFO("from " << a << " to " << b << " m");
-        const LegIntegrals leg = leg_integrals(profile, level, {a}, {b});
+        const LegIntegrals leg = leg_integrals(log.profile, level, {a}, {b});
         CHECK(std::isinf(leg.distance_m));
         CHECK(std::isinf(leg.optical_path_m));
     }
