@@ -10,11 +10,20 @@ namespace firnray {
 
 void IndexProfile::piece_index(std::size_t, double z, double& n, double& dn_dz, double& d2n_dz2) const {
     constexpr double h = 1e-3;  // m, as the ray equations' own difference
-    double n_up, g_up, n_down, g_down;
-    index_and_gradient(z + h, n_up, g_up);
-    index_and_gradient(z - h, n_down, g_down);
     index_and_gradient(z, n, dn_dz);
-    d2n_dz2 = (g_up - g_down) / (2.0 * h);
+    double n_1, g_1, n_2, g_2;
+    if (z + h <= 0.0) {
+        index_and_gradient(z + h, n_1, g_1);
+        index_and_gradient(z - h, n_2, g_2);
+        d2n_dz2 = (g_1 - g_2) / (2.0 * h);
+        return;
+    }
+    // Within h of the surface, from below only (a profile is not defined above it, and is
+    // commonly held at its surface value there): the one-sided difference of the same order,
+    // (3g(z) − 4g(z − h) + g(z − 2h)) / 2h (common practice).
+    index_and_gradient(z - h, n_1, g_1);
+    index_and_gradient(z - 2.0 * h, n_2, g_2);
+    d2n_dz2 = (3.0 * dn_dz - 4.0 * g_1 + g_2) / (2.0 * h);
 }
 
 static void require_index(double n, const char* key) {

@@ -30,7 +30,8 @@ public:
     // join, piece k between joins k−1 and k, piece joins_z().size() below the last.
     virtual std::span<const double> joins_z() const { return {}; }
     // n, dn/dz and d²n/dz² of one piece, continued as the same smooth function beyond its ends.
-    // The default (one piece) is the profile, with d²n/dz² by a central difference of dn/dz.
+    // The default (one piece) is the profile, with d²n/dz² by a central difference of dn/dz
+    // (one-sided within 1 mm of the surface).
     virtual void piece_index(std::size_t piece, double z, double& n, double& dn_dz, double& d2n_dz2) const;
 
     // "constant", "exponential", "layered", "table".

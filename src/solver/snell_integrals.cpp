@@ -680,11 +680,11 @@ public:
         const double q1 = 2.0 * n * dn, q2 = 2.0 * (dn * dn + n * d2n);
         double curvature_length = q2 == 0.0 ? infinity : std::abs(q1 / q2);
         // Also well short of where n′ may vanish (a zero of n′ + n″δ + n‴δ²/2 lies at least
-        // min(|n′/n″|, √|2n′/n‴|)/2 away, Fujiwara's bound): with a turning end the ξ-derivative is
+        // min(|n′/n″|, √|2n′/n‴|)/2 away, Fujiwara's bound): the ξ-derivative over the piece is
         // taken by parts through h = 1/(n n′), which has a pole there. Near an inflection point n″
         // alone would not see it (a cell between a minimum and a maximum of n).
         const double third = profile_.third_derivative(cell, z_end);
-        if (kind == LegEnd::turning && third != 0.0)
+        if (third != 0.0)
             curvature_length = std::min(curvature_length, std::sqrt(std::abs(2.0 * dn / third)));
         const double cell_room = std::max(0.0, inward > 0 ? profile_.cell_top(cell) - z_end : z_end - profile_.cell_bottom(cell));
         piece.length = std::min({available, 0.125 * curvature_length, cell_room});
@@ -693,64 +693,63 @@ public:
         return piece;
     }
 
-    // ∫ over the end piece in u. The end is at z_end, the root (n = ξ, real or extrapolated) at
-    // distance e = g0/slope_in beyond it; u runs from √e to √(e + length).
+    // ∫ over the end piece in u, one 16-point Gauss–Legendre panel. The end is at z_end, the root
+    // (n = ξ, real or extrapolated) at distance e = g0/slope_in beyond it; u runs from √e to
+    // √(e + length). x, c·T and s are smooth in u. ∂x/∂ξ is taken by parts (ξ/Q = ξ h dQ/dz,
+    // h = 1/(n n′)): with z_m the piece's far end,
+    //   ∂/∂ξ ∫_{z_m}^{z_e} ξ/Q dz = [h Q − ξ² h/Q]_{z_m}^{z_e} − ∫ Q h′ dz + ξ² ∫ h′/Q dz,
+    // whose integrands are smooth in u too (∫ n²/Q³ dz itself goes like 1/u² next to a root just
+    // beyond a fixed end, and would need panels shrinking toward it). At a turning end the terms
+    // at z_e are left out: Q = 0 there, and the end moving with ξ cancels the singular one (the
+    // total derivative). At a fixed end where n = ξ to the last bit, ∂x/∂ξ is infinite.
     void end_piece(double z_end, LegEnd kind, int inward, std::size_t cell, double g0, double slope_in, double length) {
         if (failed_) return;
         const double e = kind == LegEnd::turning ? 0.0 : g0 / slope_in;
         const double u0 = std::sqrt(e), u1 = std::sqrt(e + length);
-        // One panel from a turning point; from a root beyond a fixed end, panels doubling in u,
-        // because ∂x/∂ξ there goes like 1/u² (the other integrands are smooth in u either way).
-        // Panel k is [u0·2^k, min(u1, u0·2^(k+1))] (the whole [u0, u1] where it is one).
-        const bool one_panel = u0 == 0.0 || u1 <= 2.0 * u0;
-        const GaussRule& r = rule(one_panel ? 16 : 10);
-        double by_parts_q = 0.0, by_parts_inverse = 0.0;  // ∫ Q h′ |dz| and ∫ h′/Q |dz|, h = 1/(n n′)
-        for (double pa = u0;; pa *= 2.0) {
-            const double pb = one_panel ? u1 : std::min(u1, 2.0 * pa);
-            const double centre = 0.5 * (pa + pb), half = 0.5 * (pb - pa);
-            for (std::size_t i = 0; i < r.nodes.size(); ++i) {
-                const double u = centre + half * r.nodes[i], w = half * r.weights[i];
-                const double rise = (u - u0) * (u + u0);  // u² − e: distance from the end, exactly
-                const double z = z_end + inward * rise;
-                double n, dn, d2n;
-                profile_.evaluate(cell, z, n, dn, d2n);
-                const double difference = profile_.divided_difference(cell, z, z_end) * inward;  // d(n)/d(rise)
-                const double gap_over_u2 = (g0 + difference * rise) / (u * u);
-                const double k = std::sqrt((kind == LegEnd::turning ? difference : gap_over_u2) * (n + xi_));  // Q/u
-                sums_.x += w * 2.0 * xi_ / k;
-                if (with_time_) {
-                    sums_.optical += w * 2.0 * n * n / k;
-                    sums_.length += w * 2.0 * n / k;
-                    if (attenuation_) sums_.attenuation += w * 2.0 * n / (k * attenuation_->length_m(z));
-                }
-                if (with_derivative_) {
-                    if (kind == LegEnd::turning) {
-                        const double nn = n * dn;
-                        const double h_prime = -(dn * dn + n * d2n) / (nn * nn);
-                        by_parts_q += w * 2.0 * u * u * k * h_prime;
-                        by_parts_inverse += w * 2.0 * h_prime / k;
-                    } else {
-                        sums_.derivative += w * 2.0 * n * n / (u * u * k * k * k);
-                    }
-                }
-            }
-            if (one_panel || !(2.0 * pa < u1)) break;
-        }
-        if (with_derivative_ && kind == LegEnd::turning) {
-            // x over the piece by parts (ξ/Q = ξ h dQ/dz): with z_m the piece's far end and z_t the
-            // turning point, x = −ξ h_m Q_m − ξ ∫_{z_m}^{z_t} Q h′ dz, whose ξ-derivative has no
-            // singular term left (Q(z_t) = 0).
-            const double z_m = z_end + inward * length;
+        const GaussRule& r = rule(16);
+        double by_parts_q = 0.0, by_parts_inverse = 0.0;  // ∫ Q h′ |dz| and ∫ h′/Q |dz|
+        const double centre = 0.5 * (u0 + u1), half = 0.5 * (u1 - u0);
+        for (std::size_t i = 0; i < r.nodes.size(); ++i) {
+            const double u = centre + half * r.nodes[i], w = half * r.weights[i];
+            const double rise = (u - u0) * (u + u0);  // u² − e: distance from the end, exactly
+            const double z = z_end + inward * rise;
             double n, dn, d2n;
-            profile_.evaluate(cell, z_m, n, dn, d2n);
-            const double g_m = profile_.divided_difference(cell, z_m, z_end) * (z_m - z_end);
-            const double q_m = std::sqrt(g_m * (n + xi_)), h_m = 1.0 / (n * dn);
-            const double orientation = -inward;  // sign of z_t − z_m
-            const double signed_derivative =
-                -q_m * h_m + xi_ * xi_ * h_m / q_m + orientation * (-by_parts_q + xi_ * xi_ * by_parts_inverse);
-            sums_.derivative += orientation * signed_derivative;
+            profile_.evaluate(cell, z, n, dn, d2n);
+            const double difference = profile_.divided_difference(cell, z, z_end) * inward;  // d(n)/d(rise)
+            const double gap_over_u2 = (g0 + difference * rise) / (u * u);
+            const double k = std::sqrt((kind == LegEnd::turning ? difference : gap_over_u2) * (n + xi_));  // Q/u
+            sums_.x += w * 2.0 * xi_ / k;
+            if (with_time_) {
+                sums_.optical += w * 2.0 * n * n / k;
+                sums_.length += w * 2.0 * n / k;
+                if (attenuation_) sums_.attenuation += w * 2.0 * n / (k * attenuation_->length_m(z));
+            }
+            if (with_derivative_) {
+                const double nn = n * dn;
+                const double h_prime = -(dn * dn + n * d2n) / (nn * nn);
+                by_parts_q += w * 2.0 * u * u * k * h_prime;
+                by_parts_inverse += w * 2.0 * h_prime / k;
+            }
         }
-        if (with_derivative_ && kind == LegEnd::fixed && u0 == 0.0) sums_.derivative = infinity;
+        if (!with_derivative_) return;
+        if (kind == LegEnd::fixed && u0 == 0.0) {
+            sums_.derivative = infinity;
+            return;
+        }
+        const double z_m = z_end + inward * length;
+        double n, dn, d2n;
+        profile_.evaluate(cell, z_m, n, dn, d2n);
+        const double g_m = g0 + profile_.divided_difference(cell, z_m, z_end) * (z_m - z_end);
+        const double q_m = std::sqrt(g_m * (n + xi_)), h_m = 1.0 / (n * dn);
+        const double orientation = -inward;  // sign of z_e − z_m
+        double signed_derivative =
+            -q_m * h_m + xi_ * xi_ * h_m / q_m + orientation * (-by_parts_q + xi_ * xi_ * by_parts_inverse);
+        if (kind == LegEnd::fixed) {
+            profile_.evaluate(cell, z_end, n, dn, d2n);
+            const double q_e = std::sqrt(g0 * (n + xi_)), h_e = 1.0 / (n * dn);
+            signed_derivative += q_e * h_e - xi_ * xi_ * h_e / q_e;
+        }
+        sums_.derivative += orientation * signed_derivative;
     }
 
     Sums& sums() { return sums_; }
