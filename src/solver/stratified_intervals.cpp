@@ -324,7 +324,20 @@ double StratifiedProfile::index_difference(double z, double z_ref) const {
 }
 
 double StratifiedProfile::gap(const RayLevel& level, double z) const {
-    if (level.anchored) return index_difference(z, level.anchor_z) + level.offset;
+    if (level.anchored) {
+        // Three cells or more from the anchor's: index_difference would take n(z) − n(anchor)
+        // (no cell between them is shared), and the level holds n(anchor) already.
+        if (!exponential_) {
+            const double at = std::min(z, 0.0);
+            const std::size_t cell = cell_at(at), anchor = level.anchor_cell;
+            if (cell >= anchor + 3 || anchor >= cell + 3) {
+                double n, dn, d2n;
+                evaluate(cell, at, n, dn, d2n);
+                return (n - level.anchor_index) + level.offset;
+            }
+        }
+        return index_difference(z, level.anchor_z) + level.offset;
+    }
     if (exponential_) return (exp_a_ - level.ray_parameter) - exp_b_ * std::exp(exp_c_ * std::min(z, 0.0));
     return index(z) - level.ray_parameter;
 }
