@@ -30,6 +30,21 @@ TEST_CASE("a one-layer profile is the exponential profile of docs/physics.md §1
     CHECK(layered.kind() == "layered");
 }
 
+TEST_CASE("layered profile: d²n/dz² of piece_index is the exponential's at and just below the surface, where the "
+          "profile is not continued above it",
+          "[model][layered]") {
+    // n = n_deep − (n_deep − n_top)·exp(z/L) for z <= 0: d²n/dz² = −(n_deep − n_top)·exp(z/L)/L².
+    LayeredProfile layered(1.33, {ExponentialLayer{10.0, 1.85, 30.0}, ExponentialLayer{INFINITY, 1.78, 40.0}}, 2.0);
+    for (double z : {0.0, -2e-4, -1e-3, -0.5, -5.0}) {
+        double n, dn, d2n;
+        layered.piece_index(0, z, n, dn, d2n);
+        const double expected = -(1.85 - 1.33) * std::exp(z / 30.0) / (30.0 * 30.0);
+        INFO("z " << z);
+        CHECK(n == Approx(stage(1.85, 1.33, 30.0, 0.0, -z)).epsilon(1e-15));
+        CHECK(d2n == Approx(expected).epsilon(1e-6));
+    }
+}
+
 TEST_CASE("two densification stages (Herron & Langway 1980): layer formulas hold outside the transition",
           "[model][layered]") {
     // Fast stage to 15 m, slow stage below; the transition is 2 m wide, centred on 15 m.

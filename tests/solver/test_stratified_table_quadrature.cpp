@@ -168,6 +168,29 @@ TEST_CASE("stratified legs on a layered profile (smooth transitions, no joins, g
         CHECK(ours.distance_m == Approx(ref.distance_m).epsilon(1e-10).margin(1e-13));
         CHECK(ours.optical_path_m == Approx(ref.optical_path_m).epsilon(1e-10));
         CHECK(ours.length_m == Approx(ref.length_m).epsilon(1e-10));
+        CHECK(ours.distance_derivative == Approx(ref.distance_derivative).epsilon(1e-9));
+    }
+}
+
+TEST_CASE("stratified ∂x/∂ξ of legs ending at the surface of a layered profile with n − ξ small there (a ray "
+          "nearly grazing the surface) agrees with tanh_sinh quadrature of ∫ n²/Q³ dz (Boost.Math)",
+          "[solver][stratified]") {
+    // The end piece at the surface takes ∂x/∂ξ by parts through h = 1/(n n′), so it needs d²n/dz²
+    // right at the surface, where a generic profile's is a one-sided difference.
+    auto layered = std::make_shared<LayeredProfile>(
+        1.33, std::vector<ExponentialLayer>{ExponentialLayer{10.0, 1.85, 30.0}, ExponentialLayer{INFINITY, 1.78, 40.0}},
+        2.0);
+    const StratifiedProfile profile(layered);
+    const std::vector<double> breaks{-11.0, -9.0};  // the transition zone
+    struct Leg {
+        double xi, z_low;
+    };
+    for (const Leg& leg : {Leg{1.3294405839, -26.75}, Leg{1.3294405839, -180.0}, Leg{1.3299, -5.0}, Leg{1.32999, -60.0}}) {
+        const auto ours = leg_integrals(profile, RayLevel::plain(leg.xi), {leg.z_low}, {0.0});
+        const auto ref = test::snell_integrals(*layered, leg.xi, leg.z_low, 0.0, test::plain_gap(*layered, leg.xi), breaks);
+        INFO("ξ " << leg.xi << " from " << leg.z_low << " to the surface");
+        CHECK(ours.distance_m == Approx(ref.distance_m).epsilon(1e-10));
+        CHECK(ours.distance_derivative == Approx(ref.distance_derivative).epsilon(1e-8));
     }
 }
 
