@@ -73,7 +73,16 @@ struct SnellCellTables {
         return block.piece_count - static_cast<std::size_t>(base_levels) + static_cast<std::size_t>(k);
     }
 
-    std::vector<std::vector<Block>> levels;  // levels[L][i]
+    // levels[L][i]: the block of level L starting at cell i·2^L, or, with every_offset, at cell i.
+    std::vector<std::vector<Block>> levels;
+    // Blocks of every level start at every cell (profiles of up to max_every_offset cells), not at
+    // multiples of their size only: a run of whole cells is then the blocks of its length's binary
+    // digits, from its first cell down (about half as many as aligned blocks need).
+    bool every_offset = false;
+    static constexpr std::size_t max_every_offset = 512;
+    const Block& block_at(std::size_t level, std::size_t cell) const {
+        return levels[level][every_offset ? cell : cell >> level];
+    }
     std::unique_ptr<std::atomic<Piece*>[]> pieces;
     std::size_t piece_total = 0;
 
@@ -573,11 +582,12 @@ public:
     std::size_t from_tables(std::size_t cell, std::size_t last_whole) {
         if (failed_) return 0;
         SnellCellTables& tables = this->tables();
-        // Blocks of level L start at multiples of 2^L: none above the lowest set bit of `cell`.
+        // Aligned blocks of level L start at multiples of 2^L: none above the lowest set bit of `cell`.
         std::size_t top_level = std::min(table_levels_, tables.levels.size());
-        if (cell != 0) top_level = std::min(top_level, static_cast<std::size_t>(std::countr_zero(cell)) + 1);
+        if (cell != 0 && !tables.every_offset)
+            top_level = std::min(top_level, static_cast<std::size_t>(std::countr_zero(cell)) + 1);
         for (std::size_t level = top_level; level-- > 0;) {
-            const SnellCellTables::Block& block = tables.levels[level][cell >> level];
+            const SnellCellTables::Block& block = tables.block_at(level, cell);
             if (block.last_cell > last_whole) continue;
             if (add_block(tables, level, block)) return block.last_cell - block.first_cell + 1;
         }
@@ -983,9 +993,10 @@ std::shared_ptr<SnellCellTables> make_snell_cell_tables(const StratifiedProfile&
     }
     first_knot.push_back(knots.size());
     std::size_t total = 0;
+    tables->every_offset = count <= SnellCellTables::max_every_offset;
     for (std::size_t size = 1, level = 0; size < 2 * count; size *= 2, ++level) {
         auto& blocks = tables->levels.emplace_back();
-        for (std::size_t first = 0; first < count; first += size) {
+        for (std::size_t first = 0; first < count; first += tables->every_offset ? 1 : size) {
             SnellCellTables::Block& block = blocks.emplace_back();
             block.first_cell = first;
             block.last_cell = std::min(count, first + size) - 1;
