@@ -130,6 +130,7 @@ void StratifiedProfile::build_cell_buckets() {
     for (std::size_t i = 0; i <= buckets; ++i)
         bucket_edges_[i] = bucket_floor_ * (static_cast<double>(i) / static_cast<double>(buckets));
     bucket_edges_[buckets] = bucket_floor_;
+    bucket_scale_ = static_cast<double>(buckets) / bucket_floor_;
     bucket_cells_.resize(buckets);
     for (std::size_t i = 0; i < buckets; ++i) {
         const double top = bucket_edges_[i], bottom = bucket_edges_[i + 1];
@@ -239,14 +240,20 @@ std::size_t StratifiedProfile::cell_at(double z, int toward) const {
     // in the bottoms alone, within the range that z's bucket allows.
     auto begin = cell_bottoms_.begin(), end = cell_bottoms_.end();
     const std::size_t buckets = bucket_cells_.size();
-    const double position = z / bucket_floor_ * static_cast<double>(buckets);
+    const double position = z * bucket_scale_;
     if (position >= 0.0 && position < static_cast<double>(buckets)) {
         auto i = static_cast<std::size_t>(position);
-        // The bucket whose stored edges hold z (the division may round across an edge).
+        // The bucket whose stored edges hold z (the product may round across an edge).
         while (i > 0 && z > bucket_edges_[i]) --i;
         while (i + 1 < buckets && z < bucket_edges_[i + 1]) ++i;
-        end = begin + bucket_cells_[i].second;
-        begin += bucket_cells_[i].first;
+        // One to three cells: a linear search, the same answer as the partition point below.
+        std::size_t k = bucket_cells_[i].first;
+        const std::size_t last = bucket_cells_[i].second;
+        if (toward > 0)
+            while (k < last && cell_bottoms_[k] > z) ++k;
+        else
+            while (k < last && cell_bottoms_[k] >= z) ++k;
+        return k < cells_.size() ? k : cells_.size() - 1;
     }
     const auto it = toward > 0 ? std::partition_point(begin, end, [&](double bottom) { return bottom > z; })
                                : std::partition_point(begin, end, [&](double bottom) { return bottom >= z; });

@@ -262,6 +262,7 @@ private:
     // cell_at's index: the depth range cut into equal buckets, bucket i from bucket_edges_[i] down
     // to bucket_edges_[i + 1]; the answer for any z in it lies in bucket_cells_[i] (first, last].
     double bucket_floor_ = 0.0;
+    double bucket_scale_ = 0.0;  // buckets per metre of depth: bucket_cells_.size() / bucket_floor_
     std::vector<double> bucket_edges_;
     std::vector<std::pair<std::uint32_t, std::uint32_t>> bucket_cells_;
     void build_cell_buckets();
