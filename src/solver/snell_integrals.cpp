@@ -582,8 +582,12 @@ public:
     std::size_t from_tables(std::size_t cell, std::size_t last_whole) {
         if (failed_) return 0;
         SnellCellTables& tables = this->tables();
-        // Aligned blocks of level L start at multiples of 2^L: none above the lowest set bit of `cell`.
+        // None longer than the run (2^L cells for level L), but for the last blocks of each level,
+        // cut short at the profile's last cell; aligned blocks of level L start at multiples of
+        // 2^L: none above the lowest set bit of `cell`.
         std::size_t top_level = std::min(table_levels_, tables.levels.size());
+        if (last_whole + 1 < profile_.cell_count())
+            top_level = std::min(top_level, static_cast<std::size_t>(std::bit_width(last_whole - cell + 1)));
         if (cell != 0 && !tables.every_offset)
             top_level = std::min(top_level, static_cast<std::size_t>(std::countr_zero(cell)) + 1);
         for (std::size_t level = top_level; level-- > 0;) {
