@@ -690,6 +690,10 @@ public:
         } else {
             g0 = std::max(0.0, profile_.gap_in_cell(level_, cell, z_end, n));
             if (!(slope_in > 0.0)) return piece;  // n does not fall toward a root beyond this end
+            // The root beyond the end no nearer than the piece could reach (the rest of the cell
+            // or half the leg): no piece, whatever its length.
+            const double room_in = inward > 0 ? profile_.cell_top(cell) - z_end : z_end - profile_.cell_bottom(cell);
+            if (!(g0 / slope_in < std::min(available, room_in))) return piece;
         }
         const double q1 = 2.0 * n * dn, q2 = 2.0 * (dn * dn + n * d2n);
         double curvature_length = q2 == 0.0 ? infinity : std::abs(q1 / q2);
