@@ -6,6 +6,7 @@
 #include <bit>
 #include <cmath>
 #include <cstdint>
+#include <cstring>
 #include <limits>
 #include <memory>
 #include <optional>
@@ -42,11 +43,16 @@ namespace firnray {
 struct SnellCellTables {
     static constexpr int degree = 16;
     static constexpr int nodes = degree + 1;
-    // The four series of a piece: x/ξ, c·T, s and w·∂x/∂ξ.
+    // The four series of a piece: x/ξ (series 0), c·T (1), s (2) and w·∂x/∂ξ (3). Stored by degree,
+    // the pairs that the evaluation takes side by side next to each other: x/ξ and w·∂x/∂ξ, then
+    // c·T and s (slot_of).
     struct Piece {
         bool tabulated = false;
         double w_low = 0.0, w_high = 0.0;
-        double coefficients[4][nodes] = {};
+        alignas(16) double coefficients[nodes][4] = {};
+        static constexpr int slot_of[4] = {0, 2, 3, 1};
+        double& coefficient(int series, int m) { return coefficients[m][slot_of[series]]; }
+        double coefficient(int series, int m) const { return coefficients[m][slot_of[series]]; }
     };
     struct Block {
         std::size_t first_cell = 0, last_cell = 0;
@@ -641,25 +647,31 @@ public:
         // so the same sums to the bit, in half the instructions).
         using Pair = double __attribute__((vector_size(16)));
         const double two_t = 2.0 * t;
-        const double (&c)[4][SnellCellTables::nodes] = piece.coefficients;
+        const double (&c)[SnellCellTables::nodes][4] = piece.coefficients;
+        // The pair of coefficients of degree m in slots `slot` and slot + 1, in one load.
+        auto pair_at = [&](int m, int slot) {
+            Pair pair;
+            std::memcpy(&pair, &c[m][slot], sizeof pair);
+            return pair;
+        };
         Pair xd1 = {0.0, 0.0}, xd2 = {0.0, 0.0};  // x and ∂x/∂ξ
         if (with_time_) {
             Pair ol1 = {0.0, 0.0}, ol2 = {0.0, 0.0};  // optical path and length
             for (int m = SnellCellTables::degree; m >= 1; --m) {
-                const Pair xd0 = two_t * xd1 - xd2 + Pair{c[0][m], c[3][m]};
-                const Pair ol0 = two_t * ol1 - ol2 + Pair{c[1][m], c[2][m]};
+                const Pair xd0 = two_t * xd1 - xd2 + pair_at(m, 0);
+                const Pair ol0 = two_t * ol1 - ol2 + pair_at(m, 2);
                 xd2 = xd1, xd1 = xd0, ol2 = ol1, ol1 = ol0;
             }
-            sums_.optical += t * ol1[0] - ol2[0] + c[1][0];
-            sums_.length += t * ol1[1] - ol2[1] + c[2][0];
+            sums_.optical += t * ol1[0] - ol2[0] + c[0][2];
+            sums_.length += t * ol1[1] - ol2[1] + c[0][3];
         } else {
             for (int m = SnellCellTables::degree; m >= 1; --m) {
-                const Pair xd0 = two_t * xd1 - xd2 + Pair{c[0][m], c[3][m]};
+                const Pair xd0 = two_t * xd1 - xd2 + pair_at(m, 0);
                 xd2 = xd1, xd1 = xd0;
             }
         }
         sums_.x += xi_ * (t * xd1[0] - xd2[0] + c[0][0]);
-        if (with_derivative_) sums_.derivative += (t * xd1[1] - xd2[1] + c[3][0]) / scale;
+        if (with_derivative_) sums_.derivative += (t * xd1[1] - xd2[1] + c[0][1]) / scale;
     }
 
     struct EndPiece {
@@ -1171,11 +1183,11 @@ bool SnellCellTables::fit(Piece& piece, const Values& values_at) {
         for (int m = 0; m < nodes; ++m) {
             double sum = 0.0;
             for (int k = 0; k < nodes; ++k) sum += values[k][series] * cosines[m][k];
-            piece.coefficients[series][m] = (m == 0 ? 1.0 : 2.0) * sum / nodes;
-            magnitude += std::abs(piece.coefficients[series][m]);
+            piece.coefficient(series, m) = (m == 0 ? 1.0 : 2.0) * sum / nodes;
+            magnitude += std::abs(piece.coefficient(series, m));
         }
         // Converged: the last two coefficients small enough.
-        const double tail = std::abs(piece.coefficients[series][degree - 1]) + std::abs(piece.coefficients[series][degree]);
+        const double tail = std::abs(piece.coefficient(series, degree - 1)) + std::abs(piece.coefficient(series, degree));
         if (!(tail <= tolerance[series] * magnitude)) return false;
     }
     // Two points between the nodes against what the piece was built from.
@@ -1185,11 +1197,11 @@ bool SnellCellTables::fit(Piece& piece, const Values& values_at) {
         for (int series = 0; series < 4; ++series) {
             double b1 = 0.0, b2 = 0.0;
             for (int m = degree; m >= 1; --m) {
-                const double b0 = 2.0 * t * b1 - b2 + piece.coefficients[series][m];
+                const double b0 = 2.0 * t * b1 - b2 + piece.coefficient(series, m);
                 b2 = b1;
                 b1 = b0;
             }
-            const double value = t * b1 - b2 + piece.coefficients[series][0];
+            const double value = t * b1 - b2 + piece.coefficient(series, 0);
             if (!(std::abs(value - check[series]) <= tolerance[series] * std::abs(check[series]))) return false;
         }
     }
