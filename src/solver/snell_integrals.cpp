@@ -124,8 +124,22 @@ struct SnellCellTables {
     }
 
     // The piece of a block that holds w² = N − ξ, built if needed; null where the block is
-    // integrated otherwise.
-    const Piece* piece(const StratifiedProfile& profile, std::size_t level, const Block& block, double w_squared);
+    // integrated otherwise. Inline where it is a piece above w0 built already (the hot path).
+    const Piece* piece(const StratifiedProfile& profile, std::size_t level, const Block& block, double w_squared) {
+        const int above_base = exponent_of(w_squared) - block.w0_exponent;
+        if (above_base >= 0) {
+            const std::size_t index = static_cast<std::size_t>(above_base) + 1;
+            if (index >= block.piece_count - base_levels) return nullptr;
+            if (const Piece* found = pieces[block.first_piece + index].load(std::memory_order_acquire))
+                return found->tabulated ? found : nullptr;
+        }
+        return piece_in(profile, level, block, w_squared, pieces.get() + block.first_piece);
+    }
+    // std::ilogb of a positive finite x, from its bits where x is normal.
+    static int exponent_of(double x) {
+        const int biased = static_cast<int>((std::bit_cast<std::uint64_t>(x) >> 52) & 0x7ff);
+        return biased == 0 || biased == 0x7ff ? std::ilogb(x) : biased - 1023;
+    }
 
     // The piece of a turning cell for σ and ρ (both > 0), built if needed; null where the cell is
     // integrated otherwise. `variable` receives the piece's variable (log σ or log ρ).
@@ -1081,12 +1095,6 @@ std::shared_ptr<SnellCellTables> make_snell_cell_tables(const StratifiedProfile&
 
 namespace {
 
-// std::ilogb of a positive finite x, from its bits where x is normal (the table lookups' hot path).
-int binary_exponent(double x) {
-    const int biased = static_cast<int>((std::bit_cast<std::uint64_t>(x) >> 52) & 0x7ff);
-    return biased == 0 || biased == 0x7ff ? std::ilogb(x) : biased - 1023;
-}
-
 // The piece in `slot`, built by `build` on first use. Two threads may build the same piece; the
 // first to publish it wins and the other's is dropped.
 template <class Piece, class Build>
@@ -1102,15 +1110,10 @@ Piece* published(std::atomic<Piece*>& slot, Build build) {
 
 }  // namespace
 
-const SnellCellTables::Piece* SnellCellTables::piece(const StratifiedProfile& profile, std::size_t level,
-                                                     const Block& block, double w_squared) {
-    return piece_in(profile, level, block, w_squared, pieces.get() + block.first_piece);
-}
-
 const SnellCellTables::Piece* SnellCellTables::piece_in(const StratifiedProfile& profile, std::size_t level,
                                                         const Block& block, double w_squared,
                                                         std::atomic<Piece*>* slots) {
-    const int above_base = binary_exponent(w_squared) - block.w0_exponent;
+    const int above_base = exponent_of(w_squared) - block.w0_exponent;
     std::size_t index = above_base < 0 ? 0 : static_cast<std::size_t>(above_base) + 1;
     if (index >= block.piece_count - base_levels) return nullptr;
     if (index == 0) {

@@ -146,7 +146,11 @@ void StratifiedProfile::build_cell_buckets() {
 }
 
 SnellCellTables& StratifiedProfile::snell_cell_tables() const {
-    std::call_once(snell_tables_->made, [this] { snell_tables_->tables = make_snell_cell_tables(*this); });
+    if (SnellCellTables* ready = snell_tables_->ready.load(std::memory_order_acquire)) return *ready;
+    std::call_once(snell_tables_->made, [this] {
+        snell_tables_->tables = make_snell_cell_tables(*this);
+        snell_tables_->ready.store(snell_tables_->tables.get(), std::memory_order_release);
+    });
     return *snell_tables_->tables;
 }
 

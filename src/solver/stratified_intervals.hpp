@@ -9,6 +9,7 @@
 #include <cstddef>
 #include <cstdint>
 #include <limits>
+#include <atomic>
 #include <memory>
 #include <mutex>
 #include <optional>
@@ -276,6 +277,7 @@ private:
     struct LazySnellTables {
         std::once_flag made;
         std::shared_ptr<SnellCellTables> tables;
+        std::atomic<SnellCellTables*> ready{nullptr};  // tables.get() once made (the fast path)
     };
     std::shared_ptr<LazySnellTables> snell_tables_ = std::make_shared<LazySnellTables>();
 };
