@@ -528,7 +528,12 @@ private:
                 const ScanInterval top = pending.back();
                 pending.pop_back();
                 if (top.j - top.i <= 1 || far_from_r(top)) {
-                    if (top.j - top.i <= 1) split_below_finest(top.a, top.b, 0, samples);
+                    if (top.j - top.i <= 1) {
+                        if (top.a.f * top.b.f < 0.0 && !cubic_settles(top.a, top.b, top.error) && !far_from_r(top))
+                            split_crossing_below_finest(top.a, top.b, 0, samples);
+                        else
+                            split_below_finest(top.a, top.b, 0, samples);
+                    }
                     samples.push_back(top.b);
                     continue;
                 }
@@ -590,6 +595,23 @@ private:
         split_below_finest(a, m, depth + 1, samples);
         samples.push_back(m);
         split_below_finest(m, b, depth + 1, samples);
+    }
+
+    // An interval of the finest spacing where X − R changes sign but the cubic through its ends
+    // does not settle it to exactly one root (cubic_settles, with the error of its parent's
+    // cubic): X may cross R three times. It is halved, and each half left whole where the
+    // cubic through its ends settles it (with the error found at the middle), at most 8 times
+    // more; the samples are added in order of v.
+    void split_crossing_below_finest(const Sample& a, const Sample& b, int depth, std::vector<Sample>& samples) const {
+        if (depth >= 8 || !finite_pair(a, b)) return;
+        const Sample m = evaluate(0.5 * (a.v + b.v));
+        const double error = cubic_error(a, b, m);
+        auto settled = [&](const Sample& x, const Sample& y) {
+            return cubic_settles(x, y, error) || out_of_reach(x, y) || turns_away_from_r(x, y);
+        };
+        if (!settled(a, m)) split_crossing_below_finest(a, m, depth + 1, samples);
+        samples.push_back(m);
+        if (!settled(m, b)) split_crossing_below_finest(m, b, depth + 1, samples);
     }
 
     // Where X diverges (or the family ends) at v = 0 or 1, step toward it until X exceeds R with X

@@ -114,3 +114,15 @@ TEST_CASE("no root of X(ξ) = R is missed on measured-style logs: every sign cha
         CHECK(missed == 0);
     }
 }
+
+TEST_CASE("three roots of X(ξ) = R within one interval of the finest scan spacing (X wiggles as the turning point "
+          "crosses the layers of a density table) are all found (independent brute force, common practice)",
+          "[solver][stratified]") {
+    // Family U on the synthetic density table: X − R changes sign once across the scan interval
+    // that holds all three roots (ξ near 1.4126, 1.4219 and 1.4342), its end slopes of one sign.
+    const FirnModel model = load_model_file(test::source_path("models/table-density.toml"));
+    const StratifiedProfile profile(model.index);
+    const Missed m = scan_pair(profile, -154.011837, -76.853616, 424.193087, 2);
+    CHECK(m.roots >= 4);
+    CHECK(m.count == 0);
+}
