@@ -120,6 +120,17 @@ StratifiedProfile::StratifiedProfile(std::shared_ptr<const IndexProfile> profile
 }
 
 void StratifiedProfile::build_cell_buckets() {
+    // Cells of one height h from the surface down (a log sampled at a fixed step), but for the
+    // last: cell_at guesses −z/h and steps from there.
+    cells_per_metre_ = 0.0;
+    if (cells_.size() >= 2) {
+        const double h = cells_[0].z_top - cells_[0].z_bottom;
+        bool uniform = h > 0.0 && cells_[0].z_top == 0.0;
+        for (std::size_t i = 0; uniform && i + 1 < cells_.size(); ++i)
+            uniform = std::abs(cells_[i].z_top + static_cast<double>(i) * h) <= 0.25 * h &&
+                      std::abs(cells_[i].z_bottom + static_cast<double>(i + 1) * h) <= 0.25 * h;
+        if (uniform) cells_per_metre_ = 1.0 / h;
+    }
     // About two buckets per cell: a table's cells are of similar heights, so each bucket's range
     // holds one to three cells and cell_at needs no binary search over the whole profile.
     // They end at the top of the last cell (that of the analysis depth below a table, much
@@ -240,8 +251,20 @@ void StratifiedProfile::add_piece_cells(std::size_t piece, double z_top, double 
 std::size_t StratifiedProfile::cell_at(double z, int toward) const {
     if (z >= 0.0) return 0;
     if (z <= floor_z_) return cells_.size() - 1;
-    // First cell whose bottom lies below z (toward < 0), or at or below z (toward > 0); searched
-    // in the bottoms alone, within the range that z's bucket allows.
+    // First cell whose bottom lies below z (toward < 0), or at or below z (toward > 0): the
+    // partition point of the bottoms, found by stepping from −z/h where the cells have one height
+    // h, else searched within the range that z's bucket allows.
+    if (cells_per_metre_ > 0.0) {
+        const std::size_t last = cells_.size() - 1;
+        auto before = [&](std::size_t k) { return toward > 0 ? cell_bottoms_[k] > z : cell_bottoms_[k] >= z; };
+        std::size_t k = std::min(last, static_cast<std::size_t>(-z * cells_per_metre_));
+        if (before(k)) {
+            while (k < last && before(k)) ++k;
+        } else {
+            while (k > 0 && !before(k - 1)) --k;
+        }
+        return k;
+    }
     auto begin = cell_bottoms_.begin(), end = cell_bottoms_.end();
     const std::size_t buckets = bucket_cells_.size();
     const double position = z * bucket_scale_;

@@ -264,6 +264,7 @@ private:
     // to bucket_edges_[i + 1]; the answer for any z in it lies in bucket_cells_[i] (first, last].
     double bucket_floor_ = 0.0;
     double bucket_scale_ = 0.0;  // buckets per metre of depth: bucket_cells_.size() / bucket_floor_
+    double cells_per_metre_ = 0.0;  // 1/h where every cell but the last is h high from the surface (0: not so)
     std::vector<double> bucket_edges_;
     std::vector<std::pair<std::uint32_t, std::uint32_t>> bucket_cells_;
     void build_cell_buckets();
