@@ -239,10 +239,14 @@ public:
     // attenuation: a depth-dependent attenuation length to integrate ∫ ds/L along (or null).
     // table_levels: whole cells from the profile's SnellCellTables, blocks of levels below this
     // (0: quadrature only).
+    // aligned_blocks: whole cells from blocks that start at multiples of their size only, where
+    // the tables also have blocks at every cell (the pieces of those are built from these, shared
+    // by every block built over them, not from their own halves: fewer pieces to build).
     LegQuadrature(const StratifiedProfile& profile, const RayLevel& level, bool with_time, bool with_derivative,
-                  const AttenuationProfile* attenuation, std::size_t table_levels)
+                  const AttenuationProfile* attenuation, std::size_t table_levels, bool aligned_blocks = false)
         : profile_(profile), level_(level), xi_(level.ray_parameter), with_time_(with_time),
-          with_derivative_(with_derivative), attenuation_(attenuation), table_levels_(attenuation ? 0 : table_levels) {}
+          with_derivative_(with_derivative), attenuation_(attenuation), table_levels_(attenuation ? 0 : table_levels),
+          aligned_blocks_(aligned_blocks) {}
 
     // Panels of [low, high] inside one cell, none of which ends at a zero of Q.
     void regular(std::size_t cell, double low, double high, int depth = 0) {
@@ -608,7 +612,7 @@ public:
         std::size_t top_level = std::min(table_levels_, tables.levels.size());
         if (last_whole + 1 < profile_.cell_count())
             top_level = std::min(top_level, static_cast<std::size_t>(std::bit_width(last_whole - cell + 1)));
-        if (cell != 0 && !tables.every_offset)
+        if (cell != 0 && (!tables.every_offset || aligned_blocks_))
             top_level = std::min(top_level, static_cast<std::size_t>(std::countr_zero(cell)) + 1);
         for (std::size_t level = top_level; level-- > 0;) {
             const SnellCellTables::Block& block = tables.block_at(level, cell);
@@ -829,6 +833,7 @@ private:
     bool with_time_, with_derivative_;
     const AttenuationProfile* attenuation_;
     std::size_t table_levels_;
+    bool aligned_blocks_;
     SnellCellTables* tables_ = nullptr;  // fetched on first use
     // StratifiedProfile::cell_at for the leg's two ends, looked up by plan_end and again by middle.
     struct Located {
@@ -903,7 +908,7 @@ void check_end(const StratifiedProfile& profile, double z) {
 // table_levels: as for LegQuadrature.
 LegIntegrals integrate_leg(const StratifiedProfile& profile, const RayLevel& level, LegEndpoint a, LegEndpoint b,
                            bool with_time_and_length, bool with_derivative, const AttenuationProfile* attenuation,
-                           std::size_t table_levels) {
+                           std::size_t table_levels, bool aligned_blocks = false) {
     // A uniform length needs no quadrature: the exponent is s/L.
     const std::optional<double> uniform = attenuation ? attenuation->constant_length_m() : std::nullopt;
     const AttenuationProfile* varying = uniform ? nullptr : attenuation;
@@ -918,7 +923,7 @@ LegIntegrals integrate_leg(const StratifiedProfile& profile, const RayLevel& lev
     }
     if (height == 0.0) return out;
     LegQuadrature quadrature(profile, level, with_time_and_length, with_derivative, with_time_and_length ? varying : nullptr,
-                             table_levels);
+                             table_levels, aligned_blocks);
     // Each end may take at most half of the leg.
     std::size_t cell_low, cell_high;
     double g_low, g_high, slope_low, slope_high;
@@ -1155,7 +1160,8 @@ std::unique_ptr<SnellCellTables::Piece> SnellCellTables::build(const StratifiedP
         ray.anchor_cell = block.cell_min;
         ray.anchor_index = block.n_min;
         ray.ray_parameter = block.n_min - w * w;
-        const LegIntegrals whole = integrate_leg(profile, ray, {block.z_bottom}, {block.z_top}, true, true, nullptr, level);
+        const LegIntegrals whole =
+            integrate_leg(profile, ray, {block.z_bottom}, {block.z_top}, true, true, nullptr, level, true);
         out[0] = whole.distance_m / ray.ray_parameter;  // x/ξ, so that x is 0 at ξ = 0 exactly
         out[1] = whole.optical_path_m;
         out[2] = whole.length_m;
