@@ -529,7 +529,8 @@ private:
                 pending.pop_back();
                 if (top.j - top.i <= 1 || far_from_r(top)) {
                     if (top.j - top.i <= 1) {
-                        if (top.a.f * top.b.f < 0.0 && !cubic_settles(top.a, top.b, top.error) && !far_from_r(top))
+                        const bool crossing = top.a.f * top.b.f < 0.0;
+                        if ((crossing || !one_signed(top.a, top.b)) && !far_from_r(top))
                             split_crossing_below_finest(top.a, top.b, 0, samples);
                         else
                             split_below_finest(top.a, top.b, 0, samples);
@@ -597,13 +598,14 @@ private:
         split_below_finest(m, b, depth + 1, samples);
     }
 
-    // An interval of the finest spacing where X − R changes sign but the cubic through its ends
-    // does not settle it to exactly one root (cubic_settles, with the error of its parent's
-    // cubic): X may cross R three times. It is halved, and each half left whole where the
-    // cubic through its ends settles it (with the error found at the middle), at most 8 times
-    // more; the samples are added in order of v.
+    // An interval of the finest spacing not left whole by the rules of the scan (far_from_r) where
+    // X − R changes sign, or keeps it with an end slope that is not finite or the slopes not of
+    // one sign (the first range's v = 0, where a ray horizontal at an end has ∂X/∂ξ infinite):
+    // X may cross R three times, or twice unseen. It is halved, and each half left whole where the
+    // cubic through its ends settles it (with the error found at the middle), or it is beyond
+    // reach of R or turns away from it, at most 8 times more; the samples are added in order of v.
     void split_crossing_below_finest(const Sample& a, const Sample& b, int depth, std::vector<Sample>& samples) const {
-        if (depth >= 8 || !finite_pair(a, b)) return;
+        if (depth >= 8 || !std::isfinite(a.f) || !std::isfinite(b.f)) return;
         const Sample m = evaluate(0.5 * (a.v + b.v));
         const double error = cubic_error(a, b, m);
         auto settled = [&](const Sample& x, const Sample& y) {

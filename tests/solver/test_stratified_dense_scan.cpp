@@ -126,3 +126,16 @@ TEST_CASE("three roots of X(ξ) = R within one interval of the finest scan spaci
     CHECK(m.roots >= 4);
     CHECK(m.count == 0);
 }
+
+TEST_CASE("two roots of X(ξ) = R between the first range's v = 0, where the ray is horizontal at both ends of an "
+          "equal-depth pair and ∂X/∂ξ is not finite, and the next scan sample are found (independent brute force, "
+          "common practice)",
+          "[solver][stratified]") {
+    // Family U at equal depths of 128.96 m on the synthetic density table, 814.25 m apart: X rises
+    // from 0 above R and falls back below it within n − ξ < 2e-3 (ξ near 1.7623 and 1.7614).
+    const FirnModel model = load_model_file(test::source_path("models/table-density.toml"));
+    const StratifiedProfile profile(model.index);
+    const Missed m = scan_pair(profile, -128.961146, -128.961146, 814.251426, 2);
+    CHECK(m.roots >= 3);
+    CHECK(m.count == 0);
+}
