@@ -87,22 +87,5 @@ TEST_CASE("cell lookup by depth buckets agrees with the definition of cell_at at
           "[stratified][cells]") {
     const StratifiedProfile profile = uneven_table();
     REQUIRE(profile.cell_count() > 10);
-    std::vector<double> depths;
-    for (std::size_t cell = 0; cell < profile.cell_count(); ++cell) {
-        const double bottom = profile.cell_bottom(cell), top = profile.cell_top(cell);
-        for (const double z : {bottom, std::nextafter(bottom, 0.0), std::nextafter(bottom, -1e9), top,
-                               0.5 * (top + bottom), bottom + 1e-3 * (top - bottom)})
-            depths.push_back(z);
-    }
-    const double floor_z = profile.floor_z();
-    for (int i = 0; i <= 20000; ++i) depths.push_back(floor_z * i / 20000.0);
-    depths.push_back(0.0);
-    depths.push_back(floor_z);
-    for (const double z : depths) {
-        if (!(z <= 0.0 && z >= floor_z)) continue;
-        for (const int toward : {-1, 1}) {
-            INFO("z = " << z << ", toward = " << toward);
-            CHECK(profile.cell_at(z, toward) == cell_by_definition(profile, z, toward));
-        }
-    }
+    check_against_definition(profile);
 }

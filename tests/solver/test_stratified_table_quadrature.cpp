@@ -148,19 +148,19 @@ TEST_CASE("stratified paths on a table with a density inversion are the same bot
     }
 }
 
-TEST_CASE("stratified legs on a layered profile (smooth transitions, no joins, generic cells) agree with "
-          "tanh_sinh quadrature of the Snell integrals (Boost.Math)",
-          "[solver][stratified]") {
-    auto layered = std::make_shared<LayeredProfile>(
-        1.35, std::vector<ExponentialLayer>{ExponentialLayer{15.0, 1.82, 22.0}, ExponentialLayer{INFINITY, 1.78, 40.0}},
-        2.0);
+namespace {
+
+struct LayeredLeg {
+    double xi, z_a, z_b;
+};
+
+// Legs of a layered profile (generic cells) against the Snell integrals by tanh_sinh, split at
+// the transition zone `breaks`: x, c·T and s to 1e-10, ∂x/∂ξ to `derivative_tolerance`.
+void check_layered_legs(const std::shared_ptr<LayeredProfile>& layered, const std::vector<double>& breaks,
+                        std::initializer_list<LayeredLeg> legs, double derivative_tolerance) {
     const StratifiedProfile profile(layered);
     CHECK(profile.inversions().empty());
-    const std::vector<double> breaks{-16.0, -14.0};  // the transition zone
-    struct Leg {
-        double xi, z_a, z_b;
-    };
-    for (const Leg& leg : {Leg{0.0, -300.0, -2.0}, Leg{1.2, -200.0, 0.0}, Leg{1.5, -80.0, -10.0}, Leg{1.7, -500.0, -60.0}}) {
+    for (const LayeredLeg& leg : legs) {
         const double low = std::min(leg.z_a, leg.z_b), high = std::max(leg.z_a, leg.z_b);
         const auto ours = leg_integrals(profile, RayLevel::plain(leg.xi), {leg.z_a}, {leg.z_b});
         const auto ref = test::snell_integrals(*layered, leg.xi, low, high, test::plain_gap(*layered, leg.xi), breaks);
@@ -168,8 +168,20 @@ TEST_CASE("stratified legs on a layered profile (smooth transitions, no joins, g
         CHECK(ours.distance_m == Approx(ref.distance_m).epsilon(1e-10).margin(1e-13));
         CHECK(ours.optical_path_m == Approx(ref.optical_path_m).epsilon(1e-10));
         CHECK(ours.length_m == Approx(ref.length_m).epsilon(1e-10));
-        CHECK(ours.distance_derivative == Approx(ref.distance_derivative).epsilon(1e-9));
+        CHECK(ours.distance_derivative == Approx(ref.distance_derivative).epsilon(derivative_tolerance));
     }
+}
+
+}  // namespace
+
+TEST_CASE("stratified legs on a layered profile (smooth transitions, no joins, generic cells) agree with "
+          "tanh_sinh quadrature of the Snell integrals (Boost.Math)",
+          "[solver][stratified]") {
+    auto layered = std::make_shared<LayeredProfile>(
+        1.35, std::vector<ExponentialLayer>{ExponentialLayer{15.0, 1.82, 22.0}, ExponentialLayer{INFINITY, 1.78, 40.0}},
+        2.0);
+    check_layered_legs(layered, {-16.0, -14.0},
+                       {{0.0, -300.0, -2.0}, {1.2, -200.0, 0.0}, {1.5, -80.0, -10.0}, {1.7, -500.0, -60.0}}, 1e-9);
 }
 
 TEST_CASE("stratified ∂x/∂ξ of legs ending at the surface of a layered profile with n − ξ small there (a ray "
@@ -180,18 +192,9 @@ TEST_CASE("stratified ∂x/∂ξ of legs ending at the surface of a layered prof
     auto layered = std::make_shared<LayeredProfile>(
         1.33, std::vector<ExponentialLayer>{ExponentialLayer{10.0, 1.85, 30.0}, ExponentialLayer{INFINITY, 1.78, 40.0}},
         2.0);
-    const StratifiedProfile profile(layered);
-    const std::vector<double> breaks{-11.0, -9.0};  // the transition zone
-    struct Leg {
-        double xi, z_low;
-    };
-    for (const Leg& leg : {Leg{1.3294405839, -26.75}, Leg{1.3294405839, -180.0}, Leg{1.3299, -5.0}, Leg{1.32999, -60.0}}) {
-        const auto ours = leg_integrals(profile, RayLevel::plain(leg.xi), {leg.z_low}, {0.0});
-        const auto ref = test::snell_integrals(*layered, leg.xi, leg.z_low, 0.0, test::plain_gap(*layered, leg.xi), breaks);
-        INFO("ξ " << leg.xi << " from " << leg.z_low << " to the surface");
-        CHECK(ours.distance_m == Approx(ref.distance_m).epsilon(1e-10));
-        CHECK(ours.distance_derivative == Approx(ref.distance_derivative).epsilon(1e-8));
-    }
+    check_layered_legs(layered, {-11.0, -9.0},
+                       {{1.3294405839, -26.75, 0.0}, {1.3294405839, -180.0, 0.0}, {1.3299, -5.0, 0.0}, {1.32999, -60.0, 0.0}},
+                       1e-8);
 }
 
 TEST_CASE("every stratified path on a table with a density inversion joins its ends: X(ξ) of its family equals R, "
