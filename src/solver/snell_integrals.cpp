@@ -710,6 +710,7 @@ public:
         profile_.evaluate(cell, z_end, n, dn, d2n);
         slope_in = dn * inward;
         double_root = false;
+        const double cell_room = std::max(0.0, inward > 0 ? profile_.cell_top(cell) - z_end : z_end - profile_.cell_bottom(cell));
         EndPiece piece;
         if (kind == LegEnd::turning) {
             g0 = 0.0;
@@ -722,8 +723,7 @@ public:
             if (!(slope_in > 0.0)) return piece;  // n does not fall toward a root beyond this end
             // The root beyond the end no nearer than the piece could reach (the rest of the cell
             // or half the leg): no piece, whatever its length.
-            const double room_in = inward > 0 ? profile_.cell_top(cell) - z_end : z_end - profile_.cell_bottom(cell);
-            if (!(g0 / slope_in < std::min(available, room_in))) return piece;
+            if (!(g0 / slope_in < std::min(available, cell_room))) return piece;
         }
         const double q1 = 2.0 * n * dn, q2 = 2.0 * (dn * dn + n * d2n);
         double curvature_length = q2 == 0.0 ? infinity : std::abs(q1 / q2);
@@ -734,7 +734,6 @@ public:
         const double third = profile_.third_derivative(cell, z_end);
         if (third != 0.0)
             curvature_length = std::min(curvature_length, std::sqrt(std::abs(2.0 * dn / third)));
-        const double cell_room = std::max(0.0, inward > 0 ? profile_.cell_top(cell) - z_end : z_end - profile_.cell_bottom(cell));
         piece.length = std::min({available, 0.125 * curvature_length, cell_room});
         const double virtual_root_distance = g0 / slope_in;
         piece.used = piece.length > 0.0 && (kind == LegEnd::turning || virtual_root_distance < piece.length);

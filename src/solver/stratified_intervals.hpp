@@ -5,11 +5,11 @@
 // that the Snell integrals (solver/snell_integrals.hpp) can evaluate n without virtual calls.
 #pragma once
 
+#include <atomic>
 #include <cmath>
 #include <cstddef>
 #include <cstdint>
 #include <limits>
-#include <atomic>
 #include <memory>
 #include <mutex>
 #include <optional>
